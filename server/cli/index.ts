@@ -1,0 +1,24 @@
+/**
+ * `npm run -s pewter -- <command> …`: the command-line face of the shared sheet and engine code.
+ * Each sub-command lives in its own module exporting `run(args): Promise<number>` (the exit code).
+ */
+const commands: Record<string, () => Promise<{ run: (args: string[]) => Promise<number> }>> = {
+  check: () => import('./check'),
+  simulate: () => import('./simulate'),
+  fit: () => import('./fit'),
+}
+
+async function main(argv: string[]): Promise<number> {
+  const [name, ...rest] = argv
+  const load = name ? commands[name] : undefined
+  if (!load) {
+    process.stderr.write(`usage: pewter <${Object.keys(commands).join('|')}> …\n`)
+    return 2
+  }
+  return (await load()).run(rest)
+}
+
+main(process.argv.slice(2)).then(
+  (code) => { process.exitCode = code },
+  (err) => { process.stderr.write(`pewter: ${err instanceof Error ? err.message : String(err)}\n`); process.exitCode = 1 },
+)

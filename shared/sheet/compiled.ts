@@ -1,0 +1,118 @@
+/**
+ * The compiled form of a model sheet: the contract between shared/sheet (which produces it)
+ * and shared/engine (which integrates and fits it). Pure data plus generated functions.
+ *
+ * Internal units: every state, parameter, constant, input and output value handled by a
+ * compiled model is in coherent SI units (offset units such as degC are converted to kelvin).
+ * Time `t` is in the sheet's own time unit (`timeUnit`, `secondsPerTimeUnit` seconds each), so
+ * `rhs` returns d(x_SI)/d(t_sheet). Each symbol carries the affine map from its declared unit:
+ * internal = declared * scale + offset.
+ *
+ * Vector layouts (all Float64Array, preallocated by the caller):
+ *   x  : nx states in declaration order
+ *   p  : np parameters in declaration order (fixed and free alike)
+ *   u  : nu inputs in declaration order, followed by nd delayed-input slots;
+ *        slot nu + k holds input `delays[k].input` read at t - tau_k
+ *   Jacobians are row-major: dfdx[i*nx + j] = ∂f_i/∂x_j, dfdp[i*np + j], dfdu[i*(nu+nd) + j],
+ *   dgdx[i*nx + j] for outputs, and so on.
+ */
+export type TimeUnit = 's' | 'min' | 'h'
+
+export interface UnitMap {
+  /** The unit as written in the sheet ('' when none was written). */
+  unit: string
+  /** internal = declared * scale + offset */
+  scale: number
+  offset: number
+}
+
+export interface StateInfo extends UnitMap {
+  name: string
+  description: string
+  /** initial value, internal units */
+  initial: number
+  /** the initial value is estimated by a fit */
+  estimate: boolean
+  /** the initial value is the steady state near `initial` */
+  steady: boolean
+  lower: number | null
+  upper: number | null
+  line: number
+}
+
+export interface ParamInfo extends UnitMap {
+  name: string
+  description: string
+  value: number
+  lower: number | null
+  upper: number | null
+  fixed: boolean
+  line: number
+}
+
+export interface InputInfo extends UnitMap {
+  name: string
+  description: string
+  /** value used when no trace is given, internal units */
+  value: number
+  interp: 'linear' | 'hold'
+  line: number
+}
+
+export interface OutputInfo extends UnitMap {
+  name: string
+  description: string
+  /** noise standard deviation in internal units, or null when the sheet gives none */
+  sigma: number | null
+  line: number
+}
+
+export interface DelayInfo {
+  /** index of the delayed input in the input list */
+  input: number
+  /** the delay: a parameter (index into p, value in internal units = seconds) or a constant */
+  param: number | null
+  /** the delay in internal units (seconds) when it is a constant */
+  constValue: number
+}
+
+export type VecFn = (t: number, x: Float64Array, p: Float64Array, u: Float64Array, out: Float64Array) => void
+
+export interface CompiledModel {
+  hash: string
+  title: string
+  kind: 'continuous' | 'discrete'
+  timeUnit: TimeUnit
+  secondsPerTimeUnit: number
+  /** discrete sheets: the sample time in sheet time units */
+  sampleTime: number | null
+  states: StateInfo[]
+  params: ParamInfo[]
+  inputs: InputInfo[]
+  outputs: OutputInfo[]
+  delays: DelayInfo[]
+  nx: number
+  np: number
+  nu: number
+  nd: number
+  ny: number
+  /** continuous: dx/dt; discrete: x(k+1) */
+  rhs: VecFn
+  outputsFn: VecFn
+  /** ∂f/∂x, nx*nx */
+  dfdx: VecFn
+  /** ∂f/∂p, nx*np */
+  dfdp: VecFn
+  /** ∂f/∂u, nx*(nu+nd) */
+  dfdu: VecFn
+  /** explicit ∂f/∂t (through `t` only; the engine adds the inputs' part through dfdu), nx */
+  dfdt: VecFn
+  /** ∂g/∂x, ny*nx */
+  dgdx: VecFn
+  /** ∂g/∂p, ny*np */
+  dgdp: VecFn
+  /** ∂g/∂u, ny*(nu+nd) */
+  dgdu: VecFn
+  /** the generated JavaScript source, for inspection */
+  source: string
+}

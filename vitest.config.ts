@@ -1,0 +1,17 @@
+import { fileURLToPath, URL } from 'node:url'
+import { defineConfig } from 'vitest/config'
+
+export default defineConfig({
+  resolve: {
+    alias: { '@shared': fileURLToPath(new URL('./shared', import.meta.url)) },
+  },
+  test: {
+    include: ['tests/**/*.test.ts'],
+    globalSetup: ['tests/helpers/global-setup.ts'],
+    testTimeout: 60_000,
+    hookTimeout: 120_000,
+    fileParallelism: true,
+    maxWorkers: 2,
+    server: { deps: { inline: ['fmin'] } },
+  },
+})
