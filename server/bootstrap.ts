@@ -1,0 +1,18 @@
+/**
+ * Opens the database, applies migrations, seeds the demo workspace and builds the app context.
+ * Shared by server/index.ts and the tests.
+ */
+import { loadConfig, type Config } from './config'
+import type { AppContext } from './context'
+import { migrateDatabase, openDatabase } from './db/client'
+import { seedDemo } from './db/seed'
+
+export async function createContext(overrides: Partial<Config> = {}, opts: { seed?: boolean } = {}): Promise<AppContext> {
+  const config = { ...loadConfig(), ...overrides }
+  if (!config.databaseUrl) throw new Error('DATABASE_URL is not set (npm start and npm test start their own PostgreSQL and set it)')
+  const database = openDatabase(config.databaseUrl)
+  await migrateDatabase(database)
+  const context: AppContext = { config, database, db: database.db, services: {} }
+  if (opts.seed !== false) await seedDemo(database.db)
+  return context
+}

@@ -1,0 +1,31 @@
+/** Configuration read from the environment once (documented in README). */
+export interface Config {
+  port: number
+  databaseUrl: string
+  sessionSecret: string
+  /** public origin of the app, used in e-mail links and the Origin check */
+  publicUrl: string
+  /** 'thread' (embedded worker pool, default) or 'queue' (pg-boss; `npm run worker` processes run fits) */
+  jobMode: 'thread' | 'queue'
+  workerThreads: number
+  smtpUrl: string | null
+  trustProxy: boolean
+  rateLimitAuth: number
+  uploadLimitBytes: number
+}
+
+export function loadConfig(env: NodeJS.ProcessEnv = process.env): Config {
+  const port = Number(env.PORT ?? 3000)
+  return {
+    port,
+    databaseUrl: env.DATABASE_URL ?? '',
+    sessionSecret: env.SESSION_SECRET ?? 'pewter-development-secret-change-me',
+    publicUrl: env.PUBLIC_URL ?? `http://127.0.0.1:${port}`,
+    jobMode: env.PEWTER_JOBS === 'queue' ? 'queue' : 'thread',
+    workerThreads: Math.max(1, Number(env.PEWTER_WORKER_THREADS ?? 2)),
+    smtpUrl: env.SMTP_URL ?? null,
+    trustProxy: env.TRUST_PROXY === '1',
+    rateLimitAuth: Number(env.PEWTER_AUTH_RATE_LIMIT ?? 20),
+    uploadLimitBytes: Number(env.PEWTER_UPLOAD_LIMIT_BYTES ?? 20 * 1024 * 1024),
+  }
+}

@@ -1,0 +1,22 @@
+import { Router } from 'express'
+import { ctx } from '../context'
+import { requireCapability } from '../middleware/auth'
+import { intParam, parse } from '../middleware/validate'
+import * as projects from '../services/projects'
+import { createProjectBody } from '../../shared/api/projects'
+
+export function projectRoutes() {
+  const router = Router({ mergeParams: true })
+  router.get('/', requireCapability('read'), async (req, res) => {
+    res.json({ projects: await projects.listProjects(ctx(req).db, req.workspace!.id) })
+  })
+  router.post('/', requireCapability('write'), async (req, res) => {
+    const body = parse(createProjectBody, req.body)
+    res.status(201).json(await projects.createProject(ctx(req).db, req.workspace!.id, req.auth!.userId, body))
+  })
+  router.get('/:pid', requireCapability('read'), async (req, res) => {
+    const pid = intParam(req.params, 'pid')
+    res.json(await projects.getProject(ctx(req).db, req.workspace!.id, pid))
+  })
+  return router
+}

@@ -1,0 +1,54 @@
+import { z } from 'zod'
+
+export const roles = ['admin', 'modeler', 'reviewer', 'viewer'] as const
+export const roleSchema = z.enum(roles)
+export type Role = z.infer<typeof roleSchema>
+
+/** What each role may do; the server checks these, the client hides what a role cannot do. */
+export const roleRank: Record<Role, number> = { viewer: 0, reviewer: 1, modeler: 2, admin: 3 }
+export const can = {
+  read: (_r: Role) => true,
+  write: (r: Role) => r === 'admin' || r === 'modeler',
+  approve: (r: Role) => r === 'admin' || r === 'reviewer',
+  administer: (r: Role) => r === 'admin',
+}
+
+export const emailSchema = z.string().trim().toLowerCase().email().max(254)
+export const passwordSchema = z.string().min(8, 'at least 8 characters').max(200)
+
+export const signupBody = z.object({
+  email: emailSchema,
+  password: passwordSchema,
+  name: z.string().trim().min(1).max(120),
+})
+export type SignupBody = z.infer<typeof signupBody>
+
+export const signinBody = z.object({
+  email: emailSchema,
+  password: z.string().min(1).max(200),
+})
+export type SigninBody = z.infer<typeof signinBody>
+
+export const switchWorkspaceBody = z.object({ workspaceId: z.coerce.number().int().positive() })
+
+export const userDto = z.object({
+  id: z.number(),
+  email: z.string(),
+  name: z.string(),
+})
+export type UserDto = z.infer<typeof userDto>
+
+export const workspaceMembershipDto = z.object({
+  id: z.number(),
+  slug: z.string(),
+  name: z.string(),
+  role: roleSchema,
+})
+export type WorkspaceMembershipDto = z.infer<typeof workspaceMembershipDto>
+
+export const meReply = z.object({
+  user: userDto,
+  workspaces: z.array(workspaceMembershipDto),
+  currentWorkspaceId: z.number().nullable(),
+})
+export type MeReply = z.infer<typeof meReply>

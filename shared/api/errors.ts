@@ -1,0 +1,23 @@
+import { z } from 'zod'
+
+/** Every API error has this shape, whatever the status. */
+export const apiErrorReply = z.object({
+  error: z.object({
+    code: z.string(),
+    message: z.string(),
+    details: z.unknown().optional(),
+  }),
+})
+export type ApiErrorReply = z.infer<typeof apiErrorReply>
+
+export const errorCodes = {
+  badRequest: 'bad_request',
+  validation: 'validation_failed',
+  unauthenticated: 'unauthenticated',
+  forbidden: 'forbidden',
+  notFound: 'not_found',
+  conflict: 'conflict',
+  tooLarge: 'payload_too_large',
+  rateLimited: 'rate_limited',
+  internal: 'internal_error',
+} as const

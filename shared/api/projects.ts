@@ -1,0 +1,18 @@
+import { z } from 'zod'
+
+export const idParam = z.coerce.number().int().positive()
+
+export const createProjectBody = z.object({
+  name: z.string().trim().min(1, 'a project needs a name').max(120),
+  description: z.string().max(4000).default(''),
+})
+export type CreateProjectBody = z.infer<typeof createProjectBody>
+
+export const projectDto = z.object({
+  id: z.number(),
+  name: z.string(),
+  description: z.string(),
+  createdAt: z.string(),
+  createdBy: z.number().nullable(),
+})
+export type ProjectDto = z.infer<typeof projectDto>

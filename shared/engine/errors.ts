@@ -1,0 +1,103 @@
+/**
+ * Typed failures of the simulation engine. Every failure is one of these classes with a message a
+ * person understands (what, where, when); the engine never hangs: step limit, time budget and abort
+ * signal bound every run.
+ */
+export type SimulationErrorCode =
+  | 'non_finite'
+  | 'step_too_small'
+  | 'step_limit'
+  | 'time_budget'
+  | 'aborted'
+  | 'input_trace'
+  | 'steady_state'
+  | 'bad_request'
+
+export class SimulationError extends Error {
+  readonly code: SimulationErrorCode
+  /** the time reached when the failure happened (sheet time units), when known */
+  readonly t: number | null
+  constructor(code: SimulationErrorCode, message: string, t: number | null = null) {
+    super(message)
+    this.name = 'SimulationError'
+    this.code = code
+    this.t = t
+  }
+}
+
+/** A derivative (or a discrete update) evaluated to NaN or ±Infinity. */
+export class NonFiniteDerivativeError extends SimulationError {
+  readonly state: string
+  constructor(state: string, t: number, value: number) {
+    super('non_finite', `the derivative of state '${state}' is ${value} at t = ${fmt(t)}`, t)
+    this.name = 'NonFiniteDerivativeError'
+    this.state = state
+  }
+}
+
+export class StepSizeTooSmallError extends SimulationError {
+  readonly h: number
+  constructor(t: number, h: number) {
+    super('step_too_small', `step size too small (h = ${fmt(h)}) at t = ${fmt(t)}: the solution may blow up or the problem is stiff or discontinuous there`, t)
+    this.name = 'StepSizeTooSmallError'
+    this.h = h
+  }
+}
+
+export class StepLimitError extends SimulationError {
+  readonly maxSteps: number
+  constructor(maxSteps: number, t: number) {
+    super('step_limit', `step limit of ${maxSteps} steps exceeded at t = ${fmt(t)} (raise maxSteps, loosen the tolerances or try the stiff solver)`, t)
+    this.name = 'StepLimitError'
+    this.maxSteps = maxSteps
+  }
+}
+
+export class TimeBudgetError extends SimulationError {
+  readonly budgetMs: number
+  constructor(budgetMs: number, t: number) {
+    super('time_budget', `time budget of ${budgetMs} ms used up at t = ${fmt(t)}`, t)
+    this.name = 'TimeBudgetError'
+    this.budgetMs = budgetMs
+  }
+}
+
+export class AbortedError extends SimulationError {
+  constructor(t: number | null) {
+    super('aborted', t === null ? 'simulation aborted' : `simulation aborted at t = ${fmt(t)}`, t)
+    this.name = 'AbortedError'
+  }
+}
+
+/** A bad input trace: `row` counts the trace's samples from 1. */
+export class InputTraceError extends SimulationError {
+  readonly input: string
+  readonly row: number | null
+  constructor(input: string, row: number | null, what: string) {
+    super('input_trace', `input '${input}'${row === null ? '' : `, row ${row}`}: ${what}`)
+    this.name = 'InputTraceError'
+    this.input = input
+    this.row = row
+  }
+}
+
+export class SteadyStateError extends SimulationError {
+  readonly states: string[]
+  constructor(states: string[], what: string) {
+    super('steady_state', `steady initial state (${states.join(', ')}) not found: ${what}`, null)
+    this.name = 'SteadyStateError'
+    this.states = states
+  }
+}
+
+/** The request itself is malformed (times out of order, wrong vector length, ...). */
+export class SimulationRequestError extends SimulationError {
+  constructor(message: string) {
+    super('bad_request', message, null)
+    this.name = 'SimulationRequestError'
+  }
+}
+
+export function fmt(v: number): string {
+  return Number.isFinite(v) ? String(Number(v.toPrecision(10))) : String(v)
+}

@@ -1,0 +1,84 @@
+/**
+ * Pieces shared by the one-step methods: the weighted RMS error norm, the starting step size,
+ * checks of limits and non-finite values.
+ */
+import {
+  AbortedError,
+  NonFiniteDerivativeError,
+  StepLimitError,
+  StepSizeTooSmallError,
+  TimeBudgetError,
+} from '../errors'
+import { now, type OdeSystem, type SolverCounters, type SolverLimits, type Tolerances } from './types'
+
+/**
+ * Weighted RMS norm of e, each component scaled by atol + rtol·max(|a|, |b|) of its state
+ * (Hairer, Nørsett & Wanner, Solving ODEs I, 2nd ed. 1993, Sec. II.4, eq. (4.11)).
+ */
+export function errNorm(tol: Tolerances, nBlock: number, n: number, e: Float64Array, a: Float64Array, b: Float64Array): number {
+  const { rtol, atol, weight } = tol
+  let s = 0
+  let cnt = 0
+  for (let k = 0; k < n; k++) {
+    const w = weight[k]
+    if (w === 0) continue
+    const i = k % nBlock
+    const sc = atol[i] + rtol * Math.max(Math.abs(a[i]), Math.abs(b[i]))
+    const r = (e[k] * w) / sc
+    s += r * r
+    cnt++
+  }
+  return cnt === 0 ? 0 : Math.sqrt(s / cnt)
+}
+
+/** Index of the first non-finite entry of v[0..n), or -1. */
+export function firstNonFinite(v: Float64Array, n: number): number {
+  for (let i = 0; i < n; i++) {
+    const x = v[i]
+    if (x - x !== 0) return i
+  }
+  return -1
+}
+
+export function throwNonFinite(limits: SolverLimits, nBlock: number, idx: number, t: number, v: number): never {
+  const i = idx % nBlock
+  const b = Math.floor(idx / nBlock)
+  const name = limits.stateNames[i] ?? `x${i}`
+  throw new NonFiniteDerivativeError(b === 0 ? name : `${name} (sensitivity ${b})`, t, v)
+}
+
+/** Throws when the step count, time budget or abort signal says stop. */
+export function checkLimits(limits: SolverLimits, c: SolverCounters, t: number): void {
+  if (c.steps + c.rejected >= limits.maxSteps) throw new StepLimitError(limits.maxSteps, t)
+  if (limits.signal !== null && limits.signal.aborted) throw new AbortedError(t)
+  if (limits.deadline !== Infinity && ((c.steps + c.rejected) & 15) === 0 && now() > limits.deadline) {
+    throw new TimeBudgetError(limits.budgetMs, t)
+  }
+}
+
+export function checkStepSize(t: number, h: number): void {
+  if (Math.abs(h) <= 16 * Number.EPSILON * Math.max(1, Math.abs(t))) throw new StepSizeTooSmallError(t, h)
+}
+
+/**
+ * Starting step size (Hairer, Nørsett & Wanner, Solving ODEs I, Sec. II.4, "Starting Step Size",
+ * steps a–f; the same as HINIT in their dopri5 code). f0 = f(t, z) is given; y1, f1 are scratch.
+ */
+export function initialStep(
+  sys: OdeSystem, tol: Tolerances, t: number, z: Float64Array, f0: Float64Array,
+  y1: Float64Array, f1: Float64Array, order: number, hmax: number, c: SolverCounters,
+): number {
+  const n = sys.n
+  const d0 = errNorm(tol, sys.nBlock, n, z, z, z)
+  const d1 = errNorm(tol, sys.nBlock, n, f0, z, z)
+  let h0 = d0 < 1e-5 || d1 < 1e-5 ? 1e-6 : 0.01 * (d0 / d1)
+  h0 = Math.min(h0, hmax)
+  for (let i = 0; i < n; i++) y1[i] = z[i] + h0 * f0[i]
+  sys.f(t + h0, y1, f1)
+  c.rhsEvals++
+  for (let i = 0; i < n; i++) f1[i] = (f1[i] - f0[i]) / h0
+  const d2 = errNorm(tol, sys.nBlock, n, f1, z, z)
+  const dm = Math.max(d1, d2)
+  const h1 = dm <= 1e-15 || !Number.isFinite(dm) ? Math.max(1e-6, h0 * 1e-3) : Math.pow(0.01 / dm, 1 / (order + 1))
+  return Math.min(100 * h0, h1, hmax)
+}

@@ -1,0 +1,268 @@
+/**
+ * rk45: the explicit Runge–Kutta pair of Dormand and Prince, order 5 with an embedded order-4
+ * error estimate, FSAL, and its continuous extension of order 4 for dense output.
+ *
+ * References:
+ * - J. R. Dormand, P. J. Prince, "A family of embedded Runge-Kutta formulae", J. Comput. Appl. Math.
+ *   6 (1980) 19–26, Table 2 (RK5(4)7M): the coefficients below.
+ * - E. Hairer, S. P. Nørsett, G. Wanner, Solving Ordinary Differential Equations I, 2nd ed. 1993:
+ *   Sec. II.5, Table 5.2 (the same tableau); Sec. II.6, eq. (6.12) and the dopri5 code (CONTD5) for the
+ *   dense output coefficients d_i (after Shampine 1986); Sec. II.4 for step-size control with safety
+ *   factor 0.9, growth limit 10 and shrink limit 0.2, and the PI stabilisation β = 0.04 of dopri5
+ *   (Sec. IV.2 of Vol. II); Sec. II.10 (dopri5 "stiffness detection") for the stiffness test.
+ */
+import { checkLimits, checkStepSize, errNorm, firstNonFinite, initialStep, throwNonFinite } from './control'
+import { newCounters, resetCounters, type OdeSolver, type OdeSystem, type SolverLimits, type StepObserver, type Tolerances } from './types'
+
+/** Dormand–Prince 5(4) tableau, Dormand & Prince (1980) Table 2. Rows of A are stages 2..7. */
+export const DP54 = {
+  c: [0, 1 / 5, 3 / 10, 4 / 5, 8 / 9, 1, 1],
+  a: [
+    [],
+    [1 / 5],
+    [3 / 40, 9 / 40],
+    [44 / 45, -56 / 15, 32 / 9],
+    [19372 / 6561, -25360 / 2187, 64448 / 6561, -212 / 729],
+    [9017 / 3168, -355 / 33, 46732 / 5247, 49 / 176, -5103 / 18656],
+    [35 / 384, 0, 500 / 1113, 125 / 192, -2187 / 6784, 11 / 84],
+  ],
+  /** error weights b - b̂ */
+  e: [71 / 57600, 0, -71 / 16695, 71 / 1920, -17253 / 339200, 22 / 525, -1 / 40],
+  /** dense output, Hairer–Nørsett–Wanner I, dopri5 (CONTD5) */
+  d: [-12715105075 / 11282082432, 0, 87487479700 / 32700410799, -10690763975 / 1880347072,
+    701980252875 / 199316789632, -1453857185 / 822651844, 69997945 / 29380423],
+} as const
+
+const SAFE = 0.9
+const FAC_MIN = 0.2 // shrink limit
+const FAC_MAX = 10 // growth limit
+const BETA = 0.04
+const EXPO1 = 0.2 - BETA * 0.75
+/** h·|λ| above this on 15 accepted steps in a row (6 calmer ones reset) means stiff; DP5's
+ * stability region reaches about 3.3 on the negative real axis (Hairer et al. I, Sec. II.10). */
+export const DP5_STIFF_BOUND = 3.25
+
+export class Rk45 implements OdeSolver {
+  readonly name = 'rk45'
+  readonly counters = newCounters()
+  t = 0
+  h = 0
+  z: Float64Array = new Float64Array(0)
+  /** set when the stiffness test of Sec. II.10 fired */
+  stiff = false
+  private sys!: OdeSystem
+  private tol!: Tolerances
+  private limits!: SolverLimits
+  private n = 0
+  private k: Float64Array[] = []
+  private y1 = new Float64Array(0)
+  private ysti = new Float64Array(0)
+  private ytmp = new Float64Array(0)
+  private r: Float64Array[] = []
+  private tOld = 0
+  private hLast = 0
+  private facOld = 1e-4
+  private fsal = false
+  private lastRejected = false
+  private iasti = 0
+  private nonsti = 0
+  private nonFiniteAt = -1
+  private nonFiniteT = 0
+  private nonFiniteV = 0
+
+  private alloc(n: number): void {
+    if (this.n === n && this.k.length === 7) return
+    this.n = n
+    this.k = Array.from({ length: 7 }, () => new Float64Array(n))
+    this.r = Array.from({ length: 5 }, () => new Float64Array(n))
+    this.z = new Float64Array(n)
+    this.y1 = new Float64Array(n)
+    this.ysti = new Float64Array(n)
+    this.ytmp = new Float64Array(n)
+  }
+
+  start(sys: OdeSystem, tol: Tolerances, limits: SolverLimits, t: number, z: Float64Array, h: number): void {
+    this.alloc(sys.n)
+    this.sys = sys
+    this.tol = tol
+    this.limits = limits
+    this.t = t
+    this.tOld = t
+    this.z.set(z.subarray(0, sys.n))
+    this.h = h
+    this.hLast = 0
+    this.facOld = 1e-4
+    this.fsal = false
+    this.lastRejected = false
+    this.stiff = false
+    this.iasti = 0
+    this.nonsti = 0
+    resetCounters(this.counters)
+  }
+
+  /** continue from the current point with a new counter set kept (used when switching methods) */
+  restartAt(t: number, z: Float64Array, h: number): void {
+    this.t = t
+    this.tOld = t
+    this.z.set(z.subarray(0, this.n))
+    this.h = h
+    this.fsal = false
+  }
+
+  breakpoint(): void {
+    this.fsal = false
+  }
+
+  private evalK1(): void {
+    const { sys, n } = this
+    const k1 = this.k[0]
+    sys.f(this.t, this.z, k1)
+    this.counters.rhsEvals++
+    const bad = firstNonFinite(k1, n)
+    if (bad >= 0) throwNonFinite(this.limits, sys.nBlock, bad, this.t, k1[bad])
+    this.fsal = true
+  }
+
+  step(tStop: number): void {
+    const { sys, n, k, ytmp, y1, ysti, counters, limits } = this
+    const A = DP54.a
+    const C = DP54.c
+    const E = DP54.e
+    if (!this.fsal) this.evalK1()
+    if (this.h === 0 && limits.fixedStep <= 0) {
+      this.h = initialStep(sys, this.tol, this.t, this.z, k[0], ytmp, k[1], 5, Math.abs(tStop - this.t), counters)
+    }
+    for (;;) {
+      checkLimits(limits, counters, this.t)
+      const t = this.t
+      const z = this.z
+      const hWanted = limits.fixedStep > 0 ? limits.fixedStep : this.h
+      let h = hWanted
+      let clipped = false
+      if (t + 1.01 * h >= tStop) {
+        h = tStop - t
+        clipped = h < hWanted
+      }
+      if (Math.abs(h) <= 16 * Number.EPSILON * Math.max(1, Math.abs(t)) && this.nonFiniteAt >= 0) {
+        throwNonFinite(limits, sys.nBlock, this.nonFiniteAt, this.nonFiniteT, this.nonFiniteV)
+      }
+      checkStepSize(t, h)
+      // stages 2..7
+      let bad = -1
+      for (let s = 1; s < 7; s++) {
+        const a = A[s]
+        const dst = s === 5 ? ysti : s === 6 ? y1 : ytmp
+        for (let i = 0; i < n; i++) {
+          let acc = 0
+          for (let j = 0; j < s; j++) acc += a[j] * k[j][i]
+          dst[i] = z[i] + h * acc
+        }
+        const ks = k[s]
+        sys.f(s === 6 ? t + h : t + C[s] * h, dst, ks)
+        counters.rhsEvals++
+        bad = firstNonFinite(ks, n)
+        if (bad >= 0) {
+          this.nonFiniteAt = bad
+          this.nonFiniteT = t + C[s] * h
+          this.nonFiniteV = ks[bad]
+          break
+        }
+      }
+      if (bad >= 0) {
+        counters.rejected++
+        this.h = 0.25 * h
+        this.lastRejected = true
+        continue
+      }
+      // error estimate
+      const errv = ytmp
+      for (let i = 0; i < n; i++) {
+        errv[i] = h * (E[0] * k[0][i] + E[2] * k[2][i] + E[3] * k[3][i] + E[4] * k[4][i] + E[5] * k[5][i] + E[6] * k[6][i])
+      }
+      const err = limits.fixedStep > 0 ? 0 : errNorm(this.tol, sys.nBlock, n, errv, z, y1)
+      const fac11 = Math.pow(err, EXPO1)
+      if (err <= 1 || limits.fixedStep > 0) {
+        let fac = fac11 / Math.pow(this.facOld, BETA)
+        fac = Math.max(1 / FAC_MAX, Math.min(1 / FAC_MIN, fac / SAFE))
+        let hNew = h / fac
+        this.facOld = Math.max(err, 1e-4)
+        counters.steps++
+        this.nonFiniteAt = -1
+        this.stiffnessTest(h)
+        // dense output coefficients (CONTD5)
+        const D = DP54.d
+        const [r1, r2, r3, r4, r5] = this.r
+        for (let i = 0; i < n; i++) {
+          const y0 = z[i]
+          const yd = y1[i] - y0
+          const bspl = h * k[0][i] - yd
+          r1[i] = y0
+          r2[i] = yd
+          r3[i] = bspl
+          r4[i] = yd - h * k[6][i] - bspl
+          r5[i] = h * (D[0] * k[0][i] + D[2] * k[2][i] + D[3] * k[3][i] + D[4] * k[4][i] + D[5] * k[5][i] + D[6] * k[6][i])
+        }
+        // accept: FSAL
+        this.z = y1
+        this.y1 = z
+        const k1 = k[0]
+        k[0] = k[6]
+        k[6] = k1
+        this.tOld = t
+        this.t = clipped || t + h === tStop ? tStop : t + h
+        this.hLast = this.t - t
+        if (this.lastRejected) hNew = Math.min(hNew, h)
+        this.lastRejected = false
+        this.h = clipped ? Math.max(hNew, hWanted) : hNew
+        return
+      }
+      counters.rejected++
+      this.lastRejected = true
+      this.h = h / Math.min(1 / FAC_MIN, fac11 / SAFE)
+    }
+  }
+
+  private stiffnessTest(h: number): void {
+    const nb = this.sys.nBlock
+    const k6 = this.k[5]
+    const k7 = this.k[6]
+    let num = 0
+    let den = 0
+    for (let i = 0; i < nb; i++) {
+      const a = k7[i] - k6[i]
+      const b = this.y1[i] - this.ysti[i]
+      num += a * a
+      den += b * b
+    }
+    if (den > 0) {
+      const hlamb = Math.abs(h) * Math.sqrt(num / den)
+      if (hlamb > DP5_STIFF_BOUND) {
+        this.nonsti = 0
+        this.iasti++
+        if (this.iasti >= 15) this.stiff = true
+      } else {
+        this.nonsti++
+        if (this.nonsti >= 6) this.iasti = 0
+      }
+    }
+  }
+
+  advance(tStop: number, obs: StepObserver | null): void {
+    while (this.t < tStop) {
+      this.step(tStop)
+      if (obs !== null) obs(this.tOld, this.t)
+    }
+  }
+
+  dense(t: number, out: Float64Array): void {
+    const n = this.n
+    const [r1, r2, r3, r4, r5] = this.r
+    if (this.hLast === 0) {
+      out.set(this.z.subarray(0, n))
+      return
+    }
+    const th = (t - this.tOld) / this.hLast
+    const th1 = 1 - th
+    for (let i = 0; i < n; i++) out[i] = r1[i] + th * (r2[i] + th1 * (r3[i] + th * (r4[i] + th1 * r5[i])))
+  }
+}

@@ -1,0 +1,93 @@
+/**
+ * The one interface every integration method implements.
+ *
+ * A system has `n` components made of `blocks` blocks of `nBlock` components each: block 0 holds
+ * the states, the further blocks forward sensitivities (one block per parameter or initial state).
+ * The Jacobian a stiff method uses is the state block's nBlock×nBlock matrix, applied to every block
+ * (a block-diagonal approximation of the augmented system's Jacobian: see rosenbrock.ts).
+ */
+export interface OdeSystem {
+  n: number
+  nBlock: number
+  /** dz/dt into dz (length n) */
+  f(t: number, z: Float64Array, dz: Float64Array): void
+  /** state-block Jacobian ∂f/∂x (nBlock², row-major) and ∂f/∂t of the whole vector (length n) */
+  jac(t: number, z: Float64Array, J: Float64Array, ft: Float64Array): void
+}
+
+/**
+ * Error control: component i of block b is measured against
+ *   sc = (atol[i] + rtol·max(|z_i|, |z1_i|)) / weight[b·nBlock + i]   (i < nBlock: the state's own scale)
+ * i.e. a sensitivity ∂x_i/∂θ times |θ| is measured in the state's units. weight 0 leaves a
+ * component out of error control.
+ */
+export interface Tolerances {
+  rtol: number
+  /** per state (length nBlock), in each state's units */
+  atol: Float64Array
+  /** per component (length n) */
+  weight: Float64Array
+}
+
+export interface SolverCounters {
+  steps: number
+  rejected: number
+  rhsEvals: number
+  jacEvals: number
+  luDecomps: number
+}
+
+export interface SolverLimits {
+  maxSteps: number
+  /** wall-clock deadline (performance.now() milliseconds), or Infinity */
+  deadline: number
+  budgetMs: number
+  signal: AbortSignal | null
+  /** names of the nBlock states, for error messages */
+  stateNames: string[]
+  /** fixed step size (order-of-convergence studies): no error control when > 0 */
+  fixedStep: number
+}
+
+/** Called after each accepted step [tOld, tNew]; `dense` is valid on that interval during the call. */
+export type StepObserver = (tOld: number, tNew: number) => void
+
+export interface OdeSolver {
+  readonly name: string
+  readonly counters: SolverCounters
+  /** current time and solution (after the last accepted step) */
+  readonly t: number
+  readonly z: Float64Array
+  /** (re)start at (t, z); h is the step size to try first (0: choose one) */
+  start(sys: OdeSystem, tol: Tolerances, limits: SolverLimits, t: number, z: Float64Array, h: number): void
+  /**
+   * The time `t` has reached a breakpoint: the right-hand side may jump here. Keep the step size,
+   * refresh whatever derivative is carried over (no fresh start-up).
+   */
+  breakpoint(): void
+  /** one accepted step, never beyond tStop (lands exactly on it when it is reached) */
+  step(tStop: number): void
+  /** integrate to exactly tStop, calling obs after each accepted step */
+  advance(tStop: number, obs: StepObserver | null): void
+  /** the solution at time t inside the last accepted step, into out (length n) */
+  dense(t: number, out: Float64Array): void
+  /** the step size the next step will try */
+  readonly h: number
+}
+
+export function newCounters(): SolverCounters {
+  return { steps: 0, rejected: 0, rhsEvals: 0, jacEvals: 0, luDecomps: 0 }
+}
+
+export function resetCounters(c: SolverCounters): void {
+  c.steps = 0
+  c.rejected = 0
+  c.rhsEvals = 0
+  c.jacEvals = 0
+  c.luDecomps = 0
+}
+
+export const now: () => number =
+  typeof globalThis.performance !== 'undefined' && typeof globalThis.performance.now === 'function'
+    ? () => globalThis.performance.now()
+    : () => Date.now()
