@@ -4,7 +4,7 @@
  * browser tests need Debian's Chromium (installed here with apt-get when missing).
  */
 import { spawnSync } from 'node:child_process'
-import { existsSync } from 'node:fs'
+import { existsSync, mkdirSync, readFileSync, rmSync } from 'node:fs'
 
 function step(title: string, cmd: string, args: string[]) {
   console.log(`\n[pewter test] ${title}`)
@@ -28,4 +28,15 @@ if (!existsSync('/usr/bin/chromium')) {
 
 step('type-check', 'npm', ['run', '-s', 'typecheck'])
 step('build the client', 'npx', ['vite', 'build', '--logLevel', 'warn'])
-step('vitest', 'npx', ['vitest', 'run', ...process.argv.slice(2)])
+mkdirSync('test-artifacts', { recursive: true })
+const report = 'test-artifacts/vitest-report.json'
+rmSync(report, { force: true })
+console.log('\n[pewter test] vitest')
+const r = spawnSync('npx', ['vitest', 'run', '--reporter=default', '--reporter=json', `--outputFile.json=${report}`, ...process.argv.slice(2)], { stdio: 'inherit', env: process.env })
+if (existsSync(report)) {
+  const j = JSON.parse(readFileSync(report, 'utf8')) as { numPassedTests: number; numFailedTests: number; numPendingTests: number; numTotalTests: number }
+  // the plain closing line CI reads
+  console.log(`\n${j.numPassedTests} passed, ${j.numFailedTests} failed`)
+  if (j.numTotalTests === 0) { console.error('[pewter test] no test ran'); process.exit(1) }
+}
+process.exit(r.status ?? 1)

@@ -1,0 +1,69 @@
+/** A bounded least-squares problem as the optimisers see it: minimise ‖r(θ)‖² over lower ≤ θ ≤ upper. */
+export interface LsqProblem {
+  /** number of parameters */
+  n: number
+  /** number of residuals */
+  m: number
+  lower: Float64Array
+  upper: Float64Array
+  names: string[]
+  /**
+   * Residuals into r (length m) and, when jac is given, ∂r/∂θ into jac (column-major, jac[j*m + i]).
+   * Returns false when the model cannot be evaluated there (failed or blown-up simulation).
+   */
+  evaluate(theta: Float64Array, r: Float64Array, jac: Float64Array | null): boolean
+}
+
+export type StopStatus = 'converged' | 'stopped' | 'aborted' | 'failed'
+
+export interface ProgressInfo {
+  iteration: number
+  cost: number
+  parameters: number[]
+  start?: number
+}
+
+export interface OptimiseOptions {
+  maxIterations?: number
+  /** relative cost change */
+  ftol?: number
+  /** relative step size */
+  xtol?: number
+  /** scaled projected gradient */
+  gtol?: number
+  /** per parameter or for all: allow the log transform for wide positive bounds */
+  logTransform?: boolean | boolean[]
+  signal?: AbortSignal
+  /** absolute deadline from Date.now() */
+  deadline?: number
+  onIteration?: (info: ProgressInfo) => void
+}
+
+export interface OptimiseResult {
+  theta: Float64Array
+  cost: number
+  status: StopStatus
+  reason: string
+  iterations: number
+  /** residual evaluations (simulations) */
+  evaluations: number
+  costHistory: number[]
+}
+
+export class FitAborted extends Error {
+  constructor(message = 'fit aborted') {
+    super(message)
+    this.name = 'FitAborted'
+  }
+}
+
+export function sumSquares(r: Float64Array): number {
+  let s = 0
+  for (let i = 0; i < r.length; i++) s += r[i] * r[i]
+  return s
+}
+
+/** Yield to the event loop so that an abort signal or a timer can fire (works in Node and browsers). */
+export function yieldToEventLoop(): Promise<void> {
+  return new Promise((resolve) => setTimeout(resolve, 0))
+}

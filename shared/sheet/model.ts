@@ -1,0 +1,109 @@
+/** The typed model a sheet parses into (declared values converted to internal SI units). */
+import type { Expr } from './ast'
+import type { Span } from './diagnostics'
+import type { UnitInfo } from './units'
+import type { DelayInfo, TimeUnit } from './compiled'
+
+export interface DeclBase {
+  name: string
+  description: string
+  /** null when the sheet wrote no unit: the unit check skips the symbol */
+  unit: UnitInfo | null
+  /** where the name is written */
+  span: Span
+}
+
+export interface StateDecl extends DeclBase {
+  /** initial value, internal units */
+  initial: number
+  /** initial value as written */
+  declaredInitial: number
+  estimate: boolean
+  steady: boolean
+  lower: number | null
+  upper: number | null
+  declaredLower: number | null
+  declaredUpper: number | null
+}
+
+export interface ParamDecl extends DeclBase {
+  value: number
+  declaredValue: number
+  lower: number | null
+  upper: number | null
+  declaredLower: number | null
+  declaredUpper: number | null
+  fixed: boolean
+}
+
+export interface ConstDecl extends DeclBase {
+  value: number
+  declaredValue: number
+}
+
+export interface InputDecl extends DeclBase {
+  value: number
+  declaredValue: number
+  interp: 'linear' | 'hold'
+}
+
+export interface LookupDecl extends DeclBase {
+  /** argument unit (unit = result unit) */
+  argUnit: UnitInfo | null
+  /** break points and values, internal units */
+  xs: Float64Array
+  ys: Float64Array
+}
+
+export interface LetDecl extends DeclBase {
+  expr: Expr
+  /** source text of the expression (for tests and tools) */
+  text: string
+}
+
+export interface EquationDecl {
+  /** index of the state */
+  state: number
+  expr: Expr
+  text: string
+  span: Span
+  /** 'derivative' for x' = …, 'next' for next x = … */
+  form: 'derivative' | 'next'
+  /**
+   * factor turning the SI value of the right side into the compiled rhs:
+   * secondsPerTimeUnit for a derivative whose unit is known, else 1
+   */
+  timeFactor: number
+}
+
+export interface OutputDecl extends DeclBase {
+  expr: Expr
+  text: string
+  /** internal units */
+  sigma: number | null
+  declaredSigma: number | null
+}
+
+export interface ParsedModel {
+  /** hash of the sheet text */
+  hash: string
+  title: string
+  kind: 'continuous' | 'discrete'
+  timeUnit: TimeUnit
+  secondsPerTimeUnit: number
+  /** discrete sheets: sample time in sheet time units */
+  sampleTime: number | null
+  states: StateDecl[]
+  params: ParamDecl[]
+  consts: ConstDecl[]
+  inputs: InputDecl[]
+  lookups: LookupDecl[]
+  /** in declaration order; `let` references in expressions index this list */
+  lets: LetDecl[]
+  /** evaluation order of the lets (each after the lets it uses) */
+  letOrder: number[]
+  /** one per state, in state order */
+  equations: EquationDecl[]
+  outputs: OutputDecl[]
+  delays: DelayInfo[]
+}
