@@ -6,6 +6,8 @@ import { loadConfig, type Config } from './config'
 import type { AppContext } from './context'
 import { migrateDatabase, openDatabase } from './db/client'
 import { seedDemo } from './db/seed'
+import { attachServices } from './services/runtime'
+import { loadTemplates } from './services/templates'
 
 export async function createContext(overrides: Partial<Config> = {}, opts: { seed?: boolean } = {}): Promise<AppContext> {
   const config = { ...loadConfig(), ...overrides }
@@ -13,6 +15,9 @@ export async function createContext(overrides: Partial<Config> = {}, opts: { see
   const database = openDatabase(config.databaseUrl)
   await migrateDatabase(database)
   const context: AppContext = { config, database, db: database.db, services: {} }
-  if (opts.seed !== false) await seedDemo(database.db)
+  if (opts.seed !== false) {
+    await seedDemo(database.db)
+    await loadTemplates(database.db, database.pool)
+  }
   return context
 }

@@ -9,6 +9,18 @@ export interface Config {
   jobMode: 'thread' | 'queue'
   workerThreads: number
   smtpUrl: string | null
+  /** sender of every e-mail */
+  mailFrom: string
+  /** port of the local fake SMTP server `npm start` runs when SMTP_URL is not set */
+  fakeSmtpPort: number
+  /** a fit running longer is stopped and marked failed */
+  jobTimeoutSeconds: number
+  /** a running fit whose worker has not written a heartbeat for this long is retried or failed */
+  jobStaleSeconds: number
+  /** how often a fit is started before a lost worker marks it failed */
+  jobMaxAttempts: number
+  /** module exporting executeRun (default server/services/fit-execution.ts) */
+  runExecutor: string | null
   trustProxy: boolean
   rateLimitAuth: number
   uploadLimitBytes: number
@@ -24,6 +36,12 @@ export function loadConfig(env: NodeJS.ProcessEnv = process.env): Config {
     jobMode: env.PEWTER_JOBS === 'queue' ? 'queue' : 'thread',
     workerThreads: Math.max(1, Number(env.PEWTER_WORKER_THREADS ?? 2)),
     smtpUrl: env.SMTP_URL ?? null,
+    mailFrom: env.MAIL_FROM ?? 'Pewter <pewter@localhost>',
+    fakeSmtpPort: Number(env.PEWTER_FAKE_SMTP_PORT ?? 2525),
+    jobTimeoutSeconds: Math.max(1, Number(env.PEWTER_JOB_TIMEOUT_SECONDS ?? 3600)),
+    jobStaleSeconds: Math.max(2, Number(env.PEWTER_JOB_STALE_SECONDS ?? 20)),
+    jobMaxAttempts: Math.max(1, Number(env.PEWTER_JOB_MAX_ATTEMPTS ?? 3)),
+    runExecutor: env.PEWTER_RUN_EXECUTOR ?? null,
     trustProxy: env.TRUST_PROXY === '1',
     rateLimitAuth: Number(env.PEWTER_AUTH_RATE_LIMIT ?? 20),
     uploadLimitBytes: Number(env.PEWTER_UPLOAD_LIMIT_BYTES ?? 20 * 1024 * 1024),

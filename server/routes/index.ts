@@ -9,16 +9,33 @@ import { authRoutes } from './auth'
 import { healthRoutes } from './health'
 import { workspaceRoutes } from './workspaces'
 import { projectRoutes } from './projects'
+import { accountRoutes } from './account'
+import { invitationTokenRoutes, workspaceInvitationRoutes } from './invitations'
+import { memberRoutes } from './members'
+import { auditRoutes } from './audit'
+import { tokenRoutes } from './tokens'
+import { mailboxRoutes } from './mailbox'
+import { modelRoutes } from './models'
+import { checkRoutes } from './check'
 
 export function apiRouter(context: AppContext) {
   const api = Router()
   api.use('/health', healthRoutes())
   api.use('/auth', authRoutes(context.config.rateLimitAuth))
+  api.use('/auth', accountRoutes(context.config.rateLimitAuth))
+  api.use('/invitations', invitationTokenRoutes())
+  api.use('/check', checkRoutes())
 
   const ws = Router({ mergeParams: true })
   ws.use(loadWorkspace)
   ws.use('/', workspaceRoutes())
   ws.use('/projects', projectRoutes())
+  ws.use('/members', memberRoutes())
+  ws.use('/invitations', workspaceInvitationRoutes())
+  ws.use('/audit', auditRoutes())
+  ws.use('/tokens', tokenRoutes())
+  ws.use('/mailbox', mailboxRoutes())
+  ws.use('/models', modelRoutes())
   api.use('/workspaces/:ws', ws)
   return api
 }

@@ -17,6 +17,8 @@ export const errorCodes = {
   forbidden: 'forbidden',
   notFound: 'not_found',
   conflict: 'conflict',
+  /** a single-use or expiring link that was used or expired */
+  gone: 'gone',
   tooLarge: 'payload_too_large',
   rateLimited: 'rate_limited',
   internal: 'internal_error',

@@ -86,6 +86,10 @@ export function fn(f: FnName, ...args: Expr[]): Expr {
 }
 export function cond(c: Expr, a: Expr, b: Expr): Expr {
   if (a.k === 'num' && b.k === 'num' && a.v === b.v) return a
+  // (a < b ? 1 : 0) is the comparison itself
+  if (c.k === 'cmp' && isNum(a, 1) && isNum(b, 0)) return c
+  const cv = constValue(c)
+  if (cv !== null) return cv ? a : b
   return { k: 'cond', c, a, b }
 }
 export function cmp(op: CmpOp, a: Expr, b: Expr): Expr {
@@ -118,5 +122,28 @@ export function walk(e: Expr, f: (n: Expr) => void): void {
     case 'lookup': walk(e.a, f); break
     case 'delay': walk(e.tau, f); break
     default: break
+  }
+}
+
+/**
+ * Rebuild a tree through the simplifying constructors, with the constants given by `constant`
+ * inlined as numbers (so that products of constants fold).
+ */
+export function fold(e: Expr, constant: (i: number) => number): Expr {
+  const r = (x: Expr) => fold(x, constant)
+  switch (e.k) {
+    case 'c': return num(constant(e.i))
+    case 'neg': return neg(r(e.a))
+    case 'bin': {
+      const a = r(e.a), b = r(e.b)
+      switch (e.op) { case '+': return add(a, b); case '-': return sub(a, b); case '*': return mul(a, b); case '/': return div(a, b); case '^': return a.k === 'num' && b.k === 'num' ? num(Math.pow(a.v, b.v)) : pow(a, b) }
+      return e
+    }
+    case 'cmp': return cmp(e.op, r(e.a), r(e.b))
+    case 'cond': return cond(r(e.c), r(e.a), r(e.b))
+    case 'fn': return { k: 'fn', f: e.f, args: e.args.map(r) }
+    case 'lookup': return { k: 'lookup', i: e.i, a: r(e.a), d: e.d }
+    case 'delay': return { k: 'delay', input: e.input, slot: e.slot, tau: r(e.tau) }
+    default: return e
   }
 }

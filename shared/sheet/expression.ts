@@ -141,7 +141,7 @@ class Converter {
   }
 
   convert(n: MathNode, depth: number): Expr | null {
-    if (depth > MAX_NESTING * 4) return this.fail(undefined, 'expression is nested too deeply')
+    if (depth > 2 * MAX_EXPRESSION_LENGTH) return this.fail(undefined, "expression is nested too deeply")
     const node = n as MathNode & Record<string, unknown>
     switch (n.type) {
       case 'ConstantNode': {

@@ -149,15 +149,16 @@ export async function request<T = unknown>(path: string, options: RequestOptions
     'X-Requested-With': 'pewter',
     ...options.headers,
   }
-  let body: BodyInit | undefined
+  let body: string | FormData | undefined
   if (options.body instanceof FormData) {
     body = options.body
   } else if (options.body !== undefined) {
     headers['Content-Type'] = 'application/json'
     body = JSON.stringify(options.body)
   } else if (method !== 'GET') {
-    // State-changing calls always carry a JSON content type, even without a body.
+    // State-changing calls always carry a JSON body, `{}` when the caller has none.
     headers['Content-Type'] = 'application/json'
+    body = '{}'
   }
 
   const fail = (error: ApiError): never => {

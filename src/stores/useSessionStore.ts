@@ -6,7 +6,7 @@
 import { defineStore } from 'pinia'
 import { computed, ref } from 'vue'
 import { can, type MeReply, type Role, type SigninBody, type SignupBody, type WorkspaceMembershipDto } from '@shared/api/auth'
-import * as auth from '@/api/auth'
+import * as auth from '../api/auth'
 
 export type Permission = keyof typeof can
 

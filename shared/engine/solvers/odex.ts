@@ -29,8 +29,8 @@ export class OdexSolver implements OdeSolver {
   private tol!: Tolerances
   private limits!: SolverLimits
   private n = 0
-  private zin = new Float64Array(0)
-  private dz = new Float64Array(0)
+  private zin: Float64Array = new Float64Array(0)
+  private dz: Float64Array = new Float64Array(0)
   private tOld = 0
   private denseFn: ((c: number, x: number) => number) | null = null
   private solver: Solver | null = null

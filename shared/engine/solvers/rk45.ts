@@ -55,9 +55,9 @@ export class Rk45 implements OdeSolver {
   private limits!: SolverLimits
   private n = 0
   private k: Float64Array[] = []
-  private y1 = new Float64Array(0)
-  private ysti = new Float64Array(0)
-  private ytmp = new Float64Array(0)
+  private y1: Float64Array = new Float64Array(0)
+  private ysti: Float64Array = new Float64Array(0)
+  private ytmp: Float64Array = new Float64Array(0)
   private r: Float64Array[] = []
   private tOld = 0
   private hLast = 0

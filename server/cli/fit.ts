@@ -1,0 +1,282 @@
+/**
+ * `pewter fit <sheet> <data.csv>… [options]`: estimate a sheet's free parameters from measured traces.
+ * Exit codes: 0 a result (converged or stopped with an estimate), 1 a failed fit or bad data, 2 bad arguments.
+ */
+import { readFile } from 'node:fs/promises'
+import { basename } from 'node:path'
+import { compileModel, SheetError } from '../../shared/sheet'
+import type { CompiledModel } from '../../shared/sheet'
+import { runFit, FitInputError, type FitOptions, type ProblemSpec, type ExperimentData } from '../../shared/engine/fit'
+import { parseCsv, CsvError } from '../../shared/data/csv'
+import { experimentFromTable } from '../../shared/data/experiment'
+import type { FitResult, EstimateRow } from '../../shared/api/fit'
+
+const USAGE = `usage: pewter fit <sheet> <data.csv>… [--validate v.csv] [--method lm|nelder-mead] [--starts N]
+  [--weighting sheet|equal|normalized|ml] [--set name=value …] [--fix a,b] [--free c,d] [--bounds c=lo:hi]
+  [--local k] [--t0 t] [--rtol r] [--atol a] [--seed n] [--profile name] [--landscape a,b[,n]]
+  [--equation-error compare|start] [--time-budget ms] [--solver auto|rk45|odex|stiff] [--max-iterations n] [--json]`
+
+class ArgError extends Error {}
+
+interface Args {
+  sheet: string
+  data: string[]
+  validate: string[]
+  json: boolean
+  set: [string, number][]
+  fix: string[]
+  free: string[]
+  bounds: [string, number, number][]
+  local: string[]
+  t0?: number
+  opts: FitOptions
+  weighting: ProblemSpec['weighting']
+}
+
+function number(flag: string, v: string): number {
+  const x = Number(v)
+  if (v.trim() === '' || !Number.isFinite(x)) throw new ArgError(`${flag}: '${v}' is not a number`)
+  return x
+}
+
+function list(v: string): string[] {
+  return v.split(',').map((s) => s.trim()).filter(Boolean)
+}
+
+export function parseArgs(argv: string[]): Args {
+  const pos: string[] = []
+  const a: Args = { sheet: '', data: [], validate: [], json: false, set: [], fix: [], free: [], bounds: [], local: [], opts: {}, weighting: undefined }
+  for (let i = 0; i < argv.length; i++) {
+    const arg = argv[i]
+    if (!arg.startsWith('--')) {
+      pos.push(arg)
+      continue
+    }
+    const eq = arg.indexOf('=')
+    const [flag, inline] = eq > 0 ? [arg.slice(0, eq), arg.slice(eq + 1)] : [arg, undefined]
+    if (flag === '--json') {
+      a.json = true
+      continue
+    }
+    const value = (): string => {
+      if (inline !== undefined) return inline
+      const v = argv[++i]
+      if (v === undefined || v.startsWith('--')) throw new ArgError(`${flag} needs a value`)
+      return v
+    }
+    switch (flag) {
+      case '--validate': a.validate.push(value()); break
+      case '--method': {
+        const m = value()
+        if (m !== 'lm' && m !== 'nelder-mead') throw new ArgError(`--method: '${m}' is not lm or nelder-mead`)
+        a.opts.method = m
+        break
+      }
+      case '--starts': {
+        const n = number(flag, value())
+        if (!Number.isInteger(n) || n < 0 || n > 10000) throw new ArgError('--starts: a whole number from 0 to 10000')
+        a.opts.starts = n
+        break
+      }
+      case '--weighting': {
+        const w = value()
+        if (!['sheet', 'equal', 'normalized', 'ml'].includes(w)) throw new ArgError(`--weighting: '${w}' is not sheet, equal, normalized or ml`)
+        a.weighting = w as Args['weighting']
+        break
+      }
+      case '--set': {
+        for (const item of list(value())) {
+          const k = item.indexOf('=')
+          if (k <= 0) throw new ArgError(`--set: '${item}' is not name=value`)
+          a.set.push([item.slice(0, k).trim(), number(`--set ${item.slice(0, k)}`, item.slice(k + 1))])
+        }
+        break
+      }
+      case '--fix': a.fix.push(...list(value())); break
+      case '--free': a.free.push(...list(value())); break
+      case '--local': a.local.push(...list(value())); break
+      case '--bounds': {
+        for (const item of list(value())) {
+          const m = /^([^=]+)=([^:]+):(.+)$/.exec(item)
+          if (!m) throw new ArgError(`--bounds: '${item}' is not name=lo:hi`)
+          const lo = number(`--bounds ${m[1]}`, m[2])
+          const hi = number(`--bounds ${m[1]}`, m[3])
+          if (!(lo < hi)) throw new ArgError(`--bounds ${m[1]}: the lower bound (${lo}) must be below the upper bound (${hi})`)
+          a.bounds.push([m[1].trim(), lo, hi])
+        }
+        break
+      }
+      case '--t0': a.t0 = number(flag, value()); break
+      case '--rtol': {
+        const r = number(flag, value())
+        if (!(r > 0 && r < 1)) throw new ArgError('--rtol must lie in (0, 1)')
+        a.opts.rtol = r
+        break
+      }
+      case '--atol': {
+        const r = number(flag, value())
+        if (!(r > 0)) throw new ArgError('--atol must be positive')
+        a.opts.atol = r
+        break
+      }
+      case '--seed': a.opts.seed = number(flag, value()); break
+      case '--profile': (a.opts.profile ??= []).push(...list(value())); break
+      case '--landscape': {
+        const parts = list(value())
+        if (parts.length < 2 || parts.length > 3) throw new ArgError('--landscape: give two estimated names and an optional grid size, e.g. b1,b2,41')
+        a.opts.landscape = { x: parts[0], y: parts[1], n: parts[2] ? number('--landscape', parts[2]) : undefined }
+        break
+      }
+      case '--equation-error': {
+        const v = value()
+        if (v !== 'compare' && v !== 'start') throw new ArgError("--equation-error: 'compare' or 'start'")
+        a.opts.equationError = v
+        break
+      }
+      case '--time-budget': a.opts.timeBudgetMs = number(flag, value()); break
+      case '--max-iterations': a.opts.maxIterations = number(flag, value()); break
+      case '--solver': {
+        const s = value()
+        if (!['auto', 'rk45', 'odex', 'stiff'].includes(s)) throw new ArgError(`--solver: '${s}' is not auto, rk45, odex or stiff`)
+        a.opts.solver = s as FitOptions['solver']
+        break
+      }
+      default: throw new ArgError(`unknown option ${flag}`)
+    }
+  }
+  if (pos.length < 2) throw new ArgError('give a sheet file and at least one data file')
+  a.sheet = pos[0]
+  a.data = pos.slice(1)
+  return a
+}
+
+async function readText(path: string): Promise<string> {
+  try {
+    return await readFile(path, 'utf8')
+  } catch (e) {
+    throw new ArgError(`cannot read ${path}: ${(e as NodeJS.ErrnoException).code ?? (e as Error).message}`)
+  }
+}
+
+function findSymbol(model: CompiledModel, name: string) {
+  return model.params.find((p) => p.name === name) ?? model.states.find((s) => s.name === name) ?? null
+}
+
+export async function run(argv: string[]): Promise<number> {
+  let args: Args
+  let model: CompiledModel
+  const texts = new Map<string, string>()
+  try {
+    args = parseArgs(argv)
+    for (const f of [args.sheet, ...args.data, ...args.validate]) if (!texts.has(f)) texts.set(f, await readText(f))
+  } catch (e) {
+    if (e instanceof ArgError) {
+      process.stderr.write(`pewter fit: ${e.message}\n${USAGE}\n`)
+      return 2
+    }
+    throw e
+  }
+  try {
+    model = compileModel(texts.get(args.sheet)!)
+  } catch (e) {
+    if (e instanceof SheetError) {
+      const errs = e.diagnostics.filter((d) => d.severity === 'error')
+      process.stderr.write(errs.map((d) => `${args.sheet}:${d.line}:${d.column}: ${d.message}`).join('\n') + '\n')
+      return 1
+    }
+    throw e
+  }
+  const cliWarnings: string[] = []
+  let spec: ProblemSpec
+  try {
+    const used = new Map<string, number>()
+    const load = (file: string): ExperimentData => {
+      const table = parseCsv(texts.get(file)!, { file })
+      const base = basename(file)
+      const k = (used.get(base) ?? 0) + 1
+      used.set(base, k)
+      const built = experimentFromTable(table, model, { name: k > 1 ? `${base} (${k})` : base, source: file })
+      cliWarnings.push(...built.warnings)
+      return built.experiment
+    }
+    const experiments = args.data.map((f) => load(f))
+    const validation = args.validate.map((f) => load(f))
+    const toInternal = (name: string, v: number, flag: string): number => {
+      const sym = findSymbol(model, name)
+      if (!sym) return v // the problem reports the unknown name with a suggestion
+      void flag
+      return v * sym.scale + sym.offset
+    }
+    spec = {
+      experiments, validation, weighting: args.weighting, t0: args.t0,
+      set: Object.fromEntries(args.set.map(([n, v]) => [n, toInternal(n, v, '--set')])),
+      bounds: Object.fromEntries(args.bounds.map(([n, lo, hi]) => {
+        const a = toInternal(n, lo, '--bounds')
+        const b = toInternal(n, hi, '--bounds')
+        return [n, [Math.min(a, b), Math.max(a, b)]]
+      })),
+      fix: args.fix, free: args.free, local: args.local,
+    }
+  } catch (e) {
+    if (e instanceof CsvError) {
+      process.stderr.write(`pewter fit: ${e.message}\n`)
+      return 1
+    }
+    throw e
+  }
+  let result: FitResult
+  try {
+    result = await runFit(model, spec, args.opts)
+  } catch (e) {
+    if (e instanceof FitInputError) {
+      process.stderr.write(`pewter fit: ${e.message}\n`)
+      return e.kind === 'argument' ? 2 : 1
+    }
+    throw e
+  }
+  result.warnings = [...cliWarnings, ...result.warnings]
+  if (args.json) process.stdout.write(JSON.stringify(result) + '\n')
+  else process.stdout.write(formatTable(result))
+  return result.status === 'failed' ? 1 : 0
+}
+
+function g(v: number | null | undefined, digits = 6): string {
+  if (v === null || v === undefined || !Number.isFinite(v)) return '—'
+  return Number(v.toPrecision(digits)).toString()
+}
+
+function pad(rows: string[][]): string {
+  const w = rows[0].map((_, c) => Math.max(...rows.map((r) => r[c].length)))
+  return rows.map((r) => r.map((cell, c) => cell.padEnd(w[c])).join('  ').trimEnd()).join('\n') + '\n'
+}
+
+function estimateTable(rows: EstimateRow[], title: string): string {
+  if (rows.length === 0) return ''
+  const body = rows.map((p) => [
+    p.experiment === null ? p.name : `${p.name} (exp ${p.experiment + 1})`, g(p.value, 8), p.unit || '-', g(p.stdError, 4),
+    `[${g(p.ci95[0])}, ${g(p.ci95[1])}]`, `[${g(p.lower)}, ${g(p.upper)}]`,
+    p.atBound ? `at ${p.atBound} bound` : p.profileCi95 ? `profile [${g(p.profileCi95[0])}, ${g(p.profileCi95[1])}]` : '',
+  ])
+  return `\n${title}\n` + pad([['name', 'value', 'unit', 'std error', '95 % interval', 'bounds', ''], ...body])
+}
+
+export function formatTable(r: FitResult): string {
+  let s = `fit ${r.status}: ${r.reason}\n`
+  s += `weighted SSE ${g(r.sse, 10)}   N ${r.nObservations}   p ${r.nEstimated}   iterations ${r.iterations}   simulations ${r.simulations}   ${g(r.elapsedMs, 4)} ms\n`
+  s += `AIC ${g(r.aic)}   BIC ${g(r.bic)}   method ${r.method}   weighting ${r.weighting}\n`
+  s += estimateTable(r.parameters, 'parameters')
+  s += estimateTable(r.initialStates, 'initial states')
+  if (r.outputs.length > 0) {
+    s += '\noutputs\n' + pad([['output', 'experiment', 'set', 'N', 'NRMSE', 'RMSE', 'R²', 'Ljung–Box p'], ...r.outputs.map((o) => [
+      o.name, o.experimentName, o.validation ? 'validation' : 'fit', String(o.n), g(o.nrmse, 4), g(o.rmse, 4), g(o.r2, 4),
+      o.residuals ? g(o.residuals.ljungBox.pValue, 3) : '—',
+    ])])
+  }
+  if (r.equationError) {
+    s += `\nequation-error (OLS) comparison: ${r.equationError.parameters.map((p) => `${p.name} = ${g(p.value)} ± ${g(p.stdError, 3)}`).join(', ')}; output-error SSE there ${g(r.equationError.sse)}\n`
+  }
+  if (r.starts.length > 1) s += `\nstarts: ${r.starts.length}, best #${r.bestStart}; costs ${r.starts.map((x) => g(x.sse, 5)).join(', ')}\n`
+  if (r.warnings.length > 0) s += '\nwarnings\n' + r.warnings.map((w) => `  - ${w}\n`).join('')
+  s += '\n' + r.cautions.map((c) => `note: ${c}\n`).join('')
+  return s
+}

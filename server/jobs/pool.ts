@@ -1,0 +1,195 @@
+/**
+ * A pool of worker threads (piscina) that executes runs: claims each run on its row, keeps the claim's
+ * heartbeat fresh from this (never blocked) thread, forwards cancellation read from the row to the
+ * worker thread, enforces the time limit, and makes sure every run it took ends in a final state.
+ * Used by the embedded runner (web process) and by `npm run worker` (pg-boss consumer).
+ */
+import { MessageChannel, type MessagePort } from 'node:worker_threads'
+import { createRequire } from 'node:module'
+import { pathToFileURL } from 'node:url'
+import { hostname } from 'node:os'
+import { randomBytes } from 'node:crypto'
+import { Piscina } from 'piscina'
+import type { Db } from '../db/client'
+import { claimRun, forceStatus, heartbeat, releaseClaims, runStatus, settleRun, type ClaimResult } from './claims'
+import type { RunTask } from './thread-task'
+
+export interface RunPoolOptions {
+  db: Db
+  databaseUrl: string
+  threads: number
+  executorUrl: string
+  timeoutSeconds: number
+  staleSeconds: number
+  /** heartbeat and cancel-flag poll period (default 1000 ms) */
+  heartbeatMs?: number
+  /** how long a cancelled or timed-out fit may take to stop by itself before its thread is terminated */
+  stopGraceMs?: number
+  workerId?: string
+  /** called once a run this pool executed is final (notifications) */
+  onSettled?: (runId: number) => Promise<void>
+  log?: (message: string) => void
+}
+
+export type ExecuteOutcome = 'executed' | Exclude<ClaimResult, { claimed: true }>['reason']
+
+interface Active {
+  port: MessagePort
+  hard: AbortController
+  stop: null | 'cancel' | 'timeout'
+  timers: NodeJS.Timeout[]
+}
+
+export const newWorkerId = (kind: string) => `${kind}@${hostname()}:${process.pid}:${randomBytes(3).toString('hex')}`
+
+/** tsx's loader for the worker threads (already present when the process itself runs under tsx) */
+function threadExecArgv(): string[] {
+  if (process.execArgv.some((a) => a.includes('tsx'))) return process.execArgv
+  const loader = pathToFileURL(createRequire(import.meta.url).resolve('tsx')).href
+  return ['--import', loader]
+}
+
+export class RunPool {
+  readonly workerId: string
+  private piscina: Piscina
+  private active = new Map<number, Active>()
+  private waiters: (() => void)[] = []
+  private running = 0
+  private inFlight = new Set<Promise<unknown>>()
+  private beat: NodeJS.Timeout
+  private closed = false
+  private abandoning = false
+
+  constructor(private o: RunPoolOptions) {
+    this.workerId = o.workerId ?? newWorkerId('pool')
+    this.piscina = new Piscina({
+      filename: new URL('./thread-task.ts', import.meta.url).href,
+      maxThreads: o.threads,
+      minThreads: 0,
+      idleTimeout: 30_000,
+      execArgv: threadExecArgv(),
+    })
+    this.beat = setInterval(() => { void this.tick() }, o.heartbeatMs ?? 1000)
+    this.beat.unref()
+  }
+
+  get size() { return this.o.threads }
+  get busy() { return this.running }
+
+  /** Executes a run when a thread is free; resolves once the run is final (or was not ours to run). */
+  execute(runId: number): Promise<ExecuteOutcome> {
+    const p = this.executeInner(runId)
+    this.inFlight.add(p)
+    void p.finally(() => this.inFlight.delete(p)).catch(() => {})
+    return p
+  }
+
+  private async slot() {
+    while (this.running >= this.o.threads) await new Promise<void>((r) => this.waiters.push(r))
+    this.running++
+  }
+
+  private release() {
+    this.running--
+    this.waiters.shift()?.()
+  }
+
+  private async executeInner(runId: number): Promise<ExecuteOutcome> {
+    if (this.closed) return 'taken'
+    await this.slot()
+    try {
+      if (this.closed) return 'taken'
+      const claim = await claimRun(this.o.db, runId, this.workerId, this.o.staleSeconds)
+      if (!claim.claimed) {
+        if (claim.reason === 'cancelled') await this.settled(runId)
+        return claim.reason
+      }
+      this.o.log?.(`run ${runId}: attempt ${claim.attempt} on ${this.workerId}`)
+      await this.runClaimed(runId)
+      await this.settled(runId)
+      return 'executed'
+    } finally {
+      this.release()
+    }
+  }
+
+  private async runClaimed(runId: number) {
+    const { port1, port2 } = new MessageChannel()
+    const a: Active = { port: port1, hard: new AbortController(), stop: null, timers: [] }
+    this.active.set(runId, a)
+    a.timers.push(setTimeout(() => this.requestStop(runId, 'timeout'), this.o.timeoutSeconds * 1000))
+    const task: RunTask = { runId, databaseUrl: this.o.databaseUrl, workerId: this.workerId, executorUrl: this.o.executorUrl, port: port2 }
+    let failure: unknown = null
+    try {
+      await this.piscina.run(task, { transferList: [port2], signal: a.hard.signal })
+    } catch (err) {
+      failure = err
+    } finally {
+      for (const t of a.timers) clearTimeout(t)
+      port1.close()
+      this.active.delete(runId)
+    }
+    const { db } = this.o
+    const limit = `The fit exceeded the time limit of ${this.o.timeoutSeconds} s (PEWTER_JOB_TIMEOUT_SECONDS) and was stopped.`
+    if (a.stop === 'timeout') {
+      const now = await runStatus(db, runId)
+      if (now?.status !== 'succeeded') await forceStatus(db, runId, this.workerId, 'failed', limit)
+      return
+    }
+    if (failure) {
+      if (this.abandoning) return
+      if (a.stop === 'cancel') await forceStatus(db, runId, this.workerId, 'cancelled', 'Cancelled; the fit was stopped.')
+      else await settleRun(db, runId, this.workerId, 'failed', `The fit stopped with an error: ${failure instanceof Error ? failure.message : String(failure)}`)
+      return
+    }
+    await settleRun(db, runId, this.workerId, a.stop === 'cancel' ? 'cancelled' : 'failed', a.stop === 'cancel' ? 'Cancelled.' : 'The fit ended without storing a result.')
+  }
+
+  private async settled(runId: number) {
+    try { await this.o.onSettled?.(runId) } catch (err) { this.o.log?.(`run ${runId}: after-run hook failed: ${err instanceof Error ? err.message : err}`) }
+  }
+
+  /** Asks a run held here to stop; its thread is terminated when it does not stop within the grace time. */
+  requestStop(runId: number, why: 'cancel' | 'timeout') {
+    const a = this.active.get(runId)
+    if (!a || a.stop) return
+    a.stop = why
+    a.port.postMessage({ abort: why === 'cancel' ? 'cancelled' : 'time limit exceeded' })
+    a.timers.push(setTimeout(() => a.hard.abort(), this.o.stopGraceMs ?? 5000))
+  }
+
+  /** Heartbeat for the runs held here, and cancellation requested on their rows (by any process). */
+  private async tick() {
+    if (!this.active.size) return
+    try {
+      const cancel = await heartbeat(this.o.db, this.workerId, [...this.active.keys()])
+      for (const id of cancel) this.requestStop(id, 'cancel')
+    } catch (err) {
+      this.o.log?.(`heartbeat failed: ${err instanceof Error ? err.message : err}`)
+    }
+  }
+
+  holds(runId: number) { return this.active.has(runId) }
+
+  async idle() {
+    while (this.inFlight.size) await Promise.allSettled([...this.inFlight])
+  }
+
+  /**
+   * Stops taking work. 'wait' lets running fits finish; 'release' stops their threads at once and hands
+   * their runs back to the queue (another worker, or this server's next start, runs them again).
+   */
+  async close(mode: 'wait' | 'release' = 'wait'): Promise<number[]> {
+    this.closed = true
+    let released: number[] = []
+    if (mode === 'release') {
+      this.abandoning = true
+      released = await releaseClaims(this.o.db, this.workerId, [...this.active.keys()]).catch(() => [])
+      for (const a of this.active.values()) a.hard.abort()
+    }
+    await this.idle()
+    clearInterval(this.beat)
+    await this.piscina.destroy()
+    return released
+  }
+}

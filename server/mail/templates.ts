@@ -1,0 +1,45 @@
+/** The text of every e-mail Pewter sends: a plain-text body and a simple HTML twin. */
+import type { MailMessage } from './mailer'
+
+const esc = (s: string) => s.replace(/[&<>"']/g, (c) => ({ '&': '&amp;', '<': '&lt;', '>': '&gt;', '"': '&quot;', "'": '&#39;' })[c]!)
+
+function compose(to: string, subject: string, paragraphs: string[], link?: { href: string; label: string }): MailMessage {
+  const text = [...paragraphs, ...(link ? [`${link.label}: ${link.href}`] : []), '— Pewter'].join('\n\n')
+  const html = [
+    ...paragraphs.map((p) => `<p>${esc(p)}</p>`),
+    ...(link ? [`<p><a href="${esc(link.href)}">${esc(link.label)}</a></p><p style="color:#666;font-size:12px">${esc(link.href)}</p>`] : []),
+    '<p style="color:#666">— Pewter</p>',
+  ].join('\n')
+  return { to, subject, text, html }
+}
+
+export function invitationMail(o: { to: string; workspace: string; role: string; inviter: string; link: string; expiresAt: Date }): MailMessage {
+  return compose(o.to, `You are invited to ${o.workspace} on Pewter`, [
+    `${o.inviter} invites you to join the workspace "${o.workspace}" as ${o.role}.`,
+    `The invitation is valid until ${o.expiresAt.toISOString().replace('T', ' ').slice(0, 16)} UTC and can be used once.`,
+  ], { href: o.link, label: 'Accept the invitation' })
+}
+
+export function passwordResetMail(o: { to: string; link: string; expiresAt: Date }): MailMessage {
+  return compose(o.to, 'Reset your Pewter password', [
+    'Someone (hopefully you) asked to reset the password of your Pewter account.',
+    `The link below works once, until ${o.expiresAt.toISOString().replace('T', ' ').slice(0, 16)} UTC. If you did not ask for it, ignore this message: your password stays as it is.`,
+  ], { href: o.link, label: 'Choose a new password' })
+}
+
+export function fitSettledMail(o: { to: string; runId: number; status: string; project: string; model: string; error?: string | null; link: string }): MailMessage {
+  const done = o.status === 'succeeded'
+  return compose(o.to, done ? `Your fit #${o.runId} finished` : `Your fit #${o.runId} failed`, [
+    done
+      ? `The fit #${o.runId} of ${o.model} in project "${o.project}" finished.`
+      : `The fit #${o.runId} of ${o.model} in project "${o.project}" failed${o.error ? `: ${o.error}` : '.'}`,
+    ...(done ? ['A fitted model holds only within the range of the data it was fitted to; verify it before using it for control, protection or safety decisions.'] : []),
+    'You get these messages because "e-mail me when my fits end" is on in your settings.',
+  ], { href: o.link, label: 'Open the run' })
+}
+
+export function modelForkedMail(o: { to: string; model: string; fork: string; workspace: string; by: string; link: string }): MailMessage {
+  return compose(o.to, `Your model ${o.model} was forked`, [
+    `${o.by} forked your model "${o.model}" as "${o.fork}" in the workspace "${o.workspace}".`,
+  ], { href: o.link, label: 'Open the fork' })
+}

@@ -1,0 +1,50 @@
+import { Router } from 'express'
+import { rateLimit } from 'express-rate-limit'
+import { eq } from 'drizzle-orm'
+import { ctx } from '../context'
+import { requireUser } from '../middleware/auth'
+import { parse } from '../middleware/validate'
+import { requestPasswordReset, resetPassword } from '../services/password-reset'
+import { audit } from '../services/audit'
+import { users } from '../db/schema'
+import { errorCodes } from '../../shared/api/errors'
+import { passwordResetBody, passwordResetRequestBody, settingsBody } from '../../shared/api/team'
+
+/** /api/auth/password-reset… and /api/auth/settings (mounted beside the sign-in routes). */
+export function accountRoutes(limitPerWindow: number) {
+  const router = Router()
+  const limiter = rateLimit({
+    windowMs: 15 * 60 * 1000,
+    limit: limitPerWindow,
+    standardHeaders: 'draft-8',
+    legacyHeaders: false,
+    handler: (_req, res) => {
+      res.status(429).json({ error: { code: errorCodes.rateLimited, message: 'Too many attempts. Wait a few minutes and try again.' } })
+    },
+  })
+  router.post('/password-reset', limiter, async (req, res) => {
+    const { email } = parse(passwordResetRequestBody, req.body)
+    const context = ctx(req)
+    // the reply never waits for the lookup or the mail, so neither its content nor its timing tells whether the address has an account
+    void requestPasswordReset(context, email)
+      .then(async (userId) => { if (userId) await audit(context.db, { actorId: userId, action: 'auth.password_reset_requested', target: email, ip: req.ip }) })
+      .catch((err) => console.error(`[pewter] password reset for ${email}: ${err instanceof Error ? err.message : err}`))
+    res.status(202).json({ message: 'If an account with this e-mail exists, a message with a reset link is on its way.' })
+  })
+  router.post('/password-reset/:token', limiter, async (req, res) => {
+    const { password } = parse(passwordResetBody, req.body)
+    const userId = await resetPassword(ctx(req), String(req.params.token), password)
+    await audit(ctx(req).db, { actorId: userId, action: 'auth.password_reset', ip: req.ip })
+    res.json({ message: 'Your password has been changed. Sign in with the new one.' })
+  })
+  router.get('/settings', requireUser, async (req, res) => {
+    const [u] = await ctx(req).db.select({ notifyOnFit: users.notifyOnFit }).from(users).where(eq(users.id, req.auth!.userId))
+    res.json(u)
+  })
+  router.put('/settings', requireUser, async (req, res) => {
+    const body = parse(settingsBody, req.body)
+    const [u] = await ctx(req).db.update(users).set({ notifyOnFit: body.notifyOnFit }).where(eq(users.id, req.auth!.userId)).returning({ notifyOnFit: users.notifyOnFit })
+    res.json(u)
+  })
+  return router
+}

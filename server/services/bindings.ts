@@ -1,0 +1,178 @@
+/**
+ * Bindings: a model version plus the mapping of dataset columns onto the sheet's inputs and outputs.
+ *
+ * Automatic match: a column matches a signal when their names agree ignoring case, spaces, '-' and '_'.
+ * Units: a column whose header names a unit is converted to coherent SI with mathjs (through
+ * shared/sheet/units: internal = value·scale + offset, offset units such as degC taken as absolute
+ * temperatures); its dimension must equal that of the sheet's unit. A column without a unit is read in
+ * the sheet's declared unit. A sheet signal without a unit takes the column's numbers as they are.
+ */
+import { and, desc, eq } from 'drizzle-orm'
+import type { Db } from '../db/client'
+import { bindings, datasets, models, modelVersions } from '../db/schema'
+import { badRequest, notFound } from '../errors'
+import { parseUnit, sameDims, formatDims } from '../../shared/sheet/units'
+import type { BindingDto, ColumnMapping, ColumnMeta, CreateBindingBody, MappingCheck } from '../../shared/api/datasets'
+import { getProjectRow } from './projects'
+import { columnsOf } from './datasets'
+
+export interface SignalInfo { name: string; unit: string }
+export interface SheetSignals { inputs: SignalInfo[]; outputs: SignalInfo[] }
+
+const norm = (s: string) => s.toLowerCase().replace(/[\s_\-.]+/g, '')
+
+/** The inputs and outputs of a stored version (from its parsed summary). */
+export function signalsOf(summary: unknown): SheetSignals {
+  const s = (summary ?? {}) as { inputs?: { name: string; unit?: string | null }[]; outputs?: { name: string; unit?: string | null }[] }
+  return {
+    inputs: (s.inputs ?? []).map((i) => ({ name: i.name, unit: i.unit ?? '' })),
+    outputs: (s.outputs ?? []).map((o) => ({ name: o.name, unit: o.unit ?? '' })),
+  }
+}
+
+/** Matches columns to signals by name; an existing mapping's entries win where they name a column. */
+export function autoMatch(signals: SheetSignals, columns: string[], base?: ColumnMapping): ColumnMapping {
+  const byNorm = new Map(columns.map((c) => [norm(c), c]))
+  const pick = (name: string, given: string | null | undefined) => {
+    if (given !== undefined) return given
+    return byNorm.get(norm(name)) ?? null
+  }
+  const inputs: Record<string, string | null> = {}
+  const outputs: Record<string, string | null> = {}
+  for (const i of signals.inputs) inputs[i.name] = pick(i.name, base?.inputs?.[i.name])
+  for (const o of signals.outputs) outputs[o.name] = pick(o.name, base?.outputs?.[o.name])
+  return { inputs, outputs }
+}
+
+export interface Conversion { scale: number; offset: number }
+
+/**
+ * How a column's values become the sheet's internal (SI) values. `sheetUnit` is the sheet's declared unit.
+ * Returns the conversion or a problem text.
+ */
+export function conversionFor(sheetUnit: string, columnUnit: string): { conv: Conversion } | { problem: string } {
+  const su = sheetUnit.trim()
+  const cu = columnUnit.trim()
+  if (!su) return { conv: { scale: 1, offset: 0 } }
+  const s = parseUnit(su)
+  if (!s.ok) return { problem: `the sheet's unit '${su}' is not understood: ${s.message}` }
+  if (!cu) return { conv: { scale: s.unit.scale, offset: s.unit.offset } }
+  const c = parseUnit(cu)
+  if (!c.ok) return { problem: `the column's unit '${cu}' is not understood: ${c.message}` }
+  if (!sameDims(s.unit.dims, c.unit.dims)) {
+    return { problem: `the column's unit '${cu}' (${formatDims(c.unit.dims)}) does not convert to the sheet's unit '${su}' (${formatDims(s.unit.dims)})` }
+  }
+  return { conv: { scale: c.unit.scale, offset: c.unit.offset } }
+}
+
+/** Checks a mapping against one dataset's columns: every bound column exists and its unit converts. */
+export function checkMapping(signals: SheetSignals, mapping: ColumnMapping, columns: ColumnMeta[] | null): MappingCheck[] {
+  const byName = new Map((columns ?? []).map((c) => [c.name, c]))
+  const out: MappingCheck[] = []
+  const one = (kind: 'input' | 'output', s: SignalInfo, column: string | null | undefined) => {
+    const col = column ?? null
+    const meta = col ? byName.get(col) : undefined
+    let problem: string | null = null
+    let scale: number | null = null
+    let offset: number | null = null
+    if (col && columns && !meta) problem = `no column named '${col}' in the dataset (columns: ${columns.map((c) => c.name).join(', ')})`
+    else if (col) {
+      const r = conversionFor(s.unit, meta?.unit ?? '')
+      if ('problem' in r) problem = r.problem
+      else { scale = r.conv.scale; offset = r.conv.offset }
+    } else if (kind === 'output') problem = null
+    out.push({ kind, signal: s.name, sheetUnit: s.unit, column: col, columnUnit: meta ? meta.unit : null, scale, offset, problem })
+  }
+  for (const i of signals.inputs) one('input', i, mapping.inputs[i.name])
+  for (const o of signals.outputs) one('output', o, mapping.outputs[o.name])
+  return out
+}
+
+/** Rejects mapping keys that name no signal of the sheet. */
+export function checkMappingNames(signals: SheetSignals, mapping: ColumnMapping) {
+  const details: { path: string; message: string }[] = []
+  for (const k of Object.keys(mapping.inputs)) if (!signals.inputs.some((i) => i.name === k)) details.push({ path: `mapping.inputs.${k}`, message: `the sheet has no input named '${k}' (inputs: ${signals.inputs.map((i) => i.name).join(', ') || 'none'})` })
+  for (const k of Object.keys(mapping.outputs)) if (!signals.outputs.some((o) => o.name === k)) details.push({ path: `mapping.outputs.${k}`, message: `the sheet has no output named '${k}' (outputs: ${signals.outputs.map((o) => o.name).join(', ') || 'none'})` })
+  if (details.length) throw badRequest(details.map((d) => d.message).join('; '), details)
+}
+
+/** A model version of this workspace, with its model's title; 404 otherwise. */
+export async function getVersionRow(db: Db, workspaceId: number, modelId: number, version: number) {
+  const [row] = await db.select({ v: modelVersions, title: models.title })
+    .from(modelVersions).innerJoin(models, eq(models.id, modelVersions.modelId))
+    .where(and(eq(models.workspaceId, workspaceId), eq(modelVersions.modelId, modelId), eq(modelVersions.number, version)))
+    .limit(1)
+  if (!row) throw notFound(`Model ${modelId} version ${version}`)
+  return row
+}
+
+async function datasetColumns(db: Db, projectId: number, datasetId?: number): Promise<ColumnMeta[] | null> {
+  const q = db.select({ id: datasets.id, columns: datasets.columns }).from(datasets)
+  const rows = datasetId
+    ? await q.where(and(eq(datasets.projectId, projectId), eq(datasets.id, datasetId))).limit(1)
+    : await q.where(eq(datasets.projectId, projectId)).orderBy(desc(datasets.createdAt)).limit(1)
+  if (datasetId && !rows.length) throw notFound('Dataset')
+  return rows.length ? columnsOf(rows[0]) : null
+}
+
+export async function matchMapping(db: Db, workspaceId: number, projectId: number, body: { modelId: number; version: number; datasetId: number; mapping?: ColumnMapping }) {
+  await getProjectRow(db, workspaceId, projectId)
+  const { v } = await getVersionRow(db, workspaceId, body.modelId, body.version)
+  const signals = signalsOf(v.summary)
+  const columns = await datasetColumns(db, projectId, body.datasetId)
+  if (body.mapping) checkMappingNames(signals, body.mapping)
+  const mapping = autoMatch(signals, (columns ?? []).map((c) => c.name), body.mapping)
+  return { mapping, checks: checkMapping(signals, mapping, columns), signals }
+}
+
+function toDto(b: typeof bindings.$inferSelect, title: string, checks: MappingCheck[]): BindingDto {
+  return {
+    id: b.id, projectId: b.projectId, modelId: b.modelId, modelTitle: title, modelVersion: b.modelVersion, name: b.name,
+    mapping: b.mapping as ColumnMapping, checks, createdAt: b.createdAt.toISOString(),
+  }
+}
+
+export async function createBinding(db: Db, workspaceId: number, projectId: number, body: CreateBindingBody) {
+  await getProjectRow(db, workspaceId, projectId)
+  const { v, title } = await getVersionRow(db, workspaceId, body.modelId, body.version)
+  const signals = signalsOf(v.summary)
+  const columns = await datasetColumns(db, projectId, body.datasetId)
+  if (body.mapping) checkMappingNames(signals, body.mapping)
+  const mapping = autoMatch(signals, (columns ?? []).map((c) => c.name), body.mapping)
+  const checks = checkMapping(signals, mapping, columns)
+  const bad = checks.filter((c) => c.problem)
+  if (bad.length) throw badRequest(bad.map((c) => `${c.kind} '${c.signal}': ${c.problem}`).join('; '), bad.map((c) => ({ path: `mapping.${c.kind}s.${c.signal}`, message: c.problem })))
+  const [row] = await db.insert(bindings).values({
+    projectId, modelId: body.modelId, modelVersion: body.version, name: body.name ?? `${title} v${body.version}`, mapping,
+  }).returning()
+  return toDto(row, title, checks)
+}
+
+export async function updateBinding(db: Db, workspaceId: number, projectId: number, bindingId: number, body: { name?: string; mapping: ColumnMapping }) {
+  const { row, title, signals } = await getBindingRow(db, workspaceId, projectId, bindingId)
+  checkMappingNames(signals, body.mapping)
+  const mapping = autoMatch(signals, [], body.mapping)
+  const columns = await datasetColumns(db, projectId)
+  const checks = checkMapping(signals, mapping, columns)
+  const [u] = await db.update(bindings).set({ mapping, ...(body.name ? { name: body.name } : {}) }).where(eq(bindings.id, row.id)).returning()
+  return toDto(u, title, checks)
+}
+
+export async function getBindingRow(db: Db, workspaceId: number, projectId: number, bindingId: number) {
+  await getProjectRow(db, workspaceId, projectId)
+  const [r] = await db.select({ b: bindings, title: models.title }).from(bindings).innerJoin(models, eq(models.id, bindings.modelId))
+    .where(and(eq(bindings.id, bindingId), eq(bindings.projectId, projectId))).limit(1)
+  if (!r) throw notFound('Binding')
+  const { v } = await getVersionRow(db, workspaceId, r.b.modelId, r.b.modelVersion)
+  return { row: r.b, title: r.title, signals: signalsOf(v.summary) }
+}
+
+export async function listBindings(db: Db, workspaceId: number, projectId: number) {
+  await getProjectRow(db, workspaceId, projectId)
+  const rows = await db.select({ b: bindings, title: models.title, summary: modelVersions.summary }).from(bindings)
+    .innerJoin(models, eq(models.id, bindings.modelId))
+    .innerJoin(modelVersions, and(eq(modelVersions.modelId, bindings.modelId), eq(modelVersions.number, bindings.modelVersion)))
+    .where(eq(bindings.projectId, projectId)).orderBy(desc(bindings.createdAt))
+  const columns = await datasetColumns(db, projectId)
+  return rows.map((r) => toDto(r.b, r.title, checkMapping(signalsOf(r.summary), r.b.mapping as ColumnMapping, columns)))
+}

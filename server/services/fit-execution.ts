@@ -1,0 +1,333 @@
+/**
+ * Executes one fit run from its row, in whatever process holds it (the in-process runner, a worker
+ * thread of the pool, a `npm run worker` process): load the run, the model version and the datasets,
+ * compile the sheet, fit with shared/engine/fit, and write everything back to the run row:
+ *
+ * - status running → succeeded | failed | cancelled, with started/finished times;
+ * - progress (iteration, cost, cost history, an estimated fraction) at most about 4 times a second;
+ * - the row's cancel_requested flag is polled every 200 ms: a cancel asked from any process aborts the
+ *   fit through its AbortSignal, and the run ends as cancelled within a second;
+ * - the result: the fit JSON (shared/api/fit.ts) plus `traces`, measured against simulated outputs per
+ *   experiment (estimation and validation), for the plots.
+ */
+import { readFileSync } from 'node:fs'
+import { and, eq, inArray, sql } from 'drizzle-orm'
+import type { Db } from '../db/client'
+import { datasets, modelVersions, runs } from '../db/schema'
+import { compileModel, type CompiledModel } from '../../shared/sheet'
+import { simulate } from '../../shared/engine'
+import { runFitWith, makeProblem, type FitOptions } from '../../shared/engine/fit/driver'
+import type { ExperimentData, ProblemSpec } from '../../shared/engine/fit/problem'
+import { BoxTransform } from '../../shared/engine/fit/transform'
+import { costLandscape } from '../../shared/engine/landscape'
+import type { FitResult, LandscapeResult } from '../../shared/api/fit'
+import type { ColumnMapping, ColumnMeta } from '../../shared/api/datasets'
+import type { OutputTrace, RunProgress, RunSettings } from '../../shared/api/runs'
+import { conversionFor } from './bindings'
+import { columnsOf } from './datasets'
+
+const pkg = JSON.parse(readFileSync(new URL('../../package.json', import.meta.url), 'utf8')) as { version: string }
+/** Recorded in every run's provenance. */
+export const ENGINE_VERSION = `pewter-engine ${pkg.version}`
+
+export interface ExecuteOptions {
+  signal?: AbortSignal
+  workerId?: string
+}
+
+/** The stored numeric content of a dataset. */
+export interface StoredData {
+  time: number[]
+  columns: Record<string, (number | null)[]>
+}
+
+export interface LoadedDataset {
+  id: number
+  name: string
+  columns: ColumnMeta[]
+  data: StoredData
+}
+
+export class RunInputError extends Error {
+  constructor(message: string) {
+    super(message)
+    this.name = 'RunInputError'
+  }
+}
+
+const toInternal = (u: { scale: number; offset: number }, v: number) => v * u.scale + u.offset
+const toDeclared = (u: { scale: number; offset: number }, v: number) => (v - u.offset) / u.scale
+
+/** One dataset as a fit experiment: time in the sheet's unit, signals converted to internal units. */
+export function experimentFrom(model: CompiledModel, ds: LoadedDataset, mapping: ColumnMapping): ExperimentData {
+  const unitOf = new Map(ds.columns.map((c) => [c.name, c.unit]))
+  const time = Float64Array.from(ds.data.time, (t) => t / model.secondsPerTimeUnit)
+  const column = (kind: string, signal: string, sheetUnit: string, col: string) => {
+    const values = ds.data.columns[col]
+    if (!values) throw new RunInputError(`dataset '${ds.name}': no column '${col}' for ${kind} '${signal}'`)
+    const conv = conversionFor(sheetUnit, unitOf.get(col) ?? '')
+    if ('problem' in conv) throw new RunInputError(`dataset '${ds.name}', column '${col}' for ${kind} '${signal}': ${conv.problem}`)
+    return { values, conv: conv.conv }
+  }
+  const outputs: Record<string, Float64Array> = {}
+  for (const o of model.outputs) {
+    const col = mapping.outputs[o.name]
+    if (!col) continue
+    const { values, conv } = column('output', o.name, o.unit, col)
+    outputs[o.name] = Float64Array.from(values, (v) => (v === null ? NaN : toInternal(conv, v)))
+  }
+  const inputs: ExperimentData['inputs'] = {}
+  for (const i of model.inputs) {
+    const col = mapping.inputs[i.name]
+    if (!col) continue
+    const { values, conv } = column('input', i.name, i.unit, col)
+    const t: number[] = []
+    const v: number[] = []
+    values.forEach((x, k) => { if (x !== null && Number.isFinite(x)) { t.push(time[k]); v.push(toInternal(conv, x)) } })
+    if (!t.length) throw new RunInputError(`dataset '${ds.name}', column '${col}' for input '${i.name}' has no values`)
+    inputs[i.name] = { t: Float64Array.from(t), v: Float64Array.from(v) }
+  }
+  return { name: ds.name, source: ds.name, time, outputs, inputs }
+}
+
+/** The engine's problem spec from a run's settings (declared units → internal units). */
+export function problemSpec(model: CompiledModel, settings: RunSettings, est: LoadedDataset[], val: LoadedDataset[]): ProblemSpec {
+  const set: Record<string, number> = {}
+  const bounds: Record<string, [number, number]> = {}
+  const free: string[] = []
+  const fix: string[] = []
+  const freeNames = new Set(settings.free.map((f) => f.name))
+  const stateNames = new Set(settings.initialStates.map((f) => f.name))
+  for (const f of settings.free) {
+    const p = model.params.find((q) => q.name === f.name)
+    if (!p) throw new RunInputError(`free parameter '${f.name}': the sheet has no parameter of that name`)
+    const lo = toInternal(p, f.lower)
+    const hi = toInternal(p, f.upper)
+    bounds[f.name] = [Math.min(lo, hi), Math.max(lo, hi)]
+    set[f.name] = toInternal(p, f.start)
+    free.push(f.name)
+  }
+  for (const f of settings.initialStates) {
+    const s = model.states.find((q) => q.name === f.name)
+    if (!s) throw new RunInputError(`initial state '${f.name}': the sheet has no state of that name`)
+    const lo = toInternal(s, f.lower)
+    const hi = toInternal(s, f.upper)
+    bounds[f.name] = [Math.min(lo, hi), Math.max(lo, hi)]
+    set[f.name] = toInternal(s, f.start)
+    free.push(f.name)
+  }
+  for (const p of model.params) if (!p.fixed && !freeNames.has(p.name)) fix.push(p.name)
+  for (const s of model.states) if (s.estimate && !stateNames.has(s.name)) fix.push(s.name)
+  return {
+    experiments: est.map((d) => experimentFrom(model, d, settings.mapping)),
+    validation: val.map((d) => experimentFrom(model, d, settings.mapping)),
+    set, bounds, free, fix,
+    weighting: settings.weighting,
+  }
+}
+
+export function fitOptions(settings: RunSettings, extra: Partial<FitOptions> = {}): FitOptions {
+  const t = settings.tolerances
+  return {
+    method: settings.method,
+    starts: Math.max(0, settings.starts - 1),
+    seed: settings.seed,
+    ...(t.rtol !== undefined ? { rtol: t.rtol } : { rtol: 1e-6 }),
+    ...(t.atol !== undefined ? { atol: t.atol } : {}),
+    ...(t.ftol !== undefined ? { ftol: t.ftol } : {}),
+    ...(t.xtol !== undefined ? { xtol: t.xtol } : {}),
+    ...(t.gtol !== undefined ? { gtol: t.gtol } : {}),
+    ...(t.maxIterations !== undefined ? { maxIterations: t.maxIterations } : { maxIterations: 200 }),
+    ...extra,
+  }
+}
+
+/** Names of the estimated quantities in the engine's order (as landscape requests name them). */
+export function estimatedNames(result: FitResult, experimentNames: string[]): string[] {
+  return [...result.parameters, ...result.initialStates].map((r) => (r.experiment === null ? r.name : `${r.name}[${experimentNames[r.experiment]}]`))
+}
+
+export async function loadRunInputs(db: Db, run: typeof runs.$inferSelect) {
+  const settings = run.settings as RunSettings
+  const [version] = await db.select().from(modelVersions)
+    .where(and(eq(modelVersions.modelId, run.modelId), eq(modelVersions.number, run.modelVersion))).limit(1)
+  if (!version) throw new RunInputError(`model ${run.modelId} version ${run.modelVersion} no longer exists`)
+  const ids = [...settings.estimation, ...settings.validation]
+  const rows = ids.length ? await db.select({ id: datasets.id, name: datasets.name, columns: datasets.columns, data: datasets.data, projectId: datasets.projectId })
+    .from(datasets).where(inArray(datasets.id, ids)) : []
+  const byId = new Map(rows.filter((r) => r.projectId === run.projectId).map((r) => [r.id, { id: r.id, name: r.name, columns: columnsOf(r), data: r.data as StoredData }]))
+  const get = (id: number) => {
+    const d = byId.get(id)
+    if (!d) throw new RunInputError(`dataset ${id} no longer exists in this project`)
+    return d
+  }
+  const model = compileModel(version.text)
+  return { settings, model, est: settings.estimation.map(get), val: settings.validation.map(get), versionText: version.text }
+}
+
+/** Measured against simulated outputs at the estimate, for every experiment (declared units, seconds). */
+export function simulateTraces(model: CompiledModel, spec: ProblemSpec, opts: FitOptions, result: FitResult, est: LoadedDataset[], val: LoadedDataset[], mapping: ColumnMapping): OutputTrace[] {
+  const prob = makeProblem(model, spec, simulate, { ...opts, signal: undefined })
+  const best = result.starts.find((s) => s.index === result.bestStart)
+  const theta = best && best.value.every((v) => v !== null) ? (best.value as number[]) : null
+  if (!theta || theta.length !== prob.n) return []
+  const traces: OutputTrace[] = []
+  const p = new Float64Array(model.np)
+  const x0 = new Float64Array(model.nx)
+  const all = [...prob.experiments.map((ex, e) => ({ ex, e, ds: est[e], validation: false })), ...prob.validation.map((ex, k) => ({ ex, e: -1, ds: val[k], validation: true }))]
+  all.forEach(({ ex, e, ds, validation }, idx) => {
+    const hasX0 = prob.fillExperiment(theta, e, p, x0)
+    const res = prob.simulateExperiment(ex, p, hasX0 ? x0 : undefined, false)
+    model.outputs.forEach((o, j) => {
+      const col = mapping.outputs[o.name]
+      const meas = ex.data.outputs[o.name]
+      if (!col || !meas) return
+      const n = ex.tOut.length
+      const t = new Array<number>(n)
+      const measured = new Array<number | null>(n)
+      const simulated = new Array<number | null>(n)
+      for (let k = 0; k < n; k++) {
+        t[k] = ex.tOut[k] * model.secondsPerTimeUnit
+        const m = meas[ex.timeIndex[k]]
+        measured[k] = Number.isFinite(m) ? toDeclared(o, m) : null
+        const s = res ? res.y[k * model.ny + j] : NaN
+        simulated[k] = Number.isFinite(s) ? toDeclared(o, s) : null
+      }
+      traces.push({ experiment: idx, datasetId: ds.id, datasetName: ds.name, validation, output: o.name, column: col, unit: o.unit, t, measured, simulated })
+    })
+  })
+  return traces
+}
+
+/** The cost over a grid of two estimated quantities, the others at the estimate (results page, on request). */
+export async function computeLandscape(db: Db, run: typeof runs.$inferSelect, a: string, b: string, n: number): Promise<LandscapeResult> {
+  const { settings, model, est, val } = await loadRunInputs(db, run)
+  const result = run.result as unknown as FitResult
+  const spec = problemSpec(model, settings, est, val)
+  const opts = fitOptions(settings)
+  const prob = makeProblem(model, spec, simulate, opts)
+  const best = result.starts.find((s) => s.index === result.bestStart)
+  if (!best || best.value.some((v) => v === null) || best.value.length !== prob.n) throw new RunInputError('the run has no usable estimate')
+  const theta = Float64Array.from(best.value as number[])
+  const start = Float64Array.from(best.start)
+  const rows = [...result.parameters, ...result.initialStates]
+  const se = Float64Array.from(rows, (r, q) => {
+    const qq = prob.quantities[q]
+    const u = qq.kind === 'param' ? model.params[qq.index] : model.states[qq.index]
+    return r.stdError === null ? NaN : r.stdError * Math.abs(u.scale)
+  })
+  const tr = new BoxTransform(prob.lower, prob.upper, true)
+  return costLandscape(prob, theta, start, { x: a, y: b, n }, tr, se, (q, v) => {
+    const qq = prob.quantities[q]
+    return toDeclared(qq.kind === 'param' ? model.params[qq.index] : model.states[qq.index], v)
+  })
+}
+
+const PROGRESS_INTERVAL_MS = 250
+const CANCEL_POLL_MS = 200
+
+/**
+ * Runs the fit of run `runId` to its end and stores the outcome. Never throws for a fit that fails:
+ * the failure is stored on the row. Returns the final status.
+ */
+export async function executeRun(db: Db, runId: number, opts: ExecuteOptions = {}): Promise<string> {
+  const [row] = await db.select().from(runs).where(eq(runs.id, runId)).limit(1)
+  if (!row) return 'missing'
+  if (row.status === 'succeeded' || row.status === 'failed' || row.status === 'cancelled') return row.status
+  if (row.cancelRequested) {
+    await db.update(runs).set({ status: 'cancelled', finishedAt: sql`now()`, error: 'Cancelled before it started.' }).where(eq(runs.id, runId))
+    return 'cancelled'
+  }
+  const started = await db.update(runs)
+    .set({ status: 'running', startedAt: sql`coalesce(${runs.startedAt}, now())`, ...(opts.workerId ? { workerId: opts.workerId } : {}) })
+    .where(and(eq(runs.id, runId), inArray(runs.status, ['queued', 'running'])))
+    .returning({ id: runs.id })
+  if (!started.length) return 'finished'
+
+  const controller = new AbortController()
+  const onOuterAbort = () => controller.abort()
+  opts.signal?.addEventListener('abort', onOuterAbort)
+  if (opts.signal?.aborted) controller.abort()
+  let cancelled = false
+  let polling = false
+  const poll = setInterval(() => {
+    if (polling) return
+    polling = true
+    db.select({ c: runs.cancelRequested }).from(runs).where(eq(runs.id, runId))
+      .then((r) => { if (r[0]?.c) { cancelled = true; controller.abort() } })
+      .catch(() => undefined)
+      .finally(() => { polling = false })
+  }, CANCEL_POLL_MS)
+
+  const settings = row.settings as RunSettings
+  const history: number[] = []
+  let best = Infinity
+  let lastWrite = 0
+  let pending: RunProgress | null = null
+  let writing: Promise<unknown> = Promise.resolve()
+  const writeProgress = (p: RunProgress) => {
+    writing = writing.then(() => db.update(runs).set({ progress: p }).where(and(eq(runs.id, runId), eq(runs.status, 'running')))).catch(() => undefined)
+  }
+  const progress = (iteration: number, cost: number | null, start: number, message: string, fraction: number): RunProgress => ({
+    iteration, cost, costHistory: thin(history, 500), fraction, start, starts: settings.starts, message, updatedAt: new Date().toISOString(),
+  })
+  writeProgress(progress(0, null, 0, 'preparing the fit', 0.01))
+
+  const finish = async (status: string, values: Partial<typeof runs.$inferInsert>) => {
+    clearInterval(poll)
+    opts.signal?.removeEventListener('abort', onOuterAbort)
+    await writing
+    await db.update(runs).set({ status, finishedAt: sql`now()`, ...values }).where(eq(runs.id, runId))
+    return status
+  }
+
+  try {
+    const { model, est, val } = await loadRunInputs(db, row)
+    const spec = problemSpec(model, settings, est, val)
+    const probeNames = makeProblem(model, spec, simulate, fitOptions(settings)).names
+    const landscape = probeNames.length >= 2 ? { x: probeNames[0], y: probeNames[1], n: 21 } : undefined
+    const options = fitOptions(settings, {
+      signal: controller.signal,
+      landscape,
+      onProgress: (info) => {
+        if (info.cost < best) best = info.cost
+        history.push(best)
+        const start = info.start ?? 0
+        const fraction = Math.min(0.97, (start + 1 - Math.exp(-(info.iteration + 1) / 12)) / settings.starts)
+        pending = progress(info.iteration, info.cost, start, `start ${start + 1} of ${settings.starts}, iteration ${info.iteration}`, fraction)
+        const now = Date.now()
+        if (now - lastWrite >= PROGRESS_INTERVAL_MS) { lastWrite = now; writeProgress(pending); pending = null }
+      },
+    })
+    const result = await runFitWith(model, spec, options, simulate)
+    if (pending) writeProgress(pending)
+    if (cancelled || controller.signal.aborted || result.status === 'aborted') {
+      return await finish('cancelled', { error: cancelled ? 'Cancelled by request.' : 'Stopped: the fit was aborted.', progress: progress(0, best === Infinity ? null : best, 0, 'cancelled', 0) })
+    }
+    if (result.status === 'failed') {
+      return await finish('failed', { error: `The fit failed: ${result.reason}`, result: { ...result, traces: [] } as unknown as Record<string, unknown> })
+    }
+    let traces: OutputTrace[] = []
+    try { traces = simulateTraces(model, spec, fitOptions(settings), result, est, val, settings.mapping) } catch { traces = [] }
+    const lastHistory = result.costHistory.length ? result.costHistory : history
+    return await finish('succeeded', {
+      result: { ...result, traces } as unknown as Record<string, unknown>,
+      error: null,
+      progress: { ...progress(result.iterations, result.sse, settings.starts - 1, `finished: ${result.reason}`, 1), costHistory: thin(lastHistory, 500) },
+    })
+  } catch (e) {
+    if (cancelled || controller.signal.aborted) return await finish('cancelled', { error: cancelled ? 'Cancelled by request.' : 'Stopped: the fit was aborted.' })
+    const msg = e instanceof Error ? e.message : String(e)
+    const known = e instanceof Error && ['FitInputError', 'RunInputError', 'SheetError', 'SimulationError', 'InputTraceError'].includes(e.name)
+    if (!known && process.env.NODE_ENV !== 'test') console.error(`[pewter] run ${runId} failed:`, e)
+    return await finish('failed', { error: known ? msg : `The fit stopped on an internal error: ${msg}` })
+  }
+}
+
+function thin(v: number[], max: number): number[] {
+  if (v.length <= max) return v.slice()
+  const out: number[] = []
+  const step = (v.length - 1) / (max - 1)
+  for (let i = 0; i < max; i++) out.push(v[Math.round(i * step)])
+  return out
+}

@@ -1,0 +1,58 @@
+/**
+ * Exports of a finished run: CSV (parameter table, fit figures per output and experiment, provenance,
+ * each section headed by a comment line) and JSON (settings, provenance and the whole result). Both
+ * carry the result caution.
+ */
+import type { FitResult } from '../../shared/api/fit'
+import { RESULT_CAUTION, type RunDto } from '../../shared/api/runs'
+import { conflict } from '../errors'
+
+/** RFC 4180 field: quoted when it holds a comma, quote, or line break. */
+function field(v: unknown): string {
+  if (v === null || v === undefined) return ''
+  const s = typeof v === 'number' ? (Number.isFinite(v) ? String(v) : '') : String(v)
+  return /[",\r\n]/.test(s) ? `"${s.replace(/"/g, '""')}"` : s
+}
+const line = (cells: unknown[]) => cells.map(field).join(',')
+
+export function exportJson(run: RunDto) {
+  if (run.status !== 'succeeded' || !run.result) throw conflict(`Run ${run.id} has no result to export (status ${run.status})`)
+  const { traces, ...fit } = run.result as Record<string, unknown>
+  return {
+    caution: RESULT_CAUTION,
+    run: { id: run.id, name: run.name, project: run.projectName, model: run.modelTitle, modelVersion: run.modelVersion, status: run.status, createdAt: run.createdAt, finishedAt: run.finishedAt },
+    provenance: run.provenance,
+    settings: run.settings,
+    result: fit,
+    traces: traces ?? [],
+  }
+}
+
+export function exportCsv(run: RunDto): string {
+  if (run.status !== 'succeeded' || !run.result) throw conflict(`Run ${run.id} has no result to export (status ${run.status})`)
+  const r = run.result as unknown as FitResult
+  const out: string[] = []
+  out.push(`# ${RESULT_CAUTION}`)
+  out.push(`# Pewter fit run ${run.id} "${run.name}": model "${run.modelTitle}" version ${run.modelVersion}, project "${run.projectName}"`)
+  out.push(`# status ${r.status} (${r.reason}); weighted cost ${r.sse}; ${r.iterations} iterations; ${r.simulations} simulations; method ${r.method}; weighting ${r.weighting}`)
+  out.push(`# engine ${run.provenance.engineVersion}; seed ${run.provenance.seed}; sheet sha256 ${run.provenance.sheetHash}`)
+  for (const d of run.provenance.datasets) out.push(`# dataset ${d.id} "${d.name}" (${d.role}) sha256 ${d.contentHash}`)
+  out.push('')
+  out.push('# estimates')
+  out.push(line(['kind', 'name', 'experiment', 'unit', 'estimate', 'std_error', 'ci95_low', 'ci95_high', 'lower_bound', 'upper_bound', 'at_bound', 'start', 'change_from_start']))
+  const est = (kind: string, e: FitResult['parameters'][number]) =>
+    line([kind, e.name, e.experiment, e.unit, e.value, e.stdError, e.ci95[0], e.ci95[1], e.lower, e.upper, e.atBound ?? '', e.start, e.value - e.start])
+  for (const p of r.parameters) out.push(est('parameter', p))
+  for (const s of r.initialStates) out.push(est('initial_state', s))
+  out.push('')
+  out.push('# fit per output and experiment')
+  out.push(line(['output', 'experiment', 'data', 'n', 'nrmse', 'rmse', 'r2', 'ljung_box_q', 'ljung_box_p']))
+  for (const o of r.outputs) out.push(line([o.name, o.experimentName, o.validation ? 'validation' : 'estimation', o.n, o.nrmse, o.rmse, o.r2, o.residuals?.ljungBox.q, o.residuals?.ljungBox.pValue]))
+  if (r.warnings.length) {
+    out.push('')
+    out.push('# warnings')
+    out.push('warning')
+    for (const w of r.warnings) out.push(line([w]))
+  }
+  return out.join('\r\n') + '\r\n'
+}

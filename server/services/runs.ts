@@ -1,0 +1,321 @@
+/**
+ * Fit runs: create (resolve every setting and the provenance, store the row as queued, hand it to the
+ * job runner), read, list, cancel, run again, save the estimate as a parameter set, publish it as a
+ * new model version.
+ */
+import { createHash, randomInt } from 'node:crypto'
+import { and, desc, eq, inArray, sql } from 'drizzle-orm'
+import type { Db } from '../db/client'
+import { bindings, datasets, models, modelVersions, parameterSets, projects, runs } from '../db/schema'
+import { badRequest, conflict, notFound } from '../errors'
+import type { JobRunner } from '../jobs/types'
+import { compileModel, SheetError, type CompiledModel } from '../../shared/sheet'
+import type { FitResult } from '../../shared/api/fit'
+import {
+  RESULT_CAUTION, type CreateRunBody, type FreeSpec, type ParameterSetDto, type Provenance, type RunDto,
+  type RunProgress, type RunSettings, type RunStatus, type RunSummaryDto,
+} from '../../shared/api/runs'
+import type { ColumnMapping } from '../../shared/api/datasets'
+import { columnsOf } from './datasets'
+import { autoMatch, checkMapping, checkMappingNames, getVersionRow, signalsOf } from './bindings'
+import { getProjectRow } from './projects'
+import { ENGINE_VERSION } from './fit-execution'
+import { publishVersion, type Actor } from './models'
+
+type RunRow = typeof runs.$inferSelect
+
+const iso = (d: Date | string | null) => (d === null ? null : new Date(d).toISOString())
+const declared = (u: { scale: number; offset: number }, v: number) => (v - u.offset) / u.scale
+
+function compileOrThrow(text: string): CompiledModel {
+  try {
+    return compileModel(text)
+  } catch (e) {
+    if (e instanceof SheetError) throw badRequest(`The model version has errors and cannot be fitted: ${e.message}`)
+    throw e
+  }
+}
+
+/** Free parameters / initial states with bounds and starts in declared units, defaults from the sheet. */
+function resolveFree(model: CompiledModel, given: FreeSpec[] | undefined, kind: 'free' | 'initialStates') {
+  const path = kind
+  const isParam = kind === 'free'
+  const pool = isParam ? model.params : model.states
+  const defaults = isParam ? model.params.filter((p) => !p.fixed) : model.states.filter((s) => s.estimate)
+  const list: FreeSpec[] = given ?? defaults.map((q) => ({ name: q.name }))
+  const seen = new Set<string>()
+  const details: { path: string; message: string }[] = []
+  const out: RunSettings['free'] = []
+  list.forEach((f, i) => {
+    const q = pool.find((x) => x.name === f.name)
+    if (!q) {
+      details.push({ path: `body.${path}.${i}.name`, message: `the sheet has no ${isParam ? 'parameter' : 'state'} named '${f.name}' (${isParam ? 'parameters' : 'states'}: ${pool.map((x) => x.name).join(', ') || 'none'})` })
+      return
+    }
+    if (seen.has(f.name)) { details.push({ path: `body.${path}.${i}.name`, message: `'${f.name}' is listed twice` }); return }
+    seen.add(f.name)
+    const value = isParam ? (q as CompiledModel['params'][number]).value : (q as CompiledModel['states'][number]).initial
+    const a = q.lower === null ? null : declared(q, q.lower)
+    const b = q.upper === null ? null : declared(q, q.upper)
+    const lower = f.lower ?? (a === null || b === null ? null : Math.min(a, b))
+    const upper = f.upper ?? (a === null || b === null ? null : Math.max(a, b))
+    const start = f.start ?? declared(q, value)
+    if (lower === null || upper === null) {
+      details.push({ path: `body.${path}.${i}`, message: `'${f.name}' has no bounds in the sheet; give lower and upper` })
+      return
+    }
+    if (!(Number.isFinite(lower) && Number.isFinite(upper) && lower < upper)) {
+      details.push({ path: `body.${path}.${i}.lower`, message: `'${f.name}': the lower bound (${lower}) must be below the upper bound (${upper})` })
+      return
+    }
+    if (!(start >= lower && start <= upper)) {
+      details.push({ path: `body.${path}.${i}.start`, message: `'${f.name}': the start ${start} lies outside its bounds [${lower}, ${upper}]` })
+      return
+    }
+    out.push({ name: f.name, lower, upper, start })
+  })
+  return { out, details }
+}
+
+function sha256(text: string) {
+  return createHash('sha256').update(text).digest('hex')
+}
+
+/** Checks the body against the project, model version and datasets; returns the settings and provenance. */
+async function resolveRun(db: Db, workspaceId: number, projectId: number, body: CreateRunBody, rerunOf: number | null) {
+  const { v } = await getVersionRow(db, workspaceId, body.modelId, body.version)
+  const model = compileOrThrow(v.text)
+  const ids = [...body.estimation, ...body.validation]
+  const rows = await db.select({ id: datasets.id, name: datasets.name, contentHash: datasets.contentHash, columns: datasets.columns })
+    .from(datasets).where(and(eq(datasets.projectId, projectId), inArray(datasets.id, ids)))
+  const byId = new Map(rows.map((r) => [r.id, r]))
+  const missing = ids.filter((id) => !byId.has(id))
+  if (missing.length) throw badRequest(`No dataset ${missing.join(', ')} in this project`, missing.map((id) => ({ path: body.estimation.includes(id) ? 'body.estimation' : 'body.validation', message: `no dataset ${id} in this project` })))
+  const overlap = body.validation.filter((id) => body.estimation.includes(id))
+  if (overlap.length) throw badRequest(`Dataset ${overlap.join(', ')} is chosen for both estimation and validation; validation data must not be used by the fit`, [{ path: 'body.validation', message: 'overlaps the estimation datasets' }])
+
+  // mapping: explicit, else the binding's, else matched automatically
+  const signals = signalsOf(v.summary)
+  let bindingId: number | null = null
+  let base: ColumnMapping | undefined = body.mapping
+  if (body.bindingId) {
+    const [b] = await db.select().from(bindings).where(and(eq(bindings.id, body.bindingId), eq(bindings.projectId, projectId))).limit(1)
+    if (!b) throw notFound('Binding')
+    if (b.modelId !== body.modelId || b.modelVersion !== body.version) throw badRequest(`Binding ${b.id} is for model ${b.modelId} version ${b.modelVersion}, not model ${body.modelId} version ${body.version}`)
+    bindingId = b.id
+    base = body.mapping ?? (b.mapping as ColumnMapping)
+  }
+  if (base) checkMappingNames(signals, base)
+  const firstCols = columnsOf(byId.get(body.estimation[0])!).map((c) => c.name)
+  const mapping = autoMatch(signals, firstCols, base)
+  const problems: { path: string; message: string }[] = []
+  for (const id of ids) {
+    const ds = byId.get(id)!
+    for (const c of checkMapping(signals, mapping, columnsOf(ds))) {
+      if (c.problem) problems.push({ path: `mapping.${c.kind}s.${c.signal}`, message: `dataset '${ds.name}' (${id}): ${c.kind} '${c.signal}': ${c.problem}` })
+    }
+  }
+  if (!Object.values(mapping.outputs).some((c) => c)) {
+    problems.push({ path: 'mapping.outputs', message: `no output is bound to a column: the data need a column for one of the sheet's outputs (${signals.outputs.map((o) => o.name).join(', ')})` })
+  }
+  if (problems.length) throw badRequest(problems.map((p) => p.message).join('; '), problems)
+
+  const free = resolveFree(model, body.free, 'free')
+  const states = resolveFree(model, body.initialStates, 'initialStates')
+  const details = [...free.details, ...states.details]
+  if (details.length) throw badRequest(details.map((d) => `${d.path}: ${d.message}`).join('; '), details)
+  if (!free.out.length && !states.out.length) throw badRequest('Nothing to estimate: choose at least one free parameter or initial state', [{ path: 'body.free', message: 'empty' }])
+
+  const seed = body.seed ?? randomInt(1, 2 ** 31 - 1)
+  const settings: RunSettings = {
+    name: body.name?.trim() || '',
+    bindingId,
+    estimation: body.estimation,
+    validation: body.validation,
+    mapping,
+    free: free.out,
+    initialStates: states.out,
+    method: body.method,
+    starts: body.starts,
+    weighting: body.weighting,
+    tolerances: body.tolerances,
+    seed,
+    rerunOf,
+  }
+  const provenance: Provenance = {
+    modelId: body.modelId,
+    modelVersion: body.version,
+    modelVersionId: v.id,
+    sheetHash: sha256(v.text),
+    datasets: ids.map((id) => ({ id, name: byId.get(id)!.name, contentHash: byId.get(id)!.contentHash, role: body.estimation.includes(id) ? 'estimation' as const : 'validation' as const })),
+    engineVersion: ENGINE_VERSION,
+    seed,
+    createdAt: new Date().toISOString(),
+  }
+  return { settings, provenance }
+}
+
+export async function createRun(db: Db, jobs: JobRunner | undefined, workspaceId: number, projectId: number, userId: number, body: CreateRunBody, rerunOf: number | null = null): Promise<RunDto> {
+  await getProjectRow(db, workspaceId, projectId)
+  const { settings, provenance } = await resolveRun(db, workspaceId, projectId, body, rerunOf)
+  const [row] = await db.insert(runs).values({
+    workspaceId, projectId, modelId: body.modelId, modelVersion: body.version, bindingId: settings.bindingId,
+    status: 'queued', settings, provenance, createdBy: userId,
+  }).returning()
+  if (!settings.name) {
+    await db.update(runs).set({ settings: { ...settings, name: `Run ${row.id}` } }).where(eq(runs.id, row.id))
+  }
+  if (jobs) await jobs.enqueue(row.id)
+  return getRun(db, workspaceId, row.id)
+}
+
+/** "Run again": the same model version, datasets, settings and seed. */
+export async function rerun(db: Db, jobs: JobRunner | undefined, workspaceId: number, runId: number, userId: number) {
+  const row = await getRunRow(db, workspaceId, runId)
+  const s = row.settings as RunSettings
+  const body: CreateRunBody = {
+    modelId: row.modelId, version: row.modelVersion, name: `${s.name || `Run ${row.id}`} (again)`,
+    ...(s.bindingId ? { bindingId: s.bindingId } : {}),
+    estimation: s.estimation, validation: s.validation, mapping: s.mapping,
+    free: s.free, initialStates: s.initialStates, method: s.method, starts: s.starts, weighting: s.weighting,
+    tolerances: s.tolerances, seed: s.seed,
+  }
+  // the datasets must still be the same content
+  const prov = row.provenance as Provenance
+  const now = await db.select({ id: datasets.id, contentHash: datasets.contentHash }).from(datasets).where(inArray(datasets.id, prov.datasets.map((d) => d.id)))
+  for (const d of prov.datasets) {
+    const cur = now.find((x) => x.id === d.id)
+    if (!cur || cur.contentHash !== d.contentHash) throw conflict(`Dataset '${d.name}' (${d.id}) is gone or changed since run ${row.id}; it cannot be reproduced`)
+  }
+  return createRun(db, jobs, workspaceId, row.projectId, userId, body, row.id)
+}
+
+export async function getRunRow(db: Db, workspaceId: number, runId: number): Promise<RunRow> {
+  const [r] = await db.select().from(runs).where(and(eq(runs.id, runId), eq(runs.workspaceId, workspaceId))).limit(1)
+  if (!r) throw notFound('Run')
+  return r
+}
+
+function summaryOf(r: RunRow, modelTitle: string, projectName: string): RunSummaryDto {
+  const s = r.settings as RunSettings
+  const result = r.result as { sse?: number | null } | null
+  return {
+    id: r.id, projectId: r.projectId, projectName, modelId: r.modelId, modelTitle, modelVersion: r.modelVersion,
+    name: s.name || `Run ${r.id}`, status: r.status as RunStatus, progress: (r.progress as RunProgress | null) ?? null,
+    error: r.error, cancelRequested: r.cancelRequested, createdAt: iso(r.createdAt)!, startedAt: iso(r.startedAt), finishedAt: iso(r.finishedAt),
+    createdBy: r.createdBy, sse: r.status === 'succeeded' ? result?.sse ?? null : null,
+  }
+}
+
+export async function getRun(db: Db, workspaceId: number, runId: number): Promise<RunDto> {
+  const [r] = await db.select({ r: runs, title: models.title, project: projects.name }).from(runs)
+    .innerJoin(models, eq(models.id, runs.modelId)).innerJoin(projects, eq(projects.id, runs.projectId))
+    .where(and(eq(runs.id, runId), eq(runs.workspaceId, workspaceId))).limit(1)
+  if (!r) throw notFound('Run')
+  return {
+    ...summaryOf(r.r, r.title, r.project),
+    settings: r.r.settings as RunSettings,
+    provenance: r.r.provenance as Provenance,
+    result: (r.r.result as Record<string, unknown> | null) ?? null,
+    caution: RESULT_CAUTION,
+  }
+}
+
+/** The fields the live-progress stream sends (no result). */
+export async function getRunState(db: Db, workspaceId: number, runId: number) {
+  const [r] = await db.select({ status: runs.status, progress: runs.progress, error: runs.error, cancelRequested: runs.cancelRequested })
+    .from(runs).where(and(eq(runs.id, runId), eq(runs.workspaceId, workspaceId))).limit(1)
+  return r ?? null
+}
+
+export async function listRuns(db: Db, workspaceId: number, filter: { projectId?: number; modelId?: number } = {}): Promise<RunSummaryDto[]> {
+  const conds = [eq(runs.workspaceId, workspaceId)]
+  if (filter.projectId) conds.push(eq(runs.projectId, filter.projectId))
+  if (filter.modelId) conds.push(eq(runs.modelId, filter.modelId))
+  const rows = await db.select({
+    r: {
+      id: runs.id, projectId: runs.projectId, modelId: runs.modelId, modelVersion: runs.modelVersion, status: runs.status,
+      settings: runs.settings, progress: runs.progress, error: runs.error, cancelRequested: runs.cancelRequested,
+      createdAt: runs.createdAt, startedAt: runs.startedAt, finishedAt: runs.finishedAt, createdBy: runs.createdBy,
+      sse: sql<number | null>`(${runs.result} ->> 'sse')::float8`,
+    },
+    title: models.title, project: projects.name,
+  }).from(runs)
+    .innerJoin(models, eq(models.id, runs.modelId)).innerJoin(projects, eq(projects.id, runs.projectId))
+    .where(and(...conds)).orderBy(desc(runs.createdAt), desc(runs.id)).limit(500)
+  return rows.map(({ r, title, project }) => summaryOf({ ...r, result: { sse: r.sse } } as unknown as RunRow, title, project))
+}
+
+export async function cancelRun(db: Db, jobs: JobRunner | undefined, workspaceId: number, runId: number) {
+  const row = await getRunRow(db, workspaceId, runId)
+  if (row.status === 'succeeded' || row.status === 'failed' || row.status === 'cancelled') {
+    throw conflict(`Run ${runId} has already finished (${row.status}); there is nothing to cancel`)
+  }
+  await db.update(runs).set({ cancelRequested: true }).where(eq(runs.id, runId))
+  // a run no worker holds yet ends here; a running one stops at its next cancel poll
+  await db.update(runs).set({ status: 'cancelled', finishedAt: sql`now()`, error: 'Cancelled before it started.' })
+    .where(and(eq(runs.id, runId), eq(runs.status, 'queued'), sql`${runs.workerId} is null`))
+  if (jobs) await jobs.cancel(runId)
+  return getRun(db, workspaceId, runId)
+}
+
+function finishedResult(row: RunRow): FitResult {
+  if (row.status !== 'succeeded' || !row.result) throw conflict(`Run ${row.id} has no result (status ${row.status})`)
+  return row.result as unknown as FitResult
+}
+
+export async function saveParameterSet(db: Db, workspaceId: number, runId: number, userId: number, name: string): Promise<ParameterSetDto> {
+  const row = await getRunRow(db, workspaceId, runId)
+  const result = finishedResult(row)
+  const values: ParameterSetDto['values'] = {}
+  for (const p of result.parameters) values[p.experiment === null ? p.name : `${p.name}[${p.experiment}]`] = { value: p.value, unit: p.unit }
+  for (const s of result.initialStates) values[`${s.name}(0)[${s.experiment ?? 0}]`] = { value: s.value, unit: s.unit }
+  const [ps] = await db.insert(parameterSets).values({ projectId: row.projectId, runId: row.id, modelId: row.modelId, name, values, createdBy: userId }).returning()
+  return { id: ps.id, projectId: ps.projectId, runId: ps.runId, modelId: ps.modelId, name: ps.name, values, createdAt: iso(ps.createdAt)! }
+}
+
+export async function listParameterSets(db: Db, workspaceId: number, projectId: number): Promise<ParameterSetDto[]> {
+  await getProjectRow(db, workspaceId, projectId)
+  const rows = await db.select().from(parameterSets).where(eq(parameterSets.projectId, projectId)).orderBy(desc(parameterSets.createdAt))
+  return rows.map((ps) => ({ id: ps.id, projectId: ps.projectId, runId: ps.runId, modelId: ps.modelId, name: ps.name, values: ps.values as ParameterSetDto['values'], createdAt: iso(ps.createdAt)! }))
+}
+
+/**
+ * The sheet text with each shared fitted parameter's value replaced by its estimate (declared unit,
+ * 8 significant digits; the full value stays on the run). Local
+ * parameters (one estimate per experiment) and initial states are left as they are.
+ */
+export function sheetWithEstimates(text: string, result: FitResult): { text: string; changed: string[] } {
+  const changed: string[] = []
+  let out = text
+  for (const p of result.parameters) {
+    if (p.experiment !== null) continue
+    const re = new RegExp(`^(\\s*param\\s+${p.name.replace(/[.*+?^${}()|[\]\\]/g, '\\$&')}\\s*=\\s*)([^\\s\\[#]+)`, 'm')
+    if (!re.test(out)) continue
+    out = out.replace(re, (_m, head: string) => `${head}${formatValue(p.value)}`)
+    changed.push(p.name)
+  }
+  return { text: out, changed }
+}
+
+function formatValue(v: number): string {
+  const s = Number(v.toPrecision(8)).toString()
+  return s.includes('e') ? s.replace('e+', 'e') : s
+}
+
+export async function publishFromRun(db: Db, actor: Actor, runId: number, note: string | undefined) {
+  const row = await getRunRow(db, actor.workspaceId, runId)
+  const result = finishedResult(row)
+  const [latest] = await db.select({ number: modelVersions.number }).from(modelVersions).where(eq(modelVersions.modelId, row.modelId)).orderBy(desc(modelVersions.number)).limit(1)
+  const [v] = await db.select({ text: modelVersions.text }).from(modelVersions).where(and(eq(modelVersions.modelId, row.modelId), eq(modelVersions.number, row.modelVersion))).limit(1)
+  if (!v || !latest) throw notFound('Model version')
+  if (latest.number !== row.modelVersion) {
+    throw conflict(`Run ${row.id} fitted version ${row.modelVersion}, but version ${latest.number} is the latest; publishing would drop the changes made since. Fit version ${latest.number} and publish from that run.`)
+  }
+  const { text, changed } = sheetWithEstimates(v.text, result)
+  if (!changed.length) throw badRequest('No shared parameter of the sheet could be updated from this run')
+  const fullNote = `${note ? `${note}\n\n` : ''}Parameters ${changed.join(', ')} set to the estimates of fit run #${row.id} (from version ${row.modelVersion}; project ${row.projectId}; run: /runs/${row.id}).`
+  const created = await publishVersion(db, actor, row.modelId, { text, note: fullNote.slice(0, 2000), baseVersion: latest.number })
+  await db.update(modelVersions).set({ fromRunId: row.id }).where(and(eq(modelVersions.modelId, row.modelId), eq(modelVersions.number, created.number)))
+  return { ...created, fromRunId: row.id, changed }
+}

@@ -1,0 +1,36 @@
+/**
+ * Attaches the services of the jobs and mail layers to an app context (called by createContext):
+ * `ctx.services.mailer` (nodemailer over SMTP), `ctx.services.jobs` (the JobRunner chosen by
+ * PEWTER_JOBS), and API-token bearer authentication. Closing the database closes them first.
+ */
+import type { AppContext } from '../context'
+import { createMailer, type Mailer } from '../mail/mailer'
+import { createJobRunner } from '../jobs'
+import type { JobRunner } from '../jobs/types'
+import { registerTokenResolver } from '../middleware/auth'
+import { apiTokenResolver } from './api-tokens'
+import { notifyRunSettled } from './notifications'
+
+let resolverRegistered = false
+
+export async function attachServices(context: AppContext) {
+  if (!resolverRegistered) {
+    registerTokenResolver(apiTokenResolver)
+    resolverRegistered = true
+  }
+  const mailer: Mailer = createMailer(context.config)
+  context.services.mailer = mailer
+  const jobs: JobRunner = await createJobRunner(context, {
+    onSettled: (runId) => notifyRunSettled({ db: context.db, mailer, publicUrl: context.config.publicUrl }, runId).then(() => {}),
+  })
+  context.services.jobs = jobs
+  const closeDatabase = context.database.close
+  context.database.close = async () => {
+    await jobs.close().catch(() => {})
+    mailer.close()
+    await closeDatabase()
+  }
+}
+
+export const jobsOf = (context: AppContext) => context.services.jobs as JobRunner
+export const mailerOfContext = (context: AppContext) => context.services.mailer as Mailer

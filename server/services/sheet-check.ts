@@ -1,0 +1,13 @@
+/**
+ * Checks a sheet with the shared parser and returns its diagnostics and the summary stored with a
+ * version (states, parameters with units and bounds, inputs, outputs). Nothing is saved here.
+ */
+import { checkModel } from '../../shared/sheet'
+import { sheetSummary, type CheckReply, type DiagnosticDto } from '../../shared/api/models'
+
+export function checkSheet(text: string): CheckReply {
+  const r = checkModel(text)
+  const diagnostics: DiagnosticDto[] = r.diagnostics.map((d) => ({ line: d.line, column: d.column, endColumn: d.endColumn, severity: d.severity, message: d.message }))
+  const parsed = r.summary ? sheetSummary.safeParse(r.summary) : null
+  return { ok: r.ok, diagnostics, summary: parsed?.success ? parsed.data : null }
+}

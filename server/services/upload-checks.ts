@@ -1,0 +1,80 @@
+/**
+ * Checks on an uploaded file's bytes before the CSV parser sees them: binary content, UTF-16, bytes that
+ * are not UTF-8 (named by line and column), the UTF-8 byte-order mark, and leading `# …` comment lines
+ * (kept as the dataset's notes: the demo files say there that their data are invented).
+ */
+import { badRequest } from '../errors'
+
+export interface DecodedUpload {
+  /** the CSV text without the leading comment lines */
+  text: string
+  notes: string[]
+  /** lines removed before the header (so row numbers can be reported against the file) */
+  skippedLines: number
+}
+
+/** Position (1-based line, column) of a byte offset, counting lines by \n. */
+function positionOf(bytes: Uint8Array, offset: number): { line: number; column: number } {
+  let line = 1
+  let lineStart = 0
+  for (let i = 0; i < offset; i++) if (bytes[i] === 0x0a) { line++; lineStart = i + 1 }
+  return { line, column: offset - lineStart + 1 }
+}
+
+/** Offset of the first byte that breaks UTF-8 (RFC 3629, Sec. 4 syntax), or -1. */
+export function firstInvalidUtf8(b: Uint8Array): number {
+  let i = 0
+  while (i < b.length) {
+    const c = b[i]
+    if (c < 0x80) { i++; continue }
+    let n = 0
+    let min = 0
+    if (c >= 0xc2 && c <= 0xdf) { n = 1; min = 0x80 }
+    else if (c >= 0xe0 && c <= 0xef) { n = 2; min = 0x800 }
+    else if (c >= 0xf0 && c <= 0xf4) { n = 3; min = 0x10000 }
+    else return i
+    if (i + n >= b.length) return i
+    let cp = c & (0x3f >> n)
+    for (let k = 1; k <= n; k++) {
+      const d = b[i + k]
+      if (d === undefined || (d & 0xc0) !== 0x80) return i
+      cp = (cp << 6) | (d & 0x3f)
+    }
+    if (cp < min || cp > 0x10ffff || (cp >= 0xd800 && cp <= 0xdfff)) return i
+    i += n + 1
+  }
+  return -1
+}
+
+export function decodeUpload(bytes: Uint8Array, filename: string): DecodedUpload {
+  if (bytes.length === 0) throw badRequest(`${filename}: the file is empty`)
+  if ((bytes[0] === 0xff && bytes[1] === 0xfe) || (bytes[0] === 0xfe && bytes[1] === 0xff)) {
+    throw badRequest(`${filename}: the file is UTF-16 encoded; save it as UTF-8 (CSV UTF-8) and upload it again`, [{ line: 1, column: 1, message: 'UTF-16 byte-order mark' }])
+  }
+  const nul = bytes.indexOf(0)
+  if (nul >= 0) {
+    const p = positionOf(bytes, nul)
+    throw badRequest(`${filename}, line ${p.line}, column ${p.column}: the file contains a NUL byte; it is not a text (CSV) file`, [{ line: p.line, column: p.column, message: 'NUL byte' }])
+  }
+  const bad = firstInvalidUtf8(bytes)
+  if (bad >= 0) {
+    const p = positionOf(bytes, bad)
+    throw badRequest(
+      `${filename}, line ${p.line}, column ${p.column}: byte 0x${bytes[bad].toString(16).toUpperCase().padStart(2, '0')} is not valid UTF-8 (the file may be in a legacy encoding such as Latin-1 or Windows-1252); save it as UTF-8 and upload it again`,
+      [{ line: p.line, column: p.column, message: 'not UTF-8' }],
+    )
+  }
+  let text = new TextDecoder('utf-8').decode(bytes)
+  if (text.charCodeAt(0) === 0xfeff) text = text.slice(1)
+  const lines = text.split(/\r\n|\n|\r/)
+  const notes: string[] = []
+  let skipped = 0
+  while (skipped < lines.length && (lines[skipped].startsWith('#') || (lines[skipped].trim() === '' && notes.length > 0 && skipped < lines.length - 1 && lines[skipped + 1].startsWith('#')))) {
+    const l = lines[skipped]
+    if (l.startsWith('#')) notes.push(l.replace(/^#+\s?/, '').trimEnd())
+    skipped++
+  }
+  const rest = lines.slice(skipped).join('\n')
+  if (rest.trim() === '') throw badRequest(`${filename}: the file has no header row and no data`)
+  return { text: rest, notes, skippedLines: skipped }
+}

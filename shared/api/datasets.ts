@@ -1,0 +1,182 @@
+/**
+ * Datasets (uploaded measured traces) and bindings (model version + column mapping): request bodies and
+ * reply shapes, shared by the server routes and the client.
+ *
+ * A dataset is immutable. Its time axis is stored in seconds from the first sample (or from the time
+ * column's own zero when it is numeric); every other column keeps the values and unit of its header.
+ * Conditioning makes a new dataset that records its parent and the steps applied.
+ */
+import { z } from 'zod'
+
+export const datasetPurpose = z.enum(['estimation', 'validation'])
+export type DatasetPurpose = z.infer<typeof datasetPurpose>
+
+export const columnStats = z.object({
+  count: z.number(),
+  missing: z.number(),
+  min: z.number().nullable(),
+  max: z.number().nullable(),
+  mean: z.number().nullable(),
+  std: z.number().nullable(),
+})
+export type ColumnStats = z.infer<typeof columnStats>
+
+export const columnMeta = z.object({
+  /** the column's name (header without the unit) */
+  name: z.string(),
+  /** the header as written */
+  header: z.string(),
+  /** unit from the header (`temp [degC]` → degC), '' when none */
+  unit: z.string(),
+  stats: columnStats,
+})
+export type ColumnMeta = z.infer<typeof columnMeta>
+
+export const datasetWarning = z.object({
+  message: z.string(),
+  row: z.number().optional(),
+  column: z.string().optional(),
+})
+export type DatasetWarning = z.infer<typeof datasetWarning>
+
+export const conditioningStep = z.discriminatedUnion('op', [
+  z.object({ op: z.literal('trim'), from: z.number(), to: z.number() }),
+  z.object({
+    op: z.literal('exclude'),
+    windows: z.array(z.tuple([z.number(), z.number()])).min(1, 'give at least one window [from, to]'),
+    /** columns to blank in the windows (default: all) */
+    columns: z.array(z.string()).optional(),
+  }),
+  z.object({ op: z.literal('resample'), step: z.number().positive('the step must be positive') }),
+  z.object({
+    op: z.literal('offset'),
+    mode: z.enum(['initial', 'mean']),
+    columns: z.array(z.string()).min(1, 'name the columns to shift'),
+  }),
+  z.object({
+    op: z.literal('outliers'),
+    /** Hampel filter: half-width of the moving window in samples */
+    halfWindow: z.number().int().min(1).max(500).default(5),
+    /** modified z-score threshold (3.5 after Iglewicz & Hoaglin) */
+    threshold: z.number().positive().default(3.5),
+    columns: z.array(z.string()).optional(),
+  }),
+])
+export type ConditioningStep = z.infer<typeof conditioningStep>
+
+/** A step as stored: the request plus what it did (offsets subtracted, samples marked …). */
+export const appliedStep = z.object({
+  step: conditioningStep,
+  summary: z.string(),
+  details: z.record(z.string(), z.unknown()).optional(),
+})
+export type AppliedStep = z.infer<typeof appliedStep>
+
+export const conditionBody = z.object({
+  name: z.string().trim().min(1).max(200).optional(),
+  steps: z.array(conditioningStep).min(1, 'give at least one conditioning step').max(20),
+  purpose: datasetPurpose.nullable().optional(),
+})
+export type ConditionBody = z.infer<typeof conditionBody>
+
+export const updateDatasetBody = z.object({
+  purpose: datasetPurpose.nullable().optional(),
+  name: z.string().trim().min(1).max(200).optional(),
+})
+export type UpdateDatasetBody = z.infer<typeof updateDatasetBody>
+
+export const datasetSummaryDto = z.object({
+  id: z.number(),
+  projectId: z.number(),
+  name: z.string(),
+  filename: z.string(),
+  purpose: datasetPurpose.nullable(),
+  contentHash: z.string(),
+  rowCount: z.number(),
+  columns: z.array(columnMeta),
+  warnings: z.array(datasetWarning),
+  parentId: z.number().nullable(),
+  steps: z.array(appliedStep),
+  /** start and end of the time axis, seconds */
+  timeSpan: z.tuple([z.number(), z.number()]).nullable(),
+  createdAt: z.string(),
+  createdBy: z.number().nullable(),
+})
+export type DatasetSummaryDto = z.infer<typeof datasetSummaryDto>
+
+export const datasetDto = datasetSummaryDto.extend({
+  /** the time column's header and unit as uploaded */
+  time: z.object({ header: z.string(), unit: z.string(), format: z.enum(['numeric', 'iso8601']) }),
+  /** the first rows: [t_seconds, ...values in column order] */
+  preview: z.array(z.array(z.number().nullable())),
+  /** invented-data notes and other comment lines (`# …`) at the top of the file */
+  notes: z.array(z.string()),
+})
+export type DatasetDto = z.infer<typeof datasetDto>
+
+/** GET …/datasets/:did/data: every sample, optionally thinned to at most `maxPoints` for plotting. */
+export const datasetDataDto = z.object({
+  t: z.array(z.number()),
+  columns: z.record(z.string(), z.array(z.number().nullable())),
+  thinned: z.boolean(),
+})
+export type DatasetDataDto = z.infer<typeof datasetDataDto>
+
+// ── bindings ────────────────────────────────────────────────────────────────────────────────────
+/** Sheet input/output name → dataset column name (null or missing: not bound). */
+export const columnMapping = z.object({
+  inputs: z.record(z.string(), z.string().nullable()).default({}),
+  outputs: z.record(z.string(), z.string().nullable()).default({}),
+})
+export type ColumnMapping = z.infer<typeof columnMapping>
+
+export const createBindingBody = z.object({
+  modelId: z.coerce.number().int().positive(),
+  version: z.coerce.number().int().positive(),
+  name: z.string().trim().min(1).max(200).optional(),
+  /** omitted: matched automatically against `datasetId`'s columns */
+  mapping: columnMapping.optional(),
+  /** the dataset whose columns the automatic match uses (default: the project's newest) */
+  datasetId: z.coerce.number().int().positive().optional(),
+})
+export type CreateBindingBody = z.infer<typeof createBindingBody>
+
+export const updateBindingBody = z.object({
+  name: z.string().trim().min(1).max(200).optional(),
+  mapping: columnMapping,
+})
+
+/** How one sheet signal meets its column: the unit conversion applied, or why it fails. */
+export const mappingCheck = z.object({
+  kind: z.enum(['input', 'output']),
+  signal: z.string(),
+  sheetUnit: z.string(),
+  column: z.string().nullable(),
+  columnUnit: z.string().nullable(),
+  /** internal (SI) = column value * scale + offset */
+  scale: z.number().nullable(),
+  offset: z.number().nullable(),
+  problem: z.string().nullable(),
+})
+export type MappingCheck = z.infer<typeof mappingCheck>
+
+export const bindingDto = z.object({
+  id: z.number(),
+  projectId: z.number(),
+  modelId: z.number(),
+  modelTitle: z.string(),
+  modelVersion: z.number(),
+  name: z.string(),
+  mapping: columnMapping,
+  checks: z.array(mappingCheck),
+  createdAt: z.string(),
+})
+export type BindingDto = z.infer<typeof bindingDto>
+
+/** POST …/projects/:pid/bindings/match: the automatic mapping for a model version and a dataset. */
+export const matchBody = z.object({
+  modelId: z.coerce.number().int().positive(),
+  version: z.coerce.number().int().positive(),
+  datasetId: z.coerce.number().int().positive(),
+  mapping: columnMapping.optional(),
+})

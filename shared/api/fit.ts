@@ -1,0 +1,126 @@
+/**
+ * The fit result JSON: what `pewter fit --json` prints, what a run stores, what results pages read.
+ * The fields named by the fitting issue come first; the rest are diagnostics the pages draw.
+ * Values are in each symbol's declared (sheet) units; `null` stands for "not available" (JSON has no NaN).
+ */
+import { z } from 'zod'
+
+const num = z.number()
+const numOrNull = z.number().nullable()
+
+export const fitStatus = z.enum(['converged', 'stopped', 'aborted', 'failed'])
+export type FitStatus = z.infer<typeof fitStatus>
+
+export const fitMethod = z.enum(['lm', 'nelder-mead'])
+export type FitMethod = z.infer<typeof fitMethod>
+
+export const fitWeighting = z.enum(['sheet', 'equal', 'normalized', 'ml'])
+export type FitWeighting = z.infer<typeof fitWeighting>
+
+export const estimateRow = z.object({
+  name: z.string(),
+  /** experiment index for a local parameter or an initial state; null when shared by all */
+  experiment: z.number().int().nullable(),
+  unit: z.string(),
+  value: num,
+  start: num,
+  stdError: numOrNull,
+  ci95: z.tuple([numOrNull, numOrNull]),
+  lower: num,
+  upper: num,
+  atBound: z.enum(['lower', 'upper']).nullable(),
+  /** profile-likelihood 95 % interval, when requested */
+  profileCi95: z.tuple([numOrNull, numOrNull]).optional(),
+  logTransformed: z.boolean(),
+})
+export type EstimateRow = z.infer<typeof estimateRow>
+
+export const residualDiagnostics = z.object({
+  n: z.number().int(),
+  maxLag: z.number().int(),
+  band95: num,
+  autocorrelation: z.array(num),
+  ljungBox: z.object({ q: num, lags: z.number().int(), pValue: num }),
+  crossCorrelation: z.array(z.object({ input: z.string(), lags: z.array(z.number().int()), values: z.array(num) })),
+})
+export type ResidualDiagnostics = z.infer<typeof residualDiagnostics>
+
+export const outputRow = z.object({
+  name: z.string(),
+  experiment: z.number().int(),
+  experimentName: z.string(),
+  validation: z.boolean(),
+  n: z.number().int(),
+  nrmse: numOrNull,
+  rmse: numOrNull,
+  r2: numOrNull,
+  /** weight used (declared units⁻²) and, for ml weighting, the estimated noise standard deviation */
+  weight: numOrNull,
+  sigmaEstimate: numOrNull,
+  residuals: residualDiagnostics.nullable(),
+})
+export type OutputRow = z.infer<typeof outputRow>
+
+export const startRow = z.object({
+  index: z.number().int(),
+  start: z.array(num),
+  value: z.array(numOrNull),
+  sse: numOrNull,
+  status: fitStatus,
+  reason: z.string(),
+  iterations: z.number().int(),
+  simulations: z.number().int(),
+})
+export type StartRow = z.infer<typeof startRow>
+
+export const landscapeResult = z.object({
+  x: z.object({ name: z.string(), experiment: z.number().int().nullable(), values: z.array(num), log: z.boolean() }),
+  y: z.object({ name: z.string(), experiment: z.number().int().nullable(), values: z.array(num), log: z.boolean() }),
+  /** cost[iy][ix]; null where the model could not be evaluated */
+  cost: z.array(z.array(numOrNull)),
+  start: z.tuple([num, num]),
+  estimate: z.tuple([num, num]),
+})
+export type LandscapeResult = z.infer<typeof landscapeResult>
+
+export const equationErrorRow = z.object({
+  parameters: z.array(z.object({ name: z.string(), value: num, stdError: numOrNull })),
+  sse: numOrNull,
+  note: z.string(),
+})
+export type EquationErrorRow = z.infer<typeof equationErrorRow>
+
+export const fitResult = z.object({
+  status: fitStatus,
+  reason: z.string(),
+  /** the weighted cost: Σ over experiments, outputs and samples of w·(y − ŷ)² */
+  sse: numOrNull,
+  iterations: z.number().int(),
+  simulations: z.number().int(),
+  /** the estimation alone, ms */
+  elapsedMs: num,
+  parameters: z.array(estimateRow),
+  initialStates: z.array(estimateRow),
+  outputs: z.array(outputRow),
+  /** correlation of every estimated quantity (parameters then initial states); null where undefined */
+  correlation: z.object({ names: z.array(z.string()), matrix: z.array(z.array(numOrNull)) }),
+  warnings: z.array(z.string()),
+  // --- extra fields ---
+  method: fitMethod,
+  weighting: fitWeighting,
+  nObservations: z.number().int(),
+  nEstimated: z.number().int(),
+  dof: z.number().int(),
+  s2: numOrNull,
+  tQuantile: numOrNull,
+  aic: numOrNull,
+  bic: numOrNull,
+  costHistory: z.array(num),
+  starts: z.array(startRow),
+  bestStart: z.number().int(),
+  tolerances: z.object({ rtol: num, atol: num, ftol: num, xtol: num, gtol: num }),
+  landscape: landscapeResult.nullable(),
+  equationError: equationErrorRow.nullable(),
+  cautions: z.array(z.string()),
+})
+export type FitResult = z.infer<typeof fitResult>

@@ -1,0 +1,264 @@
+/**
+ * The model library API: zod schemas of every request and reply under
+ * /api/workspaces/:ws/models and POST /api/check. Used by the server (parse) and the client (types,
+ * reply checks).
+ */
+import { z } from 'zod'
+
+export const versionStatuses = ['draft', 'approved'] as const
+export const versionStatus = z.enum(versionStatuses)
+export type VersionStatus = z.infer<typeof versionStatus>
+
+/** Largest sheet text accepted (characters). */
+export const MAX_SHEET_CHARS = 200_000
+
+const sheetText = z.string().max(MAX_SHEET_CHARS, `a sheet may have at most ${MAX_SHEET_CHARS} characters`)
+const tag = z.string().trim().toLowerCase().min(1, 'a tag may not be empty').max(40, 'a tag has at most 40 characters')
+  .regex(/^[a-z0-9][a-z0-9 _-]*$/, 'a tag uses letters, digits, spaces, - and _')
+
+// ── the parsed summary of a sheet (what checkModel reports) ─────────────────────────────────────
+export const diagnosticDto = z.object({
+  line: z.number(),
+  column: z.number(),
+  endColumn: z.number(),
+  severity: z.enum(['error', 'warning']),
+  message: z.string(),
+})
+export type DiagnosticDto = z.infer<typeof diagnosticDto>
+
+const num = z.number().nullable()
+export const summaryParameter = z.looseObject({
+  name: z.string(),
+  unit: z.string().nullable().optional(),
+  value: num.optional(),
+  lower: num.optional(),
+  upper: num.optional(),
+  fixed: z.boolean().optional(),
+  description: z.string().optional(),
+})
+export type SummaryParameter = z.infer<typeof summaryParameter>
+export const summarySymbol = z.looseObject({
+  name: z.string(),
+  unit: z.string().nullable().optional(),
+  description: z.string().optional(),
+})
+export type SummarySymbol = z.infer<typeof summarySymbol>
+
+/** States, parameters (with units and bounds), inputs and outputs of a sheet. */
+export const sheetSummary = z.looseObject({
+  title: z.string().optional(),
+  states: z.array(summarySymbol).default([]),
+  parameters: z.array(summaryParameter).default([]),
+  inputs: z.array(summarySymbol).default([]),
+  outputs: z.array(summarySymbol).default([]),
+})
+export type SheetSummary = z.infer<typeof sheetSummary>
+
+export const checkBody = z.object({ text: sheetText })
+export type CheckBody = z.infer<typeof checkBody>
+export const checkReply = z.object({
+  ok: z.boolean(),
+  diagnostics: z.array(diagnosticDto),
+  summary: sheetSummary.nullable(),
+})
+export type CheckReply = z.infer<typeof checkReply>
+
+// ── people ──────────────────────────────────────────────────────────────────────────────────────
+export const personDto = z.object({ id: z.number(), name: z.string(), email: z.string() })
+export type PersonDto = z.infer<typeof personDto>
+
+// ── versions ────────────────────────────────────────────────────────────────────────────────────
+/** A version without its text (lists, history). */
+export const versionMetaDto = z.object({
+  number: z.number(),
+  note: z.string(),
+  author: personDto,
+  createdAt: z.string(),
+  status: versionStatus,
+  approvedBy: personDto.nullable(),
+  approvedAt: z.string().nullable(),
+  fromRunId: z.number().nullable(),
+})
+export type VersionMetaDto = z.infer<typeof versionMetaDto>
+
+export const versionDto = versionMetaDto.extend({
+  modelId: z.number(),
+  text: z.string(),
+  summary: sheetSummary,
+})
+export type VersionDto = z.infer<typeof versionDto>
+
+// ── models ──────────────────────────────────────────────────────────────────────────────────────
+export const modelRefDto = z.object({ id: z.number(), slug: z.string(), title: z.string() })
+export type ModelRefDto = z.infer<typeof modelRefDto>
+
+export const modelListItemDto = z.object({
+  id: z.number(),
+  slug: z.string(),
+  title: z.string(),
+  description: z.string(),
+  tags: z.array(z.string()),
+  owner: personDto,
+  template: z.string().nullable(),
+  latestVersion: z.number(),
+  status: versionStatus,
+  updatedAt: z.string(),
+  forkCount: z.number(),
+  forkOf: modelRefDto.extend({ version: z.number() }).nullable(),
+})
+export type ModelListItemDto = z.infer<typeof modelListItemDto>
+
+export const listModelsQuery = z.object({
+  q: z.string().trim().max(200).optional(),
+  tag: z.string().trim().toLowerCase().max(40).optional(),
+  /** a user id, or `me` */
+  owner: z.union([z.literal('me'), z.coerce.number().int().positive()]).optional(),
+  status: versionStatus.optional(),
+  page: z.coerce.number().int().min(1).default(1),
+  pageSize: z.coerce.number().int().min(1).max(100).default(25),
+})
+export type ListModelsQuery = z.infer<typeof listModelsQuery>
+
+export const listModelsReply = z.object({
+  items: z.array(modelListItemDto),
+  total: z.number(),
+  page: z.number(),
+  pageSize: z.number(),
+  /** every tag used in the workspace's library (for the filter) */
+  tags: z.array(z.string()),
+  /** every owner of a model in the library (for the filter) */
+  owners: z.array(personDto),
+})
+export type ListModelsReply = z.infer<typeof listModelsReply>
+
+export const draftDto = z.object({
+  text: z.string(),
+  baseVersion: z.number(),
+  updatedAt: z.string(),
+})
+export type DraftDto = z.infer<typeof draftDto>
+
+export const forkDto = modelRefDto.extend({
+  owner: personDto,
+  /** the version of this model the fork was taken from */
+  fromVersion: z.number(),
+  createdAt: z.string(),
+})
+export type ForkDto = z.infer<typeof forkDto>
+
+export const modelPermissions = z.object({
+  publish: z.boolean(),
+  approve: z.boolean(),
+  fork: z.boolean(),
+  edit: z.boolean(),
+  remove: z.boolean(),
+})
+export type ModelPermissions = z.infer<typeof modelPermissions>
+
+export const modelDetailDto = modelListItemDto.extend({
+  createdAt: z.string(),
+  maintainers: z.array(personDto),
+  /** newest first */
+  versions: z.array(versionMetaDto),
+  forks: z.array(forkDto),
+  /** the caller's working draft, when there is one */
+  draft: draftDto.nullable(),
+  /** what the caller may do with this model */
+  can: modelPermissions,
+  /** the origin's latest version number (forks only; null when the origin was deleted) */
+  originLatestVersion: z.number().nullable(),
+})
+export type ModelDetailDto = z.infer<typeof modelDetailDto>
+
+export const createModelBody = z.object({
+  title: z.string().trim().min(1, 'a model needs a title').max(120, 'a title has at most 120 characters'),
+  description: z.string().max(4000).default(''),
+  tags: z.array(tag).max(12, 'at most 12 tags').default([]),
+  text: sheetText.min(1, 'the sheet is empty'),
+  note: z.string().trim().max(2000).default(''),
+})
+export type CreateModelBody = z.infer<typeof createModelBody>
+
+export const updateModelBody = z.object({
+  title: z.string().trim().min(1, 'a model needs a title').max(120).optional(),
+  description: z.string().max(4000).optional(),
+  tags: z.array(tag).max(12, 'at most 12 tags').optional(),
+}).refine((b) => b.title !== undefined || b.description !== undefined || b.tags !== undefined, { message: 'nothing to change: give title, description or tags' })
+export type UpdateModelBody = z.infer<typeof updateModelBody>
+
+export const setMaintainersBody = z.object({
+  userIds: z.array(z.number().int().positive()).max(50),
+})
+export type SetMaintainersBody = z.infer<typeof setMaintainersBody>
+
+export const saveDraftBody = z.object({
+  text: sheetText,
+  /** the version the draft started from (default: the latest) */
+  baseVersion: z.number().int().positive().optional(),
+})
+export type SaveDraftBody = z.infer<typeof saveDraftBody>
+
+export const publishBody = z.object({
+  text: sheetText.min(1, 'the sheet is empty'),
+  note: z.string().trim().min(1, 'a version needs a change note').max(2000),
+  /** the version this text was edited from; must be the latest */
+  baseVersion: z.number().int().positive(),
+})
+export type PublishBody = z.infer<typeof publishBody>
+
+/** The details of a 409 reply to a publish on an old base. */
+export const publishConflictDetails = z.object({
+  latest: versionDto,
+})
+export type PublishConflictDetails = z.infer<typeof publishConflictDetails>
+
+export const forkBody = z.object({
+  /** the origin's version to fork (default: the latest) */
+  version: z.number().int().positive().optional(),
+  title: z.string().trim().min(1, 'a fork needs a title').max(120),
+})
+export type ForkBody = z.infer<typeof forkBody>
+
+// ── diffs ───────────────────────────────────────────────────────────────────────────────────────
+const versionRef = z.union([z.literal('latest'), z.coerce.number().int().positive()])
+export const diffQuery = z.object({
+  from: versionRef,
+  to: versionRef.default('latest'),
+  /** take `from` from another model of the workspace (e.g. a fork's origin); default: this model */
+  fromModel: z.coerce.number().int().positive().optional(),
+})
+export type DiffQuery = z.infer<typeof diffQuery>
+
+export const diffLine = z.object({
+  kind: z.enum(['same', 'added', 'removed']),
+  text: z.string(),
+  /** 1-based line in the old text (null for added lines) */
+  oldLine: z.number().nullable(),
+  /** 1-based line in the new text (null for removed lines) */
+  newLine: z.number().nullable(),
+})
+export type DiffLine = z.infer<typeof diffLine>
+
+export const parameterChangeFields = ['value', 'bounds', 'unit', 'fixed'] as const
+export const parameterChange = z.object({
+  name: z.string(),
+  change: z.enum(['added', 'removed', 'changed']),
+  /** for `changed`: which properties differ */
+  fields: z.array(z.enum(parameterChangeFields)),
+  before: summaryParameter.nullable(),
+  after: summaryParameter.nullable(),
+})
+export type ParameterChange = z.infer<typeof parameterChange>
+
+export const diffSide = z.object({ model: modelRefDto, version: z.number(), text: z.string() })
+export const diffReply = z.object({
+  from: diffSide,
+  to: diffSide,
+  lines: z.array(diffLine),
+  added: z.number(),
+  removed: z.number(),
+  parameters: z.array(parameterChange),
+})
+export type DiffReply = z.infer<typeof diffReply>
+
+export const deleteModelReply = z.object({ deleted: z.literal(true), id: z.number() })

@@ -1,0 +1,178 @@
+/**
+ * Fit runs: the request that starts one, its stored settings and provenance, progress and reply shapes.
+ * The result itself is the fitting issue's JSON (shared/api/fit.ts) plus the series the results pages plot.
+ */
+import { z } from 'zod'
+import { columnMapping } from './datasets'
+import { fitMethod, fitWeighting, landscapeResult } from './fit'
+
+export const runStatus = z.enum(['queued', 'running', 'succeeded', 'failed', 'cancelled'])
+export type RunStatus = z.infer<typeof runStatus>
+export const terminalStatuses: readonly RunStatus[] = ['succeeded', 'failed', 'cancelled']
+
+const weighting = fitWeighting
+
+/** A free quantity of the fit: a parameter or an estimated initial state, in the sheet's declared unit. */
+export const freeSpec = z.object({
+  name: z.string().min(1),
+  lower: z.number().optional(),
+  upper: z.number().optional(),
+  start: z.number().optional(),
+})
+export type FreeSpec = z.infer<typeof freeSpec>
+
+const freeList = z.array(z.union([z.string().min(1).transform((name) => ({ name })), freeSpec])).max(60)
+
+export const tolerances = z.object({
+  rtol: z.number().positive().max(1e-2).optional(),
+  atol: z.number().positive().optional(),
+  ftol: z.number().positive().max(0.5).optional(),
+  xtol: z.number().positive().max(0.5).optional(),
+  gtol: z.number().positive().max(0.5).optional(),
+  maxIterations: z.number().int().min(1).max(10_000).optional(),
+})
+export type Tolerances = z.infer<typeof tolerances>
+
+export const createRunBody = z.object({
+  modelId: z.coerce.number().int().positive(),
+  version: z.coerce.number().int().positive(),
+  name: z.string().trim().max(200).optional(),
+  bindingId: z.coerce.number().int().positive().optional(),
+  estimation: z.array(z.coerce.number().int().positive()).min(1, 'choose at least one estimation dataset').max(20),
+  validation: z.array(z.coerce.number().int().positive()).max(20).default([]),
+  /** overrides the binding's mapping (or the automatic match when there is no binding) */
+  mapping: columnMapping.optional(),
+  /** free parameters (default: the sheet's non-fixed ones, with the sheet's bounds and values) */
+  free: freeList.optional(),
+  /** initial states to estimate (default: those the sheet marks `estimate`) */
+  initialStates: freeList.optional(),
+  method: fitMethod.default('lm'),
+  starts: z.number().int().min(1).max(64).default(1),
+  weighting: weighting.default('sheet'),
+  tolerances: tolerances.default({}),
+  /** seed of the multi-start sampling (default: drawn and stored, so "run again" reproduces) */
+  seed: z.number().int().min(0).max(2 ** 31 - 1).optional(),
+})
+export type CreateRunBody = z.infer<typeof createRunBody>
+
+/** What a run row stores as its settings: every choice resolved, so the run can be reproduced. */
+export const runSettings = z.object({
+  name: z.string(),
+  bindingId: z.number().nullable(),
+  estimation: z.array(z.number()),
+  validation: z.array(z.number()),
+  mapping: columnMapping,
+  free: z.array(z.object({ name: z.string(), lower: z.number(), upper: z.number(), start: z.number() })),
+  initialStates: z.array(z.object({ name: z.string(), lower: z.number(), upper: z.number(), start: z.number() })),
+  method: fitMethod,
+  starts: z.number(),
+  weighting,
+  tolerances,
+  seed: z.number(),
+  /** set on a run started with "run again" */
+  rerunOf: z.number().nullable(),
+})
+export type RunSettings = z.infer<typeof runSettings>
+
+export const provenance = z.object({
+  modelId: z.number(),
+  modelVersion: z.number(),
+  modelVersionId: z.number(),
+  /** sha-256 of the sheet text */
+  sheetHash: z.string(),
+  datasets: z.array(z.object({ id: z.number(), name: z.string(), contentHash: z.string(), role: z.enum(['estimation', 'validation']) })),
+  engineVersion: z.string(),
+  seed: z.number(),
+  createdAt: z.string(),
+})
+export type Provenance = z.infer<typeof provenance>
+
+export const runProgress = z.object({
+  /** iteration of the current start */
+  iteration: z.number(),
+  cost: z.number().nullable(),
+  /** best cost per iteration so far (thinned to at most 500 points) */
+  costHistory: z.array(z.number()),
+  /** 0..1, an estimate */
+  fraction: z.number(),
+  start: z.number(),
+  starts: z.number(),
+  message: z.string(),
+  updatedAt: z.string(),
+})
+export type RunProgress = z.infer<typeof runProgress>
+
+/** Measured against simulated output for one experiment (time in seconds, values in the column's unit). */
+/** Measured against simulated output for one experiment (time in seconds, values in the sheet's declared unit). */
+export const outputTrace = z.object({
+  experiment: z.number(),
+  datasetId: z.number(),
+  datasetName: z.string(),
+  validation: z.boolean(),
+  output: z.string(),
+  column: z.string(),
+  unit: z.string(),
+  t: z.array(z.number()),
+  measured: z.array(z.number().nullable()),
+  simulated: z.array(z.number().nullable()),
+})
+export type OutputTrace = z.infer<typeof outputTrace>
+
+export const landscapeDto = landscapeResult
+export type LandscapeDto = z.infer<typeof landscapeDto>
+
+export const landscapeQuery = z.object({
+  a: z.string().min(1),
+  b: z.string().min(1),
+  n: z.coerce.number().int().min(5).max(41).default(21),
+})
+
+export const runSummaryDto = z.object({
+  id: z.number(),
+  projectId: z.number(),
+  projectName: z.string(),
+  modelId: z.number(),
+  modelTitle: z.string(),
+  modelVersion: z.number(),
+  name: z.string(),
+  status: runStatus,
+  progress: runProgress.nullable(),
+  error: z.string().nullable(),
+  cancelRequested: z.boolean(),
+  createdAt: z.string(),
+  startedAt: z.string().nullable(),
+  finishedAt: z.string().nullable(),
+  createdBy: z.number().nullable(),
+  /** weighted cost at the estimate, when finished */
+  sse: z.number().nullable(),
+})
+export type RunSummaryDto = z.infer<typeof runSummaryDto>
+
+export const runDto = runSummaryDto.extend({
+  settings: runSettings,
+  provenance,
+  /** the fit JSON (shared/api/fit.ts) plus `traces` and `landscape` for the plots */
+  result: z.record(z.string(), z.unknown()).nullable(),
+  caution: z.string(),
+})
+export type RunDto = z.infer<typeof runDto>
+
+export const saveParameterSetBody = z.object({ name: z.string().trim().min(1).max(200) })
+export const publishFromRunBody = z.object({ note: z.string().trim().max(2000).optional() })
+
+export const parameterSetDto = z.object({
+  id: z.number(),
+  projectId: z.number(),
+  runId: z.number().nullable(),
+  modelId: z.number(),
+  name: z.string(),
+  values: z.record(z.string(), z.object({ value: z.number(), unit: z.string() })),
+  createdAt: z.string(),
+})
+export type ParameterSetDto = z.infer<typeof parameterSetDto>
+
+/**
+ * Shown on every result and written into every export (issue 7, item 6).
+ */
+export const RESULT_CAUTION =
+  'Caution: a fitted model holds only within the range of the data it was fitted to. Verify it before using it for control, protection or safety decisions, and follow your site\'s procedures and the applicable codes.'

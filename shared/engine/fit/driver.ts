@@ -1,0 +1,215 @@
+/**
+ * The fit driver: starting points, one optimisation per start, the best kept, the result assembled.
+ * `planStarts`, `fitFromStart` and `pickBest` are separate so a caller can run starts on workers;
+ * `runFitWith` does it all in this thread (or through the caller's `runStarts`).
+ *
+ * Default fit tolerances, tied to the integration tolerance rtol (default 1e-8): ftol = xtol = gtol =
+ * clamp(10·rtol, 1e-14, 1e-4). Below about rtol the simulated cost itself is only known to about
+ * rtol, so tighter tests would chase integration noise; when no step lowers the cost any more the
+ * fit stops with "no further decrease possible".
+ */
+import type { CompiledModel } from '../../sheet/compiled'
+import type { FitMethod, FitResult, FitWeighting } from '../../api/fit'
+import type { SolverName } from '../simulate-contract'
+import { FitProblem, type ProblemSpec, type Simulate } from './problem'
+import { levenbergMarquardt } from './lm'
+import { nelderMeadFit } from './nelder-mead'
+import { latinHypercube } from './lhs'
+import { FitAborted, type OptimiseResult, type ProgressInfo, type StopStatus } from './lsq'
+import { buildResult } from './result'
+import { equationErrorEstimate, type EquationErrorEstimate } from './equation-error'
+
+export interface FitOptions {
+  method?: FitMethod
+  /** Latin-hypercube starts in addition to the sheet's values (default 0) */
+  starts?: number
+  seed?: number
+  rtol?: number
+  atol?: number
+  solver?: SolverName
+  maxSteps?: number
+  maxIterations?: number
+  ftol?: number
+  xtol?: number
+  gtol?: number
+  /** log coordinates for positive parameters whose bounds span more than two decades (default true) */
+  logTransform?: boolean
+  /** wall-clock budget for the whole estimation, ms */
+  timeBudgetMs?: number
+  signal?: AbortSignal
+  onProgress?: (info: ProgressInfo) => void
+  /** names of estimated quantities wanting a profile-likelihood interval */
+  profile?: string[]
+  landscape?: { x: string; y: string; n?: number; xRange?: [number, number]; yRange?: [number, number] }
+  /** equation-error (one-step-ahead OLS) estimate: 'compare' adds the comparison row, 'start' also starts from it */
+  equationError?: 'compare' | 'start'
+  /** run the planned starts elsewhere (workers); must return one outcome per plan, in any order */
+  runStarts?: (plans: StartPlan[]) => Promise<StartOutcome[]>
+}
+
+export interface StartPlan {
+  index: number
+  /** 'sheet' | 'lhs' | 'equation-error' */
+  origin: string
+  theta: number[]
+}
+
+export interface StartOutcome {
+  index: number
+  start: number[]
+  theta: number[]
+  /** the weighted cost at theta */
+  cost: number
+  /** what starts are compared by: the cost, or for ml weighting Σ N_j ln(SSE_j/N_j) */
+  objective: number
+  status: StopStatus
+  reason: string
+  iterations: number
+  simulations: number
+  costHistory: number[]
+  /** ml weighting: the final weight per output index */
+  weights: number[] | null
+}
+
+export interface ResolvedTolerances {
+  rtol: number
+  atol: number
+  ftol: number
+  xtol: number
+  gtol: number
+}
+
+export function resolveTolerances(opts: FitOptions): ResolvedTolerances {
+  const rtol = opts.rtol ?? 1e-8
+  const atol = opts.atol ?? rtol * 1e-2
+  const tied = Math.min(1e-4, Math.max(1e-14, 10 * rtol))
+  return { rtol, atol, ftol: opts.ftol ?? tied, xtol: opts.xtol ?? tied, gtol: opts.gtol ?? tied }
+}
+
+export function makeProblem(model: CompiledModel, spec: ProblemSpec, simulate: Simulate, opts: FitOptions): FitProblem {
+  const tol = resolveTolerances(opts)
+  return new FitProblem(model, spec, simulate, { rtol: tol.rtol, atol: tol.atol, solver: opts.solver, signal: opts.signal, maxSteps: opts.maxSteps })
+}
+
+/** The starting points: the sheet's values (or --set), then `starts` Latin-hypercube points. */
+export function planStarts(
+  model: CompiledModel, spec: ProblemSpec, opts: FitOptions, simulate: Simulate, eqErr?: EquationErrorEstimate | null,
+): StartPlan[] {
+  const prob = makeProblem(model, spec, simulate, opts)
+  const plans: StartPlan[] = [{ index: 0, origin: 'sheet', theta: Array.from(prob.start) }]
+  if (eqErr && opts.equationError === 'start') {
+    const th = Array.from(prob.start)
+    eqErr.quantityIndex.forEach((q, k) => {
+      th[q] = Math.min(prob.upper[q], Math.max(prob.lower[q], eqErr.theta[k]))
+    })
+    plans.push({ index: plans.length, origin: 'equation-error', theta: th })
+  }
+  const nLhs = Math.max(0, Math.floor(opts.starts ?? 0))
+  if (nLhs > 0) {
+    for (const pt of latinHypercube(prob.lower, prob.upper, nLhs, opts.seed ?? 1, opts.logTransform ?? true)) {
+      plans.push({ index: plans.length, origin: 'lhs', theta: Array.from(pt) })
+    }
+  }
+  return plans
+}
+
+async function optimiseOnce(prob: FitProblem, theta0: ArrayLike<number>, opts: FitOptions, deadline: number | undefined, start: number): Promise<OptimiseResult> {
+  const tol = resolveTolerances(opts)
+  const o = {
+    maxIterations: opts.maxIterations, ftol: tol.ftol, xtol: tol.xtol, gtol: tol.gtol,
+    logTransform: opts.logTransform ?? true, signal: opts.signal, deadline,
+    onIteration: opts.onProgress ? (info: ProgressInfo) => opts.onProgress!({ ...info, start }) : undefined,
+  }
+  try {
+    return opts.method === 'nelder-mead' ? nelderMeadFit(prob, theta0, o) : await levenbergMarquardt(prob, theta0, o)
+  } catch (e) {
+    if (e instanceof FitAborted) {
+      return { theta: Float64Array.from(theta0), cost: NaN, status: 'aborted', reason: 'aborted by the caller', iterations: 0, evaluations: 0, costHistory: [] }
+    }
+    throw e
+  }
+}
+
+/** One optimisation from one start (ml weighting: alternating weighted fits and variance updates). */
+export async function fitFromStart(
+  model: CompiledModel, spec: ProblemSpec, plan: StartPlan, opts: FitOptions, simulate: Simulate, deadline?: number,
+): Promise<StartOutcome> {
+  const prob = makeProblem(model, spec, simulate, opts)
+  const ny = model.ny
+  let res = await optimiseOnce(prob, plan.theta, opts, deadline, plan.index)
+  let iterations = res.iterations
+  const history = [...res.costHistory]
+  let weights: number[] | null = null
+  let objective = res.cost
+  if (prob.weighting === 'ml' && res.status !== 'failed' && res.status !== 'aborted') {
+    for (let round = 0; round < 30; round++) {
+      const u = prob.unweightedSsePerOutput(res.theta)
+      if (!u) break
+      const change = prob.updateMlWeights(u.sse, u.counts)
+      if (change < 1e-8) break
+      const next = await optimiseOnce(prob, res.theta, opts, deadline, plan.index)
+      iterations += next.iterations
+      history.push(...next.costHistory)
+      res = next
+      if (res.status === 'failed' || res.status === 'aborted' || res.status === 'stopped') break
+    }
+    const u = prob.unweightedSsePerOutput(res.theta)
+    weights = Array.from({ length: ny }, (_, j) => prob.experiments.find((e) => e.outputCount[j] > 0)?.weights[j] ?? 1)
+    if (u) {
+      objective = 0
+      for (let j = 0; j < ny; j++) if (u.counts[j] > 0) objective += u.counts[j] * Math.log(u.sse[j] / u.counts[j])
+    }
+  }
+  return {
+    index: plan.index, start: plan.theta, theta: Array.from(res.theta), cost: res.cost, objective,
+    status: res.status, reason: res.reason, iterations, simulations: prob.simulations, costHistory: history, weights,
+  }
+}
+
+/** The best outcome: lowest objective among those that did not fail. */
+export function pickBest(outcomes: StartOutcome[]): StartOutcome {
+  let best: StartOutcome | null = null
+  for (const o of outcomes) {
+    if (o.status === 'failed' || !Number.isFinite(o.objective)) continue
+    if (!best || o.objective < best.objective) best = o
+  }
+  return best ?? outcomes[0]
+}
+
+/** The whole fit in this thread (starts through `runStarts` when given). */
+export async function runFitWith(
+  model: CompiledModel, spec: ProblemSpec, opts: FitOptions, simulate: Simulate,
+): Promise<FitResult> {
+  const t0 = performance.now()
+  const deadline = opts.timeBudgetMs !== undefined ? Date.now() + opts.timeBudgetMs : undefined
+  const weighting: FitWeighting = spec.weighting ?? 'sheet'
+  // validate everything up front (throws FitInputError)
+  const probe = makeProblem(model, spec, simulate, opts)
+  let eqErr: EquationErrorEstimate | null = null
+  const eqWarnings: string[] = []
+  if (opts.equationError) {
+    try {
+      eqErr = equationErrorEstimate(probe)
+    } catch (e) {
+      eqWarnings.push(`equation-error estimate not available: ${e instanceof Error ? e.message : String(e)}`)
+    }
+  }
+  const plans = planStarts(model, spec, opts, simulate, eqErr)
+  let outcomes: StartOutcome[]
+  if (opts.runStarts && plans.length > 1) {
+    outcomes = await opts.runStarts(plans)
+    outcomes.sort((a, b) => a.index - b.index)
+  } else {
+    outcomes = []
+    for (const plan of plans) {
+      if (opts.signal?.aborted) break
+      if (deadline !== undefined && Date.now() > deadline && outcomes.length > 0) break
+      outcomes.push(await fitFromStart(model, spec, plan, opts, simulate, deadline))
+    }
+  }
+  const best = pickBest(outcomes)
+  return buildResult({
+    model, spec, opts, simulate, best, outcomes, weighting, eqErr, extraWarnings: eqWarnings,
+    startedAt: t0, deadline,
+  })
+}

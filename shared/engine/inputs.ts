@@ -1,0 +1,234 @@
+/**
+ * Input traces: interpolation (linear or hold), breakpoints, delayed reads.
+ *
+ * Slot layout follows the compiled model (shared/sheet/compiled.ts): slots 0..nu-1 are the inputs,
+ * slot nu+k is input `delays[k].input` read at t − d_k with d_k = tau_k / secondsPerTimeUnit (tau is
+ * in seconds, internal units; t in sheet time units).
+ *
+ * Rules:
+ * - linear: straight line between samples; hold: the value of the last sample at or before t.
+ * - before the first sample the first value holds; past the last sample the last value holds and a
+ *   warning is added. A delayed read before t0 takes the value at t0 (the first value when the trace
+ *   starts at or after t0).
+ * - every sample time (and, for a delayed slot, every sample time + d) is a breakpoint: the engine
+ *   integrates segment by segment and evaluates the right-hand side with the segment's own
+ *   interpolation formula up to and including its right end (left limit at a jump), so a hold step
+ *   is resolved exactly without restarting the solver.
+ * - ∂u(t − d)/∂tau = −u'(t − d)/secondsPerTimeUnit: the slope of the interval for linear traces,
+ *   zero for hold traces (a piecewise constant trace has no classical derivative) and outside the
+ *   trace.
+ */
+import type { CompiledModel } from '../sheet/compiled'
+import type { InputTrace } from './simulate-contract'
+import { InputTraceError, fmt } from './errors'
+
+interface Slot {
+  name: string
+  hold: boolean
+  trace: InputTrace | null
+  value: number
+  /** delay in sheet time units (0 for a direct input) */
+  shift: number
+  delayed: boolean
+  /** interval index of the current segment: i with t_i <= tq < t_{i+1}; -1 before the first sample */
+  idx: number
+  /** the current segment reads a delayed slot before t0 (clamped to t0) */
+  clamped: boolean
+}
+
+export class InputSet {
+  readonly nSlots: number
+  private slots: Slot[] = []
+  readonly hasHold: boolean
+  readonly hasTraces: boolean
+  private t0 = 0
+
+  constructor(model: CompiledModel, traces: readonly (InputTrace | null | undefined)[] | undefined) {
+    const nu = model.nu
+    const tr: (InputTrace | null)[] = []
+    for (let i = 0; i < nu; i++) tr.push(traces?.[i] ?? null)
+    if (traces && traces.length > nu) {
+      throw new InputTraceError(`#${nu + 1}`, null, `the model has ${nu} input(s) but ${traces.length} traces were given`)
+    }
+    for (let i = 0; i < nu; i++) {
+      const info = model.inputs[i]
+      if (tr[i] !== null) validateTrace(info.name, tr[i] as InputTrace)
+      this.slots.push({ name: info.name, hold: info.interp === 'hold', trace: tr[i], value: info.value, shift: 0, delayed: false, idx: -1, clamped: false })
+    }
+    for (let k = 0; k < model.nd; k++) {
+      const d = model.delays[k]
+      const info = model.inputs[d.input]
+      this.slots.push({ name: info.name, hold: info.interp === 'hold', trace: tr[d.input], value: info.value, shift: 0, delayed: true, idx: -1, clamped: false })
+    }
+    this.nSlots = this.slots.length
+    this.hasHold = this.slots.some((s) => s.trace !== null && s.hold)
+    this.hasTraces = this.slots.some((s) => s.trace !== null)
+  }
+
+  /** set the delays from the parameter vector; returns warnings about traces not covering [t0, tEnd] */
+  prepare(model: CompiledModel, p: Float64Array, t0: number, tEnd: number): string[] {
+    this.t0 = t0
+    const warnings: string[] = []
+    for (let k = 0; k < model.nd; k++) {
+      const d = model.delays[k]
+      const tau = d.param === null ? d.constValue : p[d.param]
+      if (!(tau >= 0) || !Number.isFinite(tau)) {
+        throw new InputTraceError(model.inputs[d.input].name, null, `delay must be a finite value >= 0, got ${tau} s`)
+      }
+      this.slots[model.nu + k].shift = tau / model.secondsPerTimeUnit
+    }
+    for (const s of this.slots) {
+      s.idx = -1
+      if (s.trace === null || s.delayed) continue
+      const tt = s.trace.t
+      const last = tt[tt.length - 1]
+      if (tEnd > last) warnings.push(`input '${s.name}': trace ends at t = ${fmt(last)}; its last value is held to t = ${fmt(tEnd)}`)
+      if (tt[0] > t0) warnings.push(`input '${s.name}': trace starts at t = ${fmt(tt[0])}, after t0 = ${fmt(t0)}; its first value is held before that`)
+    }
+    return warnings
+  }
+
+  /** sorted distinct breakpoints strictly inside (t0, tEnd) */
+  breakpoints(t0: number, tEnd: number): Float64Array {
+    const pts: number[] = []
+    for (const s of this.slots) {
+      if (s.trace === null) continue
+      const tt = s.trace.t
+      for (let i = 0; i < tt.length; i++) {
+        const b = tt[i] + s.shift
+        if (b > t0 && b < tEnd) pts.push(b)
+      }
+      if (s.delayed) {
+        const b = t0 + s.shift
+        if (b > t0 && b < tEnd) pts.push(b)
+      }
+    }
+    pts.sort((a, b) => a - b)
+    const out: number[] = []
+    for (const b of pts) {
+      const prev = out.length ? out[out.length - 1] : t0
+      if (b - prev > 1e-13 * Math.max(1, Math.abs(b))) out.push(b)
+    }
+    return Float64Array.from(out)
+  }
+
+  /** fix every slot's interval for the segment containing tMid (strictly inside it) */
+  setSegment(tMid: number): void {
+    for (const s of this.slots) {
+      if (s.trace === null) continue
+      let q = tMid - s.shift
+      s.clamped = s.delayed && q < this.t0
+      if (s.clamped) q = this.t0
+      s.idx = locate(s.trace.t, q, s.idx)
+    }
+  }
+
+  /** values for the current segment at time t (the segment's formula, also at its ends) */
+  eval(t: number, u: Float64Array): void {
+    const slots = this.slots
+    for (let k = 0; k < slots.length; k++) {
+      const s = slots[k]
+      const tr = s.trace
+      if (tr === null) {
+        u[k] = s.value
+        continue
+      }
+      let q = t - s.shift
+      if (s.delayed && q < this.t0) q = this.t0
+      u[k] = valueIn(tr, s.idx, q, s.hold)
+    }
+  }
+
+  /** du/dt of each slot in the current segment (0 for hold and outside a trace) */
+  slope(du: Float64Array): void {
+    const slots = this.slots
+    for (let k = 0; k < slots.length; k++) {
+      const s = slots[k]
+      du[k] = s.trace === null || s.hold || s.clamped ? 0 : slopeIn(s.trace, s.idx)
+    }
+  }
+
+  /** values and slopes at an exact time t (right-continuous: at a sample time, that sample's interval) */
+  evalAt(t: number, u: Float64Array, du: Float64Array | null): void {
+    const slots = this.slots
+    for (let k = 0; k < slots.length; k++) {
+      const s = slots[k]
+      const tr = s.trace
+      if (tr === null) {
+        u[k] = s.value
+        if (du) du[k] = 0
+        continue
+      }
+      let q = t - s.shift
+      const clamped = s.delayed && q < this.t0
+      if (clamped) q = this.t0
+      const i = locate(tr.t, q, -1)
+      u[k] = valueIn(tr, i, q, s.hold)
+      if (du) du[k] = s.hold || clamped ? 0 : slopeIn(tr, i)
+    }
+  }
+
+  /** which slots depend on parameter j through their delay (for ∂/∂tau), as slot indices */
+  delaySlotsOf(model: CompiledModel, j: number): number[] {
+    const out: number[] = []
+    for (let k = 0; k < model.nd; k++) if (model.delays[k].param === j) out.push(model.nu + k)
+    return out
+  }
+
+  /** whether slot k's delayed read lies before t0 at time t (then ∂/∂tau is 0) */
+  clampedAt(k: number, t: number): boolean {
+    const s = this.slots[k]
+    return s.delayed && t - s.shift < this.t0
+  }
+}
+
+function validateTrace(name: string, tr: InputTrace): void {
+  const n = tr.t.length
+  if (n === 0) throw new InputTraceError(name, null, 'the trace has no samples')
+  if (tr.v.length !== n) throw new InputTraceError(name, null, `${n} sample times but ${tr.v.length} values`)
+  for (let i = 0; i < n; i++) {
+    const ti = tr.t[i]
+    if (!Number.isFinite(ti)) throw new InputTraceError(name, i + 1, `sample time is ${ti}`)
+    if (i > 0 && !(ti > tr.t[i - 1])) {
+      throw new InputTraceError(name, i + 1, `sample times must increase: t = ${fmt(ti)} follows t = ${fmt(tr.t[i - 1])}`)
+    }
+    const v = tr.v[i]
+    if (Number.isNaN(v)) throw new InputTraceError(name, i + 1, `value is NaN at t = ${fmt(ti)}`)
+    if (!Number.isFinite(v)) throw new InputTraceError(name, i + 1, `value is ${v} at t = ${fmt(ti)}`)
+  }
+}
+
+/** largest i with t[i] <= q (−1 when q < t[0]); `hint` is the previous answer */
+function locate(t: Float64Array, q: number, hint: number): number {
+  const n = t.length
+  if (q < t[0]) return -1
+  if (q >= t[n - 1]) return n - 1
+  if (hint >= 0 && hint < n - 1) {
+    if (t[hint] <= q && q < t[hint + 1]) return hint
+    if (hint + 2 < n && t[hint + 1] <= q && q < t[hint + 2]) return hint + 1
+  }
+  let lo = 0
+  let hi = n - 1
+  while (hi - lo > 1) {
+    const mid = (lo + hi) >> 1
+    if (t[mid] <= q) lo = mid
+    else hi = mid
+  }
+  return lo
+}
+
+function valueIn(tr: InputTrace, i: number, q: number, hold: boolean): number {
+  const v = tr.v
+  if (i < 0) return v[0]
+  const n = v.length
+  if (i >= n - 1) return v[n - 1]
+  if (hold) return v[i]
+  const t = tr.t
+  return v[i] + ((q - t[i]) * (v[i + 1] - v[i])) / (t[i + 1] - t[i])
+}
+
+function slopeIn(tr: InputTrace, i: number): number {
+  const n = tr.v.length
+  if (i < 0 || i >= n - 1) return 0
+  return (tr.v[i + 1] - tr.v[i]) / (tr.t[i + 1] - tr.t[i])
+}

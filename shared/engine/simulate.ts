@@ -1,0 +1,271 @@
+/**
+ * simulate(model, request): integrate a compiled sheet over the requested output times, with
+ * measured input traces and, on request, forward sensitivities ∂x/∂θ and ∂y/∂θ.
+ *
+ * - Starts at t0 (default 0), never at the first sample of a trace.
+ * - Integrates segment by segment between input breakpoints (every sample time, shifted by each
+ *   delay for delayed reads); the solver lands on each breakpoint and keeps its step size.
+ * - Outputs come at exactly the requested times from the method's dense output.
+ * - Steady initial states are solved first (steady.ts); discrete sheets iterate (discrete.ts).
+ * - Sensitivity error control: ∂x_i/∂θ_j · |θ_j| (|θ_j| = 1 when θ_j = 0) is measured like state i;
+ *   `errorControl: false` leaves sensitivities out of it.
+ * - Work buffers are cached per model and sensitivity layout: repeated calls (a fit) do not allocate
+ *   beyond the result arrays.
+ */
+import type { CompiledModel } from '../sheet/compiled'
+import type { SimulationRequest, SimulationResult, SolverName } from './simulate-contract'
+import { SimulationRequestError, fmt } from './errors'
+import { InputSet } from './inputs'
+import { ModelSystem, type SensSpec } from './system'
+import { solveSteady, steadyIndices } from './steady'
+import { simulateDiscrete } from './discrete'
+import { AutoSolver } from './solvers/auto'
+import { OdexSolver } from './solvers/odex'
+import { Rk45 } from './solvers/rk45'
+import { Rosenbrock } from './solvers/rosenbrock'
+import { now, type OdeSolver, type SolverLimits, type Tolerances } from './solvers/types'
+
+export const DEFAULT_RTOL = 1e-6
+export const DEFAULT_MAX_STEPS = 100_000
+
+interface Workspace {
+  sys: ModelSystem
+  solvers: Partial<Record<SolverName, OdeSolver>>
+  tol: Tolerances
+  z0: Float64Array
+  zd: Float64Array
+  uo: Float64Array
+  duo: Float64Array
+  yo: Float64Array
+  gx: Float64Array
+  gp: Float64Array
+  gu: Float64Array
+}
+
+const cache = new WeakMap<CompiledModel, Map<string, Workspace>>()
+
+function workspace(model: CompiledModel, sens: SensSpec[]): Workspace {
+  let m = cache.get(model)
+  if (!m) {
+    m = new Map()
+    cache.set(model, m)
+  }
+  const key = sens.map((s) => `${s.param}:${s.state}`).join(',')
+  let ws = m.get(key)
+  if (!ws) {
+    const sys = new ModelSystem(model, sens)
+    const nuu = model.nu + model.nd
+    ws = {
+      sys,
+      solvers: {},
+      tol: { rtol: DEFAULT_RTOL, atol: new Float64Array(model.nx), weight: new Float64Array(sys.n) },
+      z0: new Float64Array(sys.n),
+      zd: new Float64Array(sys.n),
+      uo: new Float64Array(Math.max(1, nuu)),
+      duo: new Float64Array(Math.max(1, nuu)),
+      yo: new Float64Array(Math.max(1, model.ny)),
+      gx: new Float64Array(Math.max(1, model.ny * model.nx)),
+      gp: new Float64Array(Math.max(1, model.ny * model.np)),
+      gu: new Float64Array(Math.max(1, model.ny * nuu)),
+    }
+    if (m.size > 16) m.clear()
+    m.set(key, ws)
+  }
+  return ws
+}
+
+function solverFor(ws: Workspace, name: SolverName): OdeSolver {
+  let s = ws.solvers[name]
+  if (!s) {
+    s = name === 'rk45' ? new Rk45() : name === 'stiff' ? new Rosenbrock() : name === 'odex' ? new OdexSolver() : new AutoSolver()
+    ws.solvers[name] = s
+  }
+  return s
+}
+
+/** validated sensitivity layout θ = [params…, initialStates…] */
+export function sensLayout(model: CompiledModel, req: SimulationRequest): SensSpec[] {
+  const out: SensSpec[] = []
+  const sp = req.sensitivities
+  if (!sp) return out
+  for (const j of sp.params) {
+    if (!Number.isInteger(j) || j < 0 || j >= model.np) throw new SimulationRequestError(`sensitivity parameter index ${j} out of range 0..${model.np - 1}`)
+    const delaySlots: number[] = []
+    for (let k = 0; k < model.nd; k++) if (model.delays[k].param === j) delaySlots.push(model.nu + k)
+    out.push({ param: j, state: -1, delaySlots })
+  }
+  for (const i of sp.initialStates) {
+    if (!Number.isInteger(i) || i < 0 || i >= model.nx) throw new SimulationRequestError(`sensitivity state index ${i} out of range 0..${model.nx - 1}`)
+    out.push({ param: -1, state: i, delaySlots: [] })
+  }
+  return out
+}
+
+function validate(model: CompiledModel, req: SimulationRequest, t0: number): void {
+  const tOut = req.tOut
+  if (!(tOut instanceof Float64Array)) throw new SimulationRequestError('tOut must be a Float64Array of output times')
+  if (!Number.isFinite(t0)) throw new SimulationRequestError(`t0 must be finite, got ${t0}`)
+  for (let i = 0; i < tOut.length; i++) {
+    const t = tOut[i]
+    if (!Number.isFinite(t)) throw new SimulationRequestError(`output time #${i + 1} is ${t}`)
+    if (t < t0) throw new SimulationRequestError(`output time #${i + 1} (t = ${fmt(t)}) is before t0 = ${fmt(t0)}`)
+    if (i > 0 && t < tOut[i - 1]) throw new SimulationRequestError(`output times out of order: #${i + 1} (t = ${fmt(t)}) comes after t = ${fmt(tOut[i - 1])}`)
+  }
+  if (req.p && req.p.length !== model.np) throw new SimulationRequestError(`p has ${req.p.length} entries, the model has ${model.np} parameters`)
+  if (req.x0 && req.x0.length !== model.nx) throw new SimulationRequestError(`x0 has ${req.x0.length} entries, the model has ${model.nx} states`)
+  const rtol = req.rtol ?? DEFAULT_RTOL
+  if (!(rtol > 0 && rtol < 1)) throw new SimulationRequestError(`rtol must be in (0, 1), got ${rtol}`)
+  if (req.atol instanceof Float64Array && req.atol.length !== model.nx) throw new SimulationRequestError(`atol has ${req.atol.length} entries, the model has ${model.nx} states`)
+  if (req.maxSteps !== undefined && !(req.maxSteps >= 1)) throw new SimulationRequestError(`maxSteps must be >= 1, got ${req.maxSteps}`)
+  if (req.solver && !['auto', 'rk45', 'odex', 'stiff'].includes(req.solver)) throw new SimulationRequestError(`unknown solver '${req.solver}'`)
+}
+
+export function simulate(model: CompiledModel, req: SimulationRequest): SimulationResult {
+  const t0 = req.t0 ?? 0
+  validate(model, req, t0)
+  if (req.signal?.aborted) throw new SimulationRequestError('aborted before start')
+  const sens = sensLayout(model, req)
+  const ws = workspace(model, sens)
+  const { sys, tol, z0 } = ws
+  const nx = model.nx
+  const ns = sens.length
+  const tOut = req.tOut
+  const nt = tOut.length
+  const tEnd = nt > 0 ? tOut[nt - 1] : t0
+
+  // parameters, inputs
+  const p = sys.p
+  if (req.p) p.set(req.p)
+  else for (let j = 0; j < model.np; j++) p[j] = model.params[j].value
+  const inputs = new InputSet(model, req.inputs)
+  const warnings = inputs.prepare(model, p, t0, tEnd)
+  sys.inputs = inputs
+
+  // initial state and sensitivities
+  z0.fill(0)
+  for (let i = 0; i < nx; i++) z0[i] = req.x0 ? req.x0[i] : model.states[i].initial
+  for (let j = 0; j < ns; j++) if (sens[j].state >= 0) z0[(j + 1) * nx + sens[j].state] = 1
+  const steady = steadyIndices(model)
+  if (steady.length > 0) {
+    inputs.evalAt(t0, ws.uo, ws.duo)
+    for (let j = 0; j < ns; j++) if (sens[j].state >= 0 && model.states[sens[j].state].steady) z0[(j + 1) * nx + sens[j].state] = 0
+    solveSteady(model, t0, z0, p, ws.uo, steady, ns > 0 ? sens : null, ns > 0 ? z0.subarray(nx) : null, ws.duo)
+  }
+  const x0 = Float64Array.from(z0.subarray(0, nx))
+
+  // tolerances
+  const rtol = req.rtol ?? DEFAULT_RTOL
+  tol.rtol = rtol
+  for (let i = 0; i < nx; i++) {
+    const a = req.atol === undefined ? rtol * 1e-3 : typeof req.atol === 'number' ? req.atol : req.atol[i]
+    if (!(a > 0)) throw new SimulationRequestError(`atol for state '${model.states[i].name}' must be > 0, got ${a}`)
+    tol.atol[i] = a
+  }
+  const sensCtl = req.sensitivities?.errorControl !== false
+  for (let i = 0; i < nx; i++) tol.weight[i] = 1
+  for (let j = 0; j < ns; j++) {
+    const th = sens[j].param >= 0 ? p[sens[j].param] : x0[sens[j].state]
+    const w = sensCtl ? (th === 0 || !Number.isFinite(th) ? 1 : Math.abs(th)) : 0
+    for (let i = 0; i < nx; i++) tol.weight[(j + 1) * nx + i] = w
+  }
+
+  const res: SimulationResult = {
+    t: Float64Array.from(tOut),
+    y: new Float64Array(nt * model.ny),
+    x: new Float64Array(nt * nx),
+    dy: ns > 0 ? new Float64Array(nt * model.ny * ns) : null,
+    dx: ns > 0 ? new Float64Array(nt * nx * ns) : null,
+    x0,
+    stats: { method: 'rk45', switched: false, steps: 0, rejected: 0, rhsEvals: 0, jacEvals: 0, luDecomps: 0, elapsedMs: 0 },
+    warnings,
+  }
+  const start = now()
+  const limits: SolverLimits = {
+    maxSteps: req.maxSteps ?? DEFAULT_MAX_STEPS,
+    deadline: req.timeBudgetMs !== undefined ? start + req.timeBudgetMs : Infinity,
+    budgetMs: req.timeBudgetMs ?? 0,
+    signal: req.signal ?? null,
+    stateNames: model.states.map((s) => s.name),
+    fixedStep: 0,
+  }
+
+  if (model.kind === 'discrete') {
+    simulateDiscrete(model, sys, inputs, z0, t0, res, limits, ws)
+    res.stats.elapsedMs = now() - start
+    return res
+  }
+
+  const name: SolverName = req.solver ?? 'auto'
+  const solver = solverFor(ws, name)
+  let iOut = 0
+  // outputs at t0
+  while (iOut < nt && tOut[iOut] <= t0) writeOut(model, ws, inputs, z0, iOut++, tOut[iOut - 1], res)
+  if (iOut < nt) {
+    solver.start(sys, tol, limits, t0, z0, 0)
+    const bps = inputs.breakpoints(t0, tEnd)
+    const zd = ws.zd
+    const obs = (_a: number, b: number): void => {
+      while (iOut < nt && tOut[iOut] <= b) {
+        const tq = tOut[iOut]
+        if (tq === b) writeOut(model, ws, inputs, solver.z, iOut, tq, res)
+        else {
+          solver.dense(tq, zd)
+          writeOut(model, ws, inputs, zd, iOut, tq, res)
+        }
+        iOut++
+      }
+    }
+    let a = t0
+    for (let k = 0; k <= bps.length; k++) {
+      const b = k < bps.length ? bps[k] : tEnd
+      inputs.setSegment(0.5 * (a + b))
+      if (k > 0 && inputs.hasHold) solver.breakpoint()
+      solver.advance(b, obs)
+      a = b
+    }
+    const c = solver.counters
+    res.stats.steps = c.steps
+    res.stats.rejected = c.rejected
+    res.stats.rhsEvals = c.rhsEvals
+    res.stats.jacEvals = c.jacEvals
+    res.stats.luDecomps = c.luDecomps
+  }
+  if (solver instanceof AutoSolver) {
+    res.stats.switched = solver.switched
+    res.stats.method = solver.switched ? `auto (rk45, switched to stiff at t = ${fmt(solver.switchedAt ?? 0)})` : 'auto (rk45)'
+  } else res.stats.method = solver.name
+  res.stats.elapsedMs = now() - start
+  return res
+}
+
+/** outputs and sensitivities at output index k from the state vector z = [x, s_1, …] */
+export function writeOut(model: CompiledModel, ws: Workspace, inputs: InputSet, z: Float64Array, k: number, t: number, res: SimulationResult): void {
+  const { nx, ny, np } = model
+  const nuu = model.nu + model.nd
+  const { uo, duo, yo, gx, gp, gu } = ws
+  const sens = ws.sys.sens
+  const ns = sens.length
+  const p = ws.sys.p
+  inputs.evalAt(t, uo, ns > 0 ? duo : null)
+  model.outputsFn(t, z, p, uo, yo)
+  for (let i = 0; i < nx; i++) res.x[k * nx + i] = z[i]
+  for (let i = 0; i < ny; i++) res.y[k * ny + i] = yo[i]
+  if (ns === 0 || res.dy === null || res.dx === null) return
+  model.dgdx(t, z, p, uo, gx)
+  model.dgdp(t, z, p, uo, gp)
+  if (nuu > 0) model.dgdu(t, z, p, uo, gu)
+  const spt = model.secondsPerTimeUnit
+  for (let j = 0; j < ns; j++) {
+    const sj = sens[j]
+    const off = (j + 1) * nx
+    for (let i = 0; i < nx; i++) res.dx[(k * nx + i) * ns + j] = z[off + i]
+    for (let i = 0; i < ny; i++) {
+      let acc = sj.param >= 0 ? gp[i * np + sj.param] : 0
+      for (let q = 0; q < nx; q++) acc += gx[i * nx + q] * z[off + q]
+      for (const slot of sj.delaySlots) acc -= (gu[i * nuu + slot] * duo[slot]) / spt
+      res.dy[(k * ny + i) * ns + j] = acc
+    }
+  }
+}
+
+export type { Workspace }

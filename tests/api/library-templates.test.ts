@@ -1,0 +1,75 @@
+/** The shipped templates: loaded into the demo workspace as version 1, never duplicated by later starts. */
+import { afterAll, beforeAll, describe, expect, it } from 'vitest'
+import { mkdtempSync, writeFileSync, copyFileSync } from 'node:fs'
+import os from 'node:os'
+import path from 'node:path'
+import { createContext } from '../../server/bootstrap'
+import { loadTemplates, readTemplates, templatesFolder } from '../../server/services/templates'
+import { checkSheet } from '../../server/services/sheet-check'
+import { demo, makeTestApp, signedIn, type TestApp } from '../helpers/app'
+import { drainSheet, drainSheetWithError, lagSheet } from './library-sheets'
+
+let t: TestApp
+beforeAll(async () => { t = await makeTestApp('library_templates') })
+afterAll(async () => { await t.close() })
+
+const templateRows = async () => (await t.context.database.pool.query(
+  "select m.template, m.title, (select count(*)::int from model_versions v where v.model_id = m.id) as versions from models m join workspaces w on w.id = m.workspace_id where w.slug = $1 and m.template is not null order by m.template", [demo.ws])).rows
+
+describe('templates from models/', () => {
+  it('loads every clean sheet of models/ into the demo workspace as version 1, once', async () => {
+    const shipped = readTemplates().filter((x) => checkSheet(x.text).ok).map((x) => x.file).sort()
+    const rows = await templateRows()
+    expect(rows.map((r) => r.template)).toEqual(shipped)
+    expect(rows.every((r) => r.versions === 1)).toBe(true)
+    // a second start of the server on the same database adds nothing
+    const again = await createContext({ databaseUrl: t.context.config.databaseUrl, rateLimitAuth: 10_000 })
+    await again.database.close()
+    expect(await templateRows()).toEqual(rows)
+  })
+
+  it('loads a folder of templates with title, header description and tags, skips a broken one, and is idempotent', async () => {
+    const folder = mkdtempSync(path.join(os.tmpdir(), 'pewter-templates-'))
+    writeFileSync(path.join(folder, 'drain.sheet'), drainSheet)
+    writeFileSync(path.join(folder, 'probe.sheet'), `# A temperature probe's first-order lag.\n# tags: probe, Sensors\n\n${lagSheet}`)
+    writeFileSync(path.join(folder, 'broken.sheet'), drainSheetWithError)
+    const logs: string[] = []
+    const first = await loadTemplates(t.context.db, t.context.database.pool, { folder, log: (m) => logs.push(m) })
+    expect(first).toEqual(['drain.sheet', 'probe.sheet'])
+    expect(logs.join('\n')).toMatch(/broken\.sheet not loaded: line 8, column 7: unknown name 'q_inn'/)
+    // concurrent later starts never duplicate
+    const again = await Promise.all([1, 2, 3].map(() => loadTemplates(t.context.db, t.context.database.pool, { folder, log: () => undefined })))
+    expect(again).toEqual([[], [], []])
+    const names = (await templateRows()).map((r) => r.template)
+    expect(names.filter((n) => n === 'drain.sheet')).toHaveLength(1)
+    expect(names.filter((n) => n === 'probe.sheet')).toHaveLength(1)
+    expect(names).not.toContain('broken.sheet')
+
+    const viewer = await signedIn(t.app, demo.viewer)
+    const list = (await viewer.get(`/api/workspaces/${demo.ws}/models`).query({ tag: 'template', q: 'probe', pageSize: 100 })).body.items
+    const probe = list.find((m: { template: string }) => m.template === 'probe.sheet')
+    expect(probe.title).toBe('Probe lag')
+    expect(probe.tags).toEqual(['template', 'probe', 'sensors'])
+    expect(probe.description).toMatch(/^A temperature probe's first-order lag\./)
+    expect(probe.owner.email).toBe(demo.admin)
+    expect(probe.latestVersion).toBe(1)
+    const detail = (await viewer.get(`/api/workspaces/${demo.ws}/models/${probe.id}/versions/1`)).body
+    expect(detail.text).toContain('model "Probe lag"')
+    expect(detail.note).toBe('Template shipped with Pewter (models/probe.sheet)')
+
+    // a template added to the folder later appears at the next start
+    copyFileSync(path.join(folder, 'drain.sheet'), path.join(folder, 'drain-copy.sheet'))
+    expect(await loadTemplates(t.context.db, t.context.database.pool, { folder })).toEqual(['drain-copy.sheet'])
+  })
+
+  it('loads nothing into a database without the demo workspace', async () => {
+    const bare = await makeTestApp('library_templates_bare', {}, { seed: false })
+    try {
+      expect(await loadTemplates(bare.context.db, bare.context.database.pool)).toEqual([])
+    } finally { await bare.close() }
+  })
+
+  it('ships its templates in models/', () => {
+    expect(templatesFolder.endsWith(`${path.sep}models`)).toBe(true)
+  })
+})

@@ -1,0 +1,120 @@
+import { describe, expect, it } from 'vitest'
+import { simulate, StepLimitError, Rosenbrock, ROS34PW2, transformRosenbrock, type OdeSystem, type SolverLimits } from '../../shared/engine'
+import { makeModel } from './helpers/model'
+
+// Van der Pol, scaled stiff form: problem VDPOL of the Test Set for IVP Solvers (F. Mazzia,
+// C. Magherini, Univ. Bari, release 2.4, 2008) and Hairer & Wanner, Solving ODEs II, Sec. IV.1,
+// eq. (1.5'): y1' = y2, y2' = ((1 − y1²) y2 − y1)/ε, ε = 1e-6, y(0) = (2, 0); reference solution
+// at t = 2 from the Test Set's description of VDPOL.
+const eps = 1e-6
+const vdpRef = [1.706167732170483, -0.8928097010247975]
+const vdp = makeModel({
+  title: 'vdpol',
+  states: [{ name: 'y1', initial: 2 }, { name: 'y2', initial: 0 }],
+  rhs: (t, y, p, u, o) => { o[0] = y[1]; o[1] = ((1 - y[0] * y[0]) * y[1] - y[0]) / eps },
+  dfdx: (t, y, p, u, o) => { o[0] = 0; o[1] = 1; o[2] = (-2 * y[0] * y[1] - 1) / eps; o[3] = (1 - y[0] * y[0]) / eps },
+})
+
+describe('stiff integration', () => {
+  it('VDPOL at rtol = atol = 1e-8: stiff and auto match the reference within 1e-5 relative; auto switches; rk45 needs > 50× the steps', () => {
+    const tOut = Float64Array.from([2])
+    const stiff = simulate(vdp, { tOut, solver: 'stiff', rtol: 1e-8, atol: 1e-8, maxSteps: 1e6 })
+    const auto = simulate(vdp, { tOut, solver: 'auto', rtol: 1e-8, atol: 1e-8, maxSteps: 1e6 })
+    for (const r of [stiff, auto]) {
+      for (let i = 0; i < 2; i++) expect(Math.abs(r.x[i] - vdpRef[i]) / Math.abs(vdpRef[i]), `${r.stats.method} y${i + 1}`).toBeLessThan(1e-5)
+    }
+    expect(auto.stats.switched).toBe(true)
+    expect(auto.stats.method).toMatch(/switched to stiff/)
+    expect(stiff.stats.jacEvals).toBeGreaterThan(0)
+    expect(stiff.stats.luDecomps).toBeGreaterThanOrEqual(stiff.stats.steps)
+    // rk45 with its step limit raised to 50× the stiff method's steps still does not reach t = 2
+    const limit = 50 * stiff.stats.steps
+    let err: unknown = null
+    try {
+      simulate(vdp, { tOut, solver: 'rk45', rtol: 1e-8, atol: 1e-8, maxSteps: limit })
+    } catch (e) {
+      err = e
+    }
+    expect(err).toBeInstanceOf(StepLimitError)
+    expect((err as StepLimitError).t).toBeLessThan(2)
+  })
+
+  it('ROS34PW2 coefficients satisfy the order conditions up to order 3 (Hairer & Wanner II, Table IV.7.1)', () => {
+    // b_i sums and the classical conditions of a Rosenbrock method with β_ij = α_ij + γ_ij
+    const s = 4
+    const g = ROS34PW2.gamma
+    const al = (i: number, j: number) => (j < i ? ROS34PW2.alpha[i][j] ?? 0 : 0)
+    const be = (i: number, j: number) => al(i, j) + (j < i ? ROS34PW2.gammaij[i][j] ?? 0 : 0)
+    const b = ROS34PW2.b
+    const ai = (i: number) => { let v = 0; for (let j = 0; j < s; j++) v += al(i, j); return v }
+    const bi = (i: number) => { let v = 0; for (let j = 0; j < s; j++) v += be(i, j); return v }
+    let s1 = 0, s2 = 0, s3a = 0, s3b = 0
+    for (let i = 0; i < s; i++) {
+      s1 += b[i]
+      s2 += b[i] * bi(i)
+      s3a += b[i] * ai(i) ** 2
+      let inner = 0
+      for (let k = 0; k < s; k++) inner += be(i, k) * bi(k)
+      s3b += b[i] * inner
+    }
+    // the published 17-digit coefficients satisfy them to about 1e-12
+    expect(s1).toBeCloseTo(1, 10)
+    expect(s2).toBeCloseTo(0.5 - g, 10)
+    expect(s3a).toBeCloseTo(1 / 3, 10)
+    expect(s3b).toBeCloseTo(1 / 6 - g + g * g, 10)
+    // the transformed weights reproduce y1 = y0 + Σ b_i k_i: m = bΓ⁻¹ ⇒ Σ_j m_j (Γ)_{j,·} = b
+    const T = transformRosenbrock(ROS34PW2)
+    for (let i = 0; i < s; i++) {
+      let v = 0
+      for (let j = i; j < s; j++) v += T.m[j] * (j === i ? g : ROS34PW2.gammaij[j][i])
+      expect(v).toBeCloseTo(b[i], 12)
+    }
+  })
+
+  it('observed order of convergence ≈ 3 for states and sensitivities on a problem with a known solution', () => {
+    // x' = −k (x − sin t) + cos t, x(0) = x0: x = sin t + x0 e^{−kt} (direct substitution, no source);
+    // s = ∂x/∂k obeys s' = −k s − (x − sin t), s(0) = 0: s = −t x0 e^{−kt}.
+    // The sensitivity block uses the state Jacobian and ∂f/∂t = 0 (the W-method approximation).
+    const k = 2
+    const x0 = 1
+    const sys: OdeSystem = {
+      n: 2,
+      nBlock: 1,
+      f: (t, z, dz) => { dz[0] = -k * (z[0] - Math.sin(t)) + Math.cos(t); dz[1] = -k * z[1] - (z[0] - Math.sin(t)) },
+      jac: (t, z, J, ft) => { J[0] = -k; ft[0] = k * Math.cos(t) - Math.sin(t); ft[1] = 0 },
+    }
+    const T = 2
+    const errs: number[][] = []
+    for (const h of [0.025, 0.0125, 0.00625, 0.003125]) {
+      const ros = new Rosenbrock()
+      const limits: SolverLimits = { maxSteps: 1e6, deadline: Infinity, budgetMs: 0, signal: null, stateNames: ['x'], fixedStep: h }
+      ros.start(sys, { rtol: 1e-6, atol: Float64Array.of(1e-6), weight: Float64Array.of(1, 1) }, limits, 0, Float64Array.of(x0, 0), h)
+      ros.advance(T, null)
+      errs.push([Math.abs(ros.z[0] - (Math.sin(T) + x0 * Math.exp(-k * T))), Math.abs(ros.z[1] - -T * x0 * Math.exp(-k * T))])
+    }
+    for (let c = 0; c < 2; c++) {
+      for (let i = 1; i < errs.length; i++) {
+        const order = Math.log2(errs[i - 1][c] / errs[i][c])
+        expect(order, `component ${c}, refinement ${i}`).toBeGreaterThan(2.7)
+        expect(order).toBeLessThan(3.4)
+      }
+    }
+  })
+
+  it('stiff linear decay x\' = −1e4 (x − cos t): the stiff method takes far fewer steps than rk45', () => {
+    // Prothero–Robinson type problem (Hairer & Wanner II, Sec. IV.15, eq. (15.1)): x = cos t exactly.
+    const L = 1e4
+    const pr = makeModel({
+      title: 'prothero-robinson',
+      states: [{ name: 'x', initial: 1 }],
+      rhs: (t, x, p, u, o) => { o[0] = -L * (x[0] - Math.cos(t)) - Math.sin(t) },
+      dfdx: (t, x, p, u, o) => { o[0] = -L },
+      dfdt: (t, x, p, u, o) => { o[0] = -L * Math.sin(t) - Math.cos(t) },
+    })
+    const tOut = Float64Array.from([1, 5, 10])
+    const s = simulate(pr, { tOut, solver: 'stiff', rtol: 1e-6, atol: 1e-9 })
+    const e = simulate(pr, { tOut, solver: 'rk45', rtol: 1e-6, atol: 1e-9 })
+    for (let i = 0; i < 3; i++) expect(Math.abs(s.x[i] - Math.cos(tOut[i]))).toBeLessThan(1e-5)
+    expect(e.stats.steps).toBeGreaterThan(20 * s.stats.steps)
+  })
+})
