@@ -8,6 +8,8 @@ import { migrateDatabase, openDatabase } from './db/client'
 import { seedDemo } from './db/seed'
 import { attachServices } from './services/runtime'
 import { loadTemplates } from './services/templates'
+import { seedDemoProject } from './services/demo-project'
+import { createInlineRunner } from './jobs/inline-runner'
 
 export async function createContext(overrides: Partial<Config> = {}, opts: { seed?: boolean } = {}): Promise<AppContext> {
   const config = { ...loadConfig(), ...overrides }
@@ -18,6 +20,11 @@ export async function createContext(overrides: Partial<Config> = {}, opts: { see
   if (opts.seed !== false) {
     await seedDemo(database.db)
     await loadTemplates(database.db, database.pool)
+    // the demo project runs a fit on first start; test apps skip it unless asked (tests seed it themselves)
+    if (process.env.NODE_ENV !== 'test' || process.env.PEWTER_DEMO_PROJECT === '1') await seedDemoProject(database.db)
   }
+  await attachServices(context)
+  // until the job system attaches its runner: fits run in this process, off the request path
+  if (!context.services.jobs) context.services.jobs = createInlineRunner(database.db)
   return context
 }

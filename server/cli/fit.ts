@@ -191,7 +191,7 @@ export async function run(argv: string[]): Promise<number> {
   try {
     const used = new Map<string, number>()
     const load = (file: string): ExperimentData => {
-      const table = parseCsv(texts.get(file)!, { file })
+      const table = parseCsv(texts.get(file)!, { file, strict: false })
       const base = basename(file)
       const k = (used.get(base) ?? 0) + 1
       used.set(base, k)
@@ -268,7 +268,7 @@ export function formatTable(r: FitResult): string {
   s += estimateTable(r.initialStates, 'initial states')
   if (r.outputs.length > 0) {
     s += '\noutputs\n' + pad([['output', 'experiment', 'set', 'N', 'NRMSE', 'RMSE', 'R²', 'Ljung–Box p'], ...r.outputs.map((o) => [
-      o.name, o.experimentName, o.validation ? 'validation' : 'fit', String(o.n), g(o.nrmse, 4), g(o.rmse, 4), g(o.r2, 4),
+      o.name, o.experimentName, o.validation ? 'validation' : 'fit', String(o.n), g(o.nrmse, 4), g(o.rmse, 4), g(o.r2, 6),
       o.residuals ? g(o.residuals.ljungBox.pValue, 3) : '—',
     ])])
   }

@@ -25,8 +25,20 @@ export function executorUrl(spec: string | undefined): string {
   return new URL(spec, `file://${process.cwd()}/`).href
 }
 
+/**
+ * Imports the executor module. Inside a worker thread whose TypeScript support came through tsx's
+ * require hook only (Node 20 worker threads), a plain import() of a .ts file fails; tsx's scoped
+ * tsImport loads it then.
+ */
 export async function loadExecutor(url: string): Promise<RunExecutor> {
-  const mod = (await import(/* @vite-ignore */ url)) as { executeRun?: RunExecutor; default?: { executeRun?: RunExecutor } }
+  let mod: { executeRun?: RunExecutor; default?: { executeRun?: RunExecutor } }
+  try {
+    mod = await import(/* @vite-ignore */ url)
+  } catch (err) {
+    if ((err as { code?: string }).code !== 'ERR_UNKNOWN_FILE_EXTENSION') throw err
+    const { tsImport } = await import('tsx/esm/api')
+    mod = await tsImport(url, import.meta.url)
+  }
   const fn = mod.executeRun ?? mod.default?.executeRun
   if (typeof fn !== 'function') throw new Error(`${url} does not export executeRun(db, runId, opts)`)
   return fn

@@ -9,6 +9,8 @@ import { authRoutes } from './auth'
 import { healthRoutes } from './health'
 import { workspaceRoutes } from './workspaces'
 import { projectRoutes } from './projects'
+import { datasetRoutes, projectDatasetRoutes } from './datasets'
+import { projectRunRoutes, runRoutes } from './runs'
 import { accountRoutes } from './account'
 import { invitationTokenRoutes, workspaceInvitationRoutes } from './invitations'
 import { memberRoutes } from './members'
@@ -30,6 +32,9 @@ export function apiRouter(context: AppContext) {
   ws.use(loadWorkspace)
   ws.use('/', workspaceRoutes())
   ws.use('/projects', projectRoutes())
+  ws.use('/projects/:pid', projectDatasetRoutes(), projectRunRoutes())
+  ws.use('/datasets', datasetRoutes())
+  ws.use('/runs', runRoutes())
   ws.use('/members', memberRoutes())
   ws.use('/invitations', workspaceInvitationRoutes())
   ws.use('/audit', auditRoutes())

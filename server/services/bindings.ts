@@ -151,7 +151,8 @@ export async function createBinding(db: Db, workspaceId: number, projectId: numb
 export async function updateBinding(db: Db, workspaceId: number, projectId: number, bindingId: number, body: { name?: string; mapping: ColumnMapping }) {
   const { row, title, signals } = await getBindingRow(db, workspaceId, projectId, bindingId)
   checkMappingNames(signals, body.mapping)
-  const mapping = autoMatch(signals, [], body.mapping)
+  const old = row.mapping as ColumnMapping
+  const mapping = autoMatch(signals, [], { inputs: { ...old.inputs, ...body.mapping.inputs }, outputs: { ...old.outputs, ...body.mapping.outputs } })
   const columns = await datasetColumns(db, projectId)
   const checks = checkMapping(signals, mapping, columns)
   const [u] = await db.update(bindings).set({ mapping, ...(body.name ? { name: body.name } : {}) }).where(eq(bindings.id, row.id)).returning()

@@ -393,7 +393,7 @@ export async function forkModel(db: Db, actor: Actor, modelId: number, body: For
   const origin = await getModelRow(db, actor.workspaceId, modelId)
   const v = await versionRow(db, origin.id, body.version ?? 'latest')
   const m = await db.transaction((tx) => insertModel(tx, actor.workspaceId, {
-    title: body.title, description: origin.description, tags: origin.tags, text: v.text,
+    title: body.title, description: origin.description, tags: origin.tags.filter((t) => t !== 'template'), text: v.text,
     note: `Forked from "${origin.title}" version ${v.number}`, summary: storedSummary(v), ownerId: actor.userId,
     forkOf: { modelId: origin.id, version: v.number },
   }))

@@ -19,6 +19,8 @@ export interface CsvColumn {
   /** the unit written in the header, '' when none */
   unit: string
   values: Float64Array
+  /** non-strict parsing: why this column cannot be used (text in it, no numeric value), else null */
+  issue: CsvIssue | null
 }
 
 export interface CsvTable {
@@ -59,6 +61,11 @@ export interface CsvOptions {
   maxRows?: number
   /** a gap warning when a time step exceeds this multiple of the median step (default 5) */
   gapFactor?: number
+  /**
+   * true (default): text in any value column or an all-empty column is an error. false: such a column
+   * carries its `issue` and is an error only when used (experimentFromTable), so notes columns pass.
+   */
+  strict?: boolean
 }
 
 const NUMBER = /^[+-]?(\d+\.?\d*|\.\d+)([eE][+-]?\d+)?$/
@@ -195,15 +202,21 @@ export function parseCsv(text: string, opts: CsvOptions = {}): CsvTable {
     const h = headers[c]
     const values = new Float64Array(n)
     let count = 0
+    let issue: CsvIssue | null = null
     for (let k = 0; k < n; k++) {
       const s = dataRecs[k].cells[c]
       const v = num(s)
-      if (v === Number.POSITIVE_INFINITY) fail(rows[k], h.name, `'${s.trim()}' is not a number`)
+      if (v === Number.POSITIVE_INFINITY) {
+        issue = { row: rows[k], column: h.name, message: `'${s.trim()}' is not a number` }
+        values.fill(NaN)
+        break
+      }
       values[k] = v
       if (!Number.isNaN(v)) count++
     }
-    if (count === 0) fail(null, h.name, 'the column has no numeric value (every cell is empty or NaN)')
-    columns.push({ name: h.name, unit: h.unit, values })
+    if (!issue && count === 0) issue = { row: null, column: h.name, message: 'the column has no numeric value (every cell is empty or NaN)' }
+    if (issue && opts.strict !== false) fail(issue.row, issue.column, issue.message)
+    columns.push({ name: h.name, unit: h.unit, values, issue })
   }
   if (columns.length === 0) fail(1, null, 'the file has a time column but no data columns')
   // gap warnings

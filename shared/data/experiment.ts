@@ -51,6 +51,7 @@ export function experimentFromTable(table: CsvTable, model: CompiledModel, opts:
   for (const col of table.columns) {
     const o = model.outputs.find((x) => x.name === col.name)
     const i = model.inputs.find((x) => x.name === col.name)
+    if ((o || i) && col.issue) throw new CsvError(col.issue, file)
     if (o) outputs[o.name] = toInternal(col, o)
     else if (i) {
       const v = toInternal(col, i)

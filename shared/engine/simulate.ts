@@ -14,7 +14,7 @@
  */
 import type { CompiledModel } from '../sheet/compiled'
 import type { SimulationRequest, SimulationResult, SolverName } from './simulate-contract'
-import { SimulationRequestError, fmt } from './errors'
+import { AbortedError, SimulationRequestError, fmt } from './errors'
 import { InputSet } from './inputs'
 import { ModelSystem, type SensSpec } from './system'
 import { solveSteady, steadyIndices } from './steady'
@@ -123,7 +123,7 @@ function validate(model: CompiledModel, req: SimulationRequest, t0: number): voi
 export function simulate(model: CompiledModel, req: SimulationRequest): SimulationResult {
   const t0 = req.t0 ?? 0
   validate(model, req, t0)
-  if (req.signal?.aborted) throw new SimulationRequestError('aborted before start')
+  if (req.signal?.aborted) throw new AbortedError(t0)
   const sens = sensLayout(model, req)
   const ws = workspace(model, sens)
   const { sys, tol, z0 } = ws

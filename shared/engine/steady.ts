@@ -40,7 +40,7 @@ export function solveSteady(
   const piv = new Int32Array(m)
   const r = new Float64Array(m)
   const dx = new Float64Array(m)
-  const xTry = new Float64Array(nx)
+  const xTry = new Float64Array(x.length)
   const resid = (xx: Float64Array, out: Float64Array): number => {
     model.rhs(t0, xx, p, u, f)
     let s = 0

@@ -90,8 +90,9 @@ export function buildExpr(text: string, line: number, col0: number, ctx: ExprCon
   const leaves = scanLeaves(text)
   const conv = new Converter(text, line, col0, ctx, leaves)
   const e = conv.convert(node, 0)
-  if (conv.failed) return null
-  return e
+  if (conv.failed || !e) return null
+  // the whole right side is the place of a message about its unit
+  return { ...e, s: [col0, col0 + text.length] } as Expr
 }
 
 function printable(ch: string): string {

@@ -20,7 +20,7 @@ export function editDistance(a: string, b: string): number {
 export function closest(name: string, candidates: Iterable<string>): string | null {
   let best: string | null = null
   let bestD = Infinity
-  const limit = Math.max(1, Math.min(3, Math.floor(name.length / 3)))
+  const limit = name.length <= 1 ? 0.5 : Math.max(1, Math.min(3, Math.floor(name.length / 3)))
   for (const c of candidates) {
     const d = c.toLowerCase() === name.toLowerCase() ? 0.5 : editDistance(name, c)
     if (d < bestD) { bestD = d; best = c }

@@ -63,6 +63,12 @@ export const router = createRouter({
           meta: { title: 'Library', section: 'library' },
         },
         {
+          path: 'library/:modelId(\\d+)',
+          name: 'model',
+          component: () => import('@/views/ModelView.vue'),
+          meta: { title: 'Model', section: 'library' },
+        },
+        {
           path: 'projects',
           name: 'projects',
           component: () => import('@/views/ProjectsView.vue'),

@@ -6,6 +6,7 @@
 import { defineStore } from 'pinia'
 import { computed, ref } from 'vue'
 import { can, type MeReply, type Role, type SigninBody, type SignupBody, type WorkspaceMembershipDto } from '@shared/api/auth'
+// Relative on purpose: tests/client type-check this store under tsconfig.node.json, which has no '@' path.
 import * as auth from '../api/auth'
 
 export type Permission = keyof typeof can

@@ -59,7 +59,7 @@ describe('templates from models/', () => {
 
     // a template added to the folder later appears at the next start
     copyFileSync(path.join(folder, 'drain.sheet'), path.join(folder, 'drain-copy.sheet'))
-    expect(await loadTemplates(t.context.db, t.context.database.pool, { folder })).toEqual(['drain-copy.sheet'])
+    expect(await loadTemplates(t.context.db, t.context.database.pool, { folder, log: () => undefined })).toEqual(['drain-copy.sheet'])
   })
 
   it('loads nothing into a database without the demo workspace', async () => {

@@ -127,7 +127,7 @@ export async function levenbergMarquardt(
       }
     }
     if (free.length === 0) return done('converged', 'every parameter is held at a bound', iter, cost)
-    if (cost === 0 || gmax <= gtol) return done('converged', `projected gradient below gtol (${gtol})`, iter, cost)
+    if (cost === 0 || gmax <= gtol) return done('converged', `projected gradient below gtol (${tolText(gtol)})`, iter, cost)
 
     // factorise the scaled free columns: J_F D_F⁻¹ = Q R, R = U S Vᵀ
     const nf = free.length
@@ -213,17 +213,21 @@ export async function levenbergMarquardt(
         nu *= 2
       }
     }
-    if (!accepted) return done('converged', `relative step below xtol (${xtol})`, iter, cost)
+    if (!accepted) return done('converged', `relative step below xtol (${tolText(xtol)})`, iter, cost)
     iter++
     costHistory.push(cost)
     buildJz()
     opts.onIteration?.({ iteration: iter, cost, parameters: Array.from(theta) })
     if (relAct <= ftol && relPred <= ftol) {
-      return done('converged', `relative cost change below ftol (${ftol})`, iter, cost)
+      return done('converged', `relative cost change below ftol (${tolText(ftol)})`, iter, cost)
     }
-    if (stepSmall) return done('converged', `relative step below xtol (${xtol})`, iter, cost)
+    if (stepSmall) return done('converged', `relative step below xtol (${tolText(xtol)})`, iter, cost)
     if (iter % 4 === 0 && (opts.signal || opts.deadline !== undefined)) await yieldToEventLoop()
   }
+}
+
+function tolText(v: number): string {
+  return Number(v.toPrecision(3)).toString()
 }
 
 function allFinite(a: Float64Array): boolean {

@@ -148,7 +148,10 @@ export class FitProblem implements LsqProblem {
     const known = (name: string) => paramIdx.has(name) || stateIdx.has(name)
     const suggest = (name: string) => {
       const all = [...paramIdx.keys(), ...stateIdx.keys()]
-      const near = all.filter((a) => editDistance(a, name) <= 2)
+      const limit = Math.max(1, Math.floor(name.length / 3))
+      const scored = all.map((a) => [a, editDistance(a, name)] as const).filter(([, d]) => d <= limit)
+      const bestD = Math.min(...scored.map(([, d]) => d))
+      const near = scored.filter(([, d]) => d === bestD).map(([a]) => a)
       return near.length ? ` (did you mean ${near.map((x) => `'${x}'`).join(' or ')}?)` : ''
     }
     const p = model.params.map((q) => ({ ...q }))
@@ -191,12 +194,15 @@ export class FitProblem implements LsqProblem {
     const touched = new Set([...Object.keys(spec.set ?? {}), ...Object.keys(spec.bounds ?? {}), ...(spec.free ?? [])])
     const checkBox = (kind: string, name: string, lo: number | null, hi: number | null, v: number) => {
       const where = { kind: touched.has(name) ? ('argument' as const) : ('data' as const) }
+      const sym = paramIdx.has(name) && kind === 'parameter' ? model.params[paramIdx.get(name)!] : model.states[stateIdx.get(name)!]
+      const dec = (x: number) => String(Number(((x - sym.offset) / sym.scale).toPrecision(10)))
+      const unit = sym.unit ? ` ${sym.unit}` : ''
       if (lo === null || hi === null || !Number.isFinite(lo) || !Number.isFinite(hi)) {
         throw new FitInputError(`${kind} '${name}' is free but has no bounds; give them in the sheet or with --bounds ${name}=lo:hi`, where)
       }
-      if (!(lo < hi)) throw new FitInputError(`${kind} '${name}': the lower bound (${lo}) must be below the upper bound (${hi})`, where)
+      if (!(lo < hi)) throw new FitInputError(`${kind} '${name}': the lower bound (${dec(lo)}${unit}) must be below the upper bound (${dec(hi)}${unit})`, where)
       if (!(v >= lo && v <= hi)) {
-        throw new FitInputError(`${kind} '${name}': the start value ${v} lies outside its bounds [${lo}, ${hi}]`, where)
+        throw new FitInputError(`${kind} '${name}': the start value ${dec(v)}${unit} lies outside its bounds [${dec(lo)}, ${dec(hi)}]${unit}`, where)
       }
     }
 

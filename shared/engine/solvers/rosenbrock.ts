@@ -115,6 +115,9 @@ export class Rosenbrock implements OdeSolver {
   private haveF0 = false
   private haveJ = false
   private lastRejected = false
+  private nonFiniteAt = -1
+  private nonFiniteT = 0
+  private nonFiniteV = 0
 
   private alloc(n: number, nb: number): void {
     if (this.n === n && this.nb === nb) return
@@ -198,6 +201,9 @@ export class Rosenbrock implements OdeSolver {
         h = tStop - t
         clipped = h < hWanted
       }
+      if (Math.abs(h) <= 16 * Number.EPSILON * Math.max(1, Math.abs(t)) && this.nonFiniteAt >= 0) {
+        throwNonFinite(limits, nb, this.nonFiniteAt, this.nonFiniteT, this.nonFiniteV)
+      }
       checkStepSize(t, h)
       if (!this.haveJ) {
         sys.jac(t, z, J, ft)
@@ -224,7 +230,11 @@ export class Rosenbrock implements OdeSolver {
             }
             sys.f(t + T.alphaSum[st] * h, ytmp, ui)
             counters.rhsEvals++
-            if (firstNonFinite(ui, n) >= 0) {
+            const bad = firstNonFinite(ui, n)
+            if (bad >= 0) {
+              this.nonFiniteAt = bad
+              this.nonFiniteT = t + T.alphaSum[st] * h
+              this.nonFiniteV = ui[bad]
               ok = false
               break
             }
@@ -260,7 +270,13 @@ export class Rosenbrock implements OdeSolver {
         // derivative at the new point: Hermite end slope and the next step's first stage
         sys.f(t + h, this.z1, this.f1)
         counters.rhsEvals++
-        if (firstNonFinite(this.f1, n) >= 0) ok = false
+        const bad = firstNonFinite(this.f1, n)
+        if (bad >= 0) {
+          this.nonFiniteAt = bad
+          this.nonFiniteT = t + h
+          this.nonFiniteV = this.f1[bad]
+          ok = false
+        }
       }
       if (!ok) {
         counters.rejected++
@@ -275,6 +291,7 @@ export class Rosenbrock implements OdeSolver {
         if (this.lastRejected) hNew = Math.min(hNew, h)
         this.lastRejected = false
         counters.steps++
+        this.nonFiniteAt = -1
         // shift: old ← current, current ← new
         this.zOld.set(z)
         this.fOld.set(this.f0)

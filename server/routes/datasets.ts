@@ -1,0 +1,89 @@
+/**
+ * Datasets and bindings (thin: parse, authorize, call the services).
+ *   under /projects/:pid: POST datasets (multipart field `file`), GET datasets, GET/POST bindings,
+ *     POST bindings/match, PUT bindings/:bid
+ *   under /datasets: GET /, GET /:did, PATCH /:did, GET /:did/data, GET /:did/original, POST /:did/condition
+ */
+import { Router } from 'express'
+import multer from 'multer'
+import { ctx } from '../context'
+import { badRequest } from '../errors'
+import { requireCapability } from '../middleware/auth'
+import { intParam, parse } from '../middleware/validate'
+import * as datasets from '../services/datasets'
+import * as bindings from '../services/bindings'
+import { conditionBody, createBindingBody, datasetPurpose, matchBody, updateBindingBody, updateDatasetBody } from '../../shared/api/datasets'
+import { z } from 'zod'
+
+const uploadFields = z.object({
+  name: z.string().trim().max(200).optional(),
+  purpose: z.union([datasetPurpose, z.literal('')]).optional(),
+})
+
+function maxRows(services: Record<string, unknown>): number {
+  const v = services.datasetMaxRows
+  return typeof v === 'number' && v > 0 ? v : Number(process.env.PEWTER_MAX_DATASET_ROWS ?? datasets.DEFAULT_MAX_ROWS)
+}
+
+export function projectDatasetRoutes() {
+  const router = Router({ mergeParams: true })
+
+  router.get('/datasets', requireCapability('read'), async (req, res) => {
+    res.json({ datasets: await datasets.listDatasets(ctx(req).db, req.workspace!.id, intParam(req.params, 'pid')) })
+  })
+  router.post('/datasets', requireCapability('write'), (req, res, next) => {
+    const upload = multer({ storage: multer.memoryStorage(), limits: { fileSize: ctx(req).config.uploadLimitBytes, files: 1, fields: 10 } }).single('file')
+    upload(req, res, (err: unknown) => next(err))
+  }, async (req, res) => {
+    const pid = intParam(req.params, 'pid')
+    if (!req.file) throw badRequest("No file: send the CSV as multipart/form-data in the field 'file'", [{ path: 'body.file', message: 'missing' }])
+    const fields = parse(uploadFields, req.body ?? {})
+    const dto = await datasets.uploadDataset(ctx(req).db, req.workspace!.id, pid, req.auth!.userId, req.file, {
+      name: fields.name, purpose: fields.purpose ? fields.purpose : null, maxRows: maxRows(ctx(req).services),
+    })
+    res.status(201).json(dto)
+  })
+
+  router.get('/bindings', requireCapability('read'), async (req, res) => {
+    res.json({ bindings: await bindings.listBindings(ctx(req).db, req.workspace!.id, intParam(req.params, 'pid')) })
+  })
+  router.post('/bindings/match', requireCapability('read'), async (req, res) => {
+    res.json(await bindings.matchMapping(ctx(req).db, req.workspace!.id, intParam(req.params, 'pid'), parse(matchBody, req.body)))
+  })
+  router.post('/bindings', requireCapability('write'), async (req, res) => {
+    res.status(201).json(await bindings.createBinding(ctx(req).db, req.workspace!.id, intParam(req.params, 'pid'), parse(createBindingBody, req.body)))
+  })
+  router.put('/bindings/:bid', requireCapability('write'), async (req, res) => {
+    res.json(await bindings.updateBinding(ctx(req).db, req.workspace!.id, intParam(req.params, 'pid'), intParam(req.params, 'bid'), parse(updateBindingBody, req.body)))
+  })
+  return router
+}
+
+export function datasetRoutes() {
+  const router = Router({ mergeParams: true })
+  router.get('/', requireCapability('read'), async (req, res) => {
+    const pid = typeof req.query.projectId === 'string' && req.query.projectId ? intParam(req.query, 'projectId') : undefined
+    res.json({ datasets: await datasets.listDatasets(ctx(req).db, req.workspace!.id, pid) })
+  })
+  router.get('/:did', requireCapability('read'), async (req, res) => {
+    res.json(await datasets.getDataset(ctx(req).db, req.workspace!.id, intParam(req.params, 'did')))
+  })
+  router.patch('/:did', requireCapability('write'), async (req, res) => {
+    res.json(await datasets.updateDataset(ctx(req).db, req.workspace!.id, intParam(req.params, 'did'), parse(updateDatasetBody, req.body)))
+  })
+  router.get('/:did/data', requireCapability('read'), async (req, res) => {
+    const q = parse(z.object({ maxPoints: z.coerce.number().int().min(10).max(1_000_000).optional() }), req.query, 'query')
+    res.json(await datasets.getDatasetData(ctx(req).db, req.workspace!.id, intParam(req.params, 'did'), q.maxPoints))
+  })
+  router.get('/:did/original', requireCapability('read'), async (req, res) => {
+    const f = await datasets.getOriginal(ctx(req).db, req.workspace!.id, intParam(req.params, 'did'))
+    res.setHeader('Content-Type', 'text/csv; charset=utf-8')
+    res.setHeader('Content-Disposition', `attachment; filename="${f.filename.replace(/["\\\r\n]/g, '_')}"`)
+    res.setHeader('X-Content-SHA256', f.contentHash)
+    res.send(f.bytes)
+  })
+  router.post('/:did/condition', requireCapability('write'), async (req, res) => {
+    res.status(201).json(await datasets.conditionDataset(ctx(req).db, req.workspace!.id, intParam(req.params, 'did'), req.auth!.userId, parse(conditionBody, req.body)))
+  })
+  return router
+}

@@ -1,0 +1,132 @@
+/**
+ * Fit runs (thin: parse, authorize, call the services).
+ *   under /projects/:pid: POST runs, GET runs, GET parameter-sets
+ *   under /runs: GET /, GET /:rid, GET /:rid/events (server-sent events), POST /:rid/cancel,
+ *     POST /:rid/rerun, GET /:rid/export?format=csv|json, GET /:rid/landscape?a=&b=&n=,
+ *     POST /:rid/parameter-sets {name}, POST /:rid/publish {note?}
+ */
+import { Router, type Request } from 'express'
+import { z } from 'zod'
+import { ctx } from '../context'
+import { badRequest, notFound } from '../errors'
+import { requireCapability } from '../middleware/auth'
+import { intParam, parse } from '../middleware/validate'
+import type { JobRunner } from '../jobs/types'
+import * as runs from '../services/runs'
+import { exportCsv, exportJson } from '../services/reports'
+import { computeLandscape, RunInputError } from '../services/fit-execution'
+import { createRunBody, landscapeQuery, publishFromRunBody, saveParameterSetBody, terminalStatuses, type RunStatus } from '../../shared/api/runs'
+
+const jobs = (req: Request) => ctx(req).services.jobs as JobRunner | undefined
+
+export function projectRunRoutes() {
+  const router = Router({ mergeParams: true })
+  router.post('/runs', requireCapability('write'), async (req, res) => {
+    const body = parse(createRunBody, req.body)
+    res.status(201).json(await runs.createRun(ctx(req).db, jobs(req), req.workspace!.id, intParam(req.params, 'pid'), req.auth!.userId, body))
+  })
+  router.get('/runs', requireCapability('read'), async (req, res) => {
+    res.json({ runs: await runs.listRuns(ctx(req).db, req.workspace!.id, { projectId: intParam(req.params, 'pid') }) })
+  })
+  router.get('/parameter-sets', requireCapability('read'), async (req, res) => {
+    res.json({ parameterSets: await runs.listParameterSets(ctx(req).db, req.workspace!.id, intParam(req.params, 'pid')) })
+  })
+  return router
+}
+
+const SSE_POLL_MS = 250
+const SSE_KEEPALIVE_MS = 15_000
+
+export function runRoutes() {
+  const router = Router({ mergeParams: true })
+  router.get('/', requireCapability('read'), async (req, res) => {
+    const q = parse(z.object({ projectId: z.coerce.number().int().positive().optional(), modelId: z.coerce.number().int().positive().optional() }), req.query, 'query')
+    res.json({ runs: await runs.listRuns(ctx(req).db, req.workspace!.id, q) })
+  })
+  router.get('/:rid', requireCapability('read'), async (req, res) => {
+    res.json(await runs.getRun(ctx(req).db, req.workspace!.id, intParam(req.params, 'rid')))
+  })
+
+  /** Live progress: polls the run row (so it works whichever process runs the fit) and ends with the run. */
+  router.get('/:rid/events', requireCapability('read'), async (req, res) => {
+    const rid = intParam(req.params, 'rid')
+    const db = ctx(req).db
+    const wsId = req.workspace!.id
+    const first = await runs.getRunState(db, wsId, rid)
+    if (!first) throw notFound('Run')
+    res.status(200)
+    res.setHeader('Content-Type', 'text/event-stream; charset=utf-8')
+    res.setHeader('Cache-Control', 'no-cache, no-transform')
+    res.setHeader('Connection', 'keep-alive')
+    res.setHeader('X-Accel-Buffering', 'no')
+    res.flushHeaders()
+    res.write('retry: 2000\n\n')
+    let last = ''
+    let closed = false
+    let busy = false
+    let sinceWrite = Date.now()
+    const send = (event: string, data: unknown) => {
+      res.write(`event: ${event}\ndata: ${JSON.stringify(data)}\n\n`)
+      sinceWrite = Date.now()
+    }
+    const stop = () => { closed = true; clearInterval(timer) }
+    const tick = async (state: Awaited<ReturnType<typeof runs.getRunState>>) => {
+      if (closed) return
+      if (!state) { send('end', { status: 'missing' }); stop(); res.end(); return }
+      const key = JSON.stringify(state)
+      if (key !== last) { last = key; send('progress', state) }
+      if (terminalStatuses.includes(state.status as RunStatus)) { send('end', { status: state.status, error: state.error }); stop(); res.end(); return }
+      if (Date.now() - sinceWrite > SSE_KEEPALIVE_MS) { res.write(': keep-alive\n\n'); sinceWrite = Date.now() }
+    }
+    const timer = setInterval(() => {
+      if (busy || closed) return
+      busy = true
+      runs.getRunState(db, wsId, rid).then(tick).catch(() => { stop(); res.end() }).finally(() => { busy = false })
+    }, SSE_POLL_MS)
+    req.on('close', stop)
+    await tick(first)
+  })
+
+  router.post('/:rid/cancel', requireCapability('write'), async (req, res) => {
+    res.json(await runs.cancelRun(ctx(req).db, jobs(req), req.workspace!.id, intParam(req.params, 'rid')))
+  })
+  router.post('/:rid/rerun', requireCapability('write'), async (req, res) => {
+    res.status(201).json(await runs.rerun(ctx(req).db, jobs(req), req.workspace!.id, intParam(req.params, 'rid'), req.auth!.userId))
+  })
+  router.get('/:rid/export', requireCapability('read'), async (req, res) => {
+    const { format } = parse(z.object({ format: z.enum(['csv', 'json']).default('json') }), req.query, 'query')
+    const rid = intParam(req.params, 'rid')
+    const run = await runs.getRun(ctx(req).db, req.workspace!.id, rid)
+    if (format === 'csv') {
+      const text = exportCsv(run)
+      res.setHeader('Content-Type', 'text/csv; charset=utf-8')
+      res.setHeader('Content-Disposition', `attachment; filename="pewter-run-${rid}.csv"`)
+      res.send(text)
+    } else {
+      const body = exportJson(run)
+      res.setHeader('Content-Disposition', `attachment; filename="pewter-run-${rid}.json"`)
+      res.json(body)
+    }
+  })
+  router.get('/:rid/landscape', requireCapability('read'), async (req, res) => {
+    const q = parse(landscapeQuery, req.query, 'query')
+    const row = await runs.getRunRow(ctx(req).db, req.workspace!.id, intParam(req.params, 'rid'))
+    if (row.status !== 'succeeded') throw badRequest(`Run ${row.id} has no result (status ${row.status})`)
+    try {
+      res.json(await computeLandscape(ctx(req).db, row, q.a, q.b, q.n))
+    } catch (e) {
+      if (e instanceof RunInputError || (e instanceof Error && /landscape/.test(e.message))) throw badRequest(e.message)
+      throw e
+    }
+  })
+  router.post('/:rid/parameter-sets', requireCapability('write'), async (req, res) => {
+    const body = parse(saveParameterSetBody, req.body)
+    res.status(201).json(await runs.saveParameterSet(ctx(req).db, req.workspace!.id, intParam(req.params, 'rid'), req.auth!.userId, body.name))
+  })
+  router.post('/:rid/publish', requireCapability('write'), async (req, res) => {
+    const body = parse(publishFromRunBody, req.body ?? {})
+    const actor = { userId: req.auth!.userId, workspaceId: req.workspace!.id, role: req.workspace!.role, ip: req.ip }
+    res.status(201).json(await runs.publishFromRun(ctx(req).db, actor, intParam(req.params, 'rid'), body.note))
+  })
+  return router
+}

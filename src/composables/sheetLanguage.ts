@@ -1,0 +1,220 @@
+/**
+ * The sheet language in Monaco: a Monarch tokenizer (keywords, modifiers, numbers, units in
+ * brackets, comments, strings, functions), a light theme in Pewter's colours, and hover and
+ * completion providers that read the declared names of each open sheet from `sheetSymbols`.
+ *
+ * Declared names are found by a line scan that works on sheets with errors too (the parser's full
+ * result is added when the sheet checks: values and bounds).
+ */
+import type * as Monaco from 'monaco-editor/editor'
+import { FUNCTIONS } from '@shared/sheet/ast'
+import type { CheckReply } from '@shared/api/models'
+
+export const SHEET_LANGUAGE = 'pewter-sheet'
+export const SHEET_THEME = 'pewter-light'
+
+export const SHEET_KEYWORDS = ['model', 'time', 'sample', 'input', 'param', 'const', 'lookup', 'state', 'let', 'next', 'output'] as const
+export const SHEET_MODIFIERS = ['in', 'fixed', 'estimate', 'steady', 'linear', 'hold', 'sigma'] as const
+const BUILTINS = ['delay', 't', 'pi', 'e']
+
+export type SymbolKind = 'input' | 'param' | 'const' | 'lookup' | 'state' | 'let' | 'output'
+
+export interface SheetSymbol {
+  name: string
+  kind: SymbolKind
+  unit: string
+  description: string
+  /** 1-based line of the declaration */
+  line: number
+  /** from the parsed summary when the sheet checks */
+  value?: number | null
+  lower?: number | null
+  upper?: number | null
+  fixed?: boolean
+}
+
+const DECL_RE = /^\s*(input|param|const|lookup|state|let|output)\s+([A-Za-z_][A-Za-z0-9_]*)/
+
+/** Stops at a `#` that is not inside a string. */
+export function stripComment(line: string): string {
+  let inStr = false
+  for (let i = 0; i < line.length; i++) {
+    const c = line[i]
+    if (c === '"') inStr = !inStr
+    else if (c === '#' && !inStr) return line.slice(0, i)
+  }
+  return line
+}
+
+/** Declared names of a sheet, by a line scan (works on sheets with errors), enriched by a check's summary. */
+export function scanSymbols(text: string, check?: CheckReply | null): SheetSymbol[] {
+  const out: SheetSymbol[] = []
+  text.split(/\r?\n/).forEach((raw, i) => {
+    const line = stripComment(raw)
+    const m = DECL_RE.exec(line)
+    if (!m) return
+    const rest = line.slice(m[0].length)
+    const unit = /\[([^\]]*)\]/.exec(rest)?.[1]?.trim() ?? ''
+    const strings = [...rest.matchAll(/"([^"]*)"/g)]
+    const description = strings.length ? strings[strings.length - 1][1] : ''
+    out.push({ name: m[2], kind: m[1] as SymbolKind, unit, description, line: i + 1 })
+  })
+  const s = check?.summary
+  if (s) {
+    for (const sym of out) {
+      if (sym.kind === 'param') {
+        const p = s.parameters.find((x) => x.name === sym.name)
+        if (p) Object.assign(sym, { value: p.value ?? null, lower: p.lower ?? null, upper: p.upper ?? null, fixed: p.fixed, unit: p.unit || sym.unit })
+      } else if (sym.kind === 'state') {
+        const x = s.states.find((v) => v.name === sym.name) as { initial?: number; lower?: number | null; upper?: number | null } | undefined
+        if (x) Object.assign(sym, { value: x.initial ?? null, lower: x.lower ?? null, upper: x.upper ?? null })
+      } else if (sym.kind === 'input') {
+        const u = s.inputs.find((v) => v.name === sym.name) as { value?: number } | undefined
+        if (u) sym.value = u.value ?? null
+      }
+    }
+  }
+  return out
+}
+
+/** The symbols of each open sheet, by the Monaco model's URI (set by SheetEditor). */
+export const sheetSymbols = new Map<string, SheetSymbol[]>()
+
+const kindLabel: Record<SymbolKind, string> = {
+  input: 'input', param: 'parameter', const: 'constant', lookup: 'lookup', state: 'state', let: 'intermediate (let)', output: 'output',
+}
+
+const fmt = (v: number) => (Math.abs(v) >= 1e5 || (Math.abs(v) < 1e-3 && v !== 0) ? v.toExponential(3).replace(/\.?0+e/, 'e') : String(Number(v.toPrecision(6))))
+
+/** Markdown shown when hovering a declared name. */
+export function describeSymbol(s: SheetSymbol): string {
+  const parts = [`**${s.name}** — ${kindLabel[s.kind]}${s.unit ? ` [${s.unit}]` : ''}`]
+  if (s.description) parts.push(s.description)
+  const facts: string[] = []
+  if (s.value !== undefined && s.value !== null) facts.push(`${s.kind === 'state' ? 'initial value' : 'value'} ${fmt(s.value)}${s.unit ? ` ${s.unit}` : ''}`)
+  if (s.kind === 'param' && s.fixed) facts.push('fixed')
+  if ((s.lower ?? null) !== null || (s.upper ?? null) !== null) facts.push(`bounds [${s.lower === null || s.lower === undefined ? '−∞' : fmt(s.lower)}, ${s.upper === null || s.upper === undefined ? '∞' : fmt(s.upper)}]`)
+  if (facts.length) parts.push(facts.join(' · '))
+  parts.push(`declared on line ${s.line}`)
+  return parts.join('\n\n')
+}
+
+const FUNCTION_HELP: Record<string, string> = {
+  atan2: 'atan2(y, x) — angle of the point (x, y)', pow: 'pow(a, b) — a to the power b', min: 'min(a, b, …)', max: 'max(a, b, …)',
+  hypot: 'hypot(a, b, …) — square root of the sum of squares', delay: 'delay(input, tau) — the input trace read at t − tau (tau ≥ 0, a param or const)',
+  log: 'log(x) — natural logarithm', log10: 'log10(x) — base-10 logarithm', sign: 'sign(x) — −1, 0 or 1',
+}
+
+let registered = false
+
+export function registerSheetLanguage(monaco: typeof Monaco): void {
+  if (registered) return
+  registered = true
+  monaco.languages.register({ id: SHEET_LANGUAGE, extensions: ['.sheet'], aliases: ['Pewter sheet'] })
+  monaco.languages.setLanguageConfiguration(SHEET_LANGUAGE, {
+    comments: { lineComment: '#' },
+    brackets: [['(', ')'], ['[', ']'], ['{', '}']],
+    autoClosingPairs: [{ open: '(', close: ')' }, { open: '[', close: ']' }, { open: '{', close: '}' }, { open: '"', close: '"' }],
+    wordPattern: /[A-Za-z_][A-Za-z0-9_]*|-?\d*\.?\d+(?:[eE][+-]?\d+)?/,
+  })
+  monaco.languages.setMonarchTokensProvider(SHEET_LANGUAGE, {
+    keywords: [...SHEET_KEYWORDS],
+    modifiers: [...SHEET_MODIFIERS],
+    functions: [...FUNCTIONS, 'delay'],
+    builtins: ['t', 'pi', 'e'],
+    tokenizer: {
+      root: [
+        [/#.*$/, 'comment'],
+        [/"[^"]*"/, 'string'],
+        [/"[^"]*$/, 'string.invalid'],
+        [/\[/, { token: 'unit.bracket', next: '@unit' }],
+        [/[A-Za-z_][A-Za-z0-9_]*'/, 'derivative'],
+        [/[A-Za-z_][A-Za-z0-9_]*(?=\s*\()/, { cases: { '@functions': 'predefined', '@default': 'identifier' } }],
+        [/[A-Za-z_][A-Za-z0-9_]*/, { cases: { '@keywords': 'keyword', '@modifiers': 'keyword.modifier', '@builtins': 'constant', '@default': 'identifier' } }],
+        [/(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?/, 'number'],
+        [/->|[-+*/^=<>!?:]+/, 'operator'],
+        [/[{}(),]/, 'delimiter'],
+      ],
+      // a unit, or the bounds after `in` (numbers inside brackets)
+      unit: [
+        [/\]/, { token: 'unit.bracket', next: '@pop' }],
+        [/[-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?(?=\s*[,\]])/, 'number'],
+        [/-?inf\b/, 'number'],
+        [/,/, 'delimiter'],
+        [/[^\],]+/, 'unit'],
+      ],
+    },
+  } as Monaco.languages.IMonarchLanguage)
+
+  monaco.editor.defineTheme(SHEET_THEME, {
+    base: 'vs',
+    inherit: true,
+    rules: [
+      { token: 'comment', foreground: '788181', fontStyle: 'italic' },
+      { token: 'keyword', foreground: '125a55', fontStyle: 'bold' },
+      { token: 'keyword.modifier', foreground: '17706a' },
+      { token: 'number', foreground: '86560e' },
+      { token: 'unit', foreground: '5c3f8a' },
+      { token: 'unit.bracket', foreground: '8a7aa6' },
+      { token: 'string', foreground: '3d7a4f' },
+      { token: 'string.invalid', foreground: 'a8432f' },
+      { token: 'predefined', foreground: '2a5d8a' },
+      { token: 'constant', foreground: '2a5d8a' },
+      { token: 'derivative', foreground: '0d4441', fontStyle: 'bold' },
+      { token: 'operator', foreground: '454d4f' },
+    ],
+    colors: {
+      'editor.background': '#ffffff',
+      'editorLineNumber.foreground': '#979f9e',
+      'editorLineNumber.activeForeground': '#30373a',
+      'editor.lineHighlightBackground': '#f4f5f4',
+      'editorCursor.foreground': '#17706a',
+      'editor.selectionBackground': '#d1e2e1',
+    },
+  })
+
+  monaco.languages.registerHoverProvider(SHEET_LANGUAGE, {
+    provideHover(model, position) {
+      const word = model.getWordAtPosition(position)
+      if (!word) return null
+      const range = new monaco.Range(position.lineNumber, word.startColumn, position.lineNumber, word.endColumn)
+      const sym = (sheetSymbols.get(model.uri.toString()) ?? []).find((s) => s.name === word.word)
+      if (sym) return { range, contents: [{ value: describeSymbol(sym) }] }
+      if ((FUNCTIONS as readonly string[]).includes(word.word) || word.word === 'delay') {
+        return { range, contents: [{ value: `**${word.word}** — function\n\n${FUNCTION_HELP[word.word] ?? `${word.word}(x)`}` }] }
+      }
+      if (word.word === 't') return { range, contents: [{ value: '**t** — the time, in the sheet\'s time unit' }] }
+      return null
+    },
+  })
+
+  monaco.languages.registerCompletionItemProvider(SHEET_LANGUAGE, {
+    provideCompletionItems(model, position) {
+      const word = model.getWordUntilPosition(position)
+      const range = new monaco.Range(position.lineNumber, word.startColumn, position.lineNumber, word.endColumn)
+      const K = monaco.languages.CompletionItemKind
+      const kindOf: Record<SymbolKind, Monaco.languages.CompletionItemKind> = {
+        state: K.Variable, param: K.Constant, const: K.Constant, input: K.Field, lookup: K.Function, let: K.Variable, output: K.Value,
+      }
+      const seen = new Set<string>()
+      const suggestions: Monaco.languages.CompletionItem[] = []
+      for (const s of sheetSymbols.get(model.uri.toString()) ?? []) {
+        if (s.kind === 'output' || seen.has(s.name)) continue
+        seen.add(s.name)
+        suggestions.push({
+          label: s.name, kind: kindOf[s.kind], insertText: s.name, range, sortText: `0${s.name}`,
+          detail: `${kindLabel[s.kind]}${s.unit ? ` [${s.unit}]` : ''}`, documentation: { value: describeSymbol(s) },
+        })
+      }
+      for (const f of [...FUNCTIONS, 'delay']) {
+        suggestions.push({
+          label: f, kind: K.Function, insertText: `${f}($0)`, insertTextRules: monaco.languages.CompletionItemInsertTextRule.InsertAsSnippet,
+          range, sortText: `1${f}`, detail: 'function', documentation: FUNCTION_HELP[f],
+        })
+      }
+      for (const k of [...SHEET_KEYWORDS, ...SHEET_MODIFIERS]) suggestions.push({ label: k, kind: K.Keyword, insertText: k, range, sortText: `2${k}` })
+      for (const b of BUILTINS.slice(1)) suggestions.push({ label: b, kind: K.Constant, insertText: b, range, sortText: `1${b}` })
+      return { suggestions }
+    },
+  })
+}

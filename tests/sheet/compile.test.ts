@@ -1,0 +1,176 @@
+// The generated functions against mathjs evaluate (an independent general-purpose library):
+// agreement to 1e-12 relative at seeded random points of a domain where both are real.
+import { describe, expect, it } from 'vitest'
+import { compileModel, parseModel, tryCompileModel, SheetError } from '../../shared/sheet/index'
+import { defaultPoint, mathjsReference, parsed, rng, templates, type Point } from './helpers'
+
+/** every whitelisted function and operator (no units: the values are plain numbers) */
+export const KITCHEN_SINK = `model "every function"
+input u1 = 1
+input u2 = 2
+param a = 0.7 in [0.1, 2]
+param b = 1.3 in [0.1, 3]
+param tau = 2 in [0, 5]
+const c1 = 0.25
+lookup tab = { 0: 0, 1: 2, 2: 3, 4: 3.5 }
+state x1 = 0.5
+state x2 = 1.5
+state x3 = 0.8
+let s = sin(x1) + cos(x2) + tan(0.3*x3)
+let h = asin(0.5*x1/(1+x1)) + acos(0.4*x3/(1+x3)) + atan(x2) + atan2(x1, x2)
+let hy = sinh(0.2*x1) + cosh(0.1*x2) + tanh(x3) + hypot(x1, x2, a)
+x1' = -a*x1 + exp(-x2) + log(1+x3) + log10(2+x1) + sqrt(x2) + s*c1 + pow(x3, b) + x1^2.5 + x2^b + a^x3
+x2' = abs(x1 - 0.5) - max(x1, x2) + min(x3, u1, 2) + sign(x1 - 1) + floor(3*x2) + ceil(x3) + (x1 > x2 ? h : hy) + tab(x2)
+x3' = delay(u2, tau) * (x1 <= x3) - b*x3/(1 + x1*x2) + t*0.01 + pi/10 + e/10 + (x1 >= 0.3) + (x2 == x2) - (x1 != x1) + (x2 < 1) - -x3
+output y1 = x1 + hy
+output y2 = h * u1 * delay(u2, tau)
+output y3 = t`
+
+function randomPoint(c: ReturnType<typeof compileModel>, r: () => number, lo: number, hi: number): Point {
+  const s = () => lo + (hi - lo) * r()
+  return {
+    t: s(),
+    x: Float64Array.from({ length: c.nx }, s),
+    p: Float64Array.from({ length: c.np }, s),
+    u: Float64Array.from({ length: c.nu + c.nd }, s),
+  }
+}
+
+function rel(a: number, b: number) {
+  return Math.abs(a - b) / Math.max(Math.abs(a), Math.abs(b), 1e-300)
+}
+
+function compareWithMathjs(text: string, pts: Point[]) {
+  const c = compileModel(text)
+  const m = parsed(text)
+  const f = new Float64Array(c.nx)
+  const g = new Float64Array(c.ny)
+  let worst = 0
+  for (const pt of pts) {
+    c.rhs(pt.t, pt.x, pt.p, pt.u, f)
+    c.outputsFn(pt.t, pt.x, pt.p, pt.u, g)
+    const ref = mathjsReference(m, pt)
+    ref.f.forEach((v, i) => { expect(Number.isFinite(v)).toBe(true); worst = Math.max(worst, rel(f[i], v)) })
+    ref.g.forEach((v, i) => { worst = Math.max(worst, rel(g[i], v)) })
+  }
+  return worst
+}
+
+describe('generated code agrees with mathjs evaluate', () => {
+  it('every function and operator, at 200 seeded random points in [0.1, 3]', () => {
+    const c = compileModel(KITCHEN_SINK)
+    const r = rng(12345)
+    const pts = Array.from({ length: 200 }, () => randomPoint(c, r, 0.1, 3))
+    expect(compareWithMathjs(KITCHEN_SINK, pts)).toBeLessThan(1e-12)
+  })
+
+  for (const { file, text } of templates()) {
+    it(`template ${file} at its own values and at 50 perturbed points`, () => {
+      const c = compileModel(text)
+      const base = defaultPoint(c)
+      const r = rng(777)
+      const pts: Point[] = [base]
+      for (let k = 0; k < 50; k++) {
+        const j = () => 1 + 0.2 * (r() - 0.5)
+        pts.push({
+          t: 10 * r(),
+          // keep the domain positive and real (levels, concentrations, absolute temperatures)
+          x: base.x.map((v) => (v === 0 ? 0.01 * r() : v * j())),
+          p: base.p.map((v) => v * j()),
+          u: base.u.map((v) => (v === 0 ? 0.01 * r() : v * j())),
+        })
+      }
+      expect(compareWithMathjs(text, pts)).toBeLessThan(1e-12)
+    })
+  }
+
+  it('out-of-domain values give NaN, not complex numbers (our NaN rule)', () => {
+    const c = compileModel("state x = 1\nx' = sqrt(x) + x^0.5 + log(x)\noutput y = x")
+    const out = new Float64Array(1)
+    c.rhs(0, new Float64Array([-1]), new Float64Array(0), new Float64Array(0), out)
+    expect(Number.isNaN(out[0])).toBe(true)
+  })
+})
+
+describe('compiled model', () => {
+  it('index maps and sizes follow declaration order', () => {
+    const c = compileModel(KITCHEN_SINK)
+    expect([c.nx, c.np, c.nu, c.nd, c.ny]).toEqual([3, 3, 2, 1, 3])
+    expect(c.states.map((s) => s.name)).toEqual(['x1', 'x2', 'x3'])
+    expect(c.params.map((s) => s.name)).toEqual(['a', 'b', 'tau'])
+    expect(c.delays).toEqual([{ input: 1, param: 2, constValue: 2 }])
+    expect(c.states[0]).toMatchObject({ initial: 0.5, line: 9, estimate: false, steady: false })
+    expect(c.params[1]).toMatchObject({ value: 1.3, lower: 0.1, upper: 3, fixed: false, line: 5 })
+  })
+
+  it('is cached by the hash of the text', () => {
+    const a = compileModel(KITCHEN_SINK)
+    const b = compileModel(KITCHEN_SINK)
+    expect(b).toBe(a)
+    const other = compileModel(KITCHEN_SINK + '\n# a comment changes the text')
+    expect(other).not.toBe(a)
+    expect(other.hash).not.toBe(a.hash)
+    expect(compileModel(parseModel(KITCHEN_SINK).model!)).toBe(a)
+  })
+
+  it('computes each let once per call and allocates nothing in the generated functions', () => {
+    const c = compileModel(KITCHEN_SINK)
+    const rhs = /function rhs\(t,x,p,u,out\)\{([\s\S]*?)\n\}/.exec(c.source)![1]
+    for (const l of ['L0', 'L1', 'L2']) expect(rhs.split(`const ${l}=`).length - 1).toBe(1)
+    expect(c.source).not.toMatch(/\bnew\b|=>|\[\s*\]|\.map\(|\.slice\(|\.concat\(/)
+  })
+
+  it('user names never reach the generated source', () => {
+    const c = compileModel(`param process_rate = 1 [1/s] in [0, 2]
+input constructor_like = 1 [1]
+state fs_require = 1 [m]
+fs_require' = -process_rate * fs_require * constructor_like
+output globalThis_level = fs_require [m]`)
+    for (const n of ['process_rate', 'constructor_like', 'fs_require', 'globalThis_level']) expect(c.source).not.toContain(n)
+  })
+
+  it('compileModel throws a SheetError with the diagnostics; tryCompileModel does not throw', () => {
+    expect(() => compileModel("state x = 1\nx' = y")).toThrow(SheetError)
+    try { compileModel("state x = 1\nx' = y") } catch (e) { expect((e as SheetError).diagnostics.find((d) => d.severity === 'error')).toMatchObject({ line: 2, message: "unknown name 'y'" }) }
+    const r = tryCompileModel("state x = 1\nx' = y")
+    expect(r.compiled).toBeNull()
+    expect(r.diagnostics.length).toBeGreaterThan(0)
+  })
+
+  it('a discrete sheet returns x(k+1) and its sample time in sheet units', () => {
+    const c = compileModel(`time [min]
+sample 30 [s]
+input u = 1 [W] hold
+param a = 0.9 [1] in [0, 1]
+param b = 0.5 [K/W] in [0, 2]
+state y = 280 [K]
+next y = a * y + b * u
+output temp = y [K]`)
+    expect(c.kind).toBe('discrete')
+    expect(c.sampleTime).toBe(0.5)
+    const out = new Float64Array(1)
+    c.rhs(0, new Float64Array([280]), new Float64Array([0.9, 0.5]), new Float64Array([2]), out)
+    expect(out[0]).toBeCloseTo(0.9 * 280 + 0.5 * 2, 12)
+    const j = new Float64Array(1)
+    c.dfdx(0, new Float64Array([280]), new Float64Array([0.9, 0.5]), new Float64Array([2]), j)
+    expect(j[0]).toBe(0.9)
+  })
+
+  it('delay slots: one per (input, tau) pair, read from u[nu + k]', () => {
+    const c = compileModel(`input a = 1 [1]
+input b = 2 [1]
+param tau = 3 [s] in [0, 10]
+const tau2 = 5 [min]
+state x = 0 [1]
+x' = (delay(a, tau) + delay(a, tau) + delay(b, tau) + delay(a, tau2) + a) / tau
+output y = x`)
+    expect(c.delays).toEqual([{ input: 0, param: 0, constValue: 3 }, { input: 1, param: 0, constValue: 3 }, { input: 0, param: null, constValue: 300 }])
+    const out = new Float64Array(1)
+    const u = new Float64Array([1, 2, 10, 20, 30])
+    c.rhs(0, new Float64Array([0]), new Float64Array([3]), u, out)
+    expect(out[0]).toBeCloseTo((10 + 10 + 20 + 30 + 1) / 3, 12)
+    const du = new Float64Array(5)
+    c.dfdu(0, new Float64Array([0]), new Float64Array([3]), u, du)
+    expect(Array.from(du)).toEqual([1 / 3, 0, 2 / 3, 1 / 3, 1 / 3])
+  })
+})

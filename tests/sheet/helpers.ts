@@ -1,0 +1,125 @@
+import { readdirSync, readFileSync } from 'node:fs'
+import { join } from 'node:path'
+import { checkModel, compileModel, type CompiledModel, type Diagnostic } from '../../shared/sheet/index'
+
+export const MODELS_DIR = join(__dirname, '..', '..', 'models')
+
+export function templates(): { file: string; text: string }[] {
+  return readdirSync(MODELS_DIR).filter((f) => f.endsWith('.sheet')).sort().map((file) => ({ file, text: readFileSync(join(MODELS_DIR, file), 'utf8') }))
+}
+
+export function errors(text: string): Diagnostic[] {
+  return checkModel(text).diagnostics.filter((d) => d.severity === 'error')
+}
+
+/** Seeded pseudo-random numbers (mulberry32; synthetic test data). */
+export function rng(seed: number): () => number {
+  let a = seed >>> 0
+  return () => {
+    a = (a + 0x6d2b79f5) >>> 0
+    let t = a
+    t = Math.imul(t ^ (t >>> 15), t | 1)
+    t ^= t + Math.imul(t ^ (t >>> 7), t | 61)
+    return ((t ^ (t >>> 14)) >>> 0) / 4294967296
+  }
+}
+
+export interface Point { t: number; x: Float64Array; p: Float64Array; u: Float64Array }
+
+/** the sheet's own values, delayed slots filled with the current input value */
+export function defaultPoint(c: CompiledModel): Point {
+  const u = new Float64Array(c.nu + c.nd)
+  c.inputs.forEach((s, i) => (u[i] = s.value))
+  c.delays.forEach((d, k) => (u[c.nu + k] = u[d.input]))
+  return { t: 0, x: Float64Array.from(c.states.map((s) => s.initial)), p: Float64Array.from(c.params.map((s) => s.value)), u }
+}
+
+type Which = 'x' | 'p' | 'u' | 't'
+/**
+ * Central finite differences of rhs (or outputs) with respect to one group of variables:
+ * (f(v + h) - f(v - h)) / 2h, h = 1e-6 (|v| + 1e-3) (common practice, no source).
+ */
+export function centralDifferences(c: CompiledModel, pt: Point, which: Which, of: 'f' | 'g'): Float64Array {
+  const fn = of === 'f' ? c.rhs : c.outputsFn
+  const nrow = of === 'f' ? c.nx : c.ny
+  const ncol = which === 'x' ? c.nx : which === 'p' ? c.np : which === 'u' ? c.nu + c.nd : 1
+  const out = new Float64Array(nrow * ncol)
+  const fp = new Float64Array(nrow)
+  const fm = new Float64Array(nrow)
+  for (let j = 0; j < ncol; j++) {
+    const x = Float64Array.from(pt.x), p = Float64Array.from(pt.p), u = Float64Array.from(pt.u)
+    const v = which === 'x' ? x : which === 'p' ? p : which === 'u' ? u : null
+    const base = v ? v[j] : pt.t
+    const h = 1e-6 * (Math.abs(base) + 1e-3)
+    if (v) v[j] = base + h
+    fn(v ? pt.t : pt.t + h, x, p, u, fp)
+    if (v) v[j] = base - h
+    fn(v ? pt.t : pt.t - h, x, p, u, fm)
+    for (let i = 0; i < nrow; i++) out[i * ncol + j] = (fp[i] - fm[i]) / (2 * h)
+  }
+  return out
+}
+
+export function analytic(c: CompiledModel, pt: Point, which: Which, of: 'f' | 'g'): Float64Array {
+  const nrow = of === 'f' ? c.nx : c.ny
+  const ncol = which === 'x' ? c.nx : which === 'p' ? c.np : which === 'u' ? c.nu + c.nd : 1
+  const out = new Float64Array(nrow * ncol).fill(NaN)
+  const fn = of === 'f'
+    ? { x: c.dfdx, p: c.dfdp, u: c.dfdu, t: c.dfdt }[which]
+    : { x: c.dgdx, p: c.dgdp, u: c.dgdu, t: null }[which]
+  if (!fn) throw new Error('no dg/dt in the contract')
+  fn(pt.t, pt.x, pt.p, pt.u, out)
+  return out
+}
+
+/** max over entries of |a - b| / (|a| + |b| + floor) */
+export function maxRelDiff(a: Float64Array, b: Float64Array, floor: number): number {
+  let m = 0
+  for (let i = 0; i < a.length; i++) m = Math.max(m, Math.abs(a[i] - b[i]) / (Math.abs(a[i]) + Math.abs(b[i]) + floor))
+  return m
+}
+
+export { compileModel, checkModel }
+
+import { evaluate as mjEvaluate, parse as mjParse } from 'mathjs'
+import { parseModel, type ParsedModel } from '../../shared/sheet/index'
+
+/** an independent piecewise-linear table, clamped at the ends */
+function interp(xs: Float64Array, ys: Float64Array, v: number): number {
+  if (v <= xs[0]) return ys[0]
+  if (v >= xs[xs.length - 1]) return ys[ys.length - 1]
+  let i = 0
+  while (xs[i + 1] < v) i++
+  return ys[i] + ((ys[i + 1] - ys[i]) * (v - xs[i])) / (xs[i + 1] - xs[i])
+}
+
+/**
+ * The right sides and outputs evaluated by mathjs (`parse(text).evaluate(scope)`) from the sheet's
+ * own expression texts, with every symbol given its internal SI value: the reference the
+ * generated code is compared with.
+ */
+export function mathjsReference(m: ParsedModel, pt: Point): { f: number[]; g: number[] } {
+  const scope: Record<string, unknown> = {}
+  m.states.forEach((s, i) => (scope[s.name] = pt.x[i]))
+  m.params.forEach((s, i) => (scope[s.name] = pt.p[i]))
+  m.inputs.forEach((s, i) => (scope[s.name] = pt.u[i]))
+  m.consts.forEach((s) => (scope[s.name] = s.value))
+  m.lookups.forEach((l) => (scope[l.name] = (v: number) => interp(l.xs, l.ys, v)))
+  scope.t = pt.t * m.secondsPerTimeUnit
+  scope.delay = (uv: number, tauv: number) => {
+    const k = m.delays.findIndex((d) => pt.u[d.input] === uv && (d.param !== null ? pt.p[d.param] : d.constValue) === tauv)
+    if (k < 0) throw new Error('delay slot not found')
+    return pt.u[m.inputs.length + k]
+  }
+  const num = (v: unknown) => (typeof v === 'boolean' ? (v ? 1 : 0) : (v as number))
+  for (const i of m.letOrder) scope[m.lets[i].name] = num(mjParse(m.lets[i].text).evaluate(scope))
+  const f = m.equations.map((q) => q.timeFactor * num(mjEvaluate(q.text, scope)))
+  const g = m.outputs.map((o) => num(mjEvaluate(o.text, scope)))
+  return { f, g }
+}
+
+export function parsed(text: string): ParsedModel {
+  const r = parseModel(text)
+  if (!r.model) throw new Error(JSON.stringify(r.diagnostics))
+  return r.model
+}
