@@ -55,10 +55,33 @@ function isoSeconds(s: string): number {
   return Date.parse(v) / 1000
 }
 
+/**
+ * The delimiter: of comma, semicolon, tab and bar, the one that splits the first lines into the same
+ * number (> 1) of fields most often (quotes respected); comma when none does.
+ */
+export function guessDelimiter(text: string): string {
+  const lines = text.split(/\r\n|\n|\r/).filter((l) => l.trim() !== '').slice(0, 30)
+  let best = ','
+  let bestScore = 0
+  for (const d of [',', ';', '\t', '|']) {
+    const counts = lines.map((l) => {
+      let n = 0
+      let q = false
+      for (const ch of l) { if (ch === '"') q = !q; else if (ch === d && !q) n++ }
+      return n
+    })
+    if (!counts.length || counts[0] === 0) continue
+    const same = counts.filter((c) => c === counts[0]).length
+    const score = same * 1000 + counts[0]
+    if (score > bestScore) { best = d; bestScore = score }
+  }
+  return best
+}
+
 export function readTraceCsv(text: string, opts: { filename: string; lineOffset?: number; maxRows: number }): ReadTable {
   const { filename } = opts
   const off = opts.lineOffset ?? 0
-  const parsed = Papa.parse<string[]>(text, { delimitersToGuess: [',', ';', '\t', '|'], skipEmptyLines: false })
+  const parsed = Papa.parse<string[]>(text, { delimiter: guessDelimiter(text), skipEmptyLines: false })
   const rows = parsed.data
   // drop trailing empty lines
   while (rows.length && rows[rows.length - 1].every((c) => c.trim() === '')) rows.pop()

@@ -18,7 +18,7 @@ import { slugify } from './workspaces'
 import { errorCodes } from '../../shared/api/errors'
 import { can, type Role } from '../../shared/api/auth'
 import {
-  sheetSummary, type CreateModelBody, type DiffQuery, type DiffReply, type DraftDto, type ForkBody, type ForkDto,
+  emptySheetSummary, sheetSummary, type CreateModelBody, type DiffQuery, type DiffReply, type DraftDto, type ForkBody, type ForkDto,
   type ListModelsQuery, type ListModelsReply, type ModelDetailDto, type ModelListItemDto, type PersonDto,
   type PublishBody, type SaveDraftBody, type SetMaintainersBody, type SheetSummary, type UpdateModelBody,
   type VersionDto, type VersionMetaDto, type VersionStatus,
@@ -64,7 +64,7 @@ function toVersionMeta(v: VersionRow, p: Map<number, PersonDto>): VersionMetaDto
 
 function storedSummary(v: VersionRow): SheetSummary {
   const r = sheetSummary.safeParse(v.summary)
-  return r.success ? r.data : { states: [], parameters: [], inputs: [], outputs: [] }
+  return r.success ? r.data : emptySheetSummary()
 }
 
 async function toVersion(db: Conn, v: VersionRow): Promise<VersionDto> {

@@ -27,32 +27,45 @@ export const diagnosticDto = z.object({
 export type DiagnosticDto = z.infer<typeof diagnosticDto>
 
 const num = z.number().nullable()
-export const summaryParameter = z.looseObject({
+/** One parameter as the sheet declares it (declared units, as written). */
+export const summaryParameter = z.object({
   name: z.string(),
-  unit: z.string().nullable().optional(),
-  value: num.optional(),
-  lower: num.optional(),
-  upper: num.optional(),
-  fixed: z.boolean().optional(),
-  description: z.string().optional(),
+  value: z.number(),
+  unit: z.string(),
+  lower: num,
+  upper: num,
+  fixed: z.boolean(),
+  description: z.string(),
+  line: z.number(),
 })
 export type SummaryParameter = z.infer<typeof summaryParameter>
-export const summarySymbol = z.looseObject({
-  name: z.string(),
-  unit: z.string().nullable().optional(),
-  description: z.string().optional(),
-})
-export type SummarySymbol = z.infer<typeof summarySymbol>
 
-/** States, parameters (with units and bounds), inputs and outputs of a sheet. */
-export const sheetSummary = z.looseObject({
-  title: z.string().optional(),
-  states: z.array(summarySymbol).default([]),
-  parameters: z.array(summaryParameter).default([]),
-  inputs: z.array(summarySymbol).default([]),
-  outputs: z.array(summarySymbol).default([]),
+/**
+ * States, parameters (with units and bounds), inputs and outputs of a sheet: the shape of
+ * shared/sheet's SheetSummary (checkModel), stored with every version.
+ */
+export const sheetSummary = z.object({
+  title: z.string(),
+  kind: z.enum(['continuous', 'discrete']),
+  timeUnit: z.string(),
+  sampleTime: num,
+  states: z.array(z.object({
+    name: z.string(), unit: z.string(), initial: z.number(), lower: num, upper: num, estimate: z.boolean(), steady: z.boolean(), description: z.string(), line: z.number(),
+  })),
+  parameters: z.array(summaryParameter),
+  inputs: z.array(z.object({
+    name: z.string(), value: z.number(), unit: z.string(), interp: z.enum(['linear', 'hold']), delayed: z.boolean(), description: z.string(), line: z.number(),
+  })),
+  outputs: z.array(z.object({ name: z.string(), unit: z.string(), sigma: num, description: z.string(), line: z.number() })),
+  consts: z.array(z.object({ name: z.string(), value: z.number(), unit: z.string(), line: z.number() })),
+  lookups: z.array(z.object({ name: z.string(), points: z.number(), line: z.number() })),
+  lets: z.number(),
 })
 export type SheetSummary = z.infer<typeof sheetSummary>
+
+export const emptySheetSummary = (): SheetSummary => ({
+  title: '', kind: 'continuous', timeUnit: 's', sampleTime: null, states: [], parameters: [], inputs: [], outputs: [], consts: [], lookups: [], lets: 0,
+})
 
 export const checkBody = z.object({ text: sheetText })
 export type CheckBody = z.infer<typeof checkBody>

@@ -1,6 +1,7 @@
 /** The line diff (Myers 1986) and the parameter comparison, on their own. */
 import { describe, expect, it } from 'vitest'
 import { diffLines, diffParameters, splitLines } from '../../server/services/diff'
+import { emptySheetSummary } from '../../shared/api/models'
 
 const lines = (s: string) => s.split('').join('\n')
 const apply = (oldText: string, d: ReturnType<typeof diffLines>) => d.lines.filter((l) => l.kind !== 'removed').map((l) => l.text).join('\n')
@@ -57,7 +58,7 @@ describe('diffLines', () => {
 
 describe('diffParameters', () => {
   const s = (parameters: { name: string; value: number; unit: string; lower: number | null; upper: number | null; fixed: boolean }[]) =>
-    ({ states: [], inputs: [], outputs: [], parameters })
+    ({ ...emptySheetSummary(), parameters: parameters.map((p, i) => ({ ...p, description: '', line: i + 1 })) })
   it('reports added, removed and changed parameters with the fields that differ', () => {
     const before = s([
       { name: 'UA', value: 150, unit: 'W/K', lower: 1, upper: 5000, fixed: false },

@@ -3,8 +3,7 @@
  * served by a real Pewter server on a free loopback port with a fresh database, driven by
  * playwright-core through Debian's Chromium (/usr/bin/chromium). Never downloads a browser.
  */
-import { existsSync, mkdirSync, mkdtempSync } from 'node:fs'
-import os from 'node:os'
+import { existsSync, mkdirSync } from 'node:fs'
 import path from 'node:path'
 import type { Server } from 'node:http'
 import { chromium, type Browser, type Page } from 'playwright-core'
@@ -38,7 +37,7 @@ export async function startBrowserRig(tag: string): Promise<BrowserRig> {
   context.config.publicUrl = baseUrl
   const browser = await chromium.launch({
     executablePath: '/usr/bin/chromium',
-    args: ['--headless', '--no-sandbox', '--disable-gpu', '--disable-quic', '--disable-background-networking', '--disable-component-update', '--disable-sync', '--no-first-run', `--user-data-dir=${mkdtempSync(path.join(os.tmpdir(), 'pewter-chromium-'))}`],
+    args: ['--headless', '--no-sandbox', '--disable-gpu', '--disable-quic', '--disable-background-networking', '--disable-component-update', '--disable-sync', '--no-first-run'],
   })
   mkdirSync(ARTIFACTS, { recursive: true })
   return {

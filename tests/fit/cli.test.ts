@@ -1,0 +1,90 @@
+/** `pewter fit` command-line contract: JSON shape, table, exit codes and messages. */
+import { afterAll, beforeAll, describe, expect, it } from 'vitest'
+import { execFile } from 'node:child_process'
+import { mkdtemp, rm, writeFile } from 'node:fs/promises'
+import { tmpdir } from 'node:os'
+import { join } from 'node:path'
+import { fitResult } from '../../shared/api/fit'
+import { MISRA1A, BOXBOD, nistCsv, nistSheet, sameDigits } from './fixtures/nist'
+
+let dir = ''
+const tsx = join(process.cwd(), 'node_modules/.bin/tsx')
+const cli = join(process.cwd(), 'server/cli/index.ts')
+
+function pewter(args: string[]): Promise<{ code: number; stdout: string; stderr: string }> {
+  return new Promise((resolve) => {
+    execFile(tsx, [cli, 'fit', ...args], { cwd: dir, timeout: 120_000 }, (err, stdout, stderr) => {
+      const code = err ? (typeof (err as { code?: unknown }).code === 'number' ? (err as { code: number }).code : -1) : 0
+      resolve({ code, stdout, stderr })
+    })
+  })
+}
+
+beforeAll(async () => {
+  dir = await mkdtemp(join(tmpdir(), 'pewter-fit-cli-'))
+  await writeFile(join(dir, 'misra.sheet'), nistSheet(MISRA1A, MISRA1A.starts[0]))
+  await writeFile(join(dir, 'misra.csv'), nistCsv(MISRA1A))
+  // the same data with the time in minutes
+  await writeFile(join(dir, 'misra-min.csv'), ['t [min],yobs', ...MISRA1A.x.map((x, i) => `${x / 60},${MISRA1A.y[i]}`)].join('\n'))
+  await writeFile(join(dir, 'boxbod.sheet'), nistSheet(BOXBOD, BOXBOD.starts[1]))
+  await writeFile(join(dir, 'boxbod.csv'), nistCsv(BOXBOD))
+  await writeFile(join(dir, 'text.csv'), 't,yobs\n1,109\n2,lots\n3,149\n')
+  await writeFile(join(dir, 'notime.csv'), 'label,yobs\nfirst,109\nsecond,149\n')
+  await writeFile(join(dir, 'fixed.sheet'), 'model "fixed"\ntime [s]\nparam b1 = 200 in [1, 1e4]\nparam b2 = 0.5 fixed\nstate y = 0\ny\' = b2 * (b1 - y)\noutput yobs = y\n')
+})
+afterAll(async () => {
+  if (dir) await rm(dir, { recursive: true, force: true })
+})
+
+describe('pewter fit', () => {
+  it('--json prints one object with the contract fields; the time unit in the header is converted', async () => {
+    const r = await pewter(['misra.sheet', 'misra-min.csv', '--rtol', '1e-11', '--atol', '1e-11', '--json'])
+    expect(r.stderr).toBe('')
+    expect(r.code).toBe(0)
+    const res = fitResult.parse(JSON.parse(r.stdout))
+    for (const k of ['status', 'reason', 'sse', 'iterations', 'simulations', 'elapsedMs', 'parameters', 'initialStates', 'outputs', 'correlation', 'warnings']) {
+      expect(res).toHaveProperty(k)
+    }
+    expect(Object.keys(res.parameters[0])).toEqual(expect.arrayContaining(['name', 'value', 'stdError', 'ci95', 'lower', 'upper', 'atBound']))
+    expect(Object.keys(res.outputs[0])).toEqual(expect.arrayContaining(['name', 'experiment', 'nrmse', 'rmse', 'r2', 'validation']))
+    expect(sameDigits(res.parameters[0].value, MISRA1A.certified.b[0], 6)).toBe(true)
+    expect(sameDigits(res.sse!, MISRA1A.certified.rss, 6)).toBe(true)
+    expect(res.elapsedMs).toBeGreaterThan(0)
+  })
+
+  it('two experiments, a local parameter, a validation file and the readable table', async () => {
+    const r = await pewter(['boxbod.sheet', 'boxbod.csv', 'boxbod.csv', '--local', 'b2', '--validate', 'boxbod.csv', '--rtol', '1e-10'])
+    expect(r.code).toBe(0)
+    expect(r.stdout).toMatch(/^fit converged/)
+    expect(r.stdout).toMatch(/b2 \(exp 1\)/)
+    expect(r.stdout).toMatch(/b2 \(exp 2\)/)
+    expect(r.stdout).toMatch(/validation/)
+    expect(r.stdout).toMatch(/note: .*control or for any safety-related decision/)
+  })
+
+  it('bad arguments exit 2 with a one-line reason', async () => {
+    const cases: [string[], RegExp][] = [
+      [['misra.sheet', 'misra.csv', '--frobnicate'], /unknown option --frobnicate/],
+      [['misra.sheet', 'misra.csv', '--bounds', 'b1=5:1'], /--bounds b1: the lower bound \(5\) must be below the upper bound \(1\)/],
+      [['misra.sheet', 'misra.csv', '--set', 'bl=3'], /--set bl: the sheet has no parameter or state named 'bl' \(did you mean 'b1'\?\)/],
+      [['misra.sheet', 'misra.csv', '--set', 'b1=1e5'], /parameter 'b1': the start value 100000 lies outside its bounds \[1, 10000\]/],
+      [['fixed.sheet', 'misra.csv', '--free', 'b2'], /--free b2: 'b2' has no bounds/],
+      [['misra.sheet', 'missing.csv'], /cannot read missing.csv: ENOENT/],
+      [['misra.sheet'], /give a sheet file and at least one data file/],
+    ]
+    for (const [args, re] of cases) {
+      const r = await pewter(args)
+      expect(r.code, args.join(' ')).toBe(2)
+      expect(r.stderr).toMatch(re)
+    }
+  })
+
+  it('bad data exits 1 naming file, row and column', async () => {
+    const a = await pewter(['misra.sheet', 'text.csv'])
+    expect(a.code).toBe(1)
+    expect(a.stderr).toMatch(/text.csv, row 3, column 'yobs': 'lots' is not a number/)
+    const b = await pewter(['misra.sheet', 'notime.csv'])
+    expect(b.code).toBe(1)
+    expect(b.stderr).toMatch(/notime.csv, row 2, column 'label': no time column/)
+  })
+})
