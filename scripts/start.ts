@@ -31,11 +31,23 @@ async function main() {
     process.env.DATABASE_URL = cluster.url
     stop = cluster.stop
   }
+  // e-mail: a local fake SMTP server that stores every message for the admin-only Mailbox page,
+  // unless SMTP_URL names a real relay
+  let fakeSmtp: { close: () => Promise<void> } | null = null
+  if (!process.env.SMTP_URL) {
+    const { startFakeSmtp } = await import('../server/mail/fake-smtp')
+    const smtp = await startFakeSmtp({ databaseUrl: process.env.DATABASE_URL!, port: Number(process.env.PEWTER_FAKE_SMTP_PORT ?? 2525) })
+    process.env.SMTP_URL = smtp.url
+    process.env.PEWTER_FAKE_SMTP = '1'
+    fakeSmtp = smtp
+    console.log(`[pewter] local fake SMTP server on ${smtp.url} (messages appear on the Mailbox page; set SMTP_URL for a real relay)`)
+  }
   const { startServer } = await import('../server/index')
   const { shutdown } = await startServer()
   const bye = async () => {
     console.log('\n[pewter] stopping …')
     await shutdown().catch(() => {})
+    await fakeSmtp?.close().catch(() => {})
     stop?.()
     process.exit(0)
   }

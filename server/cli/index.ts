@@ -6,6 +6,7 @@ const commands: Record<string, () => Promise<{ run: (args: string[]) => Promise<
   check: () => import('./check'),
   simulate: () => import('./simulate'),
   fit: () => import('./fit'),
+  submit: () => import('./submit'),
 }
 
 async function main(argv: string[]): Promise<number> {

@@ -105,8 +105,9 @@ export function parseArgs(args: string[]): Options {
   if (tEnd === undefined) throw new ArgError('--t-end is required')
   const t0 = o.t0 as number
   if (!(tEnd > t0)) throw new ArgError(`--t-end (${tEnd}) must be after --t0 (${t0})`)
-  if (o.step !== null && o.at !== null) throw new ArgError('give either --step or --at, not both')
-  if (o.step !== null && !(o.step > 0)) throw new ArgError(`--step must be > 0, got ${o.step}`)
+  const step = o.step ?? null
+  if (step !== null && o.at !== null) throw new ArgError('give either --step or --at, not both')
+  if (step !== null && !(step > 0)) throw new ArgError(`--step must be > 0, got ${step}`)
   if (o.at) {
     for (let i = 0; i < o.at.length; i++) {
       if (o.at[i] < t0 || o.at[i] > tEnd) throw new ArgError(`--at: time ${o.at[i]} is outside [t0, t-end] = [${t0}, ${tEnd}]`)

@@ -125,6 +125,7 @@ async function uniqueModelSlug(db: Conn, workspaceId: number, title: string): Pr
 function requireCleanSheet(text: string): SheetSummary {
   const r = checkSheet(text)
   const errors = r.diagnostics.filter((d) => d.severity === 'error')
+  if (!errors.length && !r.summary) throw new Error('the sheet checker returned a summary of an unexpected shape')
   if (errors.length || !r.summary) {
     const first = errors[0]
     const where = first ? `; the first at line ${first.line}, column ${first.column}: ${first.message}` : ''

@@ -8,6 +8,7 @@ import { sheetSummary, type CheckReply, type DiagnosticDto } from '../../shared/
 export function checkSheet(text: string): CheckReply {
   const r = checkModel(text)
   const diagnostics: DiagnosticDto[] = r.diagnostics.map((d) => ({ line: d.line, column: d.column, endColumn: d.endColumn, severity: d.severity, message: d.message }))
-  const parsed = r.summary ? sheetSummary.safeParse(r.summary) : null
-  return { ok: r.ok, diagnostics, summary: parsed?.success ? parsed.data : null }
+  // the summary is validated against the stored shape (a drift between the two fails loudly on publish)
+  const parsed = sheetSummary.safeParse(r.summary)
+  return { ok: r.ok, diagnostics, summary: parsed.success ? parsed.data : null }
 }

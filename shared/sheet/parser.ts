@@ -474,8 +474,10 @@ class SheetParser {
   private exprEnd(s: LineScanner, stopAtUnit: boolean): number {
     const t = s.text
     let end = t.length
-    const q = t.indexOf('"', s.pos)
-    if (q >= 0) end = q
+    // a description is a final "…" that ends the line; any other quote stays in the expression
+    // (where the expression check refuses it with its place)
+    const m0 = /"[^"]*"\s*$/.exec(t.slice(s.pos))
+    if (m0) end = s.pos + m0.index
     if (stopAtUnit) {
       const br = t.indexOf('[', s.pos)
       if (br >= 0 && br < end) end = br

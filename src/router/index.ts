@@ -87,6 +87,36 @@ export const router = createRouter({
           meta: { title: 'Runs', section: 'runs' },
         },
         {
+          path: 'projects/:pid(\\d+)',
+          name: 'project',
+          component: () => import('@/views/ProjectView.vue'),
+          meta: { title: 'Project', section: 'projects' },
+        },
+        {
+          path: 'data/:did(\\d+)',
+          name: 'dataset',
+          component: () => import('@/views/DatasetView.vue'),
+          meta: { title: 'Dataset', section: 'data' },
+        },
+        {
+          path: 'runs/compare',
+          name: 'run-compare',
+          component: () => import('@/views/RunCompareView.vue'),
+          meta: { title: 'Compare runs', section: 'runs' },
+        },
+        {
+          path: 'runs/:rid(\\d+)',
+          name: 'run',
+          component: () => import('@/views/RunView.vue'),
+          meta: { title: 'Fit run', section: 'runs' },
+        },
+        {
+          path: 'runs/:rid(\\d+)/report',
+          name: 'run-report',
+          component: () => import('@/views/RunReportView.vue'),
+          meta: { title: 'Fit report', section: 'runs' },
+        },
+        {
           path: 'team',
           name: 'team',
           component: () => import('@/views/TeamView.vue'),

@@ -6,7 +6,7 @@ import path from 'node:path'
 import { createContext } from '../../server/bootstrap'
 import { loadTemplates, readTemplates, templatesFolder } from '../../server/services/templates'
 import { checkSheet } from '../../server/services/sheet-check'
-import { demo, makeTestApp, signedIn, type TestApp } from '../helpers/app'
+import { CSRF, demo, makeTestApp, signedIn, type TestApp } from '../helpers/app'
 import { drainSheet, drainSheetWithError, lagSheet } from './library-sheets'
 
 let t: TestApp
@@ -19,6 +19,9 @@ const templateRows = async () => (await t.context.database.pool.query(
 describe('templates from models/', () => {
   it('loads every clean sheet of models/ into the demo workspace as version 1, once', async () => {
     const shipped = readTemplates().filter((x) => checkSheet(x.text).ok).map((x) => x.file).sort()
+    // every shipped template checks clean, so every one of them is in the library
+    expect(shipped.length).toBeGreaterThanOrEqual(9)
+    expect(shipped).toHaveLength(readTemplates().length)
     const rows = await templateRows()
     expect(rows.map((r) => r.template)).toEqual(shipped)
     expect(rows.every((r) => r.versions === 1)).toBe(true)
@@ -56,6 +59,14 @@ describe('templates from models/', () => {
     const detail = (await viewer.get(`/api/workspaces/${demo.ws}/models/${probe.id}/versions/1`)).body
     expect(detail.text).toContain('model "Probe lag"')
     expect(detail.note).toBe('Template shipped with Pewter (models/probe.sheet)')
+
+    // a model made from a template is a fork of it: lineage kept, but it is no template itself
+    const modeler = await signedIn(t.app, demo.modeler)
+    const mine = await modeler.post(`/api/workspaces/${demo.ws}/models/${probe.id}/fork`).set(CSRF).send({ title: 'My probe' })
+    expect(mine.status).toBe(201)
+    expect(mine.body.tags).toEqual(['probe', 'sensors'])
+    expect(mine.body.template).toBeNull()
+    expect(mine.body.forkOf.id).toBe(probe.id)
 
     // a template added to the folder later appears at the next start
     copyFileSync(path.join(folder, 'drain.sheet'), path.join(folder, 'drain-copy.sheet'))

@@ -1,13 +1,15 @@
-import { describe, expect, it } from 'vitest'
+import { describe, expect, it, vi } from 'vitest'
 import { execFile } from 'node:child_process'
 import { mkdtempSync, writeFileSync } from 'node:fs'
 import { tmpdir } from 'node:os'
 import { join } from 'node:path'
+import { run } from '../../server/cli/simulate'
 
 const root = join(__dirname, '..', '..')
 const tsx = join(root, 'node_modules', '.bin', 'tsx')
 
-function pewter(args: string[]): Promise<{ code: number; stdout: string; stderr: string }> {
+/** through the real entry point (server/cli/index.ts), as `npm run -s pewter -- …` does */
+function spawnPewter(args: string[]): Promise<{ code: number; stdout: string; stderr: string }> {
   return new Promise((resolve) => {
     execFile(tsx, ['server/cli/index.ts', ...args], { cwd: root, timeout: 60_000 }, (err, stdout, stderr) => {
       const code = err ? (typeof (err as { code?: unknown }).code === 'number' ? (err as { code: number }).code : 99) : 0
@@ -16,14 +18,31 @@ function pewter(args: string[]): Promise<{ code: number; stdout: string; stderr:
   })
 }
 
+/** in-process (fast): the sub-command's run() with stdout/stderr captured */
+async function pewter(args: string[]): Promise<{ code: number; stdout: string; stderr: string }> {
+  const [cmd, ...rest] = args
+  expect(cmd).toBe('simulate')
+  let stdout = ''
+  let stderr = ''
+  const so = vi.spyOn(process.stdout, 'write').mockImplementation((c: string | Uint8Array) => { stdout += String(c); return true })
+  const se = vi.spyOn(process.stderr, 'write').mockImplementation((c: string | Uint8Array) => { stderr += String(c); return true })
+  try {
+    const code = await run(rest)
+    return { code, stdout, stderr }
+  } finally {
+    so.mockRestore()
+    se.mockRestore()
+  }
+}
+
 // Arenstorf orbit: Hairer, Nørsett & Wanner, Solving ODEs I, 2nd ed., Sec. II.0 (period and y(0)).
 const T = '17.0652165601579625588917206249'
 const y0 = [0.994, 0, 0, -2.00158510637908252240537862224]
 const sheet = 'tests/engine/fixtures/arenstorf.sheet'
 
 describe('pewter simulate', () => {
-  it('reproduces the Arenstorf check with rk45 at 1e-12 (CSV with states)', async () => {
-    const r = await pewter(['simulate', sheet, '--t-end', T, '--at', `0,8.5,${T}`, '--solver', 'rk45', '--rtol', '1e-12', '--atol', '1e-12', '--states'])
+  it('reproduces the Arenstorf check with rk45 at 1e-12 (CSV with states, through the pewter entry point)', { timeout: 180_000 }, async () => {
+    const r = await spawnPewter(['simulate', sheet, '--t-end', T, '--at', `0,8.5,${T}`, '--solver', 'rk45', '--rtol', '1e-12', '--atol', '1e-12', '--states'])
     expect(r.code, r.stderr).toBe(0)
     const lines = r.stdout.trim().split('\n')
     expect(lines[0]).toBe('t,p1,p2,y1,y2,v1,v2')

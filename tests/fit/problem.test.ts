@@ -97,6 +97,36 @@ describe('fit problem', () => {
     expect(Math.abs(res.parameters[0].value - 0.01)).toBeLessThan(4 * res.parameters[0].stdError!)
   })
 
+  it('normalized and equal weighting: 1/var(y) per output, or 1', async () => {
+    const e = tankExperiment('both', 10, 0.01, ['level', 'pressure'])
+    const res = await runFit(tank, { experiments: [e], weighting: 'normalized' })
+    const lv = res.outputs.find((o) => o.name === 'level')!
+    const y = e.outputs.level
+    const mean = y.reduce((a, b) => a + b, 0) / y.length
+    const v = y.reduce((a, b) => a + (b - mean) ** 2, 0) / (y.length - 1)
+    expect(lv.weight!).toBeCloseTo(1 / v, 6)
+    const eq = await runFit(tank, { experiments: [e], weighting: 'equal' })
+    expect(eq.outputs.map((o) => o.weight)).toEqual([1, 1])
+    // equal weights in SI: the pressure (in Pa) dominates the cost
+    expect(eq.sse!).toBeGreaterThan(1e5)
+  })
+
+  it('a steady initial state follows the parameters (sensitivities through the steady solve)', async () => {
+    const sheet = TANK_SHEET.replace('state h = 0.2 [m] "level"', 'state h = 0.2 [m] steady "level"')
+    const model = compileModel(sheet)
+    const t = Float64Array.from({ length: 200 }, (_, i) => i * 5)
+    const qv = Float64Array.from(t, (ti) => (ti < 300 ? 0.002 : 0.004))
+    const p = Float64Array.from(model.params.map((x) => x.value))
+    p[model.params.findIndex((x) => x.name === 'k')] = 0.008
+    const sim = simulate(model, { tOut: t, inputs: [{ t, v: qv }], p, rtol: 1e-10 })
+    expect(sim.y[0]).toBeCloseTo(0.002 / 0.008, 8)
+    const g = gaussian(12)
+    const level = Float64Array.from({ length: 200 }, (_, i) => sim.y[2 * i] + 0.003 * g())
+    const res = await runFit(model, { experiments: [{ name: 's', time: t, outputs: { level }, inputs: { q: { t, v: qv } } }] })
+    expect(Math.abs(res.parameters[0].value - 0.008)).toBeLessThan(4 * res.parameters[0].stdError!)
+    expect(res.parameters[0].stdError! / 0.008).toBeLessThan(0.02)
+  })
+
   it('estimates an initial state per experiment', async () => {
     const sheet = TANK_SHEET.replace('state h = 0.2 [m] "level"', 'state h = 0.5 [m] estimate in [0, 3] "level"')
     const model = compileModel(sheet)

@@ -108,6 +108,8 @@ export interface PreparedExperiment {
   /** per output index: number of samples, and the weight in use */
   outputCount: Int32Array
   weights: Float64Array
+  /** default step limit: every output time and input sample is a breakpoint, so it grows with the data */
+  stepLimit: number
 }
 
 export class FitProblem implements LsqProblem {
@@ -335,6 +337,7 @@ export class FitProblem implements LsqProblem {
       obs: { tIdx, oIdx, y, sqrtW: new Float64Array(total).fill(1), offset, count: total },
       sensCol, sensParams, sensStates, measuredOutputs, outputCount,
       weights: new Float64Array(model.ny).fill(1),
+      stepLimit: Math.max(100_000, 20 * (tOut.length + inputs.reduce((a, tr) => a + (tr ? tr.t.length : 0), 0))),
     }
   }
 
@@ -422,7 +425,7 @@ export class FitProblem implements LsqProblem {
         solver: this.sim.solver,
         rtol: this.sim.rtol,
         atol: this.sim.atol,
-        maxSteps: this.sim.maxSteps,
+        maxSteps: this.sim.maxSteps ?? ex.stepLimit,
         signal: this.sim.signal,
       })
     } catch (err) {

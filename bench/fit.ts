@@ -1,0 +1,166 @@
+/**
+ * `npm run bench:fit`: prints time and simulations of fits (a benchmark, not a test).
+ *  1. NIST StRD Misra1a and BoxBOD as sheets (y' = b2·(b1 − y)), both NIST starts, lm, rtol = atol = 1e-11.
+ *  2. The same fits with scipy's solve_ivp (DOP853, with the forward-sensitivity equations, so both sides
+ *     use an exact Jacobian) + least_squares (trf, bounds) when python3 with scipy is installed; the ratio.
+ *  3. A 3-state cascade of vessels (seeded synthetic data) on 1 000, 10 000 and 100 000 samples.
+ */
+import { spawnSync } from 'node:child_process'
+import { compileModel } from '../shared/sheet'
+import { simulate } from '../shared/engine/simulate'
+import { runFit, type ProblemSpec } from '../shared/engine/fit'
+import { BOXBOD, MISRA1A, nistSheet, type NistProblem } from '../tests/fit/fixtures/nist'
+import { gaussian } from '../tests/fit/fixtures/synthetic'
+
+function median(v: number[]): number {
+  const s = [...v].sort((a, b) => a - b)
+  return s[Math.floor(s.length / 2)]
+}
+
+function pad(rows: string[][]): string {
+  const w = rows[0].map((_, c) => Math.max(...rows.map((r) => r[c].length)))
+  return rows.map((r) => r.map((x, c) => (c === 0 ? x.padEnd(w[c]) : x.padStart(w[c]))).join('  ')).join('\n')
+}
+
+const g = (v: number, d = 4) => Number(v.toPrecision(d)).toString()
+
+interface Row { name: string; ms: number; sims: number; iters: number; sse: number }
+
+async function nistPewter(): Promise<Row[]> {
+  const rows: Row[] = []
+  for (const p of [MISRA1A, BOXBOD]) {
+    p.starts.forEach(() => undefined)
+    for (let s = 0; s < p.starts.length; s++) {
+      const model = compileModel(nistSheet(p, p.starts[s]))
+      const spec: ProblemSpec = { experiments: [{ name: p.name, time: Float64Array.from(p.x), outputs: { yobs: Float64Array.from(p.y) }, inputs: {} }] }
+      const times: number[] = []
+      let last = await runFit(model, spec, { rtol: 1e-11, atol: 1e-11 })
+      for (let k = 0; k < 15; k++) {
+        last = await runFit(model, spec, { rtol: 1e-11, atol: 1e-11 })
+        times.push(last.elapsedMs)
+      }
+      rows.push({ name: `${p.name} start ${s + 1}`, ms: median(times), sims: last.simulations, iters: last.iterations, sse: last.sse ?? NaN })
+    }
+  }
+  return rows
+}
+
+const PY = String.raw`
+import json, sys, time
+import numpy as np
+from scipy.integrate import solve_ivp
+from scipy.optimize import least_squares
+probs = json.loads(sys.argv[1])
+out = []
+for p in probs:
+    x = np.array(p['x']); y = np.array(p['y'])
+    nsim = [0]
+    def sim(b):
+        # states: y, dy/db1, dy/db2
+        def f(t, z):
+            return [b[1]*(b[0]-z[0]), b[1]*(1.0 - z[1]), (b[0]-z[0]) - b[1]*z[2]]
+        nsim[0] += 1
+        s = solve_ivp(f, (0.0, float(x[-1])), [0.0, 0.0, 0.0], method='DOP853', t_eval=x, rtol=1e-11, atol=1e-11)
+        return s.y
+    cache = {}
+    def get(b):
+        k = tuple(b)
+        if k not in cache:
+            cache.clear(); cache[k] = sim(b)
+        return cache[k]
+    def res(b): return get(b)[0] - y
+    def jac(b): z = get(b); return np.column_stack([z[1], z[2]])
+    for start in p['starts']:
+        reps = []
+        for r in range(5):
+            nsim[0] = 0
+            t0 = time.perf_counter()
+            sol = least_squares(res, start, jac=jac, bounds=(p['lower'], p['upper']), method='trf', x_scale='jac', xtol=1e-12, ftol=1e-12, gtol=1e-12)
+            reps.append((time.perf_counter() - t0) * 1000.0)
+        out.append({'name': p['name'], 'start': start, 'ms': sorted(reps)[len(reps)//2], 'sims': nsim[0], 'sse': float(2*sol.cost), 'b': list(map(float, sol.x))})
+print(json.dumps(out))
+`
+
+function nistScipy(): { name: string; ms: number; sims: number; sse: number }[] | string {
+  const probs = [MISRA1A, BOXBOD].map((p: NistProblem) => ({ name: p.name, x: p.x, y: p.y, starts: p.starts, lower: p.lower, upper: p.upper }))
+  const r = spawnSync('python3', ['-c', PY, JSON.stringify(probs)], { encoding: 'utf8', timeout: 600_000 })
+  if (r.error || r.status !== 0) return `python3 with scipy not available (${r.error?.message ?? r.stderr.split('\n').filter(Boolean).pop()})`
+  const res = JSON.parse(r.stdout) as { name: string; start: number[]; ms: number; sims: number; sse: number }[]
+  const count = new Map<string, number>()
+  return res.map((x) => {
+    const k = (count.get(x.name) ?? 0) + 1
+    count.set(x.name, k)
+    return { name: `${x.name} start ${k}`, ms: x.ms, sims: x.sims, sse: x.sse }
+  })
+}
+
+const CASCADE = `model "Three vessels in cascade (Tinmoor Works buffer line; synthetic benchmark data)"
+time [s]
+input q = 0.002 [m^3/s] hold "feed"
+param A = 1.2 [m^2] fixed "cross-section of each vessel"
+param k1 = 0.004 [m^2/s] in [1e-4, 1] "outlet coefficient 1"
+param k2 = 0.004 [m^2/s] in [1e-4, 1] "outlet coefficient 2"
+param k3 = 0.004 [m^2/s] in [1e-4, 1] "outlet coefficient 3"
+state h1 = 0.3 [m]
+state h2 = 0.3 [m]
+state h3 = 0.3 [m]
+h1' = (q - k1 * h1) / A
+h2' = (k1 * h1 - k2 * h2) / A
+h3' = (k2 * h2 - k3 * h3) / A
+output l1 = h1 [m]
+output l3 = h3 [m]
+`
+
+async function cascade(n: number): Promise<{ n: number; ms: number; sims: number; iters: number; perSample: number; ok: boolean }> {
+  const model = compileModel(CASCADE)
+  const dt = 2
+  const t = Float64Array.from({ length: n }, (_, i) => i * dt)
+  // feed switches every 600 s in a fixed pseudo-random pattern
+  const rnd = gaussian(17)
+  const level: number[] = []
+  for (let i = 0; i * 300 < n * dt + 300; i++) level.push(rnd() > 0 ? 0.004 : 0.001)
+  const qv = Float64Array.from(t, (ti) => level[Math.floor(ti / 300)])
+  const truth = Float64Array.from(model.params.map((p) => p.value))
+  truth.set([1.2, 0.006, 0.004, 0.003])
+  const sim = simulate(model, { tOut: t, inputs: [{ t, v: qv }], p: truth, rtol: 1e-9, maxSteps: 50 * n })
+  const noise = gaussian(99)
+  const l1 = new Float64Array(n)
+  const l3 = new Float64Array(n)
+  for (let i = 0; i < n; i++) {
+    l1[i] = sim.y[2 * i] + 0.002 * noise()
+    l3[i] = sim.y[2 * i + 1] + 0.002 * noise()
+  }
+  const spec: ProblemSpec = { experiments: [{ name: `n=${n}`, time: t, outputs: { l1, l3 }, inputs: { q: { t, v: qv } } }] }
+  const res = await runFit(model, spec, { rtol: 1e-7 })
+  const ok = res.status === 'converged' && Math.abs(res.parameters[0].value - 0.006) < 5 * (res.parameters[0].stdError ?? Infinity)
+  return { n, ms: res.elapsedMs, sims: res.simulations, iters: res.iterations, perSample: (res.elapsedMs * 1000) / n, ok }
+}
+
+async function main(): Promise<void> {
+  console.log('Pewter fit benchmark (prints figures; not a test). Machine: 2 shared cores, timings are medians.\n')
+  const ours = await nistPewter()
+  const theirs = nistScipy()
+  const header = ['NIST StRD problem', 'Pewter ms', 'iterations', 'simulations', 'SSE', 'scipy ms', 'scipy sims', 'scipy SSE', 'scipy/Pewter']
+  const rows = ours.map((r) => {
+    const s = typeof theirs === 'string' ? undefined : theirs.find((x) => x.name === r.name)
+    return [r.name, g(r.ms), String(r.iters), String(r.sims), g(r.sse, 11), s ? g(s.ms) : '—', s ? String(s.sims) : '—', s ? g(s.sse, 11) : '—', s ? `${g(s.ms / r.ms, 3)}×` : '—']
+  })
+  console.log(pad([header, ...rows]))
+  if (typeof theirs === 'string') console.log(`\nscipy comparison skipped: ${theirs}`)
+  else {
+    const ratio = ours.reduce((a, r) => a + r.ms, 0) > 0 ? theirs.reduce((a, x) => a + x.ms, 0) / ours.reduce((a, r) => a + r.ms, 0) : NaN
+    console.log(`\ntotal scipy time / total Pewter time: ${g(ratio, 3)}× (goal: at least 10×)`)
+  }
+  console.log('\n3-state cascade, 3 free parameters, 2 outputs, rtol 1e-7, lm from the sheet values:')
+  const crow: string[][] = [['samples', 'ms', 'iterations', 'simulations', 'µs per sample', 'converged near truth']]
+  for (const n of [1_000, 10_000, 100_000]) {
+    const c = await cascade(n)
+    crow.push([String(c.n), g(c.ms), String(c.iters), String(c.sims), g(c.perSample, 3), c.ok ? 'yes' : 'NO'])
+  }
+  console.log(pad(crow))
+}
+
+main().catch((e) => {
+  console.error(e)
+  process.exitCode = 1
+})

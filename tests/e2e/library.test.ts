@@ -1,0 +1,148 @@
+/**
+ * Browser: the library and the sheet editor. A modeler starts a model from a template, types an
+ * unknown name and sees the marker on that line, fixes it, changes a parameter, publishes version 2
+ * with a note; another modeler forks it and compares the fork with its origin.
+ * Needs dist/ (`npx vite build`).
+ */
+import { afterAll, beforeAll, describe, expect, it } from 'vitest'
+import type { Page } from 'playwright-core'
+import { startBrowserRig, type BrowserRig } from '../helpers/browser'
+import { demo } from '../helpers/app'
+
+let rig: BrowserRig
+beforeAll(async () => { rig = await startBrowserRig('e2e_library') })
+afterAll(async () => { await rig?.close() })
+
+const lazyChunks = /register\.all|plotly|editor\.worker|\/format-/
+
+async function templateText(title: string): Promise<string> {
+  const r = await rig.context.database.pool.query(
+    'select v.text from model_versions v join models m on m.id = v.model_id where m.title = $1 and m.template is not null and v.number = 1', [title])
+  return r.rows[0].text as string
+}
+
+/** Puts the cursor at the start of a 1-based line of the focused Monaco editor. */
+async function goToLine(page: Page, line: number) {
+  await page.keyboard.press('Control+Home')
+  for (let i = 1; i < line; i++) await page.keyboard.press('ArrowDown')
+  await page.keyboard.press('Home')
+  await page.keyboard.press('Home') // twice: Monaco's first Home stops at the first non-blank
+}
+
+async function pickOption(page: Page, selectIndexInDialog: number, optionText: string | RegExp) {
+  await page.locator('.el-dialog:visible .el-select').nth(selectIndexInDialog).click()
+  await page.locator('.el-select-dropdown__item:visible', { hasText: optionText }).first().click()
+}
+
+describe('browser: the model library', () => {
+  let modelUrl = ''
+
+  it('starts a model from a template, shows a marker for an unknown name on its line, and publishes version 2', async () => {
+    const page = await rig.newPage()
+    const requested: string[] = []
+    page.on('request', (r) => requested.push(r.url()))
+    await rig.signIn(page, demo.modeler)
+    await page.waitForURL(/\/w\/tinmoor\/library/)
+    await expect.poll(() => page.locator('[data-test="library-table"]').getByText('Heated buffer vessel').count()).toBeGreaterThan(0)
+    // the library page does not load the editor, its worker or the plotting library
+    expect(requested.filter((u) => lazyChunks.test(u))).toEqual([])
+
+    await page.locator('[data-test="new-model"]').click()
+    await pickOption(page, 0, 'Heated buffer vessel')
+    await page.getByLabel('Title').fill('Buffer B-7 (invented)')
+    await page.locator('[data-test="create-model"]').click()
+    await page.waitForURL(/\/w\/tinmoor\/library\/\d+$/)
+    modelUrl = page.url()
+    await page.locator('.monaco-editor .view-lines').waitFor()
+    await expect.poll(() => page.locator('[data-test="problem-count"]').textContent()).toMatch(/checks clean/)
+    expect(requested.some((u) => /register\.all/.test(u))).toBe(true)
+    await rig.screenshot(page, 'library-editor-clean')
+
+    // type an unknown name into the level equation
+    const text = await templateText('Heated buffer vessel')
+    const lines = text.split('\n')
+    const hLine = lines.findIndex((l) => l.startsWith("h' =")) + 1
+    expect(hLine).toBeGreaterThan(1)
+    await page.locator('.monaco-editor .view-lines').click()
+    await goToLine(page, hLine)
+    await page.keyboard.press('End')
+    await page.keyboard.type(' - q_drain')
+    await expect.poll(() => page.locator('.sheet-editor').getAttribute('data-marker-lines')).toBe(String(hLine))
+    await expect.poll(() => page.locator('[data-test="problems"]').textContent()).toMatch(new RegExp(`line ${hLine}, col \\d+.*unknown name 'q_drain'`))
+    await expect.poll(() => page.locator('.monaco-editor .squiggly-error').count()).toBeGreaterThan(0)
+    await rig.screenshot(page, 'library-editor-marker')
+
+    // fix it: remove the unknown name again
+    for (let i = 0; i < ' - q_drain'.length; i++) await page.keyboard.press('Backspace')
+    await expect.poll(() => page.locator('.sheet-editor').getAttribute('data-marker-lines')).toBe('')
+    await expect.poll(() => page.locator('[data-test="problem-count"]').textContent()).toMatch(/checks clean/)
+
+    // a real change: the heat-loss coefficient UA from 150 to 180 W/K
+    const uaLine = lines.findIndex((l) => /^param\s+UA\s*=/.test(l)) + 1
+    const uaCol = lines[uaLine - 1].indexOf('150')
+    await goToLine(page, uaLine)
+    for (let i = 0; i < uaCol; i++) await page.keyboard.press('ArrowRight')
+    for (let i = 0; i < 3; i++) await page.keyboard.press('Shift+ArrowRight')
+    await page.keyboard.type('180')
+    await expect.poll(() => page.locator('.sheet-summary').textContent()).toMatch(/UA\s*180/)
+    // the draft is autosaved
+    await expect.poll(() => page.locator('[data-test="editor-status"]').textContent(), { timeout: 10_000 }).toMatch(/Draft saved/)
+
+    // hover over a declared name shows its unit and bounds
+    await page.locator('.monaco-editor .view-line', { hasText: /^param\s+UA/ }).locator('span', { hasText: 'UA' }).first().hover()
+    await expect.poll(() => page.locator('.monaco-hover:visible').textContent()).toMatch(/UA.*parameter.*\[W\/K\].*bounds \[1, 5000\]/s)
+
+    // publish version 2 with a note
+    await page.locator('[data-test="publish"]').click()
+    await page.locator('textarea[data-test="publish-note"]').fill('UA raised to 180 W/K after the insulation survey (invented)')
+    await page.locator('[data-test="publish-confirm"]').click()
+    await expect.poll(() => page.getByText('Version 2 published.').count()).toBeGreaterThan(0)
+    await expect.poll(() => page.locator('.page-header').textContent()).toMatch(/v2/)
+    await page.getByRole('tab', { name: /History/ }).click()
+    await expect.poll(() => page.locator('.version-history').textContent()).toMatch(/UA raised to 180 W\/K/)
+
+    // the quick simulation runs the shared engine in the browser and plots with Plotly
+    await page.getByRole('tab', { name: 'Sheet' }).click()
+    await page.locator('[data-test="open-sim"]').click()
+    await page.locator('[data-test="quick-sim-plot"] .main-svg').first().waitFor({ timeout: 30_000 })
+    await expect.poll(() => page.locator('.quick-sim__status').textContent()).toMatch(/\d+ steps/)
+    expect(requested.some((u) => /plotly/.test(u))).toBe(true)
+    await rig.screenshot(page, 'library-published')
+
+    const id = Number(/\/library\/(\d+)$/.exec(modelUrl)![1])
+    const v = await rig.context.database.pool.query('select number, note, text from model_versions where model_id = $1 order by number', [id])
+    expect(v.rows.map((r) => r.number)).toEqual([1, 2])
+    expect(v.rows[1].text).toMatch(/param\s+UA\s+=\s+180\s/)
+    expect(v.rows[1].text).not.toContain('q_drain')
+    await page.close()
+  }, 240_000)
+
+  it('lets another modeler fork it from version 1 and compare the fork with its origin', async () => {
+    expect(modelUrl).not.toBe('')
+    const page = await rig.newPage()
+    await rig.signIn(page, demo.modeler2)
+    await page.waitForURL(/\/w\/tinmoor\/library/)
+    await page.goto(modelUrl)
+    await page.locator('.monaco-editor .view-lines').waitFor()
+    // not a maintainer: no publish button, a hint to fork instead
+    expect(await page.locator('[data-test="publish"]').count()).toBe(0)
+    await page.locator('[data-test="fork"]').click()
+    await page.locator('input[data-test="fork-title"]').fill('Buffer B-7, Wren\'s variant')
+    await pickOption(page, 0, /^Version 1:/)
+    await page.locator('[data-test="fork-confirm"]').click()
+    await page.waitForURL((u) => /\/library\/\d+$/.test(u.pathname) && u.href !== modelUrl)
+    await expect.poll(() => page.locator('.page-header').textContent()).toMatch(/forked from\s*Buffer B-7 \(invented\)\s*v1/)
+
+    await page.locator('[data-test="compare-origin"]').click()
+    await expect.poll(() => page.locator('[data-test="diff-counts"]').textContent()).toMatch(/\+1 −1 lines/)
+    await expect.poll(() => page.locator('[data-test="parameter-changes"]').textContent()).toMatch(/UA.*changed.*value/s)
+    await page.locator('.monaco-diff-editor').first().waitFor()
+    await rig.screenshot(page, 'library-fork-compare')
+
+    // the origin lists its fork
+    await page.goto(modelUrl)
+    await page.getByRole('tab', { name: /Forks \(1\)/ }).click()
+    await expect.poll(() => page.locator('[data-test="forks-table"]').textContent()).toMatch(/Buffer B-7, Wren's variant.*v1/s)
+    await page.close()
+  }, 180_000)
+})
