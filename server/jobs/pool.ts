@@ -12,7 +12,10 @@ import { randomBytes } from 'node:crypto'
 import { Piscina } from 'piscina'
 import type { Db } from '../db/client'
 import { claimRun, forceStatus, heartbeat, releaseClaims, runStatus, settleRun, type ClaimResult } from './claims'
-import type { RunTask } from './thread-task'
+import type { HelperTask, RunTask } from './thread-task'
+import { FanOut, type FanOutRecord, type ThreadMessage } from './fan-out'
+import { runs } from '../db/schema'
+import { and, eq, sql } from 'drizzle-orm'
 
 export interface RunPoolOptions {
   db: Db
@@ -38,6 +41,8 @@ interface Active {
   hard: AbortController
   stop: null | 'cancel' | 'timeout'
   timers: NodeJS.Timeout[]
+  fanOut: FanOut | null
+  helpers: MessagePort[]
 }
 
 export const newWorkerId = (kind: string) => `${kind}@${hostname()}:${process.pid}:${randomBytes(3).toString('hex')}`
@@ -59,6 +64,8 @@ export class RunPool {
   private beat: NodeJS.Timeout
   private closed = false
   private abandoning = false
+  /** how the last multi-start fits were spread (runs executed here), for tests and logs */
+  readonly fanOuts = new Map<number, FanOutRecord>()
 
   constructor(private o: RunPoolOptions) {
     this.workerId = o.workerId ?? newWorkerId('pool')
@@ -115,8 +122,9 @@ export class RunPool {
 
   private async runClaimed(runId: number) {
     const { port1, port2 } = new MessageChannel()
-    const a: Active = { port: port1, hard: new AbortController(), stop: null, timers: [] }
+    const a: Active = { port: port1, hard: new AbortController(), stop: null, timers: [], fanOut: null, helpers: [] }
     this.active.set(runId, a)
+    port1.on('message', (m: ThreadMessage) => this.onRunMessage(runId, a, m))
     a.timers.push(setTimeout(() => this.requestStop(runId, 'timeout'), this.o.timeoutSeconds * 1000))
     const task: RunTask = { runId, databaseUrl: this.o.databaseUrl, workerId: this.workerId, executorUrl: this.o.executorUrl, port: port2 }
     let failure: unknown = null
@@ -127,6 +135,11 @@ export class RunPool {
     } finally {
       for (const t of a.timers) clearTimeout(t)
       port1.close()
+      for (const h of a.helpers) h.postMessage({ abort: 'run ended' })
+      if (a.fanOut) {
+        this.fanOuts.set(runId, a.fanOut.record())
+        if (this.fanOuts.size > 50) this.fanOuts.delete(this.fanOuts.keys().next().value!)
+      }
       this.active.delete(runId)
     }
     const { db } = this.o
@@ -145,6 +158,45 @@ export class RunPool {
     await settleRun(db, runId, this.workerId, a.stop === 'cancel' ? 'cancelled' : 'failed', a.stop === 'cancel' ? 'Cancelled.' : 'The fit ended without storing a result.')
   }
 
+  /** Messages from a run's thread: its multi-start plans to share, requests for the next plan, outcomes. */
+  private onRunMessage(runId: number, a: Active, m: ThreadMessage) {
+    if (m.type === 'starts') {
+      a.fanOut = new FanOut(m.plans, a.port, (done, total, best) => { void this.writeStartsProgress(runId, done, total, best, a.fanOut!) }, m.deadline)
+      if (a.stop) { a.fanOut.stop(); return }
+      const idle = Math.max(0, this.o.threads - this.running - this.helping)
+      const n = Math.min(idle, m.plans.length - 1)
+      for (let i = 0; i < n; i++) this.lendHelper(runId, a, a.fanOut)
+    } else if (m.type === 'next') {
+      a.fanOut?.next(a.port)
+    } else if (m.type === 'outcome') {
+      a.fanOut?.outcome(a.port, m.outcome, m.threadId)
+    }
+  }
+
+  private helping = 0
+
+  /** Lends a thread to a run's multi-start fit (it takes plans until none is left). */
+  private lendHelper(runId: number, a: Active, fan: FanOut) {
+    const { port1, port2 } = new MessageChannel()
+    a.helpers.push(port1)
+    fan.helpers++
+    this.helping++
+    port1.on('message', (m: ThreadMessage) => {
+      if (m.type === 'next') fan.next(port1)
+      else if (m.type === 'outcome') fan.outcome(port1, m.outcome, m.threadId)
+    })
+    const task: HelperTask = { runId, databaseUrl: this.o.databaseUrl, deadline: fan.deadline, port: port2 }
+    this.piscina.run(task, { name: 'helper', transferList: [port2], signal: a.hard.signal })
+      .then(() => fan.lost(port1, 'ended'), (err) => { console.error('HELPERDBG', err); fan.lost(port1, err instanceof Error ? err.message : String(err)) })
+      .finally(() => { this.helping--; port1.close() })
+  }
+
+  private async writeStartsProgress(runId: number, done: number, total: number, best: number | null, fan: FanOut) {
+    await this.o.db.update(runs).set({
+      progress: sql`jsonb_build_object('iteration', 0, 'cost', ${best}::float8, 'costHistory', coalesce(${runs.progress}->'costHistory', '[]'::jsonb), 'fraction', ${Math.min(0.97, done / total)}::float8, 'start', ${done}::int, 'starts', ${total}::int, 'message', ${`${done} of ${total} starts done (${fan.helpers + 1} threads)`}::text, 'updatedAt', ${new Date().toISOString()}::text)`,
+    }).where(and(eq(runs.id, runId), eq(runs.status, 'running'))).catch(() => {})
+  }
+
   private async settled(runId: number) {
     try { await this.o.onSettled?.(runId) } catch (err) { this.o.log?.(`run ${runId}: after-run hook failed: ${err instanceof Error ? err.message : err}`) }
   }
@@ -154,7 +206,10 @@ export class RunPool {
     const a = this.active.get(runId)
     if (!a || a.stop) return
     a.stop = why
-    a.port.postMessage({ abort: why === 'cancel' ? 'cancelled' : 'time limit exceeded' })
+    const reason = why === 'cancel' ? 'cancelled' : 'time limit exceeded'
+    a.port.postMessage({ abort: reason })
+    for (const h of a.helpers) h.postMessage({ abort: reason })
+    a.fanOut?.stop()
     a.timers.push(setTimeout(() => a.hard.abort(), this.o.stopGraceMs ?? 5000))
   }
 

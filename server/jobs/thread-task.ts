@@ -1,11 +1,21 @@
 /**
- * Runs inside a worker thread of the pool (piscina loads this file under tsx): executes one run with
- * its own database connection, so the fit never blocks the event loop of the web or worker process.
- * The parent sends `{ abort: reason }` on the task's MessagePort to cancel it cooperatively.
+ * Runs inside a worker thread of the pool (piscina loads this file under tsx), with its own database
+ * connection, so a fit never blocks the event loop of the web or worker process. Imports here stay
+ * static: in a Node 20 worker thread tsx may only have its require hook, under which a dynamic
+ * import() of an extensionless TypeScript path does not resolve.
+ *
+ * - default export: executes one run; the parent sends `{ abort: reason }` on the task's MessagePort
+ *   to cancel it cooperatively. Its multi-start plans are shared with helper threads (fan-out.ts).
+ * - `helper`: lends this thread to another run's multi-start fit, fitting plans until none is left.
  */
-import type { MessagePort } from 'node:worker_threads'
+import { threadId, type MessagePort } from 'node:worker_threads'
 import { openDatabase, type Database } from '../db/client'
 import { loadExecutor, type RunExecutor } from './executor'
+import { failedOutcome, threadRunStarts } from './fan-out'
+import { deadlineOf, fitPlan } from './start-fits'
+import { runs } from '../db/schema'
+import { eq } from 'drizzle-orm'
+import type { StartOutcome, StartPlan } from '../../shared/engine/fit/driver'
 
 export interface RunTask {
   runId: number
@@ -15,25 +25,84 @@ export interface RunTask {
   port: MessagePort
 }
 
+export interface HelperTask {
+  runId: number
+  databaseUrl: string
+  deadline: number | null
+  port: MessagePort
+}
+
 const databases = new Map<string, Database>()
 const executors = new Map<string, Promise<RunExecutor>>()
 
-export default async function runTask(task: RunTask): Promise<{ ok: true }> {
-  let database = databases.get(task.databaseUrl)
-  if (!database) {
-    database = openDatabase(task.databaseUrl, 3)
-    databases.set(task.databaseUrl, database)
+function database(url: string) {
+  let d = databases.get(url)
+  if (!d) {
+    d = openDatabase(url, 3)
+    databases.set(url, d)
   }
+  return d
+}
+
+function abortable(port: MessagePort) {
+  const controller = new AbortController()
+  port.on('message', (m: { abort?: string }) => { if (m?.abort) controller.abort(new Error(m.abort)) })
+  return controller
+}
+
+async function fitOne(db: Database, runId: number, plan: StartPlan, deadline: number | null, signal: AbortSignal): Promise<StartOutcome> {
+  return fitPlan(db.db, runId, plan, deadline, signal)
+}
+
+export default async function runTask(task: RunTask): Promise<{ ok: true }> {
+  const db = database(task.databaseUrl)
   let exec = executors.get(task.executorUrl)
   if (!exec) {
     exec = loadExecutor(task.executorUrl)
     executors.set(task.executorUrl, exec)
   }
-  const controller = new AbortController()
-  task.port.on('message', (m: { abort?: string }) => { if (m?.abort) controller.abort(new Error(m.abort)) })
+  const controller = abortable(task.port)
+  let deadline: number | null = null
+  const runStarts = threadRunStarts(task.port, (plan) => fitOne(db, task.runId, plan, deadline, controller.signal), threadId, () => deadline)
   try {
-    await (await exec)(database.db, task.runId, { signal: controller.signal, workerId: task.workerId })
+    await (await exec)(db.db, task.runId, {
+      signal: controller.signal,
+      workerId: task.workerId,
+      runStarts: async (plans) => {
+        const [row] = await db.db.select({ settings: runs.settings }).from(runs).where(eq(runs.id, task.runId))
+        deadline = deadlineOf(row?.settings)
+        return runStarts(plans)
+      },
+    })
     return { ok: true }
+  } finally {
+    task.port.close()
+  }
+}
+
+export async function helper(task: HelperTask): Promise<{ fitted: number }> {
+  console.error('HELPERDBG start', threadId)
+  const db = database(task.databaseUrl)
+  const controller = abortable(task.port)
+  let fitted = 0
+  const waiters: ((p: StartPlan | null) => void)[] = []
+  task.port.on('message', (m: { type?: string; plan?: StartPlan | null }) => { if (m?.type === 'plan') waiters.shift()?.(m.plan ?? null) })
+  try {
+    for (;;) {
+      if (controller.signal.aborted) break
+      const plan = await new Promise<StartPlan | null>((r) => { waiters.push(r); task.port.postMessage({ type: 'next' }) })
+      console.error('HELPERDBG plan', threadId, plan?.index)
+      if (!plan) break
+      let outcome: StartOutcome
+      try {
+        outcome = await fitOne(db, task.runId, plan, task.deadline, controller.signal)
+      } catch (e) {
+        outcome = failedOutcome(plan, e instanceof Error ? e.message : String(e))
+      }
+      task.port.postMessage({ type: 'outcome', outcome, threadId })
+      fitted++
+    }
+    return { fitted }
   } finally {
     task.port.close()
   }

@@ -33,6 +33,8 @@ export const ENGINE_VERSION = `pewter-engine ${pkg.version}`
 export interface ExecuteOptions {
   signal?: AbortSignal
   workerId?: string
+  /** spreads a multi-start fit's starts over worker threads (server/jobs/fan-out.ts) */
+  runStarts?: FitOptions['runStarts']
 }
 
 /** The stored numeric content of a dataset. */
@@ -289,6 +291,7 @@ export async function executeRun(db: Db, runId: number, opts: ExecuteOptions = {
     const options = fitOptions(settings, {
       signal: controller.signal,
       landscape,
+      ...(opts.runStarts ? { runStarts: opts.runStarts } : {}),
       onProgress: (info) => {
         if (info.cost < best) best = info.cost
         history.push(best)

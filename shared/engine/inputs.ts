@@ -15,8 +15,8 @@
  *   interpolation formula up to and including its right end (left limit at a jump), so a hold step
  *   is resolved exactly without restarting the solver.
  * - ∂u(t − d)/∂tau = −u'(t − d)/secondsPerTimeUnit: the slope of the interval for linear traces,
- *   zero for hold traces (a piecewise constant trace has no classical derivative) and outside the
- *   trace.
+ *   zero inside the intervals of hold traces and outside the trace. The jumps of a delayed hold trace
+ *   move with tau: simulate.ts applies the matching jump of the state sensitivities there.
  */
 import type { CompiledModel } from '../sheet/compiled'
 import type { InputTrace } from './simulate-contract'
@@ -166,6 +166,12 @@ export class InputSet {
       u[k] = valueIn(tr, i, q, s.hold)
       if (du) du[k] = s.hold || clamped ? 0 : slopeIn(tr, i)
     }
+  }
+
+  /** slot k is a hold trace (piecewise constant) */
+  isHoldTrace(k: number): boolean {
+    const s = this.slots[k]
+    return s.trace !== null && s.hold
   }
 
   /** which slots depend on parameter j through their delay (for ∂/∂tau), as slot indices */

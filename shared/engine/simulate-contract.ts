@@ -25,7 +25,8 @@ export interface SimulationRequest {
   /** forward sensitivities wanted: parameter indices and state indices (initial values) */
   sensitivities?: { params: number[]; initialStates: number[]; errorControl?: boolean }
   solver?: SolverName
-  rtol?: number
+  /** relative tolerance: one number, or one per state (added: per-state form) */
+  rtol?: number | Float64Array
   /** absolute tolerance: one number, or one per state, in each state's internal units */
   atol?: number | Float64Array
   maxSteps?: number

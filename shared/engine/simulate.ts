@@ -40,6 +40,9 @@ interface Workspace {
   gx: Float64Array
   gp: Float64Array
   gu: Float64Array
+  fa: Float64Array
+  fb: Float64Array
+  umod: Float64Array
 }
 
 const cache = new WeakMap<CompiledModel, Map<string, Workspace>>()
@@ -58,7 +61,7 @@ function workspace(model: CompiledModel, sens: SensSpec[]): Workspace {
     ws = {
       sys,
       solvers: {},
-      tol: { rtol: DEFAULT_RTOL, atol: new Float64Array(model.nx), weight: new Float64Array(sys.n) },
+      tol: { rtol: new Float64Array(model.nx), atol: new Float64Array(model.nx), weight: new Float64Array(sys.n) },
       z0: new Float64Array(sys.n),
       zd: new Float64Array(sys.n),
       uo: new Float64Array(Math.max(1, nuu)),
@@ -67,6 +70,9 @@ function workspace(model: CompiledModel, sens: SensSpec[]): Workspace {
       gx: new Float64Array(Math.max(1, model.ny * model.nx)),
       gp: new Float64Array(Math.max(1, model.ny * model.np)),
       gu: new Float64Array(Math.max(1, model.ny * nuu)),
+      fa: new Float64Array(model.nx),
+      fb: new Float64Array(model.nx),
+      umod: new Float64Array(Math.max(1, nuu)),
     }
     if (m.size > 16) m.clear()
     m.set(key, ws)
@@ -113,8 +119,12 @@ function validate(model: CompiledModel, req: SimulationRequest, t0: number): voi
   }
   if (req.p && req.p.length !== model.np) throw new SimulationRequestError(`p has ${req.p.length} entries, the model has ${model.np} parameters`)
   if (req.x0 && req.x0.length !== model.nx) throw new SimulationRequestError(`x0 has ${req.x0.length} entries, the model has ${model.nx} states`)
-  const rtol = req.rtol ?? DEFAULT_RTOL
-  if (!(rtol > 0 && rtol < 1)) throw new SimulationRequestError(`rtol must be in (0, 1), got ${rtol}`)
+  if (req.rtol instanceof Float64Array && req.rtol.length !== model.nx) throw new SimulationRequestError(`rtol has ${req.rtol.length} entries, the model has ${model.nx} states`)
+  const rt = req.rtol ?? DEFAULT_RTOL
+  for (let i = 0; i < model.nx; i++) {
+    const r = typeof rt === 'number' ? rt : rt[i]
+    if (!(r > 0 && r < 1)) throw new SimulationRequestError(`rtol${model.nx > 1 && typeof rt !== 'number' ? ` for state '${model.states[i].name}'` : ''} must be in (0, 1), got ${r}`)
+  }
   if (req.atol instanceof Float64Array && req.atol.length !== model.nx) throw new SimulationRequestError(`atol has ${req.atol.length} entries, the model has ${model.nx} states`)
   if (req.maxSteps !== undefined && !(req.maxSteps >= 1)) throw new SimulationRequestError(`maxSteps must be >= 1, got ${req.maxSteps}`)
   if (req.solver && !['auto', 'rk45', 'odex', 'stiff'].includes(req.solver)) throw new SimulationRequestError(`unknown solver '${req.solver}'`)
@@ -154,9 +164,10 @@ export function simulate(model: CompiledModel, req: SimulationRequest): Simulati
   const x0 = Float64Array.from(z0.subarray(0, nx))
 
   // tolerances
-  const rtol = req.rtol ?? DEFAULT_RTOL
-  tol.rtol = rtol
+  const rt = req.rtol ?? DEFAULT_RTOL
   for (let i = 0; i < nx; i++) {
+    const rtol = typeof rt === 'number' ? rt : rt[i]
+    tol.rtol[i] = rtol
     const a = req.atol === undefined ? rtol * 1e-3 : typeof req.atol === 'number' ? req.atol : req.atol[i]
     if (!(a > 0)) throw new SimulationRequestError(`atol for state '${model.states[i].name}' must be > 0, got ${a}`)
     tol.atol[i] = a
@@ -215,11 +226,16 @@ export function simulate(model: CompiledModel, req: SimulationRequest): Simulati
         iOut++
       }
     }
+    const tauHold = sens.some((s) => s.delaySlots.some((slot) => inputs.isHoldTrace(slot)))
     let a = t0
     for (let k = 0; k <= bps.length; k++) {
       const b = k < bps.length ? bps[k] : tEnd
+      if (k > 0 && tauHold) inputs.eval(a, ws.uo) // left limit at the breakpoint
       inputs.setSegment(0.5 * (a + b))
-      if (k > 0 && inputs.hasHold) solver.breakpoint()
+      if (k > 0) {
+        if (tauHold) tauJumps(model, ws, inputs, solver.z, a)
+        if (inputs.hasHold) solver.breakpoint()
+      }
       solver.advance(b, obs)
       a = b
     }
@@ -236,6 +252,42 @@ export function simulate(model: CompiledModel, req: SimulationRequest): Simulati
   } else res.stats.method = solver.name
   res.stats.elapsedMs = now() - start
   return res
+}
+
+/**
+ * Where a delayed hold trace jumps, the jump time b = t_i + tau/s moves with tau, and the state
+ * sensitivity jumps by ∂x/∂tau⁺ = ∂x/∂tau⁻ + (f⁻ − f⁺)·∂b/∂tau, ∂b/∂tau = 1/s (sensitivities at
+ * discontinuities with a parameter-dependent switching time; e.g. Rozenvasser 1967, Galán, Feehery &
+ * Barton, Appl. Numer. Math. 31 (1999) 17–47, eq. (14) with a state-independent switching function).
+ * f⁺ uses only the delayed slot's new value, so jumps of other inputs at the same time do not count.
+ * ws.uo holds the left-limit input values on entry.
+ */
+function tauJumps(model: CompiledModel, ws: Workspace, inputs: InputSet, z: Float64Array, t: number): void {
+  const nx = model.nx
+  const sens = ws.sys.sens
+  const uMinus = ws.uo
+  const uPlus = ws.duo
+  inputs.eval(t, uPlus)
+  const p = ws.sys.p
+  const spt = model.secondsPerTimeUnit
+  const fA = ws.fa
+  const fB = ws.fb
+  let ready = false
+  for (let j = 0; j < sens.length; j++) {
+    const slots = sens[j].delaySlots
+    let changed = false
+    for (const slot of slots) if (inputs.isHoldTrace(slot) && uPlus[slot] !== uMinus[slot]) changed = true
+    if (!changed) continue
+    if (!ready) {
+      model.rhs(t, z, p, uMinus, fA)
+      ready = true
+    }
+    ws.umod.set(uMinus)
+    for (const slot of slots) if (inputs.isHoldTrace(slot)) ws.umod[slot] = uPlus[slot]
+    model.rhs(t, z, p, ws.umod, fB)
+    const off = (j + 1) * nx
+    for (let i = 0; i < nx; i++) z[off + i] += (fA[i] - fB[i]) / spt
+  }
 }
 
 /** outputs and sensitivities at output index k from the state vector z = [x, s_1, …] */

@@ -138,6 +138,7 @@ export function registerSheetLanguage(monaco: typeof Monaco): void {
       // a unit, or the bounds after `in` (numbers inside brackets)
       unit: [
         [/\]/, { token: 'unit.bracket', next: '@pop' }],
+        [/\s+/, 'white'],
         [/[-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?(?=\s*[,\]])/, 'number'],
         [/-?inf\b/, 'number'],
         [/,/, 'delimiter'],

@@ -13,6 +13,9 @@ let rig: BrowserRig
 beforeAll(async () => { rig = await startBrowserRig('e2e_library') })
 afterAll(async () => { await rig?.close() })
 
+/** waits up to 20 s: the machine is shared and the first Monaco load takes a while */
+const poll = <T>(fn: () => Promise<T> | T) => expect.poll(fn, { timeout: 20_000, interval: 100 })
+
 const lazyChunks = /register\.all|plotly|editor\.worker|\/format-/
 
 async function templateText(title: string): Promise<string> {
@@ -43,7 +46,7 @@ describe('browser: the model library', () => {
     page.on('request', (r) => requested.push(r.url()))
     await rig.signIn(page, demo.modeler)
     await page.waitForURL(/\/w\/tinmoor\/library/)
-    await expect.poll(() => page.locator('[data-test="library-table"]').getByText('Heated buffer vessel').count()).toBeGreaterThan(0)
+    await poll(() => page.locator('[data-test="library-table"]').getByText('Heated buffer vessel').count()).toBeGreaterThan(0)
     // the library page does not load the editor, its worker or the plotting library
     expect(requested.filter((u) => lazyChunks.test(u))).toEqual([])
 
@@ -54,7 +57,7 @@ describe('browser: the model library', () => {
     await page.waitForURL(/\/w\/tinmoor\/library\/\d+$/)
     modelUrl = page.url()
     await page.locator('.monaco-editor .view-lines').waitFor()
-    await expect.poll(() => page.locator('[data-test="problem-count"]').textContent()).toMatch(/checks clean/)
+    await poll(() => page.locator('[data-test="problem-count"]').textContent()).toMatch(/checks clean/)
     expect(requested.some((u) => /register\.all/.test(u))).toBe(true)
     await rig.screenshot(page, 'library-editor-clean')
 
@@ -67,15 +70,15 @@ describe('browser: the model library', () => {
     await goToLine(page, hLine)
     await page.keyboard.press('End')
     await page.keyboard.type(' - q_drain')
-    await expect.poll(() => page.locator('.sheet-editor').getAttribute('data-marker-lines')).toBe(String(hLine))
-    await expect.poll(() => page.locator('[data-test="problems"]').textContent()).toMatch(new RegExp(`line ${hLine}, col \\d+.*unknown name 'q_drain'`))
-    await expect.poll(() => page.locator('.monaco-editor .squiggly-error').count()).toBeGreaterThan(0)
+    await poll(() => page.locator('.sheet-editor').getAttribute('data-marker-lines')).toBe(String(hLine))
+    await poll(() => page.locator('[data-test="problems"]').textContent()).toMatch(new RegExp(`line ${hLine}, col \\d+.*unknown name 'q_drain'`))
+    await poll(() => page.locator('.monaco-editor .squiggly-error').count()).toBeGreaterThan(0)
     await rig.screenshot(page, 'library-editor-marker')
 
     // fix it: remove the unknown name again
     for (let i = 0; i < ' - q_drain'.length; i++) await page.keyboard.press('Backspace')
-    await expect.poll(() => page.locator('.sheet-editor').getAttribute('data-marker-lines')).toBe('')
-    await expect.poll(() => page.locator('[data-test="problem-count"]').textContent()).toMatch(/checks clean/)
+    await poll(() => page.locator('.sheet-editor').getAttribute('data-marker-lines')).toBe('')
+    await poll(() => page.locator('[data-test="problem-count"]').textContent()).toMatch(/checks clean/)
 
     // a real change: the heat-loss coefficient UA from 150 to 180 W/K
     const uaLine = lines.findIndex((l) => /^param\s+UA\s*=/.test(l)) + 1
@@ -84,28 +87,28 @@ describe('browser: the model library', () => {
     for (let i = 0; i < uaCol; i++) await page.keyboard.press('ArrowRight')
     for (let i = 0; i < 3; i++) await page.keyboard.press('Shift+ArrowRight')
     await page.keyboard.type('180')
-    await expect.poll(() => page.locator('.sheet-summary').textContent()).toMatch(/UA\s*180/)
+    await poll(() => page.locator('.sheet-summary').textContent()).toMatch(/UA\s*180/)
     // the draft is autosaved
-    await expect.poll(() => page.locator('[data-test="editor-status"]').textContent(), { timeout: 10_000 }).toMatch(/Draft saved/)
+    await poll(() => page.locator('[data-test="editor-status"]').textContent()).toMatch(/Draft saved/)
 
     // hover over a declared name shows its unit and bounds
-    await page.locator('.monaco-editor .view-line', { hasText: /^param\s+UA/ }).locator('span', { hasText: 'UA' }).first().hover()
-    await expect.poll(() => page.locator('.monaco-hover:visible').textContent()).toMatch(/UA.*parameter.*\[W\/K\].*bounds \[1, 5000\]/s)
+    await page.locator('.monaco-editor .view-line', { hasText: /^param\s+UA/ }).locator('span.pw-sym-param', { hasText: /^UA$/ }).hover()
+    await poll(() => page.locator('.monaco-hover').first().textContent()).toMatch(/UA.*parameter.*\[W\/K\].*value 180 W\/K.*bounds \[1, 5000\]/s)
 
     // publish version 2 with a note
     await page.locator('[data-test="publish"]').click()
     await page.locator('textarea[data-test="publish-note"]').fill('UA raised to 180 W/K after the insulation survey (invented)')
     await page.locator('[data-test="publish-confirm"]').click()
-    await expect.poll(() => page.getByText('Version 2 published.').count()).toBeGreaterThan(0)
-    await expect.poll(() => page.locator('.page-header').textContent()).toMatch(/v2/)
+    await poll(() => page.getByText('Version 2 published.').count()).toBeGreaterThan(0)
+    await poll(() => page.locator('.page-header').textContent()).toMatch(/v2/)
     await page.getByRole('tab', { name: /History/ }).click()
-    await expect.poll(() => page.locator('.version-history').textContent()).toMatch(/UA raised to 180 W\/K/)
+    await poll(() => page.locator('.version-history').textContent()).toMatch(/UA raised to 180 W\/K/)
 
     // the quick simulation runs the shared engine in the browser and plots with Plotly
     await page.getByRole('tab', { name: 'Sheet' }).click()
     await page.locator('[data-test="open-sim"]').click()
     await page.locator('[data-test="quick-sim-plot"] .main-svg').first().waitFor({ timeout: 30_000 })
-    await expect.poll(() => page.locator('.quick-sim__status').textContent()).toMatch(/\d+ steps/)
+    await poll(() => page.locator('.quick-sim__status').textContent()).toMatch(/\d+ steps/)
     expect(requested.some((u) => /plotly/.test(u))).toBe(true)
     await rig.screenshot(page, 'library-published')
 
@@ -131,18 +134,18 @@ describe('browser: the model library', () => {
     await pickOption(page, 0, /^Version 1:/)
     await page.locator('[data-test="fork-confirm"]').click()
     await page.waitForURL((u) => /\/library\/\d+$/.test(u.pathname) && u.href !== modelUrl)
-    await expect.poll(() => page.locator('.page-header').textContent()).toMatch(/forked from\s*Buffer B-7 \(invented\)\s*v1/)
+    await poll(() => page.locator('.page-header').textContent()).toMatch(/forked from\s*Buffer B-7 \(invented\)\s*v1/)
 
     await page.locator('[data-test="compare-origin"]').click()
-    await expect.poll(() => page.locator('[data-test="diff-counts"]').textContent()).toMatch(/\+1 −1 lines/)
-    await expect.poll(() => page.locator('[data-test="parameter-changes"]').textContent()).toMatch(/UA.*changed.*value/s)
+    await poll(() => page.locator('[data-test="diff-counts"]').textContent()).toMatch(/\+1 −1 lines/)
+    await poll(() => page.locator('[data-test="parameter-changes"]').textContent()).toMatch(/UA.*changed.*value/s)
     await page.locator('.monaco-diff-editor').first().waitFor()
     await rig.screenshot(page, 'library-fork-compare')
 
     // the origin lists its fork
     await page.goto(modelUrl)
     await page.getByRole('tab', { name: /Forks \(1\)/ }).click()
-    await expect.poll(() => page.locator('[data-test="forks-table"]').textContent()).toMatch(/Buffer B-7, Wren's variant.*v1/s)
+    await poll(() => page.locator('[data-test="forks-table"]').textContent()).toMatch(/Buffer B-7, Wren's variant.*v1/s)
     await page.close()
   }, 180_000)
 })

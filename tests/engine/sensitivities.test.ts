@@ -138,6 +138,39 @@ describe('forward sensitivities', () => {
     }
   })
 
+  it('a delayed held step: ∂x/∂tau from the moving jump matches the closed form', () => {
+    // x' = (u(t − d) − x)/T, u a held unit step at t = 1, d = tau/60 (time in minutes):
+    // x = 1 − e^{−(t−1−d)/T} for t > 1 + d, so ∂x/∂tau = −e^{−(t−1−d)/T}/(60 T) (no source)
+    const T = 0.8
+    const tauS = 30
+    const m = makeModel({
+      title: 'delay-hold',
+      secondsPerTimeUnit: 60,
+      states: [{ name: 'x', initial: 0 }],
+      params: [{ name: 'tau', value: tauS }],
+      inputs: [{ name: 'u', value: 0, interp: 'hold' }],
+      delays: [{ input: 0, param: 0 }],
+      rhs: (t, x, p, u, o) => { o[0] = (u[1] - x[0]) / T },
+      dfdx: (t, x, p, u, o) => { o[0] = -1 / T },
+      dfdp: (t, x, p, u, o) => { o[0] = 0 },
+      dfdu: (t, x, p, u, o) => { o[0] = 0; o[1] = 1 / T },
+    })
+    const d = tauS / 60
+    const tOut = linspace(0, 5, 51)
+    const inputs = [{ t: Float64Array.of(0, 1), v: Float64Array.of(0, 1) }]
+    for (const solver of methods) {
+      const r = simulate(m, { tOut, inputs, solver, rtol: 1e-10, atol: 1e-12, sensitivities: { params: [0], initialStates: [] } })
+      for (let k = 0; k < tOut.length; k++) {
+        const t = tOut[k]
+        const late = t > 1 + d
+        const x = late ? 1 - Math.exp(-(t - 1 - d) / T) : 0
+        const dx = late ? -Math.exp(-(t - 1 - d) / T) / (60 * T) : 0
+        expect(Math.abs(r.x[k] - x), `${solver} x t=${t}`).toBeLessThan(1e-8)
+        expect(Math.abs(r.dx![k] - dx), `${solver} dx/dtau t=${t}`).toBeLessThan(1e-9)
+      }
+    }
+  })
+
   it('steady initial state: x0 from Newton and its sensitivities from the implicit-function theorem', () => {
     // x' = a − k x² steady at x = √(a/k); ∂x/∂a = 1/(2√(ak)), ∂x/∂k = −√a/(2 k^{3/2}) (no source)
     const m = makeModel({

@@ -88,7 +88,7 @@ describe('stiff integration', () => {
     for (const h of [0.025, 0.0125, 0.00625, 0.003125]) {
       const ros = new Rosenbrock()
       const limits: SolverLimits = { maxSteps: 1e6, deadline: Infinity, budgetMs: 0, signal: null, stateNames: ['x'], fixedStep: h }
-      ros.start(sys, { rtol: 1e-6, atol: Float64Array.of(1e-6), weight: Float64Array.of(1, 1) }, limits, 0, Float64Array.of(x0, 0), h)
+      ros.start(sys, { rtol: Float64Array.of(1e-6), atol: Float64Array.of(1e-6), weight: Float64Array.of(1, 1) }, limits, 0, Float64Array.of(x0, 0), h)
       ros.advance(T, null)
       errs.push([Math.abs(ros.z[0] - (Math.sin(T) + x0 * Math.exp(-k * T))), Math.abs(ros.z[1] - -T * x0 * Math.exp(-k * T))])
     }

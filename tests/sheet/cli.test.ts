@@ -4,7 +4,8 @@ import { spawnSync } from 'node:child_process'
 import { mkdtempSync, writeFileSync } from 'node:fs'
 import { tmpdir } from 'node:os'
 import { join } from 'node:path'
-import { describe, expect, it } from 'vitest'
+import { describe, expect, it, vi } from 'vitest'
+import { run } from '../../server/cli/check'
 import { MODELS_DIR } from './helpers'
 
 const ROOT = join(__dirname, '..', '..')
@@ -25,7 +26,7 @@ describe('pewter check', () => {
     expect(j.parameters).toContainEqual({ name: 'A', value: 1.2, unit: 'm^2', lower: null, upper: null, fixed: true })
     expect(j.inputs.map((s: { name: string }) => s.name)).toEqual(['q_in', 'T_feed', 'P_h', 'opening'])
     expect(j.outputs).toContainEqual({ name: 'level', unit: 'm', sigma: 0.005 })
-  })
+  }, 120_000)
 
   it('a sheet with errors: exit 1 and the diagnostics with their places', () => {
     const dir = mkdtempSync(join(tmpdir(), 'pewter-check-'))
@@ -36,14 +37,30 @@ describe('pewter check', () => {
     const j = JSON.parse(r.out)
     expect(j.ok).toBe(false)
     expect(j.diagnostics).toEqual([{ line: 2, column: 7, endColumn: 9, severity: 'error', message: "unknown name 'kk'" }])
-  })
+  }, 120_000)
 
-  it('bad arguments or an unreadable file: exit 2', () => {
-    expect(pewter('check').code).toBe(2)
-    expect(pewter('check', 'a.sheet', 'b.sheet').code).toBe(2)
+  it('bad arguments or an unreadable file: exit 2 (through the real command line)', () => {
     const r = pewter('check', join(MODELS_DIR, 'no-such-file.sheet'))
     expect(r.code).toBe(2)
     expect(r.err).toMatch(/cannot read/)
-    expect(pewter('check', MODELS_DIR).code).toBe(2)
+    expect(r.out).toBe('')
+  }, 120_000)
+
+  it('bad arguments: exit 2 (the check module in-process)', async () => {
+    const err = vi.spyOn(process.stderr, 'write').mockImplementation(() => true)
+    const out = vi.spyOn(process.stdout, 'write').mockImplementation(() => true)
+    try {
+      expect(await run([])).toBe(2)
+      expect(await run(['a.sheet', 'b.sheet'])).toBe(2)
+      expect(await run(['--bogus'])).toBe(2)
+      expect(await run([MODELS_DIR])).toBe(2)
+      expect(out).not.toHaveBeenCalled()
+      expect(String(err.mock.calls[0][0])).toMatch(/no sheet file given/)
+      expect(await run([join(MODELS_DIR, 'battery-cell.sheet')])).toBe(0)
+      expect(JSON.parse(String(out.mock.calls[0][0])).ok).toBe(true)
+    } finally {
+      err.mockRestore()
+      out.mockRestore()
+    }
   })
 })

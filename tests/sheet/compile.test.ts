@@ -129,6 +129,18 @@ output globalThis_level = fs_require [m]`)
     for (const n of ['process_rate', 'constructor_like', 'fs_require', 'globalThis_level']) expect(c.source).not.toContain(n)
   })
 
+  it('the generated source uses only the compiler\'s own identifiers', () => {
+    const allowed = new Set(['use', 'strict', 'const', 'let', 'function', 'return', 'if', 'else', 'while', 'Math', 'fill', 'length',
+      't', 'x', 'p', 'u', 'out', 'ts', 'SPT', 'TX', 'TY', 'X', 'Y', 'n', 'v', 'lo', 'hi', 'k', 'lkv', 'lkd',
+      'rhs', 'outputs', 'outputsFn', 'dfdx', 'dfdp', 'dfdu', 'dfdt', 'dgdx', 'dgdp', 'dgdu',
+      'sin', 'cos', 'tan', 'asin', 'acos', 'atan', 'atan2', 'sinh', 'cosh', 'tanh', 'exp', 'log', 'log10', 'sqrt', 'abs', 'sign', 'min', 'max', 'floor', 'ceil', 'pow', 'hypot'])
+    for (const text of [KITCHEN_SINK, ...templates().map((t) => t.text)]) {
+      const src = compileModel(text).source
+      const ids = new Set(src.replace(/(?<![A-Za-z_$0-9])\d+(\.\d+)?(e[+-]?\d+)?/g, ' ').match(/[A-Za-z_$][A-Za-z0-9_$]*/g))
+      for (const id of ids) expect(allowed.has(id) || /^[LDXY]\d+$/.test(id), id).toBe(true)
+    }
+  })
+
   it('compileModel throws a SheetError with the diagnostics; tryCompileModel does not throw', () => {
     expect(() => compileModel("state x = 1\nx' = y")).toThrow(SheetError)
     try { compileModel("state x = 1\nx' = y") } catch (e) { expect((e as SheetError).diagnostics.find((d) => d.severity === 'error')).toMatchObject({ line: 2, message: "unknown name 'y'" }) }

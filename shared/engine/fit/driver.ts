@@ -15,7 +15,7 @@ import { FitProblem, type ProblemSpec, type Simulate } from './problem'
 import { levenbergMarquardt } from './lm'
 import { nelderMeadFit } from './nelder-mead'
 import { latinHypercube } from './lhs'
-import { FitAborted, type OptimiseResult, type ProgressInfo, type StopStatus } from './lsq'
+import { FitAborted, FitTimeout, type OptimiseResult, type ProgressInfo, type StopStatus } from './lsq'
 import { buildResult } from './result'
 import { equationErrorEstimate, type EquationErrorEstimate } from './equation-error'
 
@@ -86,9 +86,9 @@ export function resolveTolerances(opts: FitOptions): ResolvedTolerances {
   return { rtol, atol, ftol: opts.ftol ?? tied, xtol: opts.xtol ?? tied, gtol: opts.gtol ?? tied }
 }
 
-export function makeProblem(model: CompiledModel, spec: ProblemSpec, simulate: Simulate, opts: FitOptions): FitProblem {
+export function makeProblem(model: CompiledModel, spec: ProblemSpec, simulate: Simulate, opts: FitOptions, deadline?: number): FitProblem {
   const tol = resolveTolerances(opts)
-  return new FitProblem(model, spec, simulate, { rtol: tol.rtol, atol: tol.atol, solver: opts.solver, signal: opts.signal, maxSteps: opts.maxSteps })
+  return new FitProblem(model, spec, simulate, { rtol: tol.rtol, atol: tol.atol, solver: opts.solver, signal: opts.signal, maxSteps: opts.maxSteps, deadline })
 }
 
 /** The starting points: the sheet's values (or --set), then `starts` Latin-hypercube points. */
@@ -126,6 +126,9 @@ async function optimiseOnce(prob: FitProblem, theta0: ArrayLike<number>, opts: F
     if (e instanceof FitAborted) {
       return { theta: Float64Array.from(theta0), cost: NaN, status: 'aborted', reason: 'aborted by the caller', iterations: 0, evaluations: 0, costHistory: [] }
     }
+    if (e instanceof FitTimeout) {
+      return { theta: Float64Array.from(theta0), cost: NaN, status: 'stopped', reason: 'time budget exhausted', iterations: 0, evaluations: 0, costHistory: [] }
+    }
     throw e
   }
 }
@@ -134,7 +137,7 @@ async function optimiseOnce(prob: FitProblem, theta0: ArrayLike<number>, opts: F
 export async function fitFromStart(
   model: CompiledModel, spec: ProblemSpec, plan: StartPlan, opts: FitOptions, simulate: Simulate, deadline?: number,
 ): Promise<StartOutcome> {
-  const prob = makeProblem(model, spec, simulate, opts)
+  const prob = makeProblem(model, spec, simulate, opts, deadline)
   const ny = model.ny
   let res = await optimiseOnce(prob, plan.theta, opts, deadline, plan.index)
   let iterations = res.iterations

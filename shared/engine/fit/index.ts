@@ -41,3 +41,6 @@ export function planStarts(model: CompiledModel, spec: ProblemSpec, options: Fit
 export function fitFromStart(model: CompiledModel, spec: ProblemSpec, plan: StartPlan, options: FitOptions = {}, deadline?: number): Promise<StartOutcome> {
   return fitFromStartWith(model, spec, plan, options, engineSimulate, deadline)
 }
+
+/** Alias of runFit for the server's background jobs. */
+export const fit = runFit

@@ -24,7 +24,7 @@ import { householderQR, applyQt, extractR } from '../stats/qr'
 import { svd } from '../stats/svd'
 import { BoxTransform } from './transform'
 import {
-  FitAborted, sumSquares, yieldToEventLoop,
+  FitAborted, FitTimeout, sumSquares, yieldToEventLoop,
   type LsqProblem, type OptimiseOptions, type OptimiseResult, type StopStatus,
 } from './lsq'
 
@@ -66,8 +66,22 @@ export async function levenbergMarquardt(
     typ[j] = tr.isLog[j] ? 1 : Number.isFinite(range) ? 1e-6 * range : 1e-8
   }
 
+  // a time-out or an abort inside a simulation ends the fit at the last accepted point
+  let interrupted: 'aborted' | 'stopped' | null = null
+  const evaluate = (th: Float64Array, rr: Float64Array, jj: Float64Array): boolean => {
+    try {
+      return prob.evaluate(th, rr, jj)
+    } catch (e) {
+      if (e instanceof FitAborted) interrupted = 'aborted'
+      else if (e instanceof FitTimeout) interrupted = 'stopped'
+      else throw e
+      return false
+    }
+  }
   let evaluations = 1
-  if (!prob.evaluate(theta, r, jac) || !allFinite(r) || !allFinite(jac)) {
+  if (!evaluate(theta, r, jac) || !allFinite(r) || !allFinite(jac)) {
+    if (interrupted === 'aborted') return done('aborted', 'aborted by the caller', 0, NaN)
+    if (interrupted === 'stopped') return done('stopped', 'time budget exhausted', 0, NaN)
     return done('failed', 'the model cannot be evaluated at the starting point', 0, NaN)
   }
   let cost = sumSquares(r)
@@ -158,6 +172,7 @@ export async function levenbergMarquardt(
     let relAct = 0
     while (!accepted) {
       if (opts.signal?.aborted) return done('aborted', 'aborted by the caller', iter, cost)
+      if (opts.deadline !== undefined && Date.now() > opts.deadline) return done('stopped', 'time budget exhausted', iter, cost)
       if (++tries > 40 || !(lambda < 1e30)) {
         return done('converged', 'no further decrease possible (cost change below the integration accuracy)', iter, cost)
       }
@@ -193,7 +208,9 @@ export async function levenbergMarquardt(
       const pred = -(2 * rq + qq)
       tr.toTheta(zT, thetaT)
       evaluations++
-      const ok = prob.evaluate(thetaT, rT, jacT) && allFinite(rT) && allFinite(jacT)
+      const ok = evaluate(thetaT, rT, jacT) && allFinite(rT) && allFinite(jacT)
+      if (interrupted === 'aborted') return done('aborted', 'aborted by the caller', iter, cost)
+      if (interrupted === 'stopped') return done('stopped', 'time budget exhausted', iter, cost)
       const costT = ok ? sumSquares(rT) : Infinity
       const rho = pred > 0 ? (cost - costT) / pred : -1
       if (ok && costT < cost && rho > 1e-4) {

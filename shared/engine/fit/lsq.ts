@@ -57,6 +57,14 @@ export class FitAborted extends Error {
   }
 }
 
+/** The fit's time budget ran out inside a simulation. */
+export class FitTimeout extends Error {
+  constructor(message = 'time budget exhausted') {
+    super(message)
+    this.name = 'FitTimeout'
+  }
+}
+
 export function sumSquares(r: Float64Array): number {
   let s = 0
   for (let i = 0; i < r.length; i++) s += r[i] * r[i]

@@ -10,7 +10,7 @@
  */
 import { nelderMead } from 'fmin/index.js'
 import { BoxTransform } from './transform'
-import { FitAborted, sumSquares, type LsqProblem, type OptimiseOptions, type OptimiseResult } from './lsq'
+import { FitAborted, FitTimeout, sumSquares, type LsqProblem, type OptimiseOptions, type OptimiseResult } from './lsq'
 
 class BudgetExhausted extends Error {}
 
@@ -58,8 +58,8 @@ export function nelderMeadFit(prob: LsqProblem, theta0: ArrayLike<number>, opts:
     if (e instanceof FitAborted) {
       return { theta: best, cost: bestCost, status: 'aborted', reason: 'aborted by the caller', iterations: costHistory.length, evaluations, costHistory }
     }
-    if (e instanceof BudgetExhausted) {
-      const why = evaluations >= maxEval ? 'evaluation limit reached' : 'time budget exhausted'
+    if (e instanceof BudgetExhausted || e instanceof FitTimeout) {
+      const why = evaluations >= maxEval && !(e instanceof FitTimeout) ? 'evaluation limit reached' : 'time budget exhausted'
       return { theta: best, cost: bestCost, status: 'stopped', reason: why, iterations: costHistory.length, evaluations, costHistory }
     }
     throw e

@@ -24,7 +24,7 @@
 import type { CompiledModel } from '../../sheet/compiled'
 import type { InputTrace, SimulationRequest, SimulationResult, SolverName } from '../simulate-contract'
 import { FitInputError } from './errors'
-import { FitAborted, type LsqProblem } from './lsq'
+import { FitAborted, FitTimeout, type LsqProblem } from './lsq'
 import type { FitWeighting } from '../../api/fit'
 
 export type Simulate = (model: CompiledModel, req: SimulationRequest) => SimulationResult
@@ -79,6 +79,8 @@ export interface SimSettings {
   solver?: SolverName
   signal?: AbortSignal
   maxSteps?: number
+  /** absolute deadline (Date.now()) for the whole fit: each simulation gets what is left */
+  deadline?: number
 }
 
 export interface Observations {
@@ -413,6 +415,8 @@ export class FitProblem implements LsqProblem {
   /** Run one experiment's simulation. Throws FitAborted when aborted; returns null on failure. */
   simulateExperiment(ex: PreparedExperiment, p: Float64Array, x0: Float64Array | undefined, withSens: boolean): SimulationResult | null {
     if (this.sim.signal?.aborted) throw new FitAborted()
+    const left = this.sim.deadline !== undefined ? this.sim.deadline - Date.now() : undefined
+    if (left !== undefined && left <= 0) throw new FitTimeout()
     this.simulations++
     try {
       return this.simulate(this.model, {
@@ -427,9 +431,11 @@ export class FitProblem implements LsqProblem {
         atol: this.sim.atol,
         maxSteps: this.sim.maxSteps ?? ex.stepLimit,
         signal: this.sim.signal,
+        timeBudgetMs: left,
       })
     } catch (err) {
       if (this.sim.signal?.aborted || (err instanceof Error && err.name === 'AbortedError')) throw new FitAborted()
+      if (err instanceof Error && err.name === 'TimeBudgetError' && this.sim.deadline !== undefined) throw new FitTimeout()
       this.lastError = err instanceof Error ? err.message : String(err)
       return null
     }

@@ -23,7 +23,7 @@ export function errNorm(tol: Tolerances, nBlock: number, n: number, e: Float64Ar
     const w = weight[k]
     if (w === 0) continue
     const i = k % nBlock
-    const sc = atol[i] + rtol * Math.max(Math.abs(a[i]), Math.abs(b[i]))
+    const sc = atol[i] + rtol[i] * Math.max(Math.abs(a[i]), Math.abs(b[i]))
     const r = (e[k] * w) / sc
     s += r * r
     cnt++

@@ -11,7 +11,7 @@
  * the no-allocation rule). `advance` runs one package call per segment between breakpoints and
  * carries the last step size into the next call as its initial step, so a breakpoint does not
  * trigger a fresh step-size search. Error control: the package scales by atol + rtol·|z|
- * component-wise; a sensitivity component gets atol = (atol_i + rtol·|x_i|)/weight and rtol 0, the
+ * component-wise; a sensitivity component gets atol = (atol_i + rtol_i·|x_i|)/weight and rtol 0, the
  * closest match to the engine's rule (see types.ts), and weight 0 switches it off (atol 1e300).
  */
 import { AbortedError, StepLimitError, TimeBudgetError } from '../errors'
@@ -69,9 +69,9 @@ export class OdexSolver implements OdeSolver {
       const w = tol.weight[k]
       if (k < nb) {
         atol[k] = w === 0 ? 1e300 : tol.atol[i] / w
-        rtol[k] = w === 0 ? 0 : tol.rtol
+        rtol[k] = w === 0 ? 0 : tol.rtol[i]
       } else {
-        atol[k] = w === 0 ? 1e300 : (tol.atol[i] + tol.rtol * Math.abs(this.z[i])) / w
+        atol[k] = w === 0 ? 1e300 : (tol.atol[i] + tol.rtol[i] * Math.abs(this.z[i])) / w
         rtol[k] = 0
       }
     }
@@ -86,13 +86,16 @@ export class OdexSolver implements OdeSolver {
   private run(tStop: number, obs: StepObserver | null, single: boolean): void {
     const s = this.configure()
     const { sys, n, zin, dz, counters, limits } = this
+    // the package copies the returned array at once, so one array serves every call
+    const ret: number[] = new Array<number>(n).fill(0)
     const f = (x: number, y: number[]): number[] => {
       for (let i = 0; i < n; i++) zin[i] = y[i]
       sys.f(x, zin, dz)
       counters.rhsEvals++
       const bad = firstNonFinite(dz, n)
       if (bad >= 0) throwNonFinite(limits, sys.nBlock, bad, x, dz[bad])
-      return Array.from(dz)
+      for (let i = 0; i < n; i++) ret[i] = dz[i]
+      return ret
     }
     let accepted = 0
     const solOut = (nr: number, xOld: number, x: number, y: number[], dense?: (c: number, x: number) => number): boolean | void => {

@@ -17,12 +17,13 @@ export interface OdeSystem {
 
 /**
  * Error control: component i of block b is measured against
- *   sc = (atol[i] + rtol·max(|z_i|, |z1_i|)) / weight[b·nBlock + i]   (i < nBlock: the state's own scale)
+ *   sc = (atol[i] + rtol[i]·max(|z_i|, |z1_i|)) / weight[b·nBlock + i]   (i < nBlock: the state's own scale)
  * i.e. a sensitivity ∂x_i/∂θ times |θ| is measured in the state's units. weight 0 leaves a
  * component out of error control.
  */
 export interface Tolerances {
-  rtol: number
+  /** per state (length nBlock) */
+  rtol: Float64Array
   /** per state (length nBlock), in each state's units */
   atol: Float64Array
   /** per component (length n) */

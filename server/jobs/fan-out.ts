@@ -1,0 +1,118 @@
+/**
+ * Multi-start fits fan out over the pool's threads: the thread executing a run hands its start plans
+ * to the parent (the pool, on the process's main thread), which lends idle threads as helpers. The
+ * run's own thread and the helpers take plans one at a time from the same list (work sharing), so no
+ * thread waits on another and a busy pool simply leaves more starts to the run's own thread. The
+ * outcomes go back to the run's thread, which picks the best (shared/engine/fit pickBest) as in a
+ * sequential fit: the result does not depend on how the starts were spread.
+ *
+ * Messages on a MessagePort (thread → parent): { type: 'starts', plans } | { type: 'next' } |
+ * { type: 'outcome', outcome, threadId }; (parent → thread): { type: 'plan', plan } |
+ * { type: 'outcomes', outcomes } | { abort }.
+ */
+import type { MessagePort } from 'node:worker_threads'
+import type { StartOutcome, StartPlan } from '../../shared/engine/fit/driver'
+
+export type ThreadMessage =
+  | { type: 'starts'; plans: StartPlan[]; deadline: number | null }
+  | { type: 'next' }
+  | { type: 'outcome'; outcome: StartOutcome; threadId: number }
+
+export interface FanOutRecord { plans: number; helpers: number; threadIds: number[] }
+
+export const failedOutcome = (plan: StartPlan, reason: string): StartOutcome => ({
+  index: plan.index, start: plan.theta, theta: plan.theta, cost: NaN, objective: NaN, status: 'failed', reason,
+  iterations: 0, simulations: 0, costHistory: [], weights: null,
+})
+
+/** The parent's side of one run's fan-out. */
+export class FanOut {
+  private queue: StartPlan[]
+  private held = new Map<MessagePort, StartPlan | null>()
+  private outcomes: StartOutcome[] = []
+  private done = false
+  readonly threadIds = new Set<number>()
+  helpers = 0
+
+  constructor(plans: StartPlan[], private runPort: MessagePort, private onOutcome: (done: number, total: number, best: number | null) => void, readonly deadline: number | null = null) {
+    this.queue = [...plans].sort((a, b) => a.index - b.index)
+    this.total = plans.length
+  }
+  readonly total: number
+
+  get remaining() { return this.queue.length }
+
+  /** A port (the run's thread or a helper) asks for the next plan. */
+  next(port: MessagePort) {
+    const plan = this.done ? null : this.queue.shift() ?? null
+    this.held.set(port, plan)
+    port.postMessage({ type: 'plan', plan })
+  }
+
+  outcome(port: MessagePort, o: StartOutcome, threadId: number) {
+    this.held.set(port, null)
+    this.threadIds.add(threadId)
+    this.outcomes.push(o)
+    const best = this.outcomes.reduce<number | null>((b, x) => (Number.isFinite(x.cost) && (b === null || x.cost < b) ? x.cost : b), null)
+    if (this.outcomes.length < this.total) this.onOutcome(this.outcomes.length, this.total, best)
+    this.maybeFinish()
+  }
+
+  /** A helper thread died or ended: a plan it held is recorded as failed. */
+  lost(port: MessagePort, reason: string) {
+    const plan = this.held.get(port)
+    this.held.delete(port)
+    if (plan) this.outcomes.push(failedOutcome(plan, `its worker thread stopped: ${reason}`))
+    this.maybeFinish()
+  }
+
+  /** Cancelled or timed out: hand out nothing more and answer the run's thread with what is there. */
+  stop() {
+    this.queue = []
+    this.finish()
+  }
+
+  private maybeFinish() {
+    if (this.outcomes.length >= this.total) this.finish()
+  }
+
+  private finish() {
+    if (this.done) return
+    this.done = true
+    this.runPort.postMessage({ type: 'outcomes', outcomes: this.outcomes })
+  }
+
+  record(): FanOutRecord {
+    return { plans: this.total, helpers: this.helpers, threadIds: [...this.threadIds].sort((a, b) => a - b) }
+  }
+}
+
+/**
+ * The thread's side: a `runStarts` for FitOptions that sends the plans to the parent, fits plans from
+ * the shared list itself until none is left, then waits for every outcome.
+ */
+export function threadRunStarts(port: MessagePort, fit: (plan: StartPlan) => Promise<StartOutcome>, threadId: number, deadline: () => number | null = () => null) {
+  return async (plans: StartPlan[]): Promise<StartOutcome[]> => {
+    const planWaiters: ((p: StartPlan | null) => void)[] = []
+    let resolveAll!: (o: StartOutcome[]) => void
+    const all = new Promise<StartOutcome[]>((r) => { resolveAll = r })
+    const onMessage = (m: { type?: string; plan?: StartPlan | null; outcomes?: StartOutcome[] }) => {
+      if (m?.type === 'plan') planWaiters.shift()?.(m.plan ?? null)
+      if (m?.type === 'outcomes') { for (const w of planWaiters.splice(0)) w(null); resolveAll(m.outcomes ?? []) }
+    }
+    port.on('message', onMessage)
+    try {
+      port.postMessage({ type: 'starts', plans, deadline: deadline() } satisfies ThreadMessage)
+      for (;;) {
+        const plan = await new Promise<StartPlan | null>((r) => { planWaiters.push(r); port.postMessage({ type: 'next' } satisfies ThreadMessage) })
+        if (!plan) break
+        let outcome: StartOutcome
+        try { outcome = await fit(plan) } catch (e) { outcome = failedOutcome(plan, e instanceof Error ? e.message : String(e)) }
+        port.postMessage({ type: 'outcome', outcome, threadId } satisfies ThreadMessage)
+      }
+      return await all
+    } finally {
+      port.off('message', onMessage)
+    }
+  }
+}

@@ -1,0 +1,54 @@
+/**
+ * Multi-start fits fan out over the worker threads: the run's starts are shared between the run's
+ * thread and idle helper threads, and the result equals the sequential fit of the same settings
+ * (seeded synthetic demo data of the invented Tinmoor Works plant).
+ */
+import { afterAll, beforeAll, describe, expect, it } from 'vitest'
+import { eq } from 'drizzle-orm'
+import { CSRF, demo, makeTestApp, signedIn, type TestApp } from '../helpers/app'
+import { getRun, waitFor } from '../helpers/jobs'
+import { datasets, projects, runs } from '../../server/db/schema'
+import { seedDemoProject } from '../../server/services/demo-project'
+import { executeRun } from '../../server/services/fit-execution'
+import { ThreadRunner } from '../../server/jobs/thread-runner'
+
+let t: TestApp
+beforeAll(async () => { t = await makeTestApp('jobs_fanout', { workerThreads: 3, smtpUrl: 'smtp://127.0.0.1:9' }) })
+afterAll(async () => { await t?.close() })
+
+type Result = { parameters: { name: string; value: number }[]; starts: { cost: number | null }[]; bestStart: number }
+
+describe('multi-start fan-out', () => {
+  it('spreads the starts over several threads and gives the sequential result', async () => {
+    await seedDemoProject(t.context.db)
+    const [project] = await t.context.db.select().from(projects).where(eq(projects.name, 'Buffer vessel B2 calibration (demo)'))
+    const [seeded] = await t.context.db.select().from(runs).where(eq(runs.projectId, project.id))
+    const sets = await t.context.db.select().from(datasets).where(eq(datasets.projectId, project.id))
+    const est = sets.find((d) => d.purpose === 'estimation')!
+    const agent = await signedIn(t.app, demo.modeler)
+    const body = { modelId: seeded.modelId, version: seeded.modelVersion, estimation: [est.id], starts: 4, weighting: 'ml', seed: 11 }
+    const created = await agent.post(`/api/workspaces/tinmoor/projects/${project.id}/runs`).set(CSRF).send(body)
+    expect(created.status).toBe(201)
+    const id = created.body.id as number
+    const run = await waitFor('the multi-start run', async () => { const r = await getRun(t.context.db, id); return ['succeeded', 'failed', 'cancelled'].includes(r.status) && r }, 150_000)
+    expect(run.error ?? null).toBeNull()
+    expect(run.status).toBe('succeeded')
+    const pool = (t.context.services.jobs as ThreadRunner).pool
+    const spread = pool.fanOuts.get(id)
+    expect(spread?.plans).toBe(4)
+    expect(spread!.threadIds.length).toBeGreaterThanOrEqual(2)
+
+    // the same settings fitted sequentially in this process
+    const [copy] = await t.context.db.insert(runs).values({
+      workspaceId: run.workspaceId, projectId: run.projectId, modelId: run.modelId, modelVersion: run.modelVersion,
+      settings: run.settings, provenance: run.provenance, createdBy: run.createdBy, workerId: 'sequential', heartbeatAt: new Date(),
+    }).returning()
+    expect(await executeRun(t.context.db, copy.id, { workerId: 'sequential' })).toBe('succeeded')
+    const a = run.result as Result
+    const b = (await getRun(t.context.db, copy.id)).result as Result
+    expect(a.starts).toHaveLength(4)
+    expect(a.bestStart).toBe(b.bestStart)
+    a.starts.forEach((s, i) => expect(s.cost! / b.starts[i].cost!).toBeCloseTo(1, 9))
+    for (const p of b.parameters) expect(a.parameters.find((q) => q.name === p.name)!.value / p.value).toBeCloseTo(1, 9)
+  }, 200_000)
+})
