@@ -14,6 +14,8 @@ export interface JobRunnerOptions {
   onSettled?: (runId: number) => Promise<void>
   heartbeatMs?: number
   stopGraceMs?: number
+  /** boot every thread at start (default: outside tests) */
+  warm?: boolean
 }
 
 export async function createJobRunner(context: AppContext, o: JobRunnerOptions = {}): Promise<JobRunner> {
@@ -30,6 +32,7 @@ export async function createJobRunner(context: AppContext, o: JobRunnerOptions =
     staleSeconds: c.jobStaleSeconds,
     maxAttempts: c.jobMaxAttempts,
     heartbeatMs: o.heartbeatMs,
+    warm: o.warm ?? process.env.NODE_ENV !== 'test',
     stopGraceMs: o.stopGraceMs,
     onSettled: o.onSettled,
     log: process.env.NODE_ENV === 'test' ? undefined : (m) => console.log(`[pewter] ${m}`),

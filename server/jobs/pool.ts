@@ -29,6 +29,8 @@ export interface RunPoolOptions {
   /** how long a cancelled or timed-out fit may take to stop by itself before its thread is terminated */
   stopGraceMs?: number
   workerId?: string
+  /** keep every thread alive and loaded (servers; the tests leave it off) */
+  warm?: boolean
   /** called once a run this pool executed is final (notifications) */
   onSettled?: (runId: number) => Promise<void>
   log?: (message: string) => void
@@ -72,7 +74,7 @@ export class RunPool {
     this.piscina = new Piscina({
       filename: new URL('./thread-task.ts', import.meta.url).href,
       maxThreads: o.threads,
-      minThreads: 0,
+      minThreads: o.warm ? o.threads : 0,
       idleTimeout: 30_000,
       execArgv: threadExecArgv(),
     })
@@ -82,6 +84,21 @@ export class RunPool {
 
   get size() { return this.o.threads }
   get busy() { return this.running }
+
+  /**
+   * Boots every thread now (module loading takes seconds per thread), so that the first fits and the
+   * helpers of a multi-start fit start at once. Resolves with the thread ids.
+   */
+  async warmUp(limitMs = 60_000): Promise<number[]> {
+    const seen = new Set<number>()
+    const end = Date.now() + limitMs
+    // piscina hands a task only to a thread that is up: ping in parallel until every thread answered
+    while (seen.size < this.o.threads && Date.now() < end && !this.closed) {
+      const ids = await Promise.all(Array.from({ length: this.o.threads }, () => this.piscina.run(null, { name: 'ping' }) as Promise<number>))
+      for (const id of ids) seen.add(id)
+    }
+    return [...seen].sort((a, b) => a - b)
+  }
 
   /** Executes a run when a thread is free; resolves once the run is final (or was not ours to run). */
   execute(runId: number): Promise<ExecuteOutcome> {
@@ -187,7 +204,7 @@ export class RunPool {
     })
     const task: HelperTask = { runId, databaseUrl: this.o.databaseUrl, deadline: fan.deadline, port: port2 }
     this.piscina.run(task, { name: 'helper', transferList: [port2], signal: a.hard.signal })
-      .then(() => fan.lost(port1, 'ended'), (err) => { console.error('HELPERDBG', err); fan.lost(port1, err instanceof Error ? err.message : String(err)) })
+      .then(() => fan.lost(port1, 'ended'), (err) => fan.lost(port1, err instanceof Error ? err.message : String(err)))
       .finally(() => { this.helping--; port1.close() })
   }
 

@@ -15,12 +15,15 @@ export class ThreadRunner implements JobRunner {
     this.pool = new RunPool(options)
     this.staleSeconds = options.staleSeconds
     this.maxAttempts = options.maxAttempts
+    this.warm = options.warm ?? false
   }
+  private warm: boolean
   private staleSeconds: number
   private maxAttempts: number
 
   /** Re-enqueues waiting and abandoned runs now and, periodically, abandoned ones. */
   async start() {
+    if (this.warm) void this.pool.warmUp().catch(() => {})
     await this.recover()
     this.reaper = setInterval(() => { void this.recover().catch(() => {}) }, Math.max(1000, this.staleSeconds * 500))
     this.reaper.unref()

@@ -81,7 +81,6 @@ export default async function runTask(task: RunTask): Promise<{ ok: true }> {
 }
 
 export async function helper(task: HelperTask): Promise<{ fitted: number }> {
-  console.error('HELPERDBG start', threadId)
   const db = database(task.databaseUrl)
   const controller = abortable(task.port)
   let fitted = 0
@@ -91,7 +90,6 @@ export async function helper(task: HelperTask): Promise<{ fitted: number }> {
     for (;;) {
       if (controller.signal.aborted) break
       const plan = await new Promise<StartPlan | null>((r) => { waiters.push(r); task.port.postMessage({ type: 'next' }) })
-      console.error('HELPERDBG plan', threadId, plan?.index)
       if (!plan) break
       let outcome: StartOutcome
       try {
@@ -106,4 +104,10 @@ export async function helper(task: HelperTask): Promise<{ fitted: number }> {
   } finally {
     task.port.close()
   }
+}
+
+/** Warm-up: boots the thread (module loading) and reports its id; held briefly so parallel pings land on distinct threads. */
+export async function ping(): Promise<number> {
+  await new Promise((r) => setTimeout(r, 200))
+  return threadId
 }

@@ -33,9 +33,11 @@ async function main() {
     staleSeconds: config.jobStaleSeconds,
     heartbeatMs: Number(process.env.PEWTER_HEARTBEAT_MS ?? 1000),
     workerId,
+    warm: true,
     log,
     onSettled: async (runId) => { await notifyRunSettled({ db: database.db, mailer, publicUrl: config.publicUrl }, runId) },
   })
+  await pool.warmUp()
   const boss = await startBoss(config.databaseUrl, { timeoutSeconds: config.jobTimeoutSeconds })
   for (let i = 0; i < config.workerThreads; i++) {
     await boss.work<FitJob>(FIT_QUEUE, { batchSize: 1, pollingIntervalSeconds: 0.5 }, async (jobs) => {

@@ -144,11 +144,6 @@ export function fitOptions(settings: RunSettings, extra: Partial<FitOptions> = {
   }
 }
 
-/** Names of the estimated quantities in the engine's order (as landscape requests name them). */
-export function estimatedNames(result: FitResult, experimentNames: string[]): string[] {
-  return [...result.parameters, ...result.initialStates].map((r) => (r.experiment === null ? r.name : `${r.name}[${experimentNames[r.experiment]}]`))
-}
-
 export async function loadRunInputs(db: Db, run: typeof runs.$inferSelect) {
   const settings = run.settings as RunSettings
   const [version] = await db.select().from(modelVersions)

@@ -421,7 +421,7 @@ export async function diffVersions(db: Db, actor: Actor, modelId: number, q: Dif
 // ── delete ──────────────────────────────────────────────────────────────────────────────────────
 export async function deleteModel(db: Db, actor: Actor, modelId: number): Promise<void> {
   if (!can.administer(actor.role)) throw forbidden(`Your role (${actor.role}) does not allow this: it needs the admin role.`)
-  const title = await db.transaction(async (tx) => {
+  const gone = await db.transaction(async (tx) => {
     const m = await getModelRow(tx, actor.workspaceId, modelId, true)
     const used = await tx.select({ version: runs.modelVersion, n: sql<number>`count(*)::int` }).from(runs)
       .where(eq(runs.modelId, m.id)).groupBy(runs.modelVersion).orderBy(runs.modelVersion)
@@ -436,8 +436,10 @@ export async function deleteModel(db: Db, actor: Actor, modelId: number): Promis
     const [ps] = await tx.select({ n: sql<number>`count(*)::int` }).from(parameterSets).where(eq(parameterSets.modelId, m.id))
     if (ps.n) throw conflict(`"${m.title}" cannot be deleted: ${ps.n} saved parameter set${ps.n === 1 ? '' : 's'} refer${ps.n === 1 ? 's' : ''} to it.`, { parameterSets: ps.n })
     await tx.delete(models).where(eq(models.id, m.id))
-    return m.title
+    return { title: m.title, template: m.template }
   })
-  await audit(db, { workspaceId: actor.workspaceId, actorId: actor.userId, action: 'model.deleted', target: `model:${modelId}`, details: { title }, ip: actor.ip })
+  // a deleted template is remembered here, so the template loader does not bring it back
+  await audit(db, { workspaceId: actor.workspaceId, actorId: actor.userId, action: 'model.deleted', target: `model:${modelId}`,
+    details: gone.template ? { title: gone.title, template: gone.template } : { title: gone.title }, ip: actor.ip })
 }
 

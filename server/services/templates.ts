@@ -2,15 +2,16 @@
  * Loads the template sheets shipped in models/ into the demo workspace as version 1 of library
  * models. Runs at every start and is idempotent: a template already loaded (matched by its file name
  * in models.template) is left alone, so later starts never duplicate it, and a template added to
- * models/ later appears at the next start. Concurrent starts are serialised by an advisory lock.
+ * models/ later appears at the next start; a template model an admin deleted is not brought back
+ * (its deletion is in the audit log). Concurrent starts are serialised by an advisory lock.
  */
 import { readdirSync, readFileSync, existsSync } from 'node:fs'
 import path from 'node:path'
 import { fileURLToPath } from 'node:url'
-import { and, eq, isNotNull } from 'drizzle-orm'
+import { and, eq, isNotNull, sql } from 'drizzle-orm'
 import type { Pool } from 'pg'
 import type { Db } from '../db/client'
-import { memberships, models, users, workspaces } from '../db/schema'
+import { auditLog, memberships, models, users, workspaces } from '../db/schema'
 import { DEMO_WORKSPACE } from '../db/seed'
 import { checkSheet } from './sheet-check'
 import { insertLibraryModel } from './models'
@@ -77,6 +78,10 @@ export async function loadTemplates(db: Db, pool: Pool, opts: { workspaceSlug?: 
     await client.query('select pg_advisory_lock($1)', [LOCK_KEY])
     const have = await db.select({ t: models.template }).from(models).where(and(eq(models.workspaceId, ws.id), isNotNull(models.template)))
     const present = new Set(have.map((h) => h.t))
+    // templates an admin deleted stay deleted
+    const deleted = await db.select({ t: sql<string>`${auditLog.details}->>'template'` }).from(auditLog)
+      .where(and(eq(auditLog.workspaceId, ws.id), eq(auditLog.action, 'model.deleted'), sql`${auditLog.details} ? 'template'`))
+    for (const d of deleted) present.add(d.t)
     for (const t of templates) {
       if (present.has(t.file)) continue
       const check = checkSheet(t.text)

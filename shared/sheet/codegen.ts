@@ -88,8 +88,6 @@ function directVars(e: Expr, lets: Set<number>): Set<Key> {
 }
 
 export function generateSource(m: ParsedModel): string {
-  const nx = m.states.length
-  const np = m.params.length
   const nu = m.inputs.length + m.delays.length
   const em = new Emitter(m)
 
@@ -175,7 +173,6 @@ export function generateSource(m: ParsedModel): string {
   const ps: Var[] = m.params.map((_, i) => ({ k: 'p', i }))
   const us: Var[] = Array.from({ length: nu }, (_, i) => ({ k: 'u', i }))
   const ts: Var[] = [{ k: 't' }]
-  void nx; void np
 
   const parts: string[] = [
     "'use strict';",

@@ -560,8 +560,6 @@ class SheetParser {
     return {
       diags: d,
       symbol: (name, cols) => {
-        const span = { line: 0, column: cols[0], endColumn: cols[1] }
-        void span
         if (name === 't') return { k: 't' }
         if (name === 'pi') return { k: 'num', v: Math.PI }
         if (name === 'e') return { k: 'num', v: Math.E }
@@ -685,7 +683,7 @@ class SheetParser {
       const e = this.build(o.raw, ctx)
       if (!e) { broken = true; continue }
       let unit = o.decl.unit
-      if (!unit && (e.k === 'x' || e.k === 'p' || e.k === 'u' || e.k === 'c' || e.k === 'let')) unit = this.unitOfRef(e.k, e.i, lets)
+      if (!unit && (e.k === 'x' || e.k === 'p' || e.k === 'u' || e.k === 'c' || e.k === 'let')) unit = this.unitOfRef(e.k, e.i)
       const sigma = o.decl.declaredSigma === null ? null : o.decl.declaredSigma * (unit ? unit.scale : 1)
       let touches = false
       walk(e, (n) => { if (n.k === 'x' || n.k === 'p' || n.k === 'u' || n.k === 'let' || n.k === 'delay' || n.k === 't') touches = true })
@@ -721,13 +719,13 @@ class SheetParser {
     return model
   }
 
-  private unitOfRef(k: string, i: number, lets: LetDecl[]): UnitInfo | null {
+  private unitOfRef(k: string, i: number): UnitInfo | null {
     switch (k) {
       case 'x': return this.states[i].unit
       case 'p': return this.params[i].unit
       case 'u': return this.inputs[i].unit
       case 'c': return this.consts[i].unit
-      default: void lets; return null
+      default: return null
     }
   }
 

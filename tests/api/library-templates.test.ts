@@ -71,6 +71,13 @@ describe('templates from models/', () => {
     // a template added to the folder later appears at the next start
     copyFileSync(path.join(folder, 'drain.sheet'), path.join(folder, 'drain-copy.sheet'))
     expect(await loadTemplates(t.context.db, t.context.database.pool, { folder, log: () => undefined })).toEqual(['drain-copy.sheet'])
+
+    // a template model an admin deleted is not brought back by later starts
+    const admin = await signedIn(t.app, demo.admin)
+    const copy = (await t.context.database.pool.query("select id from models where template = 'drain-copy.sheet'")).rows[0].id
+    expect((await admin.delete(`/api/workspaces/${demo.ws}/models/${copy}`).set(CSRF)).status).toBe(200)
+    expect(await loadTemplates(t.context.db, t.context.database.pool, { folder, log: () => undefined })).toEqual([])
+    expect((await templateRows()).map((r) => r.template)).not.toContain('drain-copy.sheet')
   })
 
   it('loads nothing into a database without the demo workspace', async () => {

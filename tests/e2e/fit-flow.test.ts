@@ -26,7 +26,7 @@ beforeAll(async () => {
   const dir = mkdtempSync(path.join(os.tmpdir(), 'pewter-e2e-'))
   files = { est: path.join(dir, 'b2-estimation.csv'), val: path.join(dir, 'b2-validation.csv') }
   writeFileSync(files.est, bufferVesselCsv(tv.text, { seed: 21, label: 'browser test estimation' }))
-  writeFileSync(files.val, bufferVesselCsv(tv.text, { seed: 22, label: 'browser test validation' }))
+  writeFileSync(files.val, bufferVesselCsv(tv.text, { seed: 22, label: 'browser test validation', T0: 300 }))
 })
 afterAll(async () => { await rig?.close() })
 
@@ -89,8 +89,13 @@ it('goes from a CSV to a judged, exported fit in the browser', { timeout: 300_00
   for (const name of ['Cv', 'UA', 'tau', 'T']) expect(table).toContain(name)
   await expect(page.getByTestId('metrics-table').textContent()).resolves.toMatch(/validation/)
   // the plots are drawn: measured vs simulated (4), residuals, autocorrelation, correlation, landscape
-  await page.waitForFunction(() => document.querySelectorAll('[data-testid="plot"] .main-svg').length >= 8, null, { timeout: 60_000 })
-  await page.waitForFunction(() => !!document.querySelector('[aria-label="cost landscape contour"] .contour, [aria-label="cost landscape contour"] .contourlayer'), null, { timeout: 60_000 })
+  try {
+    await page.waitForFunction(() => document.querySelectorAll('[data-testid="plot"] .main-svg').length >= 8, null, { timeout: 60_000 })
+    await page.waitForFunction(() => !!document.querySelector('[aria-label="cost landscape contour"] .contourlayer'), null, { timeout: 60_000 })
+  } catch (e) {
+    await rig.screenshot(page, 'fit-flow-failed-results')
+    throw new Error(`plots not drawn (${await page.evaluate(() => document.querySelectorAll('[data-testid="plot"] .main-svg').length)} svg): ${String(e)} ${errors.join(' | ')}`)
+  }
   await rig.screenshot(page, 'fit-flow-4-results')
 
   const csvHref = await page.getByRole('link', { name: 'Export CSV' }).getAttribute('href')
@@ -103,5 +108,14 @@ it('goes from a CSV to a judged, exported fit in the browser', { timeout: 300_00
   await expect(page.getByTestId('report-caution').textContent()).resolves.toContain(RESULT_CAUTION)
   await page.getByTestId('parameter-table').waitFor()
   await rig.screenshot(page, 'fit-flow-5-report')
+
+  // the dataset page: statistics, notes saying the data are invented, a plot per column
+  await page.goto(`${rig.baseUrl}/w/tinmoor/data`)
+  await page.getByRole('link', { name: 'b2-estimation' }).first().click()
+  await page.waitForURL(/\/data\/\d+$/)
+  await page.getByTestId('column-stats').getByText('degC').first().waitFor()
+  await page.getByText(/Invented data \(synthetic\)/).first().waitFor()
+  await page.waitForFunction(() => document.querySelectorAll('[data-testid="plot"] .main-svg').length >= 6, null, { timeout: 60_000 })
+  await rig.screenshot(page, 'fit-flow-6-dataset')
   expect(errors).toEqual([])
 })

@@ -53,6 +53,21 @@ describe('closed-form solutions', () => {
     })
   }
 
+  it('tolerances per state: a loose state does not cost steps, a tight one keeps its accuracy', () => {
+    // two uncoupled decays with closed forms x_i = e^{−k_i t} (no source)
+    const two = makeModel({
+      title: 'two-decays',
+      states: [{ name: 'fast', initial: 1 }, { name: 'slow', initial: 1 }],
+      rhs: (t, x, p, u, o) => { o[0] = -3 * x[0]; o[1] = -0.2 * x[1] },
+    })
+    const tOut = Float64Array.of(4)
+    const both = simulate(two, { tOut, solver: 'rk45', rtol: 1e-10, atol: 1e-12 })
+    const mixed = simulate(two, { tOut, solver: 'rk45', rtol: Float64Array.of(1e-4, 1e-10), atol: Float64Array.of(1e-4, 1e-12) })
+    expect(mixed.stats.steps).toBeLessThan(both.stats.steps)
+    expect(Math.abs(mixed.x[1] - Math.exp(-0.8))).toBeLessThan(1e-9)
+    expect(Math.abs(mixed.x[0] - Math.exp(-12))).toBeLessThan(1e-3)
+  })
+
   it('4-state linear system with a step input matches the matrix exponential (mathjs expm) to 1e-9', () => {
     // x' = A x + B u; u steps from 0 to 1.5 at t = 0.5 (a hold trace). Reference: the exact solution
     // through the matrix exponential of the augmented matrix [[A, B], [0, 0]] (Van Loan, "Computing

@@ -11,7 +11,7 @@ const methods: SolverName[] = ['rk45', 'odex', 'stiff', 'auto']
  * δ = √rtol·|θ| both are ~√rtol·|y|/|θ|; the tolerance is 20·√rtol·(|∂y/∂θ| + max|y|/|θ|).
  */
 function centralDiff(model: CompiledModel, req: SimulationRequest, kind: 'p' | 'x', idx: number): Float64Array {
-  const rtol = req.rtol ?? 1e-6
+  const rtol = (req.rtol as number | undefined) ?? 1e-6
   const base = kind === 'p' ? Float64Array.from(req.p ?? model.params.map((q) => q.value)) : Float64Array.from(req.x0 ?? model.states.map((s) => s.initial))
   const d = Math.sqrt(rtol) * Math.abs(base[idx])
   const run = (v: number) => {
@@ -30,7 +30,7 @@ function checkAgainstFd(model: CompiledModel, req: SimulationRequest): void {
   const ns = sp.params.length + sp.initialStates.length
   const ny = model.ny
   const nt = req.tOut.length
-  const rtol = req.rtol ?? 1e-6
+  const rtol = (req.rtol as number | undefined) ?? 1e-6
   let ymax = 0
   for (const v of r.y) ymax = Math.max(ymax, Math.abs(v))
   const thetas: ['p' | 'x', number][] = [...sp.params.map((j) => ['p', j] as ['p', number]), ...sp.initialStates.map((i) => ['x', i] as ['x', number])]

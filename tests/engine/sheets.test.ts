@@ -15,7 +15,7 @@ const sheet = (name: string): CompiledModel => compileModel(readFileSync(join(ro
 
 function fdCheck(model: CompiledModel, req: SimulationRequest, params: number[], states: number[]): void {
   const r = simulate(model, { ...req, sensitivities: { params, initialStates: states } })
-  const rtol = req.rtol ?? 1e-6
+  const rtol = (req.rtol as number | undefined) ?? 1e-6
   const ns = params.length + states.length
   const ny = model.ny
   const p0 = Float64Array.from(model.params, (p) => p.value)

@@ -94,8 +94,9 @@ export function makeProblem(model: CompiledModel, spec: ProblemSpec, simulate: S
 /** The starting points: the sheet's values (or --set), then `starts` Latin-hypercube points. */
 export function planStarts(
   model: CompiledModel, spec: ProblemSpec, opts: FitOptions, simulate: Simulate, eqErr?: EquationErrorEstimate | null,
+  built?: FitProblem,
 ): StartPlan[] {
-  const prob = makeProblem(model, spec, simulate, opts)
+  const prob = built ?? makeProblem(model, spec, simulate, opts)
   const plans: StartPlan[] = [{ index: 0, origin: 'sheet', theta: Array.from(prob.start) }]
   if (eqErr && opts.equationError === 'start') {
     const th = Array.from(prob.start)
@@ -197,7 +198,7 @@ export async function runFitWith(
       eqWarnings.push(`equation-error estimate not available: ${e instanceof Error ? e.message : String(e)}`)
     }
   }
-  const plans = planStarts(model, spec, opts, simulate, eqErr)
+  const plans = planStarts(model, spec, opts, simulate, eqErr, probe)
   let outcomes: StartOutcome[]
   if (opts.runStarts && plans.length > 1) {
     outcomes = await opts.runStarts(plans)

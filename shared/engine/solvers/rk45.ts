@@ -191,7 +191,8 @@ export class Rk45 implements OdeSolver {
         this.stiffnessTest(h)
         // dense output coefficients (CONTD5)
         const D = DP54.d
-        const [r1, r2, r3, r4, r5] = this.r
+        const r = this.r
+        const r1 = r[0], r2 = r[1], r3 = r[2], r4 = r[3], r5 = r[4]
         for (let i = 0; i < n; i++) {
           const y0 = z[i]
           const yd = y1[i] - y0
@@ -256,7 +257,8 @@ export class Rk45 implements OdeSolver {
 
   dense(t: number, out: Float64Array): void {
     const n = this.n
-    const [r1, r2, r3, r4, r5] = this.r
+    const r = this.r
+    const r1 = r[0], r2 = r[1], r3 = r[2], r4 = r[3], r5 = r[4]
     if (this.hLast === 0) {
       out.set(this.z.subarray(0, n))
       return
