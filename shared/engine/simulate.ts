@@ -227,14 +227,23 @@ export function simulate(model: CompiledModel, req: SimulationRequest): Simulati
       }
     }
     const tauHold = sens.some((s) => s.delaySlots.some((slot) => inputs.isHoldTrace(slot)))
+    // at a breakpoint the right-hand side jumps only where a hold trace changes value: then the
+    // solver refreshes its carried-over derivative (one extra evaluation), otherwise it just goes on
+    const checkJumps = tauHold || inputs.hasHold
+    const nSlots = inputs.nSlots
     let a = t0
     for (let k = 0; k <= bps.length; k++) {
       const b = k < bps.length ? bps[k] : tEnd
-      if (k > 0 && tauHold) inputs.eval(a, ws.uo) // left limit at the breakpoint
+      if (k > 0 && checkJumps) inputs.eval(a, ws.uo) // left limit at the breakpoint
       inputs.setSegment(0.5 * (a + b))
-      if (k > 0) {
-        if (tauHold) tauJumps(model, ws, inputs, solver.z, a)
-        if (inputs.hasHold) solver.breakpoint()
+      if (k > 0 && checkJumps) {
+        inputs.eval(a, ws.duo)
+        let jump = false
+        for (let i = 0; i < nSlots; i++) if (ws.uo[i] !== ws.duo[i]) jump = true
+        if (jump) {
+          if (tauHold) tauJumps(model, ws, inputs, solver.z, a)
+          solver.breakpoint()
+        }
       }
       solver.advance(b, obs)
       a = b

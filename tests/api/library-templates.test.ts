@@ -6,6 +6,7 @@ import path from 'node:path'
 import { createContext } from '../../server/bootstrap'
 import { loadTemplates, readTemplates, templatesFolder } from '../../server/services/templates'
 import { checkSheet } from '../../server/services/sheet-check'
+import { blankSheet } from '../../src/composables/blankSheet'
 import { CSRF, demo, makeTestApp, signedIn, type TestApp } from '../helpers/app'
 import { drainSheet, drainSheetWithError, lagSheet } from './library-sheets'
 
@@ -89,5 +90,11 @@ describe('templates from models/', () => {
 
   it('ships its templates in models/', () => {
     expect(templatesFolder.endsWith(`${path.sep}models`)).toBe(true)
+  })
+
+  it('starts a model "from a blank sheet" with a sheet that checks clean', () => {
+    const r = checkSheet(blankSheet('Tank "T-1" (invented)'))
+    expect(r.diagnostics).toEqual([])
+    expect(r.summary?.title).toBe("Tank 'T-1' (invented)")
   })
 })

@@ -43,7 +43,7 @@ async function uploadFile(page: Page, file: string, purpose: 'estimation' | 'val
   await page.getByTestId('datasets-table').getByText(path.basename(file, '.csv')).waitFor()
 }
 
-it('goes from a CSV to a judged, exported fit in the browser', { timeout: 300_000 }, async () => {
+it('goes from a CSV to a judged, exported fit in the browser', { timeout: 600_000 }, async () => {
   const page = await rig.newPage()
   const errors: string[] = []
   page.on('pageerror', (e) => errors.push(e.message))
@@ -82,7 +82,7 @@ it('goes from a CSV to a judged, exported fit in the browser', { timeout: 300_00
   await rig.screenshot(page, 'fit-flow-3-run-form')
   await page.getByRole('button', { name: 'Start fit' }).click()
   await page.waitForURL(/\/runs\/\d+$/).catch(async () => { await rig.screenshot(page, 'fit-flow-debug'); throw new Error(`no run page: ${errors.join(' | ')}`) })
-  await page.locator('[data-status="succeeded"]').first().waitFor({ timeout: 120_000 })
+  await page.locator('[data-status="succeeded"]').first().waitFor({ timeout: 180_000 })
   await page.getByTestId('parameter-table').waitFor()
   await expect(page.getByTestId('caution').textContent()).resolves.toContain(RESULT_CAUTION)
   const table = await page.getByTestId('parameter-table').textContent()
@@ -90,14 +90,16 @@ it('goes from a CSV to a judged, exported fit in the browser', { timeout: 300_00
   await expect(page.getByTestId('metrics-table').textContent()).resolves.toMatch(/validation/)
   // the plots are drawn: measured vs simulated (4), residuals, autocorrelation, correlation, landscape
   try {
-    await page.waitForFunction(() => document.querySelectorAll('[data-testid="plot"] .main-svg').length >= 8, null, { timeout: 60_000 })
-    await page.waitForFunction(() => !!document.querySelector('[aria-label="cost landscape contour"] .contourlayer'), null, { timeout: 60_000 })
+    await page.waitForFunction(() => document.querySelectorAll('[data-testid="plot"] .main-svg').length >= 8, null, { timeout: 150_000 })
+    await page.waitForFunction(() => !!document.querySelector('[aria-label="cost landscape contour"] .contourlayer'), null, { timeout: 150_000 })
   } catch (e) {
     await rig.screenshot(page, 'fit-flow-failed-results')
     throw new Error(`plots not drawn (${await page.evaluate(() => document.querySelectorAll('[data-testid="plot"] .main-svg').length)} svg): ${String(e)} ${errors.join(' | ')}`)
   }
   await rig.screenshot(page, 'fit-flow-4-results')
 
+  const runUrl = page.url()
+  const rid = Number(/\/runs\/(\d+)$/.exec(runUrl)![1])
   const csvHref = await page.getByRole('link', { name: 'Export CSV' }).getAttribute('href')
   const csv = await page.request.get(`${rig.baseUrl}${csvHref}`)
   expect(csv.status()).toBe(200)
@@ -109,13 +111,18 @@ it('goes from a CSV to a judged, exported fit in the browser', { timeout: 300_00
   await page.getByTestId('parameter-table').waitFor()
   await rig.screenshot(page, 'fit-flow-5-report')
 
+  // two runs side by side (here the same run twice: the page lays out any two)
+  await page.goto(`${rig.baseUrl}/w/tinmoor/runs/compare?a=${rid}&b=${rid}`)
+  await page.waitForFunction(() => document.querySelectorAll('[data-testid="parameter-table"]').length === 2, null, { timeout: 30_000 })
+  await rig.screenshot(page, 'fit-flow-6-compare')
+
   // the dataset page: statistics, notes saying the data are invented, a plot per column
   await page.goto(`${rig.baseUrl}/w/tinmoor/data`)
   await page.getByRole('link', { name: 'b2-estimation' }).first().click()
   await page.waitForURL(/\/data\/\d+$/)
   await page.getByTestId('column-stats').getByText('degC').first().waitFor()
   await page.getByText(/Invented data \(synthetic\)/).first().waitFor()
-  await page.waitForFunction(() => document.querySelectorAll('[data-testid="plot"] .main-svg').length >= 6, null, { timeout: 60_000 })
-  await rig.screenshot(page, 'fit-flow-6-dataset')
+  await page.waitForFunction(() => document.querySelectorAll('[data-testid="plot"] .main-svg').length >= 6, null, { timeout: 150_000 })
+  await rig.screenshot(page, 'fit-flow-7-dataset')
   expect(errors).toEqual([])
 })

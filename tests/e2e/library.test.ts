@@ -75,6 +75,21 @@ describe('browser: the model library', () => {
     await poll(() => page.locator('.monaco-editor .squiggly-error').count()).toBeGreaterThan(0)
     await rig.screenshot(page, 'library-editor-marker')
 
+    // completion offers the declared names and the functions
+    await page.keyboard.press('Escape')
+    await page.keyboard.type(' + q_')
+    await page.keyboard.press('Control+Space')
+    await poll(() => page.locator('.monaco-editor .suggest-widget.visible').textContent()).toMatch(/q_in.*q_out|q_out.*q_in/s)
+    await page.keyboard.press('Escape')
+    await page.keyboard.press('Backspace')
+    await page.keyboard.press('Backspace')
+    await page.keyboard.type('sq')
+    await page.keyboard.press('Control+Space')
+    await poll(() => page.locator('.monaco-editor .suggest-widget.visible').textContent()).toMatch(/sqrt/)
+    await page.keyboard.press('Escape')
+    for (let i = 0; i < ' + sq'.length; i++) await page.keyboard.press('Backspace')
+    await poll(() => page.locator('.sheet-editor').getAttribute('data-marker-lines')).toBe(String(hLine))
+
     // fix it: remove the unknown name again
     for (let i = 0; i < ' - q_drain'.length; i++) await page.keyboard.press('Backspace')
     await poll(() => page.locator('.sheet-editor').getAttribute('data-marker-lines')).toBe('')

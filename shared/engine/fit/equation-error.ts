@@ -61,7 +61,6 @@ export function equationErrorEstimate(prob: FitProblem): EquationErrorEstimate {
   for (let i = 0; i < nx; i++) {
     if (stateOut[i] < 0) throw new Error(`state '${model.states[i].name}' is not measured directly by an output`)
   }
-  const rowsPerK = nx
   const targets: number[] = []
   const regress: number[][] = Array.from({ length: nf }, () => [])
   const fBuf = new Float64Array(nx)
@@ -113,7 +112,6 @@ export function equationErrorEstimate(prob: FitProblem): EquationErrorEstimate {
       }
     }
   }
-  void rowsPerK
   const m = targets.length
   if (m <= nf) throw new Error('too few consecutive samples with every state measured')
   const a = new Float64Array(m * nf)

@@ -281,8 +281,6 @@ export class FitProblem implements LsqProblem {
 
     const measuredOutputs: number[] = []
     const outputCount = new Int32Array(model.ny)
-    const unknownCols = Object.keys(d.outputs).filter((c) => !model.outputs.some((o) => o.name === c))
-    void unknownCols
     model.outputs.forEach((o, j) => {
       const col = d.outputs[o.name]
       if (!col) return

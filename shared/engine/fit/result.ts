@@ -207,12 +207,11 @@ export async function buildResult(a: BuildArgs): Promise<FitResult> {
     const failed = a.outcomes.length - ok.length
     if (failed > 0) warnings.push(`${failed} of ${a.outcomes.length} starts failed`)
   }
-  const nameList = prob.names
   return {
     status, reason, sse: fin(sse), iterations: best.iterations, simulations: totalSims,
     elapsedMs: performance.now() - a.startedAt,
     parameters, initialStates, outputs,
-    correlation: { names: nameList, matrix: corr },
+    correlation: { names: prob.names, matrix: corr },
     warnings: dedupe(warnings),
     method: opts.method ?? 'lm', weighting: a.weighting, nObservations: m, nEstimated: n,
     dof: m - n, s2: cov ? fin(cov.s2) : null, tQuantile: fin(t975),
