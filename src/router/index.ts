@@ -45,6 +45,24 @@ export const router = createRouter({
       meta: { guest: true, title: 'Create an account' },
     },
     {
+      path: '/forgot-password',
+      name: 'forgot-password',
+      component: () => import('@/views/ForgotPasswordView.vue'),
+      meta: { guest: true, title: 'Reset your password' },
+    },
+    {
+      path: '/reset-password/:token',
+      name: 'reset-password',
+      component: () => import('@/views/ResetPasswordView.vue'),
+      meta: { public: true, title: 'Choose a new password' },
+    },
+    {
+      path: '/invitations/:token',
+      name: 'accept-invitation',
+      component: () => import('@/views/AcceptInvitationView.vue'),
+      meta: { public: true, title: 'Join a workspace' },
+    },
+    {
       path: '/',
       name: 'home',
       // Resolved by the guard below to the user's workspace.
@@ -120,7 +138,13 @@ export const router = createRouter({
           path: 'team',
           name: 'team',
           component: () => import('@/views/TeamView.vue'),
-          meta: { title: 'Team', section: 'team', requires: 'administer' },
+          meta: { title: 'Team', section: 'team' },
+        },
+        {
+          path: 'mailbox',
+          name: 'mailbox',
+          component: () => import('@/views/MailboxView.vue'),
+          meta: { title: 'Captured mailbox', section: 'team', requires: 'administer' },
         },
       ],
     },

@@ -17,5 +17,5 @@ export const workspaceSections: readonly WorkspaceSection[] = [
   { name: 'projects', label: 'Projects', icon: 'projects' },
   { name: 'data', label: 'Data', icon: 'data' },
   { name: 'runs', label: 'Runs', icon: 'runs' },
-  { name: 'team', label: 'Team', icon: 'team', requires: 'administer' },
+  { name: 'team', label: 'Team', icon: 'team' },
 ]

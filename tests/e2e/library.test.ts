@@ -183,4 +183,52 @@ describe('browser: the model library', () => {
     expect(v.rows[0].status).toBe('approved')
     await page.close()
   }, 120_000)
+
+  it('answers a publish on an outdated base with the newer version, and publishes on top of it after review', async () => {
+    const id = Number(/\/library\/(\d+)$/.exec(modelUrl)![1])
+    const page = await rig.newPage()
+    await rig.signIn(page, demo.modeler)
+    await page.waitForURL(/\/w\/tinmoor\/library/)
+    await page.goto(modelUrl)
+    await page.locator('.monaco-editor .view-lines').waitFor()
+    await poll(() => page.locator('[data-test="editor-status"]').textContent()).toMatch(/Editing from version 2/)
+
+    // the modeler changes the feed delay from 20 s to 25 s …
+    const v2 = (await rig.context.database.pool.query('select text from model_versions where model_id = $1 and number = 2', [id])).rows[0].text as string
+    const lines = v2.split('\n')
+    const tauLine = lines.findIndex((l) => /^param\s+tau\s*=/.test(l)) + 1
+    await page.locator('.monaco-editor .view-lines').click()
+    await goToLine(page, tauLine)
+    for (let i = 0; i < lines[tauLine - 1].indexOf('20'); i++) await page.keyboard.press('ArrowRight')
+    await page.keyboard.press('Shift+ArrowRight')
+    await page.keyboard.press('Shift+ArrowRight')
+    await page.keyboard.type('25')
+    await poll(() => page.locator('.sheet-summary').textContent()).toMatch(/tau\s*25/)
+
+    // … while an admin publishes version 3 from another browser
+    const admin = await rig.newPage()
+    await rig.signIn(admin, demo.admin)
+    await admin.waitForURL(/\/w\/tinmoor\/library/)
+    const status = await admin.evaluate(async ([url, text]) => {
+      const r = await fetch(url, { method: 'POST', headers: { 'Content-Type': 'application/json', 'X-Requested-With': 'pewter' }, body: JSON.stringify({ text, note: 'Admin: larger vessel cross-section (invented)', baseVersion: 2 }) })
+      return r.status
+    }, [`/api/workspaces/tinmoor/models/${id}/versions`, v2.replace(/param\s+A\s+=\s+1\.2/, (m) => m.replace('1.2', '1.5'))] as const)
+    expect(status).toBe(201)
+    await admin.close()
+
+    await page.locator('[data-test="publish"]').click()
+    await page.locator('textarea[data-test="publish-note"]').fill('Feed delay 25 s after the pipe re-routing (invented)')
+    await page.locator('[data-test="publish-confirm"]').click()
+    // 409: the dialog names the newer version and shows it beside the modeler's text
+    await poll(() => page.locator('.el-dialog:visible').textContent()).toMatch(/Version 3 by Ada Tinmoor \(admin\).*larger vessel cross-section/s)
+    await page.locator('.el-dialog:visible .monaco-diff-editor').waitFor()
+    await page.locator('.el-dialog:visible').getByRole('button', { name: 'Publish on top of version 3' }).click()
+    await poll(() => page.getByText('Version 4 published.').count()).toBeGreaterThan(0)
+
+    const rows = (await rig.context.database.pool.query('select number, note, text from model_versions where model_id = $1 order by number', [id])).rows
+    expect(rows.map((r) => r.number)).toEqual([1, 2, 3, 4])
+    expect(rows[2].note).toBe('Admin: larger vessel cross-section (invented)')
+    expect(rows[3].text).toMatch(/param\s+tau\s+=\s+25\s/)
+    await page.close()
+  }, 180_000)
 })
