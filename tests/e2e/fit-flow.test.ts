@@ -90,11 +90,11 @@ it('goes from a CSV to a judged, exported fit in the browser', { timeout: 600_00
   await expect(page.getByTestId('metrics-table').textContent()).resolves.toMatch(/validation/)
   // the plots are drawn: measured vs simulated (4), residuals, autocorrelation, correlation, landscape
   try {
-    await page.waitForFunction(() => document.querySelectorAll('[data-testid="plot"] .main-svg').length >= 8, null, { timeout: 150_000 })
-    await page.waitForFunction(() => !!document.querySelector('[aria-label="cost landscape contour"] .contourlayer'), null, { timeout: 150_000 })
+    await expect.poll(() => page.locator('[data-testid="plot"] .main-svg').count(), { timeout: 150_000, interval: 500 }).toBeGreaterThanOrEqual(8)
+    await page.locator('[aria-label="cost landscape contour"] .contourlayer').first().waitFor({ state: 'attached', timeout: 150_000 })
   } catch (e) {
     await rig.screenshot(page, 'fit-flow-failed-results')
-    throw new Error(`plots not drawn (${await page.evaluate(() => document.querySelectorAll('[data-testid="plot"] .main-svg').length)} svg): ${String(e)} ${errors.join(' | ')}`)
+    throw new Error(`plots not drawn (${await page.locator('[data-testid="plot"] .main-svg').count()} svg): ${String(e)} ${errors.join(' | ')}`)
   }
   await rig.screenshot(page, 'fit-flow-4-results')
 
@@ -113,7 +113,7 @@ it('goes from a CSV to a judged, exported fit in the browser', { timeout: 600_00
 
   // two runs side by side (here the same run twice: the page lays out any two)
   await page.goto(`${rig.baseUrl}/w/tinmoor/runs/compare?a=${rid}&b=${rid}`)
-  await page.waitForFunction(() => document.querySelectorAll('[data-testid="parameter-table"]').length === 2, null, { timeout: 30_000 })
+  await expect.poll(() => page.getByTestId('parameter-table').count(), { timeout: 30_000, interval: 300 }).toBe(2)
   await rig.screenshot(page, 'fit-flow-6-compare')
 
   // the dataset page: statistics, notes saying the data are invented, a plot per column
@@ -122,7 +122,7 @@ it('goes from a CSV to a judged, exported fit in the browser', { timeout: 600_00
   await page.waitForURL(/\/data\/\d+$/)
   await page.getByTestId('column-stats').getByText('degC').first().waitFor()
   await page.getByText(/Invented data \(synthetic\)/).first().waitFor()
-  await page.waitForFunction(() => document.querySelectorAll('[data-testid="plot"] .main-svg').length >= 6, null, { timeout: 150_000 })
+  await expect.poll(() => page.locator('[data-testid="plot"] .main-svg').count(), { timeout: 150_000, interval: 500 }).toBeGreaterThanOrEqual(6)
   await rig.screenshot(page, 'fit-flow-7-dataset')
   expect(errors).toEqual([])
 })

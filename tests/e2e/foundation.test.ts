@@ -15,7 +15,7 @@ describe('browser: the client shell', () => {
     await page.waitForURL(/\/w\/tinmoor\/library/)
     await expect.poll(() => page.getByRole('heading', { level: 1, name: 'Library' }).count()).toBeGreaterThan(0)
     // the application font is the bundled Fira Sans, not a remote one
-    const font = await page.evaluate(() => getComputedStyle(document.body).fontFamily)
+    const font = String(await page.evaluate('getComputedStyle(document.body).fontFamily'))
     expect(font).toMatch(/Fira Sans/)
     await rig.screenshot(page, 'foundation-library')
     await page.close()

@@ -1,0 +1,97 @@
+/**
+ * Browser: the Team page invites, the captured Mailbox shows the message, the invitation link creates
+ * the account; the password-reset pages work through the local fake SMTP; an API token is shown once.
+ * Screenshots go to test-artifacts/.
+ */
+import { afterAll, beforeAll, describe, expect, it } from 'vitest'
+import { desc, eq } from 'drizzle-orm'
+import { startBrowserRig, type BrowserRig } from '../helpers/browser'
+import { demo } from '../helpers/app'
+import { startFakeSmtp, type FakeSmtp } from '../../server/mail/fake-smtp'
+import { createMailer } from '../../server/mail/mailer'
+import { mailbox } from '../../server/db/schema'
+import { waitFor } from '../helpers/jobs'
+
+let rig: BrowserRig
+let smtp: FakeSmtp
+beforeAll(async () => {
+  rig = await startBrowserRig('e2e_team')
+  smtp = await startFakeSmtp({ databaseUrl: rig.context.config.databaseUrl, port: 0 })
+  rig.context.services.mailer = createMailer({ ...rig.context.config, smtpUrl: smtp.url })
+})
+afterAll(async () => { await rig?.close(); await smtp?.close() })
+
+const mailTo = (to: string) => waitFor(`mail to ${to}`, async () => {
+  const [m] = await rig.context.db.select().from(mailbox).where(eq(mailbox.to, to)).orderBy(desc(mailbox.id)).limit(1)
+  return m ?? null
+}, 15_000)
+
+describe('browser: team administration and mail', () => {
+  it('admin invites from the Team page, reads the message in the Mailbox, the invitee follows the link and joins', async () => {
+    const page = await rig.newPage()
+    await rig.signIn(page, demo.admin)
+    await page.waitForURL(/\/w\/tinmoor\//)
+    await page.goto(`${rig.baseUrl}/w/tinmoor/team`)
+    await expect.poll(() => page.locator('[data-test="members"]').getByText(demo.modeler).count()).toBeGreaterThan(0)
+    await page.locator('input[name="invite-email"]').fill('browser.hire@example.org')
+    await page.getByRole('button', { name: 'Send invitation' }).click()
+    await expect.poll(() => page.locator('[data-test="invitations"]').getByText('browser.hire@example.org').count()).toBeGreaterThan(0)
+    await rig.screenshot(page, 'team-page')
+
+    await page.getByRole('button', { name: 'Captured mailbox' }).click()
+    await page.waitForURL(/\/w\/tinmoor\/mailbox/)
+    await expect.poll(() => page.getByText(/You are invited to Tinmoor Works/).count()).toBeGreaterThan(0)
+    const link = await page.locator('[data-test="mail"] a').first().getAttribute('href')
+    expect(link).toMatch(new RegExp(`^${rig.baseUrl}/invitations/pwi_`))
+    await rig.screenshot(page, 'mailbox-page')
+    await page.close()
+
+    const invitee = await rig.newPage()
+    await invitee.goto(link!)
+    await expect.poll(() => invitee.getByText(/as/).filter({ hasText: 'browser.hire@example.org' }).count()).toBeGreaterThan(0)
+    await invitee.getByLabel('Your name').fill('Browser Hire')
+    await invitee.getByLabel(/Choose a password/).fill('long-enough-11')
+    await rig.screenshot(invitee, 'accept-invitation')
+    await invitee.getByRole('button', { name: 'Create the account and join' }).click()
+    await invitee.waitForURL(/\/w\/tinmoor\/library/)
+    await invitee.close()
+  })
+
+  it('forgot password → e-mail → reset page → sign in with the new password', async () => {
+    const page = await rig.newPage()
+    await page.goto(`${rig.baseUrl}/signin`)
+    await page.getByRole('link', { name: 'Forgot your password?' }).click()
+    await page.waitForURL(/\/forgot-password/)
+    await page.getByLabel('E-mail').fill(demo.reviewer)
+    await page.getByRole('button', { name: 'Send the link' }).click()
+    await expect.poll(() => page.getByText(/a message with a reset link is on its way/).count()).toBeGreaterThan(0)
+    const mail = await mailTo(demo.reviewer)
+    const link = /http\S+reset-password\/\S+/.exec(mail.text)![0]
+    await page.goto(link)
+    await page.getByLabel(/New password/).fill('renewed-password-5')
+    await page.getByLabel('The same again').fill('renewed-password-5')
+    await page.getByRole('button', { name: 'Change the password' }).click()
+    await expect.poll(() => page.getByText(/Your password has been changed/).count()).toBeGreaterThan(0)
+    await rig.screenshot(page, 'reset-password-done')
+    await rig.signIn(page, demo.reviewer, 'renewed-password-5')
+    await page.waitForURL(/\/w\/tinmoor\/library/)
+    await page.close()
+  })
+
+  it('a modeler creates an API token on the Team page; it is shown once', async () => {
+    const page = await rig.newPage()
+    await rig.signIn(page, demo.modeler)
+    await page.waitForURL(/\/w\/tinmoor\//)
+    await page.goto(`${rig.baseUrl}/w/tinmoor/team`)
+    await page.locator('input[name="token-name"]').fill('laptop CLI')
+    await page.getByRole('button', { name: 'Create token' }).click()
+    const token = await page.locator('[data-test="new-token"]').textContent()
+    expect(token).toMatch(/^pwt_/)
+    await expect.poll(() => page.locator('[data-test="tokens"]').getByText('laptop CLI').count()).toBeGreaterThan(0)
+    expect(await page.locator('[data-test="tokens"]').getByText(token!).count()).toBe(0)
+    // the modeler sees no admin sections
+    expect(await page.getByRole('button', { name: 'Send invitation' }).count()).toBe(0)
+    await rig.screenshot(page, 'team-tokens')
+    await page.close()
+  })
+})
