@@ -3,7 +3,7 @@ import { ctx } from '../context'
 import { requireCapability } from '../middleware/auth'
 import { intParam, parse } from '../middleware/validate'
 import * as projects from '../services/projects'
-import { createProjectBody } from '../../shared/api/projects'
+import { createProjectBody, updateProjectBody } from '../../shared/api/projects'
 
 export function projectRoutes() {
   const router = Router({ mergeParams: true })
@@ -17,6 +17,10 @@ export function projectRoutes() {
   router.get('/:pid', requireCapability('read'), async (req, res) => {
     const pid = intParam(req.params, 'pid')
     res.json(await projects.getProject(ctx(req).db, req.workspace!.id, pid))
+  })
+  router.patch('/:pid', requireCapability('write'), async (req, res) => {
+    const pid = intParam(req.params, 'pid')
+    res.json(await projects.updateProject(ctx(req).db, req.workspace!.id, pid, parse(updateProjectBody, req.body)))
   })
   return router
 }

@@ -9,7 +9,7 @@ export type AuditAction =
   | 'member.invitation_revoked' | 'auth.password_reset_requested'
   | 'model.created' | 'model.published' | 'model.approved' | 'model.forked' | 'model.deleted'
   | 'token.created' | 'token.revoked'
-  | 'run.started' | 'run.cancelled' | 'run.lost'
+  | 'run.started' | 'run.cancelled'
 
 export async function audit(db: Db, entry: { workspaceId?: number | null; actorId?: number | null; action: AuditAction; target?: string; details?: unknown; ip?: string }) {
   await db.insert(auditLog).values({

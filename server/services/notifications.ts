@@ -7,6 +7,7 @@ import type { Db } from '../db/client'
 import type { Mailer } from '../mail/mailer'
 import { modelMaintainers, models, projects, runs, users, workspaces } from '../db/schema'
 import { fitSettledMail, modelForkedMail } from '../mail/templates'
+import { createMailer } from '../mail/mailer'
 
 export interface NotifyEnv { db: Db; mailer: Mailer; publicUrl: string }
 
@@ -52,4 +53,14 @@ export async function notifyForked(env: NotifyEnv, o: { sourceModelId: number; f
     if (ok) sent++
   }
   return sent
+}
+
+/** The environment for the functions above from an app context: `notifyForked(notifyEnvOf(ctx(req)), {...})`. */
+export function notifyEnvOf(context: { db: Db; config: { publicUrl: string; smtpUrl: string | null; mailFrom: string; fakeSmtpPort: number }; services: Record<string, unknown> }): NotifyEnv {
+  let mailer = context.services.mailer as Mailer | undefined
+  if (!mailer) {
+    mailer = createMailer(context.config)
+    context.services.mailer = mailer
+  }
+  return { db: context.db, mailer, publicUrl: context.config.publicUrl }
 }

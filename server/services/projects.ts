@@ -2,7 +2,7 @@ import { and, desc, eq } from 'drizzle-orm'
 import type { Db } from '../db/client'
 import { projects } from '../db/schema'
 import { notFound } from '../errors'
-import type { CreateProjectBody, ProjectDto } from '../../shared/api/projects'
+import type { CreateProjectBody, ProjectDto, UpdateProjectBody } from '../../shared/api/projects'
 
 const toDto = (p: typeof projects.$inferSelect): ProjectDto => ({
   id: p.id, name: p.name, description: p.description, createdAt: p.createdAt.toISOString(), createdBy: p.createdBy,
@@ -27,4 +27,12 @@ export async function getProjectRow(db: Db, workspaceId: number, projectId: numb
 
 export async function getProject(db: Db, workspaceId: number, projectId: number) {
   return toDto(await getProjectRow(db, workspaceId, projectId))
+}
+
+export async function updateProject(db: Db, workspaceId: number, projectId: number, body: UpdateProjectBody) {
+  const p = await getProjectRow(db, workspaceId, projectId)
+  if (body.name === undefined && body.description === undefined) return toDto(p)
+  const [u] = await db.update(projects).set({ ...(body.name !== undefined ? { name: body.name } : {}), ...(body.description !== undefined ? { description: body.description } : {}) })
+    .where(eq(projects.id, p.id)).returning()
+  return toDto(u)
 }

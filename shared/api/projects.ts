@@ -8,6 +8,12 @@ export const createProjectBody = z.object({
 })
 export type CreateProjectBody = z.infer<typeof createProjectBody>
 
+export const updateProjectBody = z.object({
+  name: z.string().trim().min(1, 'a project needs a name').max(120).optional(),
+  description: z.string().max(4000).optional(),
+})
+export type UpdateProjectBody = z.infer<typeof updateProjectBody>
+
 export const projectDto = z.object({
   id: z.number(),
   name: z.string(),

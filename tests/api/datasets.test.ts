@@ -155,6 +155,14 @@ describe('bad uploads are refused with what and where', () => {
 })
 
 describe('roles and workspaces', () => {
+  it('renames a project (modeler) but not as a viewer', async () => {
+    const r = await modeler.patch(`${WS}/projects/${pid}`).set(CSRF).send({ description: 'traces for the dataset tests' })
+    expect(r.status).toBe(200)
+    expect(r.body.description).toBe('traces for the dataset tests')
+    expect(r.body.name).toBe('Dataset tests')
+    expect((await viewer.patch(`${WS}/projects/${pid}`).set(CSRF).send({ name: 'x' })).status).toBe(403)
+  })
+
   it('a viewer may read but not upload (403)', async () => {
     const r = await upload(viewer, pid, GOOD)
     expect(r.status).toBe(403)

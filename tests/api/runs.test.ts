@@ -139,7 +139,7 @@ describe('a fit from upload to result', () => {
   })
 
   it('streams live progress over server-sent events until the run ends', async () => {
-    const r = await modeler.post(`${WS}/projects/${pid}/runs`).set(CSRF).send({ ...baseRun(), starts: 2 })
+    const r = await modeler.post(`${WS}/projects/${pid}/runs`).set(CSRF).send({ ...baseRun(), seed: 6 })
     expect(r.status).toBe(201)
     const sse = await viewer.get(`${WS}/runs/${r.body.id}/events`).buffer(true).parse((res, cb) => {
       let text = ''
@@ -154,7 +154,11 @@ describe('a fit from upload to result', () => {
     })
     const progress = events.filter((e) => e.event === 'progress')
     expect(progress.length).toBeGreaterThan(1)
-    expect(progress.some((e) => e.data.status === 'running' && e.data.progress?.iteration >= 1)).toBe(true)
+    expect(progress.some((e) => e.data.status === 'running' && e.data.progress)).toBe(true)
+    const last = progress[progress.length - 1].data
+    expect(last.status).toBe('succeeded')
+    expect(last.progress.iteration).toBeGreaterThanOrEqual(1)
+    expect(last.progress.fraction).toBe(1)
     expect(events[events.length - 1]).toEqual({ event: 'end', data: { status: 'succeeded', error: null } })
   })
 
@@ -177,7 +181,8 @@ describe('cancel', () => {
     const rid = r.body.id
     for (;;) {
       const s = (await modeler.get(`${WS}/runs/${rid}`)).body
-      if (s.status === 'running' && s.progress?.iteration >= 1) break
+      // under way: an iteration reported, or (multi-start fits fanned out over threads) a start done
+      if (s.status === 'running' && (s.progress?.iteration >= 1 || s.progress?.start >= 1)) break
       expect(['queued', 'running']).toContain(s.status)
       await new Promise((res) => setTimeout(res, 50))
     }
