@@ -6,6 +6,7 @@ import { ctx } from '../context'
 import { requireCapability } from '../middleware/auth'
 import { intParam, parse } from '../middleware/validate'
 import * as library from '../services/models'
+import { notifyEnvOf, notifyForked } from '../services/notifications'
 import {
   createModelBody, diffQuery, forkBody, listModelsQuery, publishBody, saveDraftBody, setMaintainersBody, updateModelBody,
 } from '../../shared/api/models'
@@ -64,7 +65,11 @@ export function modelRoutes() {
 
   router.post('/:id/fork', requireCapability('write'), async (req, res) => {
     const id = intParam(req.params, 'id')
-    res.status(201).json(await library.forkModel(ctx(req).db, actor(req), id, parse(forkBody, req.body)))
+    const fork = await library.forkModel(ctx(req).db, actor(req), id, parse(forkBody, req.body))
+    // "your model was forked" to the origin's owner and maintainers; a mail failure never undoes the fork
+    await notifyForked(notifyEnvOf(ctx(req)), { sourceModelId: id, forkModelId: fork.id, forkedBy: req.auth!.userId })
+      .catch((err) => console.error(`[pewter] fork notification failed: ${err instanceof Error ? err.message : err}`))
+    res.status(201).json(fork)
   })
   router.get('/:id/diff', requireCapability('read'), async (req, res) => {
     const id = intParam(req.params, 'id')

@@ -54,8 +54,11 @@ export function columnStats(v: (number | null)[]): ColumnStats {
   return { count, missing: v.length - count, min, max, mean, std: count > 1 ? Math.sqrt(ss / (count - 1)) : 0 }
 }
 
-/** Sample spacing warnings: a gap more than 5× the median step (common practice, no source). */
-export function gapWarnings(time: number[]): DatasetWarning[] {
+/**
+ * Sample spacing warnings: a gap more than 5× the median step (common practice, no source). `rows`: the
+ * file row of each sample (uploads); without it the sample number is given.
+ */
+export function gapWarnings(time: number[], rows?: number[]): DatasetWarning[] {
   if (time.length < 3) return []
   const d = time.slice(1).map((t, i) => t - time[i]).sort((a, b) => a - b)
   const med = d[d.length >> 1]
@@ -63,7 +66,7 @@ export function gapWarnings(time: number[]): DatasetWarning[] {
   for (let k = 1; k < time.length; k++) {
     const dt = time[k] - time[k - 1]
     if (med > 0 && dt > 5 * med) {
-      if (out.length < 20) out.push({ row: k + 1, column: 'time', message: `gap of ${fmt(dt)} s between ${fmt(time[k - 1])} s and ${fmt(time[k])} s (the usual step is ${fmt(med)} s)` })
+      if (out.length < 20) out.push({ row: rows ? rows[k] : k + 1, column: 'time', message: `gap of ${fmt(dt)} s between ${fmt(time[k - 1])} s and ${fmt(time[k])} s (the usual step is ${fmt(med)} s)` })
       else { out.push({ message: 'more gaps not listed' }); break }
     }
   }
@@ -113,7 +116,7 @@ export async function uploadDataset(
   const decoded = decodeUpload(file.buffer, filename)
   const parsed = readTraceCsv(decoded.text, { filename, lineOffset: decoded.skippedLines, maxRows: opts.maxRows ?? DEFAULT_MAX_ROWS })
   const columns: ColumnMeta[] = parsed.columns.map((c) => ({ name: c.name, header: c.header, unit: c.unit, stats: columnStats(c.values) }))
-  const warnings: DatasetWarning[] = [...parsed.warnings, ...gapWarnings(parsed.time)]
+  const warnings: DatasetWarning[] = [...parsed.warnings, ...gapWarnings(parsed.time, parsed.rows)]
   for (const c of columns) if (c.stats.missing > 0 && c.stats.count > 0) warnings.push({ column: c.name, message: `${c.stats.missing} empty cell(s) in column '${c.name}': the fit skips them` })
   const data: StoredData = { time: parsed.time, columns: Object.fromEntries(parsed.columns.map((c) => [c.name, c.values])) }
   const stored: StoredColumns = { time: parsed.timeMeta, columns, notes: decoded.notes }

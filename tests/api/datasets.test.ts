@@ -94,7 +94,8 @@ describe('upload', () => {
     expect(r.status).toBe(201)
     const gap = r.body.warnings.find((w: { message: string }) => /gap/.test(w.message))
     expect(gap).toBeTruthy()
-    expect(gap.row).toBe(11)
+    // the file row of the first sample after the gap (header = row 1)
+    expect(gap.row).toBe(12)
     expect(gap.message).toContain('between 9 s and 50 s')
   })
 })
@@ -103,18 +104,18 @@ describe('bad uploads are refused with what and where', () => {
   const bad: [string, string | Buffer, RegExp, { row?: number; column?: string }?][] = [
     ['an empty file', '', /empty/],
     ['a header without data', 't,y\n', /no data rows/],
-    ['a single column (no signal besides time)', 't\n0\n1\n', /at least one signal column/],
-    ['a time column that is text', 'name,y\nabc,1\ndef,2\n', /'abc' is not a number/, { row: 2, column: 'name' }],
-    ['non-increasing time', 't,y\n0,1\n2,2\n1,3\n', /not after the row before/, { row: 4, column: 't' }],
+    ['a single column (no signal besides time)', 't\n0\n1\n', /no data columns/],
+    ['no time column (the first column is text)', 'name,y\nabc,1\ndef,2\n', /no time column/, { row: 2, column: 'name' }],
+    ['non-increasing time', 't,y\n0,1\n2,2\n1,3\n', /time is not increasing/, { row: 4, column: 't' }],
     ['duplicate time', 't,y\n0,1\n1,2\n1,3\n', /duplicate time/, { row: 4, column: 't' }],
     ['an empty time cell', 't,y\n0,1\n,2\n', /time cell is empty/, { row: 3, column: 't' }],
     ['text in a numeric column', 't,y,z\n0,1,2\n1,2,oops\n', /'oops' is not a number/, { row: 3, column: 'z' }],
-    ['a ragged row', 't,y,z\n0,1,2\n1,2\n', /ragged row/, { row: 3 }],
-    ['duplicate headers', 't,level,Level\n0,1,2\n1,2,3\n', /duplicate header 'Level'/, { row: 1, column: 'Level' }],
+    ['a ragged row', 't,y,z\n0,1,2\n1,2\n', /the row has 2 field\(s\), the header has 3/, { row: 3 }],
+    ['duplicate headers', 't,level,Level\n0,1,2\n1,2,3\n', /column 'Level': duplicate column name \(columns 2 and 3\)/, { row: 1, column: 'Level' }],
     ['an empty header', 't,,z\n0,1,2\n', /no name/, { row: 1 }],
-    ['an all-NaN column', 't,y,z\n0,1,NaN\n1,2,\n', /column 'z' has no numeric value/, { column: 'z' }],
+    ['an all-NaN column', 't,y,z\n0,1,NaN\n1,2,\n', /column 'z': the column has no numeric value/, { column: 'z' }],
     ['an unknown unit', 't,level [furlongs]\n0,1\n', /unit 'furlongs'/, { row: 1, column: 'level' }],
-    ['a time unit that is not time', 't [m],y\n0,1\n', /not a unit of time/, { column: 't' }],
+    ['a time unit that is not time', 't [m],y\n0,1\n', /'m' is not a unit of time/, { row: 1 }],
     ['UTF-16', Buffer.concat([Buffer.from([0xff, 0xfe]), Buffer.from('t,y\n0,1\n', 'utf16le')]), /UTF-16/],
     ['Latin-1 bytes', Buffer.concat([Buffer.from('t,temp\n0,1\n1,2 '), Buffer.from([0xb0]), Buffer.from('C\n')]), /line 3, column 5: byte 0xB0 is not valid UTF-8/],
     ['a binary file', Buffer.from([0x50, 0x4b, 0x03, 0x04, 0x00, 0x00, 0x08]), /NUL byte/],
@@ -132,12 +133,18 @@ describe('bad uploads are refused with what and where', () => {
     })
   }
 
+  it('counts rows in the uploaded file, comment lines included', async () => {
+    const r = await upload(modeler, pid, '# invented example\n# second note\nt,y\n0,1\n1,x\n', 'bad.csv')
+    expect(r.status).toBe(400)
+    expect(r.body.error.message).toBe("bad.csv, row 5, column 'y': 'x' is not a number")
+  })
+
   it('refuses too many rows, naming the limit and the row', async () => {
     const rows = ['t,y']
     for (let k = 0; k < 1005; k++) rows.push(`${k},${k % 7}`)
     const r = await upload(modeler, pid, rows.join('\n'), 'long.csv')
     expect(r.status).toBe(400)
-    expect(r.body.error.message).toMatch(/too many rows: at most 1000 data rows/)
+    expect(r.body.error.message).toMatch(/too many rows: the limit is 1000 data rows/)
     expect(r.body.error.details[0].row).toBe(1002)
   })
 

@@ -193,6 +193,19 @@ describe('work notifications', () => {
     const self = await notifyForked({ db: t.context.db, mailer: t.context.services.mailer as Mailer, publicUrl: t.context.config.publicUrl }, { sourceModelId: fx.model.id, forkModelId: fork.id, forkedBy: fx.user.id })
     expect(self).toBe(0)
   })
+
+  it('forking through the API mails the origin owner', async () => {
+    const modeler = await signedIn(t.app, demo.modeler)
+    const list = await modeler.get('/api/workspaces/tinmoor/models?q=buffer&tag=template')
+    expect(list.status).toBe(200)
+    const origin = list.body.items[0]
+    const after = await lastMailId(t.context.db)
+    const r = await modeler.post(`/api/workspaces/tinmoor/models/${origin.id}/fork`).set(CSRF).send({ title: 'Buffer vessel, line 2 variant' })
+    expect(r.status).toBe(201)
+    // the shipped templates belong to the demo admin
+    const mail = await waitForMail(t.context.db, demo.admin, { after, subject: /was forked/ })
+    expect(mail.text).toContain('Moss Calder')
+  })
 })
 
 describe('captured mailbox', () => {
