@@ -60,7 +60,8 @@ export function simulateDiscrete(
         for (let i = 0; i < nx; i++) {
           let acc = sj.param >= 0 ? Fp[i * np + sj.param] : 0
           for (let q = 0; q < nx; q++) acc += J[i * nx + q] * z[off + q]
-          for (const slot of sj.delaySlots) acc -= (Fu[i * nuu + slot] * du[slot]) / spt
+          const slots = sj.delaySlots
+          for (let q = 0; q < slots.length; q++) acc -= (Fu[i * nuu + slots[q]] * du[slots[q]]) / spt
           zn[off + i] = acc
         }
       }

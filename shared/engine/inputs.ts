@@ -168,6 +168,11 @@ export class InputSet {
     }
   }
 
+  /** slot k reads a measured trace (not the sheet's constant value) */
+  hasTrace(k: number): boolean {
+    return this.slots[k].trace !== null
+  }
+
   /** slot k is a hold trace (piecewise constant) */
   isHoldTrace(k: number): boolean {
     const s = this.slots[k]

@@ -43,6 +43,9 @@ interface Workspace {
   fa: Float64Array
   fb: Float64Array
   umod: Float64Array
+  /** input slopes left and right of a breakpoint */
+  sl: Float64Array
+  sr: Float64Array
 }
 
 const cache = new WeakMap<CompiledModel, Map<string, Workspace>>()
@@ -73,6 +76,8 @@ function workspace(model: CompiledModel, sens: SensSpec[]): Workspace {
       fa: new Float64Array(model.nx),
       fb: new Float64Array(model.nx),
       umod: new Float64Array(Math.max(1, nuu)),
+      sl: new Float64Array(Math.max(1, nuu)),
+      sr: new Float64Array(Math.max(1, nuu)),
     }
     if (m.size > 16) m.clear()
     m.set(key, ws)
@@ -211,7 +216,9 @@ export function simulate(model: CompiledModel, req: SimulationRequest): Simulati
   let iOut = 0
   // outputs at t0
   while (iOut < nt && tOut[iOut] <= t0) writeOut(model, ws, inputs, z0, iOut++, tOut[iOut - 1], res)
-  if (iOut < nt) {
+  // a cached solver keeps the state of its last run: report its switch only when it ran now
+  const ran = iOut < nt
+  if (ran) {
     solver.start(sys, tol, limits, t0, z0, 0)
     const bps = inputs.breakpoints(t0, tEnd)
     const zd = ws.zd
@@ -227,19 +234,33 @@ export function simulate(model: CompiledModel, req: SimulationRequest): Simulati
       }
     }
     const tauHold = sens.some((s) => s.delaySlots.some((slot) => inputs.isHoldTrace(slot)))
-    // at a breakpoint the right-hand side jumps only where a hold trace changes value: then the
-    // solver refreshes its carried-over derivative (one extra evaluation), otherwise it just goes on
+    // a delay parameter's sensitivity equations contain the delayed input's slope, which jumps at
+    // every sample of a linear trace (a kink of u is a jump of u')
+    const tauSlope = sens.some((s) => s.delaySlots.some((slot) => inputs.hasTrace(slot) && !inputs.isHoldTrace(slot)))
+    // at a breakpoint the right-hand side jumps only where a hold trace changes value (or, with
+    // delay sensitivities, where a delayed slope changes): then the solver refreshes its
+    // carried-over derivative (one extra evaluation), otherwise it just goes on
     const checkJumps = tauHold || inputs.hasHold
     const nSlots = inputs.nSlots
     let a = t0
     for (let k = 0; k <= bps.length; k++) {
       const b = k < bps.length ? bps[k] : tEnd
       if (k > 0 && checkJumps) inputs.eval(a, ws.uo) // left limit at the breakpoint
+      if (k > 0 && tauSlope) inputs.slope(ws.sl)
       inputs.setSegment(0.5 * (a + b))
-      if (k > 0 && checkJumps) {
-        inputs.eval(a, ws.duo)
+      if (k > 0 && (checkJumps || tauSlope)) {
         let jump = false
-        for (let i = 0; i < nSlots; i++) if (ws.uo[i] !== ws.duo[i]) jump = true
+        if (checkJumps) {
+          inputs.eval(a, ws.duo)
+          for (let i = 0; i < nSlots; i++) if (ws.uo[i] !== ws.duo[i]) jump = true
+        }
+        if (tauSlope && !jump) {
+          inputs.slope(ws.sr)
+          for (let j = 0; j < ns && !jump; j++) {
+            const slots = sens[j].delaySlots
+            for (let q = 0; q < slots.length; q++) if (ws.sl[slots[q]] !== ws.sr[slots[q]]) jump = true
+          }
+        }
         if (jump) {
           if (tauHold) tauJumps(model, ws, inputs, solver.z, a)
           solver.breakpoint()
@@ -256,8 +277,8 @@ export function simulate(model: CompiledModel, req: SimulationRequest): Simulati
     res.stats.luDecomps = c.luDecomps
   }
   if (solver instanceof AutoSolver) {
-    res.stats.switched = solver.switched
-    res.stats.method = solver.switched ? `auto (rk45, switched to stiff at t = ${fmt(solver.switchedAt ?? 0)})` : 'auto (rk45)'
+    res.stats.switched = ran && solver.switched
+    res.stats.method = res.stats.switched ? `auto (rk45, switched to stiff at t = ${fmt(solver.switchedAt ?? 0)})` : 'auto (rk45)'
   } else res.stats.method = solver.name
   res.stats.elapsedMs = now() - start
   return res

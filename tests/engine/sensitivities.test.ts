@@ -136,6 +136,16 @@ describe('forward sensitivities', () => {
         expect(Math.abs(r.dx![k] - dx), `${solver} dx/dtau t=${tOut[k]}`).toBeLessThan(1e-9)
       }
     }
+    // The slope u'(t − d) in the ∂x/∂tau equation jumps at each sample + d: the solver must refresh
+    // its carried-over derivative there. A stale one shows as an error far above the tolerance
+    // (∂x/∂tau·|tau| is controlled like x: about 1e-6/18 here) and as many rejected steps.
+    for (const solver of ['rk45', 'stiff'] as const) {
+      const r = simulate(m, { tOut, inputs, solver, rtol: 1e-6, atol: 1e-8, sensitivities: { params: [0], initialStates: [] } })
+      let err = 0
+      for (let k = 0; k < tOut.length; k++) err = Math.max(err, Math.abs(r.dx![k] - exact(tOut[k])[1]))
+      expect(err, `${solver} max |∂x/∂tau error| at rtol 1e-6`).toBeLessThan(5e-8)
+      expect(r.stats.rejected, solver).toBeLessThan(10)
+    }
   })
 
   it('a delayed held step: ∂x/∂tau from the moving jump matches the closed form', () => {

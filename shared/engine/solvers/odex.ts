@@ -89,6 +89,12 @@ export class OdexSolver implements OdeSolver {
     // the package copies the returned array at once, so one array serves every call
     const ret: number[] = new Array<number>(n).fill(0)
     const f = (x: number, y: number[]): number[] => {
+      // the package checks nothing between evaluations: abort and time budget are checked here
+      // too, so a long run of rejected steps cannot outlast them
+      if ((counters.rhsEvals & 63) === 0) {
+        if (limits.signal !== null && limits.signal.aborted) throw new AbortedError(x)
+        if (limits.deadline !== Infinity && now() > limits.deadline) throw new TimeBudgetError(limits.budgetMs, x)
+      }
       for (let i = 0; i < n; i++) zin[i] = y[i]
       sys.f(x, zin, dz)
       counters.rhsEvals++
