@@ -1,5 +1,5 @@
 import { Router } from 'express'
-import { rateLimit } from 'express-rate-limit'
+import { authAttemptLimiter } from '../middleware/rate-limit'
 import { eq } from 'drizzle-orm'
 import { ctx } from '../context'
 import { requireUser } from '../middleware/auth'
@@ -7,21 +7,12 @@ import { parse } from '../middleware/validate'
 import { requestPasswordReset, resetPassword } from '../services/password-reset'
 import { audit } from '../services/audit'
 import { users } from '../db/schema'
-import { errorCodes } from '../../shared/api/errors'
 import { passwordResetBody, passwordResetRequestBody, settingsBody } from '../../shared/api/team'
 
 /** /api/auth/password-reset… and /api/auth/settings (mounted beside the sign-in routes). */
 export function accountRoutes(limitPerWindow: number) {
   const router = Router()
-  const limiter = rateLimit({
-    windowMs: 15 * 60 * 1000,
-    limit: limitPerWindow,
-    standardHeaders: 'draft-8',
-    legacyHeaders: false,
-    handler: (_req, res) => {
-      res.status(429).json({ error: { code: errorCodes.rateLimited, message: 'Too many attempts. Wait a few minutes and try again.' } })
-    },
-  })
+  const limiter = authAttemptLimiter(limitPerWindow)
   router.post('/password-reset', limiter, async (req, res) => {
     const { email } = parse(passwordResetRequestBody, req.body)
     const context = ctx(req)

@@ -1,12 +1,11 @@
 import { Router } from 'express'
-import { rateLimit } from 'express-rate-limit'
+import { authAttemptLimiter } from '../middleware/rate-limit'
 import { ctx } from '../context'
 import { parse } from '../middleware/validate'
 import { requireUser } from '../middleware/auth'
 import * as auth from '../services/auth'
 import { audit } from '../services/audit'
 import { signinBody, signupBody, switchWorkspaceBody } from '../../shared/api/auth'
-import { errorCodes } from '../../shared/api/errors'
 
 function regenerate(req: Parameters<Parameters<Router['post']>[1]>[0]) {
   return new Promise<void>((resolve, reject) => req.session.regenerate((err) => (err ? reject(err) : resolve())))
@@ -14,15 +13,7 @@ function regenerate(req: Parameters<Parameters<Router['post']>[1]>[0]) {
 
 export function authRoutes(limitPerWindow: number) {
   const router = Router()
-  const limiter = rateLimit({
-    windowMs: 15 * 60 * 1000,
-    limit: limitPerWindow,
-    standardHeaders: 'draft-8',
-    legacyHeaders: false,
-    handler: (_req, res) => {
-      res.status(429).json({ error: { code: errorCodes.rateLimited, message: 'Too many attempts. Wait a few minutes and try again.' } })
-    },
-  })
+  const limiter = authAttemptLimiter(limitPerWindow)
 
   router.post('/signup', limiter, async (req, res) => {
     const body = parse(signupBody, req.body)
