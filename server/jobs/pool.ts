@@ -50,7 +50,7 @@ interface Active {
 export const newWorkerId = (kind: string) => `${kind}@${hostname()}:${process.pid}:${randomBytes(3).toString('hex')}`
 
 /** tsx's loader for the worker threads (already present when the process itself runs under tsx) */
-function threadExecArgv(): string[] {
+export function threadExecArgv(): string[] {
   if (process.execArgv.some((a) => a.includes('tsx'))) return process.execArgv
   const loader = pathToFileURL(createRequire(import.meta.url).resolve('tsx')).href
   return ['--import', loader]
@@ -98,6 +98,15 @@ export class RunPool {
       for (const id of ids) seen.add(id)
     }
     return [...seen].sort((a, b) => a - b)
+  }
+
+  /**
+   * Runs a named export of thread-task.ts (not a run: no claim, no heartbeat) on one of the pool's
+   * threads, e.g. a cost landscape. Queues behind the threads' current work; `signal` terminates it.
+   */
+  runHelperTask<T>(name: string, task: unknown, signal?: AbortSignal): Promise<T> {
+    if (this.closed) return Promise.reject(new Error('the worker pool is closed'))
+    return this.piscina.run(task, { name, ...(signal ? { signal } : {}) }) as Promise<T>
   }
 
   /** Executes a run when a thread is free; resolves once the run is final (or was not ours to run). */

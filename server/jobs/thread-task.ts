@@ -7,6 +7,7 @@
  * - default export: executes one run; the parent sends `{ abort: reason }` on the task's MessagePort
  *   to cancel it cooperatively. Its multi-start plans are shared with helper threads (fan-out.ts).
  * - `helper`: lends this thread to another run's multi-start fit, fitting plans until none is left.
+ * - `landscape`: the cost over a grid of two estimated quantities of a finished run (results page).
  */
 import { threadId, type MessagePort } from 'node:worker_threads'
 import { openDatabase, type Database } from '../db/client'
@@ -15,6 +16,8 @@ import { failedOutcome, threadRunStarts } from './fan-out'
 import { deadlineOf, fitPlan } from './start-fits'
 import { runs } from '../db/schema'
 import { eq } from 'drizzle-orm'
+import { computeLandscape, RunInputError } from '../services/fit-execution'
+import type { LandscapeResult } from '../../shared/api/fit'
 import type { StartOutcome, StartPlan } from '../../shared/engine/fit/driver'
 
 export interface RunTask {
@@ -24,6 +27,17 @@ export interface RunTask {
   executorUrl: string
   port: MessagePort
 }
+
+export interface LandscapeTask {
+  runId: number
+  databaseUrl: string
+  a: string
+  b: string
+  n: number
+}
+
+/** Errors cross the thread boundary as values: an input problem (→ 400) or another failure. */
+export type LandscapeOutcome = { ok: true; landscape: LandscapeResult } | { ok: false; input: boolean; message: string }
 
 export interface HelperTask {
   runId: number
@@ -103,6 +117,18 @@ export async function helper(task: HelperTask): Promise<{ fitted: number }> {
     return { fitted }
   } finally {
     task.port.close()
+  }
+}
+
+export async function landscape(task: LandscapeTask): Promise<LandscapeOutcome> {
+  const db = database(task.databaseUrl)
+  try {
+    const [row] = await db.db.select().from(runs).where(eq(runs.id, task.runId)).limit(1)
+    if (!row || row.status !== 'succeeded' || !row.result) return { ok: false, input: true, message: `Run ${task.runId} has no result` }
+    return { ok: true, landscape: await computeLandscape(db.db, row, task.a, task.b, task.n) }
+  } catch (e) {
+    const message = e instanceof Error ? e.message : String(e)
+    return { ok: false, input: e instanceof RunInputError || /landscape/.test(message), message }
   }
 }
 

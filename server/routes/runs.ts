@@ -14,7 +14,7 @@ import { intParam, parse } from '../middleware/validate'
 import type { JobRunner } from '../jobs/types'
 import * as runs from '../services/runs'
 import { exportCsv, exportJson } from '../services/reports'
-import { computeLandscape, RunInputError } from '../services/fit-execution'
+import { runLandscape, withoutLandscapeCache } from '../services/landscape'
 import { createRunBody, landscapeQuery, publishFromRunBody, saveParameterSetBody, terminalStatuses, type RunStatus } from '../../shared/api/runs'
 
 const jobs = (req: Request) => ctx(req).services.jobs as JobRunner | undefined
@@ -44,7 +44,7 @@ export function runRoutes() {
     res.json({ runs: await runs.listRuns(ctx(req).db, req.workspace!.id, q) })
   })
   router.get('/:rid', requireCapability('read'), async (req, res) => {
-    res.json(await runs.getRun(ctx(req).db, req.workspace!.id, intParam(req.params, 'rid')))
+    res.json(withoutLandscapeCache(await runs.getRun(ctx(req).db, req.workspace!.id, intParam(req.params, 'rid'))))
   })
 
   /** Live progress: polls the run row (so it works whichever process runs the fit) and ends with the run. */
@@ -88,7 +88,7 @@ export function runRoutes() {
   })
 
   router.post('/:rid/cancel', requireCapability('write'), async (req, res) => {
-    res.json(await runs.cancelRun(ctx(req).db, jobs(req), req.workspace!.id, intParam(req.params, 'rid')))
+    res.json(withoutLandscapeCache(await runs.cancelRun(ctx(req).db, jobs(req), req.workspace!.id, intParam(req.params, 'rid'))))
   })
   router.post('/:rid/rerun', requireCapability('write'), async (req, res) => {
     res.status(201).json(await runs.rerun(ctx(req).db, jobs(req), req.workspace!.id, intParam(req.params, 'rid'), req.auth!.userId))
@@ -96,7 +96,7 @@ export function runRoutes() {
   router.get('/:rid/export', requireCapability('read'), async (req, res) => {
     const { format } = parse(z.object({ format: z.enum(['csv', 'json']).default('json') }), req.query, 'query')
     const rid = intParam(req.params, 'rid')
-    const run = await runs.getRun(ctx(req).db, req.workspace!.id, rid)
+    const run = withoutLandscapeCache(await runs.getRun(ctx(req).db, req.workspace!.id, rid))
     if (format === 'csv') {
       const text = exportCsv(run)
       res.setHeader('Content-Type', 'text/csv; charset=utf-8')
@@ -112,12 +112,10 @@ export function runRoutes() {
     const q = parse(landscapeQuery, req.query, 'query')
     const row = await runs.getRunRow(ctx(req).db, req.workspace!.id, intParam(req.params, 'rid'))
     if (row.status !== 'succeeded') throw badRequest(`Run ${row.id} has no result (status ${row.status})`)
-    try {
-      res.json(await computeLandscape(ctx(req).db, row, q.a, q.b, q.n))
-    } catch (e) {
-      if (e instanceof RunInputError || (e instanceof Error && /landscape/.test(e.message))) throw badRequest(e.message)
-      throw e
-    }
+    // computed in a worker thread (never on this event loop), time-limited, cached on the run
+    const answer = await runLandscape(ctx(req), row, q.a, q.b, q.n)
+    res.setHeader('X-Pewter-Landscape', answer.cached ? 'cached' : 'computed')
+    res.json(answer.landscape)
   })
   router.post('/:rid/parameter-sets', requireCapability('write'), async (req, res) => {
     const body = parse(saveParameterSetBody, req.body)
