@@ -3,7 +3,8 @@
  *
  * - Method: K. Levenberg, Quart. Appl. Math. 2 (1944) 164–168; D. W. Marquardt, J. SIAM 11 (1963) 431–441;
  *   column scaling D = diag(max over iterations of ‖J_j‖) as in J. J. Moré, "The Levenberg–Marquardt
- *   algorithm: implementation and theory", Lecture Notes in Math. 630 (1978) 105–116, eq. (6.3).
+ *   algorithm: implementation and theory", in G. A. Watson (ed.), Numerical Analysis, Springer (1978)
+ *   105–116, eq. (6.3).
  * - Step: δ = −Σ_i σ_i/(σ_i² + λ)·(u_iᵀ r)·v_i from the SVD of the scaled Jacobian J·D⁻¹ = Q·(U S Vᵀ)
  *   (Householder QR, then one-sided Jacobi SVD of R; no normal equations, no explicit inverse of JᵀJ).
  * - Damping update: H. B. Nielsen, "Damping parameter in Marquardt's method", IMM-REP-1999-05, DTU, 1999,
