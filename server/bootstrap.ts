@@ -9,7 +9,6 @@ import { seedDemo } from './db/seed'
 import { attachServices } from './services/runtime'
 import { loadTemplates } from './services/templates'
 import { seedDemoProject } from './services/demo-project'
-import { createInlineRunner } from './jobs/inline-runner'
 
 export async function createContext(overrides: Partial<Config> = {}, opts: { seed?: boolean } = {}): Promise<AppContext> {
   const config = { ...loadConfig(), ...overrides }
@@ -24,7 +23,5 @@ export async function createContext(overrides: Partial<Config> = {}, opts: { see
     if (process.env.NODE_ENV !== 'test' || process.env.PEWTER_DEMO_PROJECT === '1') await seedDemoProject(database.db)
   }
   await attachServices(context)
-  // until the job system attaches its runner: fits run in this process, off the request path
-  if (!context.services.jobs) context.services.jobs = createInlineRunner(database.db)
   return context
 }

@@ -10,13 +10,12 @@ import { runFit, FitInputError, type FitOptions, type ProblemSpec, type Experime
 import { parseCsv, CsvError } from '../../shared/data/csv'
 import { experimentFromTable } from '../../shared/data/experiment'
 import type { FitResult, EstimateRow } from '../../shared/api/fit'
+import { ArgError, splitOption } from './args'
 
 const USAGE = `usage: pewter fit <sheet> <data.csv>… [--validate v.csv] [--method lm|nelder-mead] [--starts N]
   [--weighting sheet|equal|normalized|ml] [--set name=value …] [--fix a,b] [--free c,d] [--bounds c=lo:hi]
   [--local k] [--t0 t] [--rtol r] [--atol a] [--seed n] [--profile name] [--landscape a,b[,n]]
   [--equation-error compare|start] [--time-budget ms] [--solver auto|rk45|odex|stiff] [--max-iterations n] [--json]`
-
-class ArgError extends Error {}
 
 interface Args {
   sheet: string
@@ -52,8 +51,7 @@ export function parseArgs(argv: string[]): Args {
       pos.push(arg)
       continue
     }
-    const eq = arg.indexOf('=')
-    const [flag, inline] = eq > 0 ? [arg.slice(0, eq), arg.slice(eq + 1)] : [arg, undefined]
+    const { flag, inline } = splitOption(arg)
     if (flag === '--json') {
       a.json = true
       continue
@@ -201,18 +199,17 @@ export async function run(argv: string[]): Promise<number> {
     }
     const experiments = args.data.map((f) => load(f))
     const validation = args.validate.map((f) => load(f))
-    const toInternal = (name: string, v: number, flag: string): number => {
+    const toInternal = (name: string, v: number): number => {
       const sym = findSymbol(model, name)
       if (!sym) return v // the problem reports the unknown name with a suggestion
-      void flag
       return v * sym.scale + sym.offset
     }
     spec = {
       experiments, validation, weighting: args.weighting, t0: args.t0,
-      set: Object.fromEntries(args.set.map(([n, v]) => [n, toInternal(n, v, '--set')])),
+      set: Object.fromEntries(args.set.map(([n, v]) => [n, toInternal(n, v)])),
       bounds: Object.fromEntries(args.bounds.map(([n, lo, hi]) => {
-        const a = toInternal(n, lo, '--bounds')
-        const b = toInternal(n, hi, '--bounds')
+        const a = toInternal(n, lo)
+        const b = toInternal(n, hi)
         return [n, [Math.min(a, b), Math.max(a, b)]]
       })),
       fix: args.fix, free: args.free, local: args.local,

@@ -12,16 +12,13 @@
  */
 import { readFile } from 'node:fs/promises'
 import { compileModel, SheetError } from '../../shared/sheet/index'
-import type { CompiledModel, UnitMap } from '../../shared/sheet/compiled'
+import { toDeclared, toInternal, type CompiledModel } from '../../shared/sheet/compiled'
 import { simulate } from '../../shared/engine/simulate'
 import { SimulationError } from '../../shared/engine/errors'
 import type { InputTrace, SimulationRequest, SolverName } from '../../shared/engine/simulate-contract'
 import { CsvError, parseCsv } from '../../shared/data/csv'
 import { unitConversion } from '../../shared/data/units'
-
-const USAGE = 'usage: pewter simulate <sheet> --t-end T [--t0 t] [--step dt | --at t1,t2,...] [--inputs file.csv] [--set name=value ...] [--solver auto|rk45|odex|stiff] [--rtol r] [--atol a] [--max-steps n] [--states] [--format csv|json]'
-
-class ArgError extends Error {}
+import { ArgError, splitOption } from './args'
 
 interface Options {
   sheet: string
@@ -52,9 +49,7 @@ export function parseArgs(args: string[]): Options {
   const files: string[] = []
   for (let i = 0; i < args.length; i++) {
     const a = args[i]
-    const eq = a.startsWith('--') ? a.indexOf('=') : -1
-    const flag = eq > 0 ? a.slice(0, eq) : a
-    const inline = eq > 0 ? a.slice(eq + 1) : undefined
+    const { flag, inline } = splitOption(a)
     const next = (): string | undefined => (inline !== undefined ? inline : args[++i])
     switch (flag) {
       case '--': break
@@ -131,8 +126,6 @@ function outputTimes(o: Options): Float64Array {
   return Float64Array.from(out)
 }
 
-const toInternal = (u: UnitMap, v: number) => v * u.scale + u.offset
-const toDeclared = (u: UnitMap, v: number) => (v - u.offset) / u.scale
 
 async function readInputs(file: string, model: CompiledModel, warnings: string[]): Promise<(InputTrace | null)[]> {
   let text: string

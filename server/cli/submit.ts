@@ -8,6 +8,7 @@
  */
 import { readFile } from 'node:fs/promises'
 import { basename } from 'node:path'
+import { terminalStatuses, type RunStatus } from '../../shared/api/runs'
 
 const USAGE = `usage: pewter submit --workspace <slug> --project <id> --model <id> --version <n>
   (--estimation <datasetId,…> | --upload <estimation.csv>…) [--validation <datasetId,…>] [--upload-validation <v.csv>…]
@@ -137,8 +138,6 @@ async function upload(io: SubmitIo, a: SubmitArgs, file: string, purpose: 'estim
   return ds.id
 }
 
-const TERMINAL = new Set(['succeeded', 'failed', 'cancelled'])
-
 export async function submit(a: SubmitArgs, io: SubmitIo = defaultIo): Promise<number> {
   const estimation = [...a.estimation]
   for (const f of a.upload) estimation.push(await upload(io, a, f, 'estimation'))
@@ -158,10 +157,10 @@ export async function submit(a: SubmitArgs, io: SubmitIo = defaultIo): Promise<n
   }
   let last = ''
   for (;;) {
-    const r = await call<{ id: number; status: string; error: string | null; progress: { message?: string } | null; result: unknown }>(io, a, 'GET', `/runs/${run.id}`)
+    const r = await call<{ id: number; status: RunStatus; error: string | null; progress: { message?: string } | null; result: unknown }>(io, a, 'GET', `/runs/${run.id}`)
     const line = `${r.status}${r.progress?.message ? `: ${r.progress.message}` : ''}`
     if (line !== last) { io.err(`run ${run.id} ${line}\n`); last = line }
-    if (TERMINAL.has(r.status)) {
+    if (terminalStatuses.includes(r.status)) {
       if (a.json) io.out(`${JSON.stringify(r.status === 'succeeded' ? r.result : { id: r.id, status: r.status, error: r.error }, null, 2)}\n`)
       else io.out(`run ${r.id} ${r.status}${r.error ? `: ${r.error}` : ''}\n`)
       return r.status === 'succeeded' ? 0 : 1

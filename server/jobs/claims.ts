@@ -8,7 +8,6 @@ import { and, eq, inArray, isNotNull, isNull, lt, or, sql } from 'drizzle-orm'
 import type { Db } from '../db/client'
 import { runs } from '../db/schema'
 
-export const TERMINAL = ['succeeded', 'failed', 'cancelled'] as const
 const ACTIVE = ['queued', 'running']
 
 export type ClaimResult = { claimed: true; attempt: number } | { claimed: false; reason: 'not-found' | 'finished' | 'taken' | 'cancelled' }
@@ -19,20 +18,16 @@ export type ClaimResult = { claimed: true; attempt: number } | { claimed: false;
  */
 export async function claimRun(db: Db, runId: number, workerId: string, staleSeconds: number): Promise<ClaimResult> {
   const stale = sql`now() - make_interval(secs => ${staleSeconds})`
+  const unheld = and(eq(runs.id, runId), inArray(runs.status, ACTIVE),
+    or(isNull(runs.workerId), isNull(runs.heartbeatAt), lt(runs.heartbeatAt, stale)))
   const won = await db.update(runs)
     .set({ workerId, heartbeatAt: sql`now()`, attempts: sql`${runs.attempts} + 1` })
-    .where(and(
-      eq(runs.id, runId),
-      inArray(runs.status, ACTIVE),
-      eq(runs.cancelRequested, false),
-      or(isNull(runs.workerId), isNull(runs.heartbeatAt), lt(runs.heartbeatAt, stale)),
-    ))
+    .where(and(unheld, eq(runs.cancelRequested, false)))
     .returning({ attempts: runs.attempts })
   if (won.length) return { claimed: true, attempt: won[0].attempts }
   const cancelled = await db.update(runs)
     .set({ status: 'cancelled', finishedAt: sql`now()`, error: 'Cancelled before it started.' })
-    .where(and(eq(runs.id, runId), inArray(runs.status, ACTIVE), eq(runs.cancelRequested, true),
-      or(isNull(runs.workerId), isNull(runs.heartbeatAt), lt(runs.heartbeatAt, stale))))
+    .where(and(unheld, eq(runs.cancelRequested, true)))
     .returning({ id: runs.id })
   if (cancelled.length) return { claimed: false, reason: 'cancelled' }
   const [row] = await db.select({ status: runs.status }).from(runs).where(eq(runs.id, runId))
@@ -68,6 +63,9 @@ export async function runStatus(db: Db, runId: number) {
   const [row] = await db.select({ status: runs.status, error: runs.error, createdBy: runs.createdBy }).from(runs).where(eq(runs.id, runId))
   return row ?? null
 }
+
+/** How often to look for abandoned runs: twice per stale period, at most once a second. */
+export const reapPeriodMs = (staleSeconds: number) => Math.max(1000, staleSeconds * 500)
 
 /**
  * Abandoned runs (worker gone: heartbeat older than `staleSeconds`): back to the queue when attempts

@@ -88,28 +88,49 @@ export class FanOut {
 }
 
 /**
+ * A thread's loop over the shared list: asks for a plan (`nextPlan`), fits it (a throw becomes a failed
+ * outcome), posts the outcome, until no plan is left or `stopped()`. Returns how many it fitted.
+ */
+export async function fitSharedPlans(port: MessagePort, nextPlan: () => Promise<StartPlan | null>, fit: (plan: StartPlan) => Promise<StartOutcome>, threadId: number, stopped: () => boolean = () => false): Promise<number> {
+  let fitted = 0
+  while (!stopped()) {
+    const plan = await nextPlan()
+    if (!plan) break
+    let outcome: StartOutcome
+    try { outcome = await fit(plan) } catch (e) { outcome = failedOutcome(plan, e instanceof Error ? e.message : String(e)) }
+    port.postMessage({ type: 'outcome', outcome, threadId } satisfies ThreadMessage)
+    fitted++
+  }
+  return fitted
+}
+
+/** Asks the parent for plans one at a time; `deliver` answers the oldest request, `end` answers all with null. */
+export function planRequests(port: MessagePort) {
+  const waiters: ((p: StartPlan | null) => void)[] = []
+  return {
+    next: () => new Promise<StartPlan | null>((r) => { waiters.push(r); port.postMessage({ type: 'next' } satisfies ThreadMessage) }),
+    deliver: (plan: StartPlan | null) => { waiters.shift()?.(plan) },
+    end: () => { for (const w of waiters.splice(0)) w(null) },
+  }
+}
+
+/**
  * The thread's side: a `runStarts` for FitOptions that sends the plans to the parent, fits plans from
  * the shared list itself until none is left, then waits for every outcome.
  */
 export function threadRunStarts(port: MessagePort, fit: (plan: StartPlan) => Promise<StartOutcome>, threadId: number, deadline: () => number | null = () => null) {
   return async (plans: StartPlan[]): Promise<StartOutcome[]> => {
-    const planWaiters: ((p: StartPlan | null) => void)[] = []
+    const requests = planRequests(port)
     let resolveAll!: (o: StartOutcome[]) => void
     const all = new Promise<StartOutcome[]>((r) => { resolveAll = r })
     const onMessage = (m: { type?: string; plan?: StartPlan | null; outcomes?: StartOutcome[] }) => {
-      if (m?.type === 'plan') planWaiters.shift()?.(m.plan ?? null)
-      if (m?.type === 'outcomes') { for (const w of planWaiters.splice(0)) w(null); resolveAll(m.outcomes ?? []) }
+      if (m?.type === 'plan') requests.deliver(m.plan ?? null)
+      if (m?.type === 'outcomes') { requests.end(); resolveAll(m.outcomes ?? []) }
     }
     port.on('message', onMessage)
     try {
       port.postMessage({ type: 'starts', plans, deadline: deadline() } satisfies ThreadMessage)
-      for (;;) {
-        const plan = await new Promise<StartPlan | null>((r) => { planWaiters.push(r); port.postMessage({ type: 'next' } satisfies ThreadMessage) })
-        if (!plan) break
-        let outcome: StartOutcome
-        try { outcome = await fit(plan) } catch (e) { outcome = failedOutcome(plan, e instanceof Error ? e.message : String(e)) }
-        port.postMessage({ type: 'outcome', outcome, threadId } satisfies ThreadMessage)
-      }
+      await fitSharedPlans(port, requests.next, fit, threadId)
       return await all
     } finally {
       port.off('message', onMessage)

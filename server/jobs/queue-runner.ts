@@ -6,8 +6,15 @@
 import type PgBoss from 'pg-boss'
 import type { Db } from '../db/client'
 import type { JobRunner } from './types'
-import { reapStale, requestCancel } from './claims'
+import { reapPeriodMs, reapStale, requestCancel } from './claims'
 import { sendFit, startBoss } from './boss'
+
+/** Reaps abandoned runs (claims.ts reapStale) and puts the ones with attempts left back on the queue. */
+export async function requeueStale(db: Db, boss: PgBoss, staleSeconds: number, maxAttempts: number, log?: (m: string) => void) {
+  const { requeued, failed } = await reapStale(db, staleSeconds, maxAttempts)
+  for (const id of requeued) { log?.(`run ${id}: its worker stopped responding; queued again`); await sendFit(boss, id) }
+  for (const id of failed) log?.(`run ${id}: its worker stopped responding; marked failed`)
+}
 
 export class QueueRunner implements JobRunner {
   private reaper: NodeJS.Timeout | null = null
@@ -16,15 +23,14 @@ export class QueueRunner implements JobRunner {
   static async start(db: Db, o: { databaseUrl: string; timeoutSeconds: number; staleSeconds: number; maxAttempts: number }) {
     const boss = await startBoss(o.databaseUrl, { timeoutSeconds: o.timeoutSeconds })
     const runner = new QueueRunner(db, boss, o.staleSeconds, o.maxAttempts)
-    runner.reaper = setInterval(() => { void runner.reap().catch(() => {}) }, Math.max(1000, o.staleSeconds * 500))
+    runner.reaper = setInterval(() => { void runner.reap().catch(() => {}) }, reapPeriodMs(o.staleSeconds))
     runner.reaper.unref()
     return runner
   }
 
   /** Runs whose worker died go back on the queue (or fail after too many attempts). */
   async reap() {
-    const { requeued } = await reapStale(this.db, this.staleSeconds, this.maxAttempts)
-    for (const id of requeued) await sendFit(this.boss, id)
+    await requeueStale(this.db, this.boss, this.staleSeconds, this.maxAttempts)
   }
 
   async enqueue(runId: number) {

@@ -5,7 +5,7 @@
 import type { Db } from '../db/client'
 import type { JobRunner } from './types'
 import { RunPool, type RunPoolOptions } from './pool'
-import { reapStale, requestCancel, waitingRuns } from './claims'
+import { reapPeriodMs, reapStale, requestCancel, waitingRuns } from './claims'
 
 export class ThreadRunner implements JobRunner {
   readonly pool: RunPool
@@ -25,7 +25,7 @@ export class ThreadRunner implements JobRunner {
   async start() {
     if (this.warm) void this.pool.warmUp().catch(() => {})
     await this.recover()
-    this.reaper = setInterval(() => { void this.recover().catch(() => {}) }, Math.max(1000, this.staleSeconds * 500))
+    this.reaper = setInterval(() => { void this.recover().catch(() => {}) }, reapPeriodMs(this.staleSeconds))
     this.reaper.unref()
   }
 

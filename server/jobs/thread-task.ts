@@ -12,13 +12,13 @@
 import { threadId, type MessagePort } from 'node:worker_threads'
 import { openDatabase, type Database } from '../db/client'
 import { loadExecutor, type RunExecutor } from './executor'
-import { failedOutcome, threadRunStarts } from './fan-out'
+import { fitSharedPlans, planRequests, threadRunStarts } from './fan-out'
 import { deadlineOf, fitPlan } from './start-fits'
 import { runs } from '../db/schema'
 import { eq } from 'drizzle-orm'
 import { computeLandscape, RunInputError } from '../services/fit-execution'
 import type { LandscapeResult } from '../../shared/api/fit'
-import type { StartOutcome, StartPlan } from '../../shared/engine/fit/driver'
+import type { StartPlan } from '../../shared/engine/fit/driver'
 
 export interface RunTask {
   runId: number
@@ -64,10 +64,6 @@ function abortable(port: MessagePort) {
   return controller
 }
 
-async function fitOne(db: Database, runId: number, plan: StartPlan, deadline: number | null, signal: AbortSignal): Promise<StartOutcome> {
-  return fitPlan(db.db, runId, plan, deadline, signal)
-}
-
 export default async function runTask(task: RunTask): Promise<{ ok: true }> {
   const db = database(task.databaseUrl)
   let exec = executors.get(task.executorUrl)
@@ -77,7 +73,7 @@ export default async function runTask(task: RunTask): Promise<{ ok: true }> {
   }
   const controller = abortable(task.port)
   let deadline: number | null = null
-  const runStarts = threadRunStarts(task.port, (plan) => fitOne(db, task.runId, plan, deadline, controller.signal), threadId, () => deadline)
+  const runStarts = threadRunStarts(task.port, (plan) => fitPlan(db.db, task.runId, plan, deadline, controller.signal), threadId, () => deadline)
   try {
     await (await exec)(db.db, task.runId, {
       signal: controller.signal,
@@ -97,23 +93,10 @@ export default async function runTask(task: RunTask): Promise<{ ok: true }> {
 export async function helper(task: HelperTask): Promise<{ fitted: number }> {
   const db = database(task.databaseUrl)
   const controller = abortable(task.port)
-  let fitted = 0
-  const waiters: ((p: StartPlan | null) => void)[] = []
-  task.port.on('message', (m: { type?: string; plan?: StartPlan | null }) => { if (m?.type === 'plan') waiters.shift()?.(m.plan ?? null) })
+  const requests = planRequests(task.port)
+  task.port.on('message', (m: { type?: string; plan?: StartPlan | null }) => { if (m?.type === 'plan') requests.deliver(m.plan ?? null) })
   try {
-    for (;;) {
-      if (controller.signal.aborted) break
-      const plan = await new Promise<StartPlan | null>((r) => { waiters.push(r); task.port.postMessage({ type: 'next' }) })
-      if (!plan) break
-      let outcome: StartOutcome
-      try {
-        outcome = await fitOne(db, task.runId, plan, task.deadline, controller.signal)
-      } catch (e) {
-        outcome = failedOutcome(plan, e instanceof Error ? e.message : String(e))
-      }
-      task.port.postMessage({ type: 'outcome', outcome, threadId })
-      fitted++
-    }
+    const fitted = await fitSharedPlans(task.port, requests.next, (plan) => fitPlan(db.db, task.runId, plan, task.deadline, controller.signal), threadId, () => controller.signal.aborted)
     return { fitted }
   } finally {
     task.port.close()

@@ -12,7 +12,8 @@ import { createMailer } from '../mail/mailer'
 import { notifyRunSettled } from '../services/notifications'
 import { RunPool, newWorkerId } from './pool'
 import { FIT_QUEUE, sendFit, startBoss, type FitJob } from './boss'
-import { reapStale } from './claims'
+import { requeueStale } from './queue-runner'
+import { reapPeriodMs } from './claims'
 import { executorUrl } from './executor'
 
 async function main() {
@@ -47,12 +48,8 @@ async function main() {
       }
     })
   }
-  const reap = async () => {
-    const { requeued, failed } = await reapStale(database.db, config.jobStaleSeconds, config.jobMaxAttempts)
-    for (const id of requeued) { log(`run ${id}: its worker stopped responding; queued again`); await sendFit(boss, id) }
-    for (const id of failed) log(`run ${id}: its worker stopped responding; marked failed`)
-  }
-  const reaper = setInterval(() => { void reap().catch((e) => log(`reaper: ${e instanceof Error ? e.message : e}`)) }, Math.max(1000, config.jobStaleSeconds * 500))
+  const reap = () => requeueStale(database.db, boss, config.jobStaleSeconds, config.jobMaxAttempts, log)
+  const reaper = setInterval(() => { void reap().catch((e) => log(`reaper: ${e instanceof Error ? e.message : e}`)) }, reapPeriodMs(config.jobStaleSeconds))
   log(`ready: ${config.workerThreads} thread(s) on queue ${FIT_QUEUE}`)
 
   let stopping = false

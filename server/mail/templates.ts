@@ -1,6 +1,9 @@
 /** The text of every e-mail Pewter sends: a plain-text body and a simple HTML twin. */
 import type { MailMessage } from './mailer'
 
+/** "2026-03-14 09:30": the minute, in UTC, a link stops working. */
+const utcMinute = (d: Date) => d.toISOString().replace('T', ' ').slice(0, 16)
+
 const esc = (s: string) => s.replace(/[&<>"']/g, (c) => ({ '&': '&amp;', '<': '&lt;', '>': '&gt;', '"': '&quot;', "'": '&#39;' })[c]!)
 
 function compose(to: string, subject: string, paragraphs: string[], link?: { href: string; label: string }): MailMessage {
@@ -16,14 +19,14 @@ function compose(to: string, subject: string, paragraphs: string[], link?: { hre
 export function invitationMail(o: { to: string; workspace: string; role: string; inviter: string; link: string; expiresAt: Date }): MailMessage {
   return compose(o.to, `You are invited to ${o.workspace} on Pewter`, [
     `${o.inviter} invites you to join the workspace "${o.workspace}" as ${o.role}.`,
-    `The invitation is valid until ${o.expiresAt.toISOString().replace('T', ' ').slice(0, 16)} UTC and can be used once.`,
+    `The invitation is valid until ${utcMinute(o.expiresAt)} UTC and can be used once.`,
   ], { href: o.link, label: 'Accept the invitation' })
 }
 
 export function passwordResetMail(o: { to: string; link: string; expiresAt: Date }): MailMessage {
   return compose(o.to, 'Reset your Pewter password', [
     'Someone (hopefully you) asked to reset the password of your Pewter account.',
-    `The link below works once, until ${o.expiresAt.toISOString().replace('T', ' ').slice(0, 16)} UTC. If you did not ask for it, ignore this message: your password stays as it is.`,
+    `The link below works once, until ${utcMinute(o.expiresAt)} UTC. If you did not ask for it, ignore this message: your password stays as it is.`,
   ], { href: o.link, label: 'Choose a new password' })
 }
 

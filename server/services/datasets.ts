@@ -27,7 +27,8 @@ const PREVIEW_ROWS = 20
 
 type DatasetRow = typeof datasets.$inferSelect
 
-interface StoredData {
+/** The stored numeric content of a dataset (the `data` jsonb). */
+export interface StoredData {
   time: number[]
   columns: Record<string, (number | null)[]>
 }
@@ -76,16 +77,19 @@ export function gapWarnings(time: number[], rows?: number[]): DatasetWarning[] {
 const fmt = (v: number) => String(Number(v.toPrecision(6)))
 const iso = (d: Date | string | null) => (d === null ? null : new Date(d).toISOString())
 
-function summaryDto(r: DatasetRow): DatasetSummaryDto {
-  const meta = r.columns as unknown as StoredColumns
-  const data = r.data as StoredData
-  const n = data.time.length
+type SummaryRow = Omit<DatasetRow, 'workspaceId' | 'original' | 'data'>
+
+function summaryOf(r: SummaryRow, timeSpan: [number, number] | null): DatasetSummaryDto {
   return {
     id: r.id, projectId: r.projectId, name: r.name, filename: r.filename, purpose: (r.purpose as DatasetPurpose | null) ?? null,
-    contentHash: r.contentHash, rowCount: r.rowCount, columns: meta.columns, warnings: r.warnings as DatasetWarning[],
-    parentId: r.parentId, steps: r.steps as AppliedStep[], timeSpan: n ? [data.time[0], data.time[n - 1]] : null,
-    createdAt: iso(r.createdAt)!, createdBy: r.createdBy,
+    contentHash: r.contentHash, rowCount: r.rowCount, columns: columnsOf(r), warnings: r.warnings as DatasetWarning[],
+    parentId: r.parentId, steps: r.steps as AppliedStep[], timeSpan, createdAt: iso(r.createdAt)!, createdBy: r.createdBy,
   }
+}
+
+function summaryDto(r: DatasetRow): DatasetSummaryDto {
+  const { time } = r.data as StoredData
+  return summaryOf(r, time.length ? [time[0], time[time.length - 1]] : null)
 }
 
 function fullDto(r: DatasetRow): DatasetDto {
@@ -165,14 +169,8 @@ export async function listDatasets(db: Db, workspaceId: number, projectId?: numb
     contentHash: datasets.contentHash, columns: datasets.columns, rowCount: datasets.rowCount, warnings: datasets.warnings,
     parentId: datasets.parentId, steps: datasets.steps, createdAt: datasets.createdAt, createdBy: datasets.createdBy,
   }).from(datasets).where(cond).orderBy(desc(datasets.createdAt), desc(datasets.id))
-  return rows.map((r) => {
-    const meta = r.columns as unknown as StoredColumns
-    return {
-      id: r.id, projectId: r.projectId, name: r.name, filename: r.filename, purpose: (r.purpose as DatasetPurpose | null) ?? null,
-      contentHash: r.contentHash, rowCount: r.rowCount, columns: meta.columns, warnings: r.warnings as DatasetWarning[],
-      parentId: r.parentId, steps: r.steps as AppliedStep[], timeSpan: null, createdAt: iso(r.createdAt)!, createdBy: r.createdBy,
-    }
-  })
+  // the samples are not loaded for the list, so no time span
+  return rows.map((r) => summaryOf(r, null))
 }
 
 /** Labels only (name, estimation/validation mark); the samples never change. */

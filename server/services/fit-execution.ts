@@ -15,16 +15,17 @@ import { and, eq, inArray, sql } from 'drizzle-orm'
 import type { Db } from '../db/client'
 import { datasets, modelVersions, runs } from '../db/schema'
 import { compileModel, type CompiledModel } from '../../shared/sheet'
+import { toDeclared, toInternal } from '../../shared/sheet/compiled'
 import { simulate } from '../../shared/engine'
 import { runFitWith, makeProblem, type FitOptions } from '../../shared/engine/fit/driver'
-import type { ExperimentData, ProblemSpec } from '../../shared/engine/fit/problem'
+import type { ExperimentData, FitProblem, ProblemSpec } from '../../shared/engine/fit/problem'
 import { BoxTransform } from '../../shared/engine/fit/transform'
 import { costLandscape } from '../../shared/engine/landscape'
 import type { FitResult, LandscapeResult } from '../../shared/api/fit'
 import type { ColumnMapping, ColumnMeta } from '../../shared/api/datasets'
 import type { OutputTrace, RunProgress, RunSettings } from '../../shared/api/runs'
 import { conversionFor } from './bindings'
-import { columnsOf } from './datasets'
+import { columnsOf, type StoredData } from './datasets'
 
 const pkg = JSON.parse(readFileSync(new URL('../../package.json', import.meta.url), 'utf8')) as { version: string }
 /** Recorded in every run's provenance. */
@@ -35,12 +36,6 @@ export interface ExecuteOptions {
   workerId?: string
   /** spreads a multi-start fit's starts over worker threads (server/jobs/fan-out.ts) */
   runStarts?: FitOptions['runStarts']
-}
-
-/** The stored numeric content of a dataset. */
-export interface StoredData {
-  time: number[]
-  columns: Record<string, (number | null)[]>
 }
 
 export interface LoadedDataset {
@@ -57,8 +52,6 @@ export class RunInputError extends Error {
   }
 }
 
-const toInternal = (u: { scale: number; offset: number }, v: number) => v * u.scale + u.offset
-const toDeclared = (u: { scale: number; offset: number }, v: number) => (v - u.offset) / u.scale
 
 /** One dataset as a fit experiment: time in the sheet's unit, signals converted to internal units. */
 export function experimentFrom(model: CompiledModel, ds: LoadedDataset, mapping: ColumnMapping): ExperimentData {
@@ -100,24 +93,17 @@ export function problemSpec(model: CompiledModel, settings: RunSettings, est: Lo
   const fix: string[] = []
   const freeNames = new Set(settings.free.map((f) => f.name))
   const stateNames = new Set(settings.initialStates.map((f) => f.name))
-  for (const f of settings.free) {
-    const p = model.params.find((q) => q.name === f.name)
-    if (!p) throw new RunInputError(`free parameter '${f.name}': the sheet has no parameter of that name`)
-    const lo = toInternal(p, f.lower)
-    const hi = toInternal(p, f.upper)
+  /** one estimated quantity: its bounds and start from declared to internal units */
+  const estimate = (f: RunSettings['free'][number], u: { scale: number; offset: number } | undefined, what: string, noun: string) => {
+    if (!u) throw new RunInputError(`${what} '${f.name}': the sheet has no ${noun} of that name`)
+    const lo = toInternal(u, f.lower)
+    const hi = toInternal(u, f.upper)
     bounds[f.name] = [Math.min(lo, hi), Math.max(lo, hi)]
-    set[f.name] = toInternal(p, f.start)
+    set[f.name] = toInternal(u, f.start)
     free.push(f.name)
   }
-  for (const f of settings.initialStates) {
-    const s = model.states.find((q) => q.name === f.name)
-    if (!s) throw new RunInputError(`initial state '${f.name}': the sheet has no state of that name`)
-    const lo = toInternal(s, f.lower)
-    const hi = toInternal(s, f.upper)
-    bounds[f.name] = [Math.min(lo, hi), Math.max(lo, hi)]
-    set[f.name] = toInternal(s, f.start)
-    free.push(f.name)
-  }
+  for (const f of settings.free) estimate(f, model.params.find((q) => q.name === f.name), 'free parameter', 'parameter')
+  for (const f of settings.initialStates) estimate(f, model.states.find((q) => q.name === f.name), 'initial state', 'state')
   for (const p of model.params) if (!p.fixed && !freeNames.has(p.name)) fix.push(p.name)
   for (const s of model.states) if (s.estimate && !stateNames.has(s.name)) fix.push(s.name)
   return {
@@ -163,8 +149,7 @@ export async function loadRunInputs(db: Db, run: typeof runs.$inferSelect) {
 }
 
 /** Measured against simulated outputs at the estimate, for every experiment (declared units, seconds). */
-export function simulateTraces(model: CompiledModel, spec: ProblemSpec, opts: FitOptions, result: FitResult, est: LoadedDataset[], val: LoadedDataset[], mapping: ColumnMapping): OutputTrace[] {
-  const prob = makeProblem(model, spec, simulate, { ...opts, signal: undefined })
+export function simulateTraces(model: CompiledModel, prob: FitProblem, result: FitResult, est: LoadedDataset[], val: LoadedDataset[], mapping: ColumnMapping): OutputTrace[] {
   const best = result.starts.find((s) => s.index === result.bestStart)
   const theta = best && best.value.every((v) => v !== null) ? (best.value as number[]) : null
   if (!theta || theta.length !== prob.n) return []
@@ -281,8 +266,9 @@ export async function executeRun(db: Db, runId: number, opts: ExecuteOptions = {
   try {
     const { model, est, val } = await loadRunInputs(db, row)
     const spec = problemSpec(model, settings, est, val)
-    const probeNames = makeProblem(model, spec, simulate, fitOptions(settings)).names
-    const landscape = probeNames.length >= 2 ? { x: probeNames[0], y: probeNames[1], n: 21 } : undefined
+    // built once without the abort signal: its names pick the landscape, then it simulates the traces
+    const probe = makeProblem(model, spec, simulate, fitOptions(settings))
+    const landscape = probe.names.length >= 2 ? { x: probe.names[0], y: probe.names[1], n: 21 } : undefined
     const options = fitOptions(settings, {
       signal: controller.signal,
       landscape,
@@ -306,7 +292,7 @@ export async function executeRun(db: Db, runId: number, opts: ExecuteOptions = {
       return await finish('failed', { error: `The fit failed: ${result.reason}`, result: { ...result, traces: [] } as unknown as Record<string, unknown> })
     }
     let traces: OutputTrace[] = []
-    try { traces = simulateTraces(model, spec, fitOptions(settings), result, est, val, settings.mapping) } catch { traces = [] }
+    try { traces = simulateTraces(model, probe, result, est, val, settings.mapping) } catch { traces = [] }
     const lastHistory = result.costHistory.length ? result.costHistory : history
     return await finish('succeeded', {
       result: { ...result, traces } as unknown as Record<string, unknown>,

@@ -21,11 +21,11 @@ import { autoMatch, checkMapping, checkMappingNames, getVersionRow, signalsOf } 
 import { getProjectRow } from './projects'
 import { ENGINE_VERSION } from './fit-execution'
 import { publishVersion, type Actor } from './models'
+import { toDeclared } from '../../shared/sheet/compiled'
 
 type RunRow = typeof runs.$inferSelect
 
 const iso = (d: Date | string | null) => (d === null ? null : new Date(d).toISOString())
-const declared = (u: { scale: number; offset: number }, v: number) => (v - u.offset) / u.scale
 
 function compileOrThrow(text: string): CompiledModel {
   try {
@@ -55,11 +55,11 @@ function resolveFree(model: CompiledModel, given: FreeSpec[] | undefined, kind: 
     if (seen.has(f.name)) { details.push({ path: `body.${path}.${i}.name`, message: `'${f.name}' is listed twice` }); return }
     seen.add(f.name)
     const value = isParam ? (q as CompiledModel['params'][number]).value : (q as CompiledModel['states'][number]).initial
-    const a = q.lower === null ? null : declared(q, q.lower)
-    const b = q.upper === null ? null : declared(q, q.upper)
+    const a = q.lower === null ? null : toDeclared(q, q.lower)
+    const b = q.upper === null ? null : toDeclared(q, q.upper)
     const lower = f.lower ?? (a === null || b === null ? null : Math.min(a, b))
     const upper = f.upper ?? (a === null || b === null ? null : Math.max(a, b))
-    const start = f.start ?? declared(q, value)
+    const start = f.start ?? toDeclared(q, value)
     if (lower === null || upper === null) {
       details.push({ path: `body.${path}.${i}`, message: `'${f.name}' has no bounds in the sheet; give lower and upper` })
       return

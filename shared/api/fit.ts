@@ -73,9 +73,11 @@ export const startRow = z.object({
 })
 export type StartRow = z.infer<typeof startRow>
 
+const landscapeAxis = z.object({ name: z.string(), experiment: z.number().int().nullable(), values: z.array(num), log: z.boolean() })
+
 export const landscapeResult = z.object({
-  x: z.object({ name: z.string(), experiment: z.number().int().nullable(), values: z.array(num), log: z.boolean() }),
-  y: z.object({ name: z.string(), experiment: z.number().int().nullable(), values: z.array(num), log: z.boolean() }),
+  x: landscapeAxis,
+  y: landscapeAxis,
   /** cost[iy][ix]; null where the model could not be evaluated */
   cost: z.array(z.array(numOrNull)),
   start: z.tuple([num, num]),

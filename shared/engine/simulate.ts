@@ -46,6 +46,8 @@ interface Workspace {
   /** input slopes left and right of a breakpoint */
   sl: Float64Array
   sr: Float64Array
+  /** the states' names, for error messages */
+  stateNames: string[]
 }
 
 const cache = new WeakMap<CompiledModel, Map<string, Workspace>>()
@@ -78,6 +80,7 @@ function workspace(model: CompiledModel, sens: SensSpec[]): Workspace {
       umod: new Float64Array(Math.max(1, nuu)),
       sl: new Float64Array(Math.max(1, nuu)),
       sr: new Float64Array(Math.max(1, nuu)),
+      stateNames: model.states.map((s) => s.name),
     }
     if (m.size > 16) m.clear()
     m.set(key, ws)
@@ -95,7 +98,7 @@ function solverFor(ws: Workspace, name: SolverName): OdeSolver {
 }
 
 /** validated sensitivity layout θ = [params…, initialStates…] */
-export function sensLayout(model: CompiledModel, req: SimulationRequest): SensSpec[] {
+function sensLayout(model: CompiledModel, req: SimulationRequest): SensSpec[] {
   const out: SensSpec[] = []
   const sp = req.sensitivities
   if (!sp) return out
@@ -201,7 +204,7 @@ export function simulate(model: CompiledModel, req: SimulationRequest): Simulati
     deadline: req.timeBudgetMs !== undefined ? start + req.timeBudgetMs : Infinity,
     budgetMs: req.timeBudgetMs ?? 0,
     signal: req.signal ?? null,
-    stateNames: model.states.map((s) => s.name),
+    stateNames: ws.stateNames,
     fixedStep: 0,
   }
 

@@ -116,3 +116,8 @@ export interface CompiledModel {
   /** the generated JavaScript source, for inspection */
   source: string
 }
+
+/** A value in a symbol's declared unit → internal (SI) units. */
+export const toInternal = (u: Pick<UnitMap, 'scale' | 'offset'>, declared: number) => declared * u.scale + u.offset
+/** An internal (SI) value → the symbol's declared unit. */
+export const toDeclared = (u: Pick<UnitMap, 'scale' | 'offset'>, internal: number) => (internal - u.offset) / u.scale

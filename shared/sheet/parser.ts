@@ -225,18 +225,20 @@ class SheetParser {
     return { value: v, span: t.span }
   }
 
-  private unitAt(b: { tok: Tok; inner: string; innerCol: number }, absoluteOnly: boolean): UnitInfo | null | false {
-    const text = b.inner.trim()
-    const r = parseUnit(text)
+  private unitAt(b: { tok: Tok; inner: string; innerCol: number }): UnitInfo | false {
+    const r = parseUnit(b.inner.trim())
     if (!r.ok) {
       this.diags.error(b.tok.span, r.message)
       return false
     }
-    if (r.unit.isOffset && !absoluteOnly) {
-      this.diags.error(b.tok.span, `offset unit '${text}' is allowed only for absolute quantities (states, params, consts, inputs, outputs); use K`)
-      return false
-    }
     return r.unit
+  }
+
+  /** an optional `[unit]` here: null when there is none, false after reporting an error */
+  private optionalUnit(s: LineScanner): UnitInfo | null | false {
+    const b = s.bracket()
+    if (b === 'unclosed') { this.diags.error(s.restSpan(), "unit has no closing ']'"); return false }
+    return b ? this.unitAt(b) : null
   }
 
   private declareName(s: LineScanner, kind: Kind): Tok | null {
@@ -275,14 +277,8 @@ class SheetParser {
     }
     const v = this.number(s, `value of ${name.text}`, example)
     if (!v) return
-    let unit: UnitInfo | null = null
-    const b = s.bracket()
-    if (b === 'unclosed') { d.error(s.restSpan(), "unit has no closing ']'"); return }
-    if (b) {
-      const u = this.unitAt(b, true)
-      if (u === false) return
-      unit = u
-    }
+    const unit = this.optionalUnit(s)
+    if (unit === false) return
     let fixed = false, estimate = false, steady = false
     let interp: 'linear' | 'hold' = 'linear'
     let bounds: { lo: number; hi: number; span: Span; loSpan: Span; hiSpan: Span } | null = null
@@ -298,7 +294,7 @@ class SheetParser {
       const w = s.ident()
       if (!w) {
         const t = s.word()
-        if (s.text[t.span.column - 1] === '[' && !b) d.error(t.span, `a unit must follow the value directly; write ${example}`)
+        if (s.text[t.span.column - 1] === '[' && unit === null) d.error(t.span, `a unit must follow the value directly; write ${example}`)
         else d.error(t.span, `unexpected '${t.text.slice(0, 40)}' in the ${kw} declaration`)
         return
       }
@@ -379,13 +375,13 @@ class SheetParser {
     const b1 = s.bracket()
     if (b1 === 'unclosed') { d.error(s.restSpan(), "unit has no closing ']'"); return i }
     if (b1) {
-      const u = this.unitAt(b1, true)
+      const u = this.unitAt(b1)
       if (u === false) return this.skipBraces(lines, i)
       argUnit = u
       if (!s.eat('->')) { d.error(s.restSpan(), `expected '->' and the result unit: lookup ${name.text} [arg unit] -> [result unit] = { x: y, … }`); return this.skipBraces(lines, i) }
       const b2 = s.bracket()
       if (b2 === 'unclosed' || !b2) { d.error(s.restSpan(), `expected the result unit in [..] after '->'`); return this.skipBraces(lines, i) }
-      const u2 = this.unitAt(b2, true)
+      const u2 = this.unitAt(b2)
       if (u2 === false) return this.skipBraces(lines, i)
       unit = u2
     }
@@ -532,14 +528,8 @@ class SheetParser {
       d.error(name.span, `output ${name.text} names nothing: write output ${name.text} = <expression> [unit]`)
       return
     }
-    let unit: UnitInfo | null = null
-    const b = s.bracket()
-    if (b === 'unclosed') { d.error(s.restSpan(), "unit has no closing ']'"); return }
-    if (b) {
-      const u = this.unitAt(b, true)
-      if (u === false) return
-      unit = u
-    }
+    const unit = this.optionalUnit(s)
+    if (unit === false) return
     let sigma: number | null = null
     if (s.peekIdent() === 'sigma') {
       s.ident()

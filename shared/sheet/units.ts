@@ -19,9 +19,8 @@ export interface UnitInfo {
   text: string
   dims: Dims
   scale: number
+  /** non-zero for an offset unit such as degC (allowed only on its own, for an absolute quantity) */
   offset: number
-  /** an offset unit such as degC: allowed only for absolute quantities */
-  isOffset: boolean
 }
 
 export const DIMENSIONLESS: Dims = Object.freeze(new Array<number>(N_DIMS).fill(0))
@@ -43,8 +42,8 @@ export function parseUnit(text: string): UnitResult {
 }
 
 function parseUncached(text: string): UnitResult {
-  if (text === '' || text === '1' || text === '-') return { ok: true, unit: { text, dims: DIMENSIONLESS, scale: 1, offset: 0, isOffset: false } }
-  if (text === '%') return { ok: true, unit: { text, dims: DIMENSIONLESS, scale: 0.01, offset: 0, isOffset: false } }
+  if (text === '' || text === '1' || text === '-') return { ok: true, unit: { text, dims: DIMENSIONLESS, scale: 1, offset: 0 } }
+  if (text === '%') return { ok: true, unit: { text, dims: DIMENSIONLESS, scale: 0.01, offset: 0 } }
   if (text.length > 200) return { ok: false, message: 'unit text is too long' }
   if (!/^[A-Za-z0-9_ .*/^()\-]+$/.test(text)) return { ok: false, message: `unknown unit '${text}'` }
   try {
@@ -58,7 +57,7 @@ function parseUncached(text: string): UnitResult {
       return { ok: false, message: `offset unit '${offsetParts[0].unit.name}' is allowed only on its own, for an absolute quantity: write K in compound units such as W/K`, offsetInCompound: true }
     }
     if (!Number.isFinite(si1) || !Number.isFinite(si0) || si1 - si0 === 0) return { ok: false, message: `unknown unit '${text}'` }
-    return { ok: true, unit: { text, dims: Object.freeze(dims), scale: si1 - si0, offset: si0, isOffset: si0 !== 0 } }
+    return { ok: true, unit: { text, dims: Object.freeze(dims), scale: si1 - si0, offset: si0 } }
   } catch (e) {
     const msg = e instanceof Error ? e.message : String(e)
     const m = /Unit "([^"]*)" not found/.exec(msg)

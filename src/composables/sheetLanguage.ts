@@ -9,6 +9,9 @@
 import type * as Monaco from 'monaco-editor/editor'
 import { FUNCTIONS } from '@shared/sheet/ast'
 import type { CheckReply } from '@shared/api/models'
+import { stripComment } from '@shared/sheet/line-scanner'
+
+export { stripComment }
 
 export const SHEET_LANGUAGE = 'pewter-sheet'
 export const SHEET_THEME = 'pewter-light'
@@ -34,17 +37,6 @@ export interface SheetSymbol {
 }
 
 const DECL_RE = /^\s*(input|param|const|lookup|state|let|output)\s+([A-Za-z_][A-Za-z0-9_]*)/
-
-/** Stops at a `#` that is not inside a string. */
-export function stripComment(line: string): string {
-  let inStr = false
-  for (let i = 0; i < line.length; i++) {
-    const c = line[i]
-    if (c === '"') inStr = !inStr
-    else if (c === '#' && !inStr) return line.slice(0, i)
-  }
-  return line
-}
 
 /** Declared names of a sheet, by a line scan (works on sheets with errors), enriched by a check's summary. */
 export function scanSymbols(text: string, check?: CheckReply | null): SheetSymbol[] {

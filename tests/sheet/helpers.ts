@@ -12,17 +12,8 @@ export function errors(text: string): Diagnostic[] {
   return checkModel(text).diagnostics.filter((d) => d.severity === 'error')
 }
 
-/** Seeded pseudo-random numbers (mulberry32; synthetic test data). */
-export function rng(seed: number): () => number {
-  let a = seed >>> 0
-  return () => {
-    a = (a + 0x6d2b79f5) >>> 0
-    let t = a
-    t = Math.imul(t ^ (t >>> 15), t | 1)
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61)
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296
-  }
-}
+/** Seeded pseudo-random numbers (the engine's mulberry32; synthetic test data). */
+export { mulberry32 as rng } from '../../shared/engine/fit/lhs'
 
 export interface Point { t: number; x: Float64Array; p: Float64Array; u: Float64Array }
 

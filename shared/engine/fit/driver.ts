@@ -18,6 +18,7 @@ import { latinHypercube } from './lhs'
 import { FitAborted, FitTimeout, type OptimiseResult, type ProgressInfo, type StopStatus } from './lsq'
 import { buildResult } from './result'
 import { equationErrorEstimate, type EquationErrorEstimate } from './equation-error'
+import type { LandscapeRequest } from '../landscape'
 
 export interface FitOptions {
   method?: FitMethod
@@ -40,7 +41,7 @@ export interface FitOptions {
   onProgress?: (info: ProgressInfo) => void
   /** names of estimated quantities wanting a profile-likelihood interval */
   profile?: string[]
-  landscape?: { x: string; y: string; n?: number; xRange?: [number, number]; yRange?: [number, number] }
+  landscape?: LandscapeRequest
   /** equation-error (one-step-ahead OLS) estimate: 'compare' adds the comparison row, 'start' also starts from it */
   equationError?: 'compare' | 'start'
   /** run the planned starts elsewhere (workers); must return one outcome per plan, in any order */

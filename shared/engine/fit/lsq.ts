@@ -1,3 +1,5 @@
+import type { FitStatus } from '../../api/fit'
+
 /** A bounded least-squares problem as the optimisers see it: minimise ‖r(θ)‖² over lower ≤ θ ≤ upper. */
 export interface LsqProblem {
   /** number of parameters */
@@ -14,7 +16,7 @@ export interface LsqProblem {
   evaluate(theta: Float64Array, r: Float64Array, jac: Float64Array | null): boolean
 }
 
-export type StopStatus = 'converged' | 'stopped' | 'aborted' | 'failed'
+export type StopStatus = FitStatus
 
 export interface ProgressInfo {
   iteration: number

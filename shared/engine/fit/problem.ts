@@ -23,6 +23,7 @@
  */
 import type { CompiledModel } from '../../sheet/compiled'
 import type { InputTrace, SimulationRequest, SimulationResult, SolverName } from '../simulate-contract'
+import { editDistance } from '../../sheet/suggest'
 import { FitInputError } from './errors'
 import { FitAborted, FitTimeout, type LsqProblem } from './lsq'
 import type { FitWeighting } from '../../api/fit'
@@ -501,18 +502,4 @@ function variance(y: Float64Array, oIdx: Int32Array, j: number): number {
   let s = 0
   for (let i = 0; i < y.length; i++) if (oIdx[i] === j) s += (y[i] - mean) * (y[i] - mean)
   return n > 1 ? s / (n - 1) : 0
-}
-
-export function editDistance(a: string, b: string): number {
-  const dp = Array.from({ length: b.length + 1 }, (_, j) => j)
-  for (let i = 1; i <= a.length; i++) {
-    let prev = dp[0]
-    dp[0] = i
-    for (let j = 1; j <= b.length; j++) {
-      const tmp = dp[j]
-      dp[j] = Math.min(dp[j] + 1, dp[j - 1] + 1, prev + (a[i - 1] === b[j - 1] ? 0 : 1))
-      prev = tmp
-    }
-  }
-  return dp[b.length]
 }

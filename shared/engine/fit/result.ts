@@ -9,7 +9,7 @@
  * Intervals: value ± t_{0.975, N−p}·se with se from s²·(JᵀJ)⁻¹ of √W·J through the SVD
  * (stats/covariance.ts).
  */
-import type { CompiledModel, UnitMap } from '../../sheet/compiled'
+import { toDeclared, type CompiledModel, type UnitMap } from '../../sheet/compiled'
 import type {
   EstimateRow, FitResult, FitWeighting, OutputRow, ResidualDiagnostics, EquationErrorRow, LandscapeResult, StartRow,
 } from '../../api/fit'
@@ -47,7 +47,6 @@ interface BuildArgs {
 }
 
 const fin = (v: number): number | null => (Number.isFinite(v) ? v : null)
-const toDeclared = (u: UnitMap, v: number) => (v - u.offset) / u.scale
 const toDeclaredDelta = (u: UnitMap, v: number) => v / Math.abs(u.scale)
 
 export function unitOf(model: CompiledModel, prob: FitProblem, q: number): UnitMap {

@@ -21,6 +21,9 @@ export class AutoSolver implements OdeSolver {
   readonly stiffSolver = new Rosenbrock()
   private active: Rk45 | Rosenbrock = this.nonstiff
   private sum = newCounters()
+  private limits!: SolverLimits
+  /** the step just taken was rk45's last: its dense output stays with rk45 until the next step */
+  private pendingDense = false
   switched = false
   /** time of the switch, when it happened */
   switchedAt: number | null = null
@@ -54,7 +57,6 @@ export class AutoSolver implements OdeSolver {
     this.stiffSolver.attach(sys, tol, { ...limits })
     this.limits = limits
   }
-  private limits!: SolverLimits
 
   breakpoint(): void {
     this.active.breakpoint()
@@ -71,13 +73,11 @@ export class AutoSolver implements OdeSolver {
       sl.setLimits({ ...this.limits, maxSteps: Math.max(1, left) })
       sl.restartAt(this.nonstiff.t, this.nonstiff.z, this.nonstiff.h)
       this.active = sl
-      // dense output of the step just taken stays with rk45 until the next step
       this.pendingDense = true
     } else {
       this.pendingDense = false
     }
   }
-  private pendingDense = false
 
   advance(tStop: number, obs: StepObserver | null): void {
     while (this.t < tStop) {

@@ -56,8 +56,47 @@ export function checkLimits(limits: SolverLimits, c: SolverCounters, t: number):
   }
 }
 
-export function checkStepSize(t: number, h: number): void {
-  if (Math.abs(h) <= 16 * Number.EPSILON * Math.max(1, Math.abs(t))) throw new StepSizeTooSmallError(t, h)
+/**
+ * The last non-finite derivative met in a rejected step (`at` = component index, -1: none since the
+ * last accepted step). When shrinking the step does not get past it, it is reported rather than
+ * "step size too small".
+ */
+export class NonFiniteSeen {
+  at = -1
+  t = 0
+  v = 0
+  note(at: number, t: number, v: number): void {
+    this.at = at
+    this.t = t
+    this.v = v
+  }
+}
+
+/** Throws when h is too small to change t: the non-finite derivative that forced it, if any. */
+export function checkStepSize(t: number, h: number, seen: NonFiniteSeen, limits: SolverLimits, nBlock: number): void {
+  if (Math.abs(h) <= 16 * Number.EPSILON * Math.max(1, Math.abs(t))) {
+    if (seen.at >= 0) throwNonFinite(limits, nBlock, seen.at, seen.t, seen.v)
+    throw new StepSizeTooSmallError(t, h)
+  }
+}
+
+/** The step to take from t: hWanted, or exactly what is left to tStop when hWanted comes within 1 % of it. */
+export function clipStep(t: number, hWanted: number, tStop: number): number {
+  return t + 1.01 * hWanted >= tStop ? tStop - t : hWanted
+}
+
+/** The end of an accepted step [t, t + h]: exactly tStop when the step was aimed at it. */
+export function stepEnd(t: number, h: number, tStop: number, clipped: boolean): number {
+  return clipped || t + h === tStop ? tStop : t + h
+}
+
+/**
+ * The step size to try after an accepted step h that the controller would follow by hNew: no growth
+ * right after a rejection; a step shortened to land on tStop does not shrink the next one below hWanted.
+ */
+export function nextStep(hNew: number, h: number, hWanted: number, clipped: boolean, afterReject: boolean): number {
+  const hn = afterReject ? Math.min(hNew, h) : hNew
+  return clipped ? Math.max(hn, hWanted) : hn
 }
 
 /**

@@ -11,7 +11,7 @@
  *   factor 0.9, growth limit 10 and shrink limit 0.2, and the PI stabilisation β = 0.04 of dopri5
  *   (Sec. IV.2 of Vol. II); Sec. II.10 (dopri5 "stiffness detection") for the stiffness test.
  */
-import { checkLimits, checkStepSize, errNorm, firstNonFinite, initialStep, throwNonFinite } from './control'
+import { checkLimits, checkStepSize, clipStep, errNorm, firstNonFinite, initialStep, nextStep, NonFiniteSeen, stepEnd, throwNonFinite } from './control'
 import { newCounters, resetCounters, type OdeSolver, type OdeSystem, type SolverLimits, type StepObserver, type Tolerances } from './types'
 
 /** Dormand–Prince 5(4) tableau, Dormand & Prince (1980) Table 2. Rows of A are stages 2..7. */
@@ -66,9 +66,7 @@ export class Rk45 implements OdeSolver {
   private lastRejected = false
   private iasti = 0
   private nonsti = 0
-  private nonFiniteAt = -1
-  private nonFiniteT = 0
-  private nonFiniteV = 0
+  private readonly nonFinite = new NonFiniteSeen()
 
   private alloc(n: number): void {
     if (this.n === n && this.k.length === 7) return
@@ -100,15 +98,6 @@ export class Rk45 implements OdeSolver {
     resetCounters(this.counters)
   }
 
-  /** continue from the current point with a new counter set kept (used when switching methods) */
-  restartAt(t: number, z: Float64Array, h: number): void {
-    this.t = t
-    this.tOld = t
-    this.z.set(z.subarray(0, this.n))
-    this.h = h
-    this.fsal = false
-  }
-
   breakpoint(): void {
     this.fsal = false
   }
@@ -137,16 +126,9 @@ export class Rk45 implements OdeSolver {
       const t = this.t
       const z = this.z
       const hWanted = limits.fixedStep > 0 ? limits.fixedStep : this.h
-      let h = hWanted
-      let clipped = false
-      if (t + 1.01 * h >= tStop) {
-        h = tStop - t
-        clipped = h < hWanted
-      }
-      if (Math.abs(h) <= 16 * Number.EPSILON * Math.max(1, Math.abs(t)) && this.nonFiniteAt >= 0) {
-        throwNonFinite(limits, sys.nBlock, this.nonFiniteAt, this.nonFiniteT, this.nonFiniteV)
-      }
-      checkStepSize(t, h)
+      const h = clipStep(t, hWanted, tStop)
+      const clipped = h < hWanted
+      checkStepSize(t, h, this.nonFinite, limits, sys.nBlock)
       // stages 2..7
       let bad = -1
       for (let s = 1; s < 7; s++) {
@@ -162,9 +144,7 @@ export class Rk45 implements OdeSolver {
         counters.rhsEvals++
         bad = firstNonFinite(ks, n)
         if (bad >= 0) {
-          this.nonFiniteAt = bad
-          this.nonFiniteT = t + C[s] * h
-          this.nonFiniteV = ks[bad]
+          this.nonFinite.note(bad, t + C[s] * h, ks[bad])
           break
         }
       }
@@ -184,10 +164,10 @@ export class Rk45 implements OdeSolver {
       if (err <= 1 || limits.fixedStep > 0) {
         let fac = fac11 / Math.pow(this.facOld, BETA)
         fac = Math.max(1 / FAC_MAX, Math.min(1 / FAC_MIN, fac / SAFE))
-        let hNew = h / fac
+        const hNew = h / fac
         this.facOld = Math.max(err, 1e-4)
         counters.steps++
-        this.nonFiniteAt = -1
+        this.nonFinite.at = -1
         this.stiffnessTest(h)
         // dense output coefficients (CONTD5)
         const D = DP54.d
@@ -210,11 +190,10 @@ export class Rk45 implements OdeSolver {
         k[0] = k[6]
         k[6] = k1
         this.tOld = t
-        this.t = clipped || t + h === tStop ? tStop : t + h
+        this.t = stepEnd(t, h, tStop, clipped)
         this.hLast = this.t - t
-        if (this.lastRejected) hNew = Math.min(hNew, h)
+        this.h = nextStep(hNew, h, hWanted, clipped, this.lastRejected)
         this.lastRejected = false
-        this.h = clipped ? Math.max(hNew, hWanted) : hNew
         return
       }
       counters.rejected++

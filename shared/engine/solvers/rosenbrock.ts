@@ -21,7 +21,7 @@
  * Dense output: cubic Hermite interpolation from the step's end values and derivatives (order 3,
  * the method's order); the end derivative is the next step's first stage, so it costs nothing extra.
  */
-import { checkLimits, checkStepSize, errNorm, firstNonFinite, initialStep, throwNonFinite } from './control'
+import { checkLimits, checkStepSize, clipStep, errNorm, firstNonFinite, initialStep, nextStep, NonFiniteSeen, stepEnd, throwNonFinite } from './control'
 import { luFactor, luSolve } from './lu'
 import { newCounters, resetCounters, type OdeSolver, type OdeSystem, type SolverLimits, type StepObserver, type Tolerances } from './types'
 
@@ -116,9 +116,7 @@ export class Rosenbrock implements OdeSolver {
   private haveF0 = false
   private haveJ = false
   private lastRejected = false
-  private nonFiniteAt = -1
-  private nonFiniteT = 0
-  private nonFiniteV = 0
+  private readonly nonFinite = new NonFiniteSeen()
 
   private alloc(n: number, nb: number): void {
     if (this.n === n && this.nb === nb) return
@@ -139,11 +137,7 @@ export class Rosenbrock implements OdeSolver {
   }
 
   start(sys: OdeSystem, tol: Tolerances, limits: SolverLimits, t: number, z: Float64Array, h: number): void {
-    this.alloc(sys.n, sys.nBlock)
-    this.sys = sys
-    this.tol = tol
-    this.limits = limits
-    resetCounters(this.counters)
+    this.attach(sys, tol, limits)
     this.restartAt(t, z, h)
   }
 
@@ -196,16 +190,9 @@ export class Rosenbrock implements OdeSolver {
       const t = this.t
       const z = this.z
       const hWanted = limits.fixedStep > 0 ? limits.fixedStep : this.h
-      let h = hWanted
-      let clipped = false
-      if (t + 1.01 * h >= tStop) {
-        h = tStop - t
-        clipped = h < hWanted
-      }
-      if (Math.abs(h) <= 16 * Number.EPSILON * Math.max(1, Math.abs(t)) && this.nonFiniteAt >= 0) {
-        throwNonFinite(limits, nb, this.nonFiniteAt, this.nonFiniteT, this.nonFiniteV)
-      }
-      checkStepSize(t, h)
+      const h = clipStep(t, hWanted, tStop)
+      const clipped = h < hWanted
+      checkStepSize(t, h, this.nonFinite, limits, nb)
       if (!this.haveJ) {
         sys.jac(t, z, J, ft)
         counters.jacEvals++
@@ -233,9 +220,7 @@ export class Rosenbrock implements OdeSolver {
             counters.rhsEvals++
             const bad = firstNonFinite(ui, n)
             if (bad >= 0) {
-              this.nonFiniteAt = bad
-              this.nonFiniteT = t + T.alphaSum[st] * h
-              this.nonFiniteV = ui[bad]
+              this.nonFinite.note(bad, t + T.alphaSum[st] * h, ui[bad])
               ok = false
               break
             }
@@ -273,9 +258,7 @@ export class Rosenbrock implements OdeSolver {
         counters.rhsEvals++
         const bad = firstNonFinite(this.f1, n)
         if (bad >= 0) {
-          this.nonFiniteAt = bad
-          this.nonFiniteT = t + h
-          this.nonFiniteV = this.f1[bad]
+          this.nonFinite.note(bad, t + h, this.f1[bad])
           ok = false
         }
       }
@@ -288,11 +271,10 @@ export class Rosenbrock implements OdeSolver {
       let fac = err === 0 ? FAC_MAX : SAFE * Math.pow(err, -1 / (ROS34PW2.order))
       if (err <= 1) {
         fac = Math.min(FAC_MAX, Math.max(FAC_MIN, fac))
-        let hNew = h * fac
-        if (this.lastRejected) hNew = Math.min(hNew, h)
+        const hNew = nextStep(h * fac, h, hWanted, clipped, this.lastRejected)
         this.lastRejected = false
         counters.steps++
-        this.nonFiniteAt = -1
+        this.nonFinite.at = -1
         // shift: old ← current, current ← new
         this.zOld.set(z)
         this.fOld.set(this.f0)
@@ -303,10 +285,10 @@ export class Rosenbrock implements OdeSolver {
         this.f0 = this.f1
         this.f1 = tmpf
         this.tOld = t
-        this.t = clipped || t + h === tStop ? tStop : t + h
+        this.t = stepEnd(t, h, tStop, clipped)
         this.hLast = this.t - t
         this.haveJ = false
-        this.h = clipped ? Math.max(hNew, hWanted) : hNew
+        this.h = hNew
         return
       }
       counters.rejected++

@@ -12,7 +12,7 @@
  * deficient, and the parameters carrying the weakest singular direction (|v_j| ≥ 0.3) are named; so is
  * every pair with |correlation| > 0.99 (common practice, no source).
  */
-import { householderQR, applyQt, extractR } from './qr'
+import { householderQR, extractR } from './qr'
 import { svd, type SVD } from './svd'
 import { studentTQuantile } from './distributions'
 
@@ -32,17 +32,14 @@ export interface CovarianceResult {
   tQuantile: number
 }
 
-/** SVD of a tall column-major matrix via Householder QR then one-sided Jacobi on R. */
-export function tallSvd(jColMajor: Float64Array, m: number, n: number): { qr: Float64Array; beta: Float64Array; svdR: SVD } {
-  const a = Float64Array.from(jColMajor)
+/** SVD of R from the Householder QR of a tall column-major matrix (overwritten), one-sided Jacobi on R. */
+function svdOfTall(a: Float64Array, m: number, n: number): SVD {
   const beta = new Float64Array(n)
   householderQR(a, m, n, beta)
   const r = new Float64Array(n * n)
   extractR(a, m, n, r)
-  return { qr: a, beta, svdR: svd(r, n, n) }
+  return svd(r, n, n)
 }
-
-export { applyQt }
 
 /**
  * @param j column-major m×n Jacobian of the weighted residuals with respect to the parameters
@@ -70,11 +67,11 @@ export function linearisedCovariance(
     const inv = d[c] > 0 ? 1 / d[c] : 0
     for (let i = 0; i < m; i++) js[c * m + i] *= inv
   }
-  const { svdR } = tallSvd(js, m, n)
+  const svdR = svdOfTall(js, m, n)
   const sv = svdR.s
   const smax = sv[0]
   let rank = 0
-  for (let k = 0; k < n; k++) if (sv[k] > rankTol * smax && d.every((x) => x > 0)) rank++
+  if (d.every((x) => x > 0)) for (let k = 0; k < n; k++) if (sv[k] > rankTol * smax) rank++
   const weakDirection: number[] = []
   if (rank < n) {
     const k = n - 1
