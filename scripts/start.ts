@@ -31,8 +31,8 @@ async function main() {
     process.env.DATABASE_URL = cluster.url
     stop = cluster.stop
   }
-  // e-mail: a local fake SMTP server that stores every message for the admin-only Mailbox page,
-  // unless SMTP_URL names a real relay
+  // e-mail: a local fake SMTP server (generated credential) that stores every message for its
+  // addressee's Mailbox page and prints its links here, unless SMTP_URL names a real relay
   let fakeSmtp: { close: () => Promise<void> } | null = null
   if (!process.env.SMTP_URL) {
     const { startFakeSmtp } = await import('../server/mail/fake-smtp')
@@ -40,7 +40,7 @@ async function main() {
     process.env.SMTP_URL = smtp.url
     process.env.PEWTER_FAKE_SMTP = '1'
     fakeSmtp = smtp
-    console.log(`[pewter] local fake SMTP server on ${smtp.url} (messages appear on the Mailbox page; set SMTP_URL for a real relay)`)
+    console.log(`[pewter] local fake SMTP server on 127.0.0.1:${smtp.port} (each user reads their own messages on the Mailbox page; links are printed here; set SMTP_URL for a real relay)`)
   }
   const { startServer } = await import('../server/index')
   const { shutdown } = await startServer()

@@ -10,6 +10,7 @@ import type { AppContext } from './context'
 import { sessionMiddleware } from './auth/session'
 import { csrfGuard } from './auth/csrf'
 import { resolveAuth } from './middleware/auth'
+import { hostCheck } from './middleware/host-check'
 import { errorHandler, notFoundHandler } from './middleware/errors'
 import { apiRouter } from './routes'
 
@@ -25,6 +26,7 @@ export function createApp(context: AppContext, options: AppOptions = {}) {
   app.locals.ctx = context
   app.disable('x-powered-by')
   if (context.config.trustProxy) app.set('trust proxy', 1)
+  app.use(hostCheck(() => context.config.publicUrl))
 
   app.use(helmet({
     contentSecurityPolicy: {

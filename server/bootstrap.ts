@@ -9,6 +9,7 @@ import { seedDemo } from './db/seed'
 import { attachServices } from './services/runtime'
 import { loadTemplates } from './services/templates'
 import { seedDemoProject } from './services/demo-project'
+import { demoDecision } from './startup-policy'
 
 export async function createContext(overrides: Partial<Config> = {}, opts: { seed?: boolean } = {}): Promise<AppContext> {
   const config = { ...loadConfig(), ...overrides }
@@ -16,7 +17,8 @@ export async function createContext(overrides: Partial<Config> = {}, opts: { see
   const database = openDatabase(config.databaseUrl)
   await migrateDatabase(database)
   const context: AppContext = { config, database, db: database.db, services: {} }
-  if (opts.seed !== false) {
+  // the demo workspace (published password) only where PEWTER_DEMO and the listening address allow it
+  if (opts.seed !== false && demoDecision(config).seed) {
     await seedDemo(database.db)
     await loadTemplates(database.db, database.pool)
     // the demo project runs a fit on first start; test apps skip it unless asked (tests seed it themselves)

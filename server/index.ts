@@ -1,17 +1,26 @@
-/** Starts the Pewter server: migrate, seed on first run, listen on 127.0.0.1:PORT. */
+/** Starts the Pewter server: migrate, seed the demo where allowed, listen on HOST:PORT (127.0.0.1 by default). */
 import { createApp } from './app'
 import { createContext } from './bootstrap'
+import { loadConfig } from './config'
 import { DEMO_PASSWORD, DEMO_USERS } from './db/seed'
+import { demoDecision, startRefusal } from './startup-policy'
 
 export async function startServer() {
+  const refusal = startRefusal(loadConfig())
+  if (refusal) throw new Error(refusal)
   const context = await createContext()
   const app = createApp(context)
-  const host = process.env.HOST ?? '127.0.0.1'
-  const server = app.listen(context.config.port, host)
+  const { host, port } = context.config
+  const server = app.listen(port, host)
   await new Promise<void>((resolve, reject) => { server.once('listening', resolve); server.once('error', reject) })
-  console.log(`\nPewter is running at http://${host}:${context.config.port}\n`)
-  console.log(`Demo sign-ins (password "${DEMO_PASSWORD}"):`)
-  for (const u of DEMO_USERS) console.log(`  ${u.role.padEnd(9)} ${u.email}`)
+  console.log(`\nPewter is running at http://${host}:${port}\n`)
+  const demo = demoDecision(context.config)
+  if (demo.seed) {
+    console.log(`Demo workspace: on (${demo.reason}). Sign-ins (password "${DEMO_PASSWORD}"):`)
+    for (const u of DEMO_USERS) console.log(`  ${u.role.padEnd(9)} ${u.email}`)
+  } else {
+    console.log(`Demo workspace: off (${demo.reason}).`)
+  }
   console.log('')
   const shutdown = async () => {
     server.close()

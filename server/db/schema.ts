@@ -17,6 +17,8 @@ export const users = pgTable('users', {
   name: text().notNull(),
   passwordHash: text('password_hash').notNull(),
   notifyOnFit: boolean('notify_on_fit').notNull().default(true),
+  /** set when the owner followed a link mailed to the address (or joined through an invitation link) */
+  emailVerifiedAt: timestamp('email_verified_at', { withTimezone: true }),
   currentWorkspaceId: integer('current_workspace_id'),
   createdAt: now(),
 }, (t) => [uniqueIndex('users_email_uq').on(t.email)])
@@ -25,6 +27,8 @@ export const workspaces = pgTable('workspaces', {
   id: serial().primaryKey(),
   slug: varchar({ length: 64 }).notNull(),
   name: text().notNull(),
+  /** four-eyes rule: a model version cannot be approved by its own author */
+  fourEyes: boolean('four_eyes').notNull().default(false),
   createdAt: now(),
 }, (t) => [uniqueIndex('workspaces_slug_uq').on(t.slug)])
 
@@ -64,6 +68,22 @@ export const passwordResets = pgTable('password_resets', {
   createdAt: now(),
 }, (t) => [uniqueIndex('password_resets_token_uq').on(t.tokenHash)])
 
+/**
+ * E-mail verification links. A sign-up stores the chosen name and password hash here and creates the
+ * account only when the link is followed; a signed-in, unverified account (userId set) asks for one too.
+ */
+export const emailVerifications = pgTable('email_verifications', {
+  id: serial().primaryKey(),
+  email: varchar({ length: 254 }).notNull(),
+  userId: integer('user_id').references(() => users.id, { onDelete: 'cascade' }),
+  name: text(),
+  passwordHash: text('password_hash'),
+  tokenHash: text('token_hash').notNull(),
+  expiresAt: timestamp('expires_at', { withTimezone: true }).notNull(),
+  usedAt: timestamp('used_at', { withTimezone: true }),
+  createdAt: now(),
+}, (t) => [uniqueIndex('email_verifications_token_uq').on(t.tokenHash), index('email_verifications_email_idx').on(t.email)])
+
 export const apiTokens = pgTable('api_tokens', {
   id: serial().primaryKey(),
   userId: integer('user_id').notNull().references(() => users.id, { onDelete: 'cascade' }),
@@ -93,6 +113,8 @@ export const mailbox = pgTable('mailbox', {
   id: serial().primaryKey(),
   from: text().notNull(),
   to: text().notNull(),
+  /** the envelope's recipient addresses, lower-cased: a signed-in user reads the messages addressed to them */
+  recipients: text().array().notNull().default(sql`'{}'::text[]`),
   subject: text().notNull(),
   text: text().notNull(),
   html: text(),

@@ -32,7 +32,7 @@ export async function seedDemo(db: Db): Promise<boolean> {
   const workspaceId = await db.transaction(async (tx) => {
     const [ws] = await tx.insert(workspaces).values(DEMO_WORKSPACE).returning()
     for (const u of DEMO_USERS) {
-      const [row] = await tx.insert(users).values({ email: u.email, name: u.name, passwordHash, currentWorkspaceId: ws.id }).returning()
+      const [row] = await tx.insert(users).values({ email: u.email, name: u.name, passwordHash, currentWorkspaceId: ws.id, emailVerifiedAt: new Date() }).returning()
       await tx.insert(memberships).values({ workspaceId: ws.id, userId: row.id, role: u.role })
       ids[u.email.startsWith('modeler2') ? 'modeler2' : u.role] = row.id
     }

@@ -27,7 +27,27 @@ export function passwordResetMail(o: { to: string; link: string; expiresAt: Date
   return compose(o.to, 'Reset your Pewter password', [
     'Someone (hopefully you) asked to reset the password of your Pewter account.',
     `The link below works once, until ${utcMinute(o.expiresAt)} UTC. If you did not ask for it, ignore this message: your password stays as it is.`,
+    'Choosing a new password signs the account out everywhere and revokes all of its API tokens: create new tokens afterwards for the command line and automation.',
   ], { href: o.link, label: 'Choose a new password' })
+}
+
+export function verifyEmailMail(o: { to: string; link: string; expiresAt: Date; signup: boolean }): MailMessage {
+  return compose(o.to, 'Confirm your e-mail address for Pewter', o.signup
+    ? [
+        'Someone (hopefully you) asked to create a Pewter account with this e-mail address.',
+        `Follow the link below and enter the password chosen at sign-up to create the account. The link works once, until ${utcMinute(o.expiresAt)} UTC. If you did not sign up, ignore this message: no account is created.`,
+      ]
+    : [
+        'Confirm that this e-mail address belongs to your Pewter account.',
+        `The link below works once, until ${utcMinute(o.expiresAt)} UTC. Until the address is confirmed, the account cannot join workspaces by invitation.`,
+      ], { href: o.link, label: 'Confirm the address' })
+}
+
+export function accountExistsMail(o: { to: string; signInLink: string; resetLink: string }): MailMessage {
+  return compose(o.to, 'Someone tried to create a Pewter account with your address', [
+    'Someone (perhaps you) asked to create a Pewter account with this e-mail address, which already has one. No new account was made and nothing changed.',
+    `If it was you, sign in instead (${o.signInLink}); if you forgot the password, ask for a new one.`,
+  ], { href: o.resetLink, label: 'Reset the password' })
 }
 
 export function fitSettledMail(o: { to: string; runId: number; status: string; project: string; model: string; error?: string | null; link: string }): MailMessage {

@@ -29,6 +29,13 @@ export const requireUser: RequestHandler = (req, _res, next) => {
   next()
 }
 
+/** A signed-in browser session; an API token is refused (account-level routes are not for tokens). */
+export const requireSession: RequestHandler = (req, _res, next) => {
+  if (!req.auth) return next(unauthenticated())
+  if (req.auth.via !== 'session') return next(unauthenticated('This needs a signed-in browser session; API tokens cannot use it.'))
+  next()
+}
+
 /**
  * For routes under /api/workspaces/:ws: the caller must be a member (else 404, so foreign workspaces
  * are not even confirmed to exist). A token is bound to one workspace and caps the role.

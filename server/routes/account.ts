@@ -6,6 +6,7 @@ import { requireUser } from '../middleware/auth'
 import { parse } from '../middleware/validate'
 import { requestPasswordReset, resetPassword } from '../services/password-reset'
 import { audit } from '../services/audit'
+import { assertUncommonPassword } from '../auth/passwords'
 import { users } from '../db/schema'
 import { passwordResetBody, passwordResetRequestBody, settingsBody } from '../../shared/api/team'
 
@@ -24,9 +25,10 @@ export function accountRoutes(limitPerWindow: number) {
   })
   router.post('/password-reset/:token', limiter, async (req, res) => {
     const { password } = parse(passwordResetBody, req.body)
+    assertUncommonPassword(password)
     const userId = await resetPassword(ctx(req), String(req.params.token), password)
     await audit(ctx(req).db, { actorId: userId, action: 'auth.password_reset', ip: req.ip })
-    res.json({ message: 'Your password has been changed. Sign in with the new one.' })
+    res.json({ message: 'Your password has been changed and your API tokens revoked. Sign in with the new password.' })
   })
   router.get('/settings', requireUser, async (req, res) => {
     const [u] = await ctx(req).db.select({ notifyOnFit: users.notifyOnFit }).from(users).where(eq(users.id, req.auth!.userId))

@@ -2,10 +2,12 @@ import { Router } from 'express'
 import { authAttemptLimiter } from '../middleware/rate-limit'
 import { ctx } from '../context'
 import { parse } from '../middleware/validate'
-import { requireUser } from '../middleware/auth'
+import { requireSession, requireUser } from '../middleware/auth'
 import * as auth from '../services/auth'
+import * as verification from '../services/email-verification'
+import { assertUncommonPassword } from '../auth/passwords'
 import { audit } from '../services/audit'
-import { signinBody, signupBody, switchWorkspaceBody } from '../../shared/api/auth'
+import { SIGNUP_MESSAGE, signinBody, signupBody, switchWorkspaceBody, verifyEmailBody } from '../../shared/api/auth'
 
 function regenerate(req: Parameters<Parameters<Router['post']>[1]>[0]) {
   return new Promise<void>((resolve, reject) => req.session.regenerate((err) => (err ? reject(err) : resolve())))
@@ -17,11 +19,37 @@ export function authRoutes(limitPerWindow: number) {
 
   router.post('/signup', limiter, async (req, res) => {
     const body = parse(signupBody, req.body)
-    const user = await auth.signup(ctx(req).db, body)
-    await regenerate(req)
-    req.session.userId = user.id
-    await audit(ctx(req).db, { actorId: user.id, action: 'auth.signup', target: user.email, ip: req.ip })
-    res.status(201).json(await auth.me(ctx(req).db, user.id))
+    assertUncommonPassword(body.password)
+    const context = ctx(req)
+    // the reply never waits for the lookup or the mail: its content and timing are the same for a new and a known address
+    void verification.requestSignup(context, body)
+      .then(({ existingUserId }) => audit(context.db, { actorId: existingUserId, action: existingUserId ? 'auth.signup_existing' : 'auth.signup_requested', target: body.email, ip: req.ip }))
+      .catch((err) => console.error(`[pewter] sign-up for ${body.email}: ${err instanceof Error ? err.message : err}`))
+    res.status(202).json({ message: SIGNUP_MESSAGE })
+  })
+
+  router.get('/verify-email/:token', limiter, async (req, res) => {
+    res.json(await verification.previewVerification(ctx(req).db, String(req.params.token)))
+  })
+
+  router.post('/verify-email/:token', limiter, async (req, res) => {
+    const { password } = parse(verifyEmailBody, req.body ?? {})
+    const { db } = ctx(req)
+    const r = await verification.confirmEmail(db, String(req.params.token), password)
+    if (r.created) {
+      await regenerate(req)
+      req.session.userId = r.userId
+      await audit(db, { actorId: r.userId, action: 'auth.signup', target: r.email, ip: req.ip })
+    } else {
+      await audit(db, { actorId: r.userId, action: 'auth.email_verified', target: r.email, ip: req.ip })
+    }
+    res.json({ created: r.created, me: req.session.userId ? await auth.me(db, req.session.userId) : null })
+  })
+
+  /** A signed-in account whose address is not confirmed asks for a new link. */
+  router.post('/verify-email', limiter, requireSession, async (req, res) => {
+    const mailed = await verification.requestVerificationLink(ctx(req), req.auth!.userId)
+    res.status(202).json({ message: mailed ? 'A message with a confirmation link is on its way.' : 'The message could not be sent; try again later.' })
   })
 
   router.post('/signin', limiter, async (req, res) => {

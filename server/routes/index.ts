@@ -27,6 +27,7 @@ export function apiRouter(context: AppContext) {
   api.use('/auth', accountRoutes(context.config.rateLimitAuth))
   api.use('/invitations', invitationTokenRoutes())
   api.use('/check', checkRoutes())
+  api.use('/mailbox', mailboxRoutes())
 
   const ws = Router({ mergeParams: true })
   ws.use(loadWorkspace)
@@ -39,7 +40,6 @@ export function apiRouter(context: AppContext) {
   ws.use('/invitations', workspaceInvitationRoutes())
   ws.use('/audit', auditRoutes())
   ws.use('/tokens', tokenRoutes())
-  ws.use('/mailbox', mailboxRoutes())
   ws.use('/models', modelRoutes())
   api.use('/workspaces/:ws', ws)
   return api

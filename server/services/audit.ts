@@ -7,6 +7,8 @@ export type AuditAction =
   | 'auth.signin' | 'auth.signin_failed' | 'auth.signup' | 'auth.signout' | 'auth.password_reset'
   | 'member.invited' | 'member.joined' | 'member.role_changed' | 'member.removed'
   | 'member.invitation_revoked' | 'auth.password_reset_requested'
+  | 'auth.signup_requested' | 'auth.signup_existing' | 'auth.email_verified'
+  | 'workspace.settings_changed'
   | 'model.created' | 'model.published' | 'model.approved' | 'model.forked' | 'model.deleted'
   | 'token.created' | 'token.revoked'
   | 'run.started' | 'run.cancelled'

@@ -1,23 +1,11 @@
 import { eq } from 'drizzle-orm'
 import type { Db } from '../db/client'
 import { users } from '../db/schema'
-import { DUMMY_HASH, hashPassword, verifyPassword } from '../auth/passwords'
-import { createWorkspace, listMemberships } from './workspaces'
-import { conflict, HttpError, notFound } from '../errors'
+import { DUMMY_HASH, verifyPassword } from '../auth/passwords'
+import { listMemberships } from './workspaces'
+import { HttpError, notFound } from '../errors'
 import { errorCodes } from '../../shared/api/errors'
-import type { MeReply, SigninBody, SignupBody } from '../../shared/api/auth'
-
-export async function signup(db: Db, body: SignupBody) {
-  const existing = await db.select({ id: users.id }).from(users).where(eq(users.email, body.email)).limit(1)
-  if (existing.length) throw conflict('An account with this e-mail already exists.')
-  const passwordHash = await hashPassword(body.password)
-  return db.transaction(async (tx) => {
-    const [user] = await tx.insert(users).values({ email: body.email, name: body.name, passwordHash }).returning()
-    const ws = await createWorkspace(tx as unknown as Db, `${body.name}'s workspace`, user.id)
-    await tx.update(users).set({ currentWorkspaceId: ws.id }).where(eq(users.id, user.id))
-    return user
-  })
-}
+import type { MeReply, SigninBody } from '../../shared/api/auth'
 
 /** Checks e-mail and password; the same 401 (and the same work) whether or not the e-mail exists. */
 export async function signin(db: Db, body: SigninBody) {
@@ -34,7 +22,7 @@ export async function me(db: Db, userId: number): Promise<MeReply> {
   if (!user) throw notFound('User')
   const workspaces = await listMemberships(db, userId)
   const current = workspaces.find((w) => w.id === user.currentWorkspaceId) ?? workspaces[0] ?? null
-  return { user: { id: user.id, email: user.email, name: user.name }, workspaces, currentWorkspaceId: current?.id ?? null }
+  return { user: { id: user.id, email: user.email, name: user.name, emailVerified: user.emailVerifiedAt !== null }, workspaces, currentWorkspaceId: current?.id ?? null }
 }
 
 export async function switchWorkspace(db: Db, userId: number, workspaceId: number) {

@@ -13,7 +13,8 @@ import type { InvitationDto, InvitationPreview, InviteBody } from '../../shared/
 import { hashSecret, newSecret } from './secrets'
 import { appLink, mailerOf } from './mail-service'
 import { invitationMail } from '../mail/templates'
-import { hashPassword } from '../auth/passwords'
+import { assertUncommonPassword, hashPassword } from '../auth/passwords'
+import { retirePendingSignups } from './email-verification'
 
 export const INVITATION_DAYS = 7
 
@@ -82,9 +83,12 @@ export async function acceptInvitation(db: Db, token: string, who: { userId: num
   let userId = 0
   let passwordHash: string | null = null
   if ('userId' in who) {
-    const [u] = await db.select({ email: users.email }).from(users).where(eq(users.id, who.userId))
+    const [u] = await db.select({ email: users.email, verified: users.emailVerifiedAt }).from(users).where(eq(users.id, who.userId))
     if (!u || u.email !== inv.email) {
       throw new HttpError(403, errorCodes.forbidden, `This invitation is for ${inv.email}; you are signed in as ${u?.email ?? 'someone else'}.`)
+    }
+    if (!u.verified) {
+      throw new HttpError(403, errorCodes.forbidden, `Confirm your e-mail address ${u.email} first (a link by mail, from the invitation page), then accept the invitation.`)
     }
     userId = who.userId
   } else {
@@ -96,6 +100,7 @@ export async function acceptInvitation(db: Db, token: string, who: { userId: num
         ...(!who.password ? [{ path: 'body.password', message: 'required' }] : []),
       ])
     }
+    assertUncommonPassword(who.password)
     passwordHash = await hashPassword(who.password)
   }
   const created = passwordHash !== null
@@ -105,8 +110,10 @@ export async function acceptInvitation(db: Db, token: string, who: { userId: num
       .returning({ id: invitations.id })
     if (!used.length) throw tokenGone('invitation')
     if (passwordHash !== null && 'name' in who) {
-      const [u] = await tx.insert(users).values({ email: inv.email, name: who.name!, passwordHash }).returning({ id: users.id })
+      // the invitation link came by mail to this address: the account starts confirmed
+      const [u] = await tx.insert(users).values({ email: inv.email, name: who.name!, passwordHash, emailVerifiedAt: sql`now()` }).returning({ id: users.id })
       userId = u.id
+      await retirePendingSignups(tx as unknown as Db, inv.email)
     }
     await tx.insert(memberships).values({ workspaceId: ws.id, userId, role: inv.role }).onConflictDoNothing()
     await tx.update(users).set({ currentWorkspaceId: ws.id }).where(eq(users.id, userId))

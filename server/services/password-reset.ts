@@ -1,11 +1,12 @@
 /**
  * Password reset by e-mail: the request answers the same whatever the address (no account
  * discovery); the link's token is single-use, expires after RESET_MINUTES, and only its SHA-256 is
- * stored. A reset signs the account out everywhere (its sessions are deleted).
+ * stored. A reset signs the account out everywhere (its sessions are deleted) and revokes its API
+ * tokens; following the mailed link also confirms the address.
  */
 import { and, eq, gt, isNull, sql } from 'drizzle-orm'
 import type { AppContext } from '../context'
-import { passwordResets, users } from '../db/schema'
+import { apiTokens, passwordResets, users } from '../db/schema'
 import { hashPassword } from '../auth/passwords'
 import { notFound } from '../errors'
 import { hashSecret, newSecret } from './secrets'
@@ -38,10 +39,12 @@ export async function resetPassword(context: AppContext, token: string, password
       .where(and(eq(passwordResets.id, row.id), isNull(passwordResets.usedAt), gt(passwordResets.expiresAt, sql`now()`)))
       .returning({ id: passwordResets.id })
     if (!used.length) throw tokenGone('password-reset')
-    await tx.update(users).set({ passwordHash }).where(eq(users.id, row.userId))
+    await tx.update(users).set({ passwordHash, emailVerifiedAt: sql`coalesce(${users.emailVerifiedAt}, now())` }).where(eq(users.id, row.userId))
     // every other pending link of this account dies with this one
     await tx.update(passwordResets).set({ usedAt: sql`now()` }).where(and(eq(passwordResets.userId, row.userId), isNull(passwordResets.usedAt)))
     await tx.execute(sql`delete from user_sessions where (sess->>'userId')::int = ${row.userId}`)
+    // whoever knew the old password may have made tokens: they end too (the mail says so)
+    await tx.update(apiTokens).set({ revokedAt: sql`now()` }).where(and(eq(apiTokens.userId, row.userId), isNull(apiTokens.revokedAt)))
   })
   return row.userId
 }

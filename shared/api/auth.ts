@@ -1,4 +1,5 @@
 import { z } from 'zod'
+import { PASSWORD_MAX_BYTES, utf8Length, visibleText } from './text'
 
 export const roles = ['admin', 'modeler', 'reviewer', 'viewer'] as const
 export const roleSchema = z.enum(roles)
@@ -14,14 +15,32 @@ export const can = {
 }
 
 export const emailSchema = z.string().trim().toLowerCase().email().max(254)
-export const passwordSchema = z.string().min(8, 'at least 8 characters').max(200)
+export const passwordSchema = z.string().min(8, 'at least 8 characters')
+  .refine((p) => utf8Length(p) <= PASSWORD_MAX_BYTES, `at most ${PASSWORD_MAX_BYTES} bytes (bcrypt ignores anything longer; accented letters take 2 bytes, most symbols 3)`)
+
+/** A person's display name. */
+export const personName = visibleText('the name', 120, 'enter your name')
 
 export const signupBody = z.object({
   email: emailSchema,
   password: passwordSchema,
-  name: z.string().trim().min(1).max(120),
+  name: personName,
 })
 export type SignupBody = z.infer<typeof signupBody>
+
+/** The same 202 reply for a new and a known address. */
+export const signupReply = z.object({ message: z.string() })
+export const SIGNUP_MESSAGE = 'Check your mail: a message with a link to confirm the address is on its way. The account is created when you follow it.'
+
+/** What the verification page shows before confirming (GET /api/auth/verify-email/:token). */
+export const verificationPreview = z.object({
+  email: z.string(),
+  /** a sign-up link: the password chosen at sign-up creates the account */
+  signup: z.boolean(),
+})
+export type VerificationPreview = z.infer<typeof verificationPreview>
+
+export const verifyEmailBody = z.object({ password: z.string().min(1).max(1000).optional() })
 
 export const signinBody = z.object({
   email: emailSchema,
@@ -35,6 +54,8 @@ export const userDto = z.object({
   id: z.number(),
   email: z.string(),
   name: z.string(),
+  /** the owner followed a link mailed to the address; unconfirmed accounts cannot accept invitations */
+  emailVerified: z.boolean(),
 })
 export type UserDto = z.infer<typeof userDto>
 

@@ -7,6 +7,7 @@
  * Conditioning makes a new dataset that records its parent and the steps applied.
  */
 import { z } from 'zod'
+import { visibleText } from './text'
 
 export const datasetPurpose = z.enum(['estimation', 'validation'])
 export type DatasetPurpose = z.infer<typeof datasetPurpose>
@@ -73,7 +74,7 @@ export const appliedStep = z.object({
 export type AppliedStep = z.infer<typeof appliedStep>
 
 export const conditionBody = z.object({
-  name: z.string().trim().min(1).max(200).optional(),
+  name: visibleText('the dataset name', 200).optional(),
   steps: z.array(conditioningStep).min(1, 'give at least one conditioning step').max(20),
   purpose: datasetPurpose.nullable().optional(),
 })
@@ -81,7 +82,7 @@ export type ConditionBody = z.infer<typeof conditionBody>
 
 export const updateDatasetBody = z.object({
   purpose: datasetPurpose.nullable().optional(),
-  name: z.string().trim().min(1).max(200).optional(),
+  name: visibleText('the dataset name', 200).optional(),
 })
 export type UpdateDatasetBody = z.infer<typeof updateDatasetBody>
 
@@ -133,7 +134,7 @@ export type ColumnMapping = z.infer<typeof columnMapping>
 export const createBindingBody = z.object({
   modelId: z.coerce.number().int().positive(),
   version: z.coerce.number().int().positive(),
-  name: z.string().trim().min(1).max(200).optional(),
+  name: visibleText('the binding name', 200).optional(),
   /** omitted: matched automatically against `datasetId`'s columns */
   mapping: columnMapping.optional(),
   /** the dataset whose columns the automatic match uses (default: the project's newest) */
@@ -142,7 +143,7 @@ export const createBindingBody = z.object({
 export type CreateBindingBody = z.infer<typeof createBindingBody>
 
 export const updateBindingBody = z.object({
-  name: z.string().trim().min(1).max(200).optional(),
+  name: visibleText('the binding name', 200).optional(),
   mapping: columnMapping,
 })
 

@@ -22,4 +22,6 @@ export const errorCodes = {
   tooLarge: 'payload_too_large',
   rateLimited: 'rate_limited',
   internal: 'internal_error',
+  /** the Host header names a host this server does not answer to */
+  misdirected: 'misdirected_request',
 } as const

@@ -4,6 +4,7 @@
  * reply checks).
  */
 import { z } from 'zod'
+import { visibleText } from './text'
 
 export const versionStatuses = ['draft', 'approved'] as const
 export const versionStatus = z.enum(versionStatuses)
@@ -184,7 +185,7 @@ export const modelDetailDto = modelListItemDto.extend({
 export type ModelDetailDto = z.infer<typeof modelDetailDto>
 
 export const createModelBody = z.object({
-  title: z.string().trim().min(1, 'a model needs a title').max(120, 'a title has at most 120 characters'),
+  title: visibleText('the model title', 120, 'a model needs a title'),
   description: z.string().max(4000).default(''),
   tags: z.array(tag).max(12, 'at most 12 tags').default([]),
   text: sheetText.min(1, 'the sheet is empty'),
@@ -193,7 +194,7 @@ export const createModelBody = z.object({
 export type CreateModelBody = z.infer<typeof createModelBody>
 
 export const updateModelBody = z.object({
-  title: z.string().trim().min(1, 'a model needs a title').max(120).optional(),
+  title: visibleText('the model title', 120, 'a model needs a title').optional(),
   description: z.string().max(4000).optional(),
   tags: z.array(tag).max(12, 'at most 12 tags').optional(),
 }).refine((b) => b.title !== undefined || b.description !== undefined || b.tags !== undefined, { message: 'nothing to change: give title, description or tags' })
@@ -228,7 +229,7 @@ export type PublishConflictDetails = z.infer<typeof publishConflictDetails>
 export const forkBody = z.object({
   /** the origin's version to fork (default: the latest) */
   version: z.number().int().positive().optional(),
-  title: z.string().trim().min(1, 'a fork needs a title').max(120),
+  title: visibleText('the fork title', 120, 'a fork needs a title'),
 })
 export type ForkBody = z.infer<typeof forkBody>
 

@@ -1,15 +1,16 @@
 import { z } from 'zod'
+import { visibleText } from './text'
 
 export const idParam = z.coerce.number().int().positive()
 
 export const createProjectBody = z.object({
-  name: z.string().trim().min(1, 'a project needs a name').max(120),
+  name: visibleText('the project name', 120, 'a project needs a name'),
   description: z.string().max(4000).default(''),
 })
 export type CreateProjectBody = z.infer<typeof createProjectBody>
 
 export const updateProjectBody = z.object({
-  name: z.string().trim().min(1, 'a project needs a name').max(120).optional(),
+  name: visibleText('the project name', 120, 'a project needs a name').optional(),
   description: z.string().max(4000).optional(),
 })
 export type UpdateProjectBody = z.infer<typeof updateProjectBody>

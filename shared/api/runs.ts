@@ -3,6 +3,7 @@
  * The result itself is the fitting issue's JSON (shared/api/fit.ts) plus the series the results pages plot.
  */
 import { z } from 'zod'
+import { nameProblem, visibleText } from './text'
 import { columnMapping } from './datasets'
 import { fitMethod, fitWeighting, landscapeResult } from './fit'
 
@@ -36,7 +37,8 @@ export type Tolerances = z.infer<typeof tolerances>
 export const createRunBody = z.object({
   modelId: z.coerce.number().int().positive(),
   version: z.coerce.number().int().positive(),
-  name: z.string().trim().max(200).optional(),
+  name: z.string().trim().max(200).optional()
+    .superRefine((s, ctx) => { const p = s ? nameProblem(s) : null; if (p) ctx.addIssue({ code: 'custom', message: `the run name ${p}` }) }),
   bindingId: z.coerce.number().int().positive().optional(),
   estimation: z.array(z.coerce.number().int().positive()).min(1, 'choose at least one estimation dataset').max(20),
   validation: z.array(z.coerce.number().int().positive()).max(20).default([]),
@@ -157,7 +159,7 @@ export const runDto = runSummaryDto.extend({
 })
 export type RunDto = z.infer<typeof runDto>
 
-export const saveParameterSetBody = z.object({ name: z.string().trim().min(1).max(200) })
+export const saveParameterSetBody = z.object({ name: visibleText('the parameter set name', 200) })
 export const publishFromRunBody = z.object({ note: z.string().trim().max(2000).optional() })
 
 export const parameterSetDto = z.object({

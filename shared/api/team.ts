@@ -1,6 +1,7 @@
 /** Request and reply shapes of team administration, invitations, password reset, API tokens and mail. */
 import { z } from 'zod'
-import { emailSchema, passwordSchema, roleSchema } from './auth'
+import { emailSchema, passwordSchema, personName, roleSchema } from './auth'
+import { visibleText } from './text'
 
 export const memberDto = z.object({
   userId: z.number(),
@@ -39,7 +40,7 @@ export type InvitationPreview = z.infer<typeof invitationPreview>
 
 /** Signed in: empty body. Signed out, no account yet: name and password create the account. */
 export const acceptInvitationBody = z.object({
-  name: z.string().trim().min(1).max(120).optional(),
+  name: personName.optional(),
   password: passwordSchema.optional(),
 })
 
@@ -67,7 +68,7 @@ export const auditEntryDto = z.object({
 export type AuditEntryDto = z.infer<typeof auditEntryDto>
 
 export const createTokenBody = z.object({
-  name: z.string().trim().min(1, 'a token needs a name').max(80),
+  name: visibleText('the token name', 80, 'a token needs a name'),
   role: roleSchema,
 })
 export type CreateTokenBody = z.infer<typeof createTokenBody>

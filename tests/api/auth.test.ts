@@ -1,30 +1,76 @@
 import { afterAll, beforeAll, describe, expect, it } from 'vitest'
 import request from 'supertest'
 import { CSRF, demo, makeTestApp, signedIn, type TestApp } from '../helpers/app'
+import { eq } from 'drizzle-orm'
 import { SESSION_COOKIE } from '../../server/auth/session'
+import { BCRYPT_COST, bcryptCost, isCommonPassword } from '../../server/auth/passwords'
+import { nameProblem } from '../../shared/api/text'
+import { users } from '../../server/db/schema'
+import { capturedMail, mailTo, signUpVerified, verificationToken } from '../helpers/signup'
 
 let t: TestApp
 beforeAll(async () => { t = await makeTestApp('auth') })
 afterAll(async () => { await t.close() })
 
-describe('sign-up, sign-in, sign-out', () => {
-  it('signs up a new user who gets a workspace of their own as admin', async () => {
+describe('sign-up with e-mail verification, sign-in, sign-out', () => {
+  it('signs up: 202 without a session, a mailed link plus the chosen password create the account with its own workspace', async () => {
+    const after = capturedMail(t.context).length
     const agent = request.agent(t.app)
     const r = await agent.post('/api/auth/signup').set(CSRF).send({ email: 'New.Person@Example.org', password: 'long-enough-1', name: 'New Person' })
-    expect(r.status).toBe(201)
-    expect(r.body.user.email).toBe('new.person@example.org')
-    expect(r.body.workspaces).toHaveLength(1)
-    expect(r.body.workspaces[0].role).toBe('admin')
-    expect(r.body.currentWorkspaceId).toBe(r.body.workspaces[0].id)
-    const me = await agent.get('/api/auth/me')
-    expect(me.status).toBe(200)
-    expect(me.body.user.name).toBe('New Person')
+    expect(r.status).toBe(202)
+    expect(r.body.message).toMatch(/Check your mail/)
+    expect((await agent.get('/api/auth/me')).status).toBe(401)
+    const mail = await mailTo(t.context, 'new.person@example.org', /Confirm your e-mail/, after)
+    expect(mail.text).toMatch(/no account is created/)
+    const token = verificationToken(mail)
+    expect((await t.context.db.select().from(users).where(eq(users.email, 'new.person@example.org')))).toHaveLength(0)
+    expect((await request(t.app).get(`/api/auth/verify-email/${token}`)).body).toEqual({ email: 'new.person@example.org', signup: true })
+
+    // someone who clicks the link without knowing the password chosen at sign-up gets nothing
+    const stranger = await request(t.app).post(`/api/auth/verify-email/${token}`).set(CSRF).send({ password: 'not-the-one-1' })
+    expect(stranger.status).toBe(401)
+    expect(stranger.body.error.details[0].path).toBe('body.password')
+
+    const v = await agent.post(`/api/auth/verify-email/${token}`).set(CSRF).send({ password: 'long-enough-1' })
+    expect(v.status).toBe(200)
+    expect(v.body.created).toBe(true)
+    expect(v.body.me.user).toMatchObject({ email: 'new.person@example.org', name: 'New Person', emailVerified: true })
+    expect(v.body.me.workspaces).toHaveLength(1)
+    expect(v.body.me.workspaces[0].role).toBe('admin')
+    expect(v.body.me.currentWorkspaceId).toBe(v.body.me.workspaces[0].id)
+    expect((await agent.get('/api/auth/me')).body.user.name).toBe('New Person')
+    expect((await request(t.app).post(`/api/auth/verify-email/${token}`).set(CSRF).send({ password: 'long-enough-1' })).status).toBe(410)
   })
 
-  it('refuses a second sign-up with the same e-mail (409)', async () => {
-    const r = await request(t.app).post('/api/auth/signup').set(CSRF).send({ email: 'new.person@example.org', password: 'long-enough-2', name: 'Again' })
-    expect(r.status).toBe(409)
-    expect(r.body.error.code).toBe('conflict')
+  it('answers a sign-up for a known address exactly as for a new one, mails the owner a notice and changes nothing', async () => {
+    const after = capturedMail(t.context).length
+    const known = await request(t.app).post('/api/auth/signup').set(CSRF).send({ email: demo.viewer, password: 'takeover-try-1', name: 'Not Vale' })
+    const fresh = await request(t.app).post('/api/auth/signup').set(CSRF).send({ email: 'brand.new@example.org', password: 'takeover-try-1', name: 'Brand New' })
+    expect(known.status).toBe(202)
+    expect(fresh.status).toBe(202)
+    expect(known.body).toEqual(fresh.body)
+    expect(known.headers['set-cookie']).toBeUndefined()
+    expect(fresh.headers['set-cookie']).toBeUndefined()
+    const notice = await mailTo(t.context, demo.viewer, /tried to create a Pewter account/, after)
+    expect(notice.text).toMatch(/No new account was made and nothing changed/)
+    await mailTo(t.context, 'brand.new@example.org', /Confirm your e-mail/, after)
+    expect(capturedMail(t.context).slice(after).some((m) => m.to === demo.viewer && /verify-email/.test(m.text))).toBe(false)
+    expect((await request(t.app).post('/api/auth/signin').set(CSRF).send({ email: demo.viewer, password: 'takeover-try-1' })).status).toBe(401)
+    expect((await request(t.app).post('/api/auth/signin').set(CSRF).send({ email: demo.viewer, password: 'pewter-demo' })).status).toBe(200)
+  })
+
+  it('an unconfirmed account asks for a link and confirms its address with it', async () => {
+    const { agent } = await signUpVerified(t, { email: 'legacy.user@example.org', password: 'long-enough-2', name: 'Legacy User' })
+    // an account from before confirmation existed
+    await t.context.db.update(users).set({ emailVerifiedAt: null }).where(eq(users.email, 'legacy.user@example.org'))
+    expect((await agent.get('/api/auth/me')).body.user.emailVerified).toBe(false)
+    const after = capturedMail(t.context).length
+    expect((await agent.post('/api/auth/verify-email').set(CSRF)).status).toBe(202)
+    const token = verificationToken(await mailTo(t.context, 'legacy.user@example.org', /Confirm your e-mail/, after))
+    expect((await request(t.app).get(`/api/auth/verify-email/${token}`)).body.signup).toBe(false)
+    expect((await request(t.app).post(`/api/auth/verify-email/${token}`).set(CSRF).send({})).status).toBe(200)
+    expect((await agent.get('/api/auth/me')).body.user.emailVerified).toBe(true)
+    expect((await agent.post('/api/auth/verify-email').set(CSRF)).status).toBe(409)
   })
 
   it('signs in, keeps the session across requests, and signs out', async () => {
@@ -61,11 +107,15 @@ describe('sign-up, sign-in, sign-out', () => {
     expect(wrong.body.error.message).not.toMatch(/exist|unknown|no such/i)
   })
 
-  it('stores passwords as bcrypt hashes with cost >= 10', async () => {
+  it('stores passwords as bcrypt hashes; the cost is 12 unless a test run lowers it', async () => {
     const rows = await t.context.database.pool.query('select password_hash from users where email = $1', [demo.admin])
     const hash: string = rows.rows[0].password_hash
     expect(hash).toMatch(/^\$2[aby]\$\d\d\$/)
-    expect(Number(hash.slice(4, 6))).toBeGreaterThanOrEqual(10)
+    expect(Number(hash.slice(4, 6))).toBe(BCRYPT_COST)
+    expect(bcryptCost({})).toBe(12)
+    expect(bcryptCost({ NODE_ENV: 'production', PEWTER_BCRYPT_COST: '4' })).toBe(12)
+    expect(bcryptCost({ NODE_ENV: 'test', PEWTER_BCRYPT_COST: '6' })).toBe(6)
+    expect(bcryptCost({ NODE_ENV: 'test', PEWTER_BCRYPT_COST: '2' })).toBe(12)
   })
 
   it('switches the current workspace only to one the user belongs to', async () => {
@@ -103,6 +153,46 @@ describe('validation', () => {
     expect(r.body.error.details[0].path).toBe('params.pid')
   })
 
+  it('refuses passwords longer than 72 bytes (bcrypt would ignore the rest) and the most common passwords', async () => {
+    // 36 × "é" is 36 characters but 72 bytes in UTF-8: accepted; one more byte is refused
+    const atLimit = await request(t.app).post('/api/auth/signup').set(CSRF).send({ email: 'bytes@example.org', password: 'é'.repeat(36), name: 'Bytes' })
+    expect(atLimit.status).toBe(202)
+    const over = await request(t.app).post('/api/auth/signup').set(CSRF).send({ email: 'bytes@example.org', password: `${'é'.repeat(36)}x`, name: 'Bytes' })
+    expect(over.status).toBe(400)
+    expect(over.body.error.details[0]).toMatchObject({ path: 'body.password' })
+    expect(over.body.error.details[0].message).toMatch(/at most 72 bytes/)
+    // "password1" and "iloveyou" head every published list of leaked passwords (the package's list is used)
+    for (const common of ['password1', 'ILoveYou', 'qwertyuiop']) {
+      const r = await request(t.app).post('/api/auth/signup').set(CSRF).send({ email: 'common@example.org', password: common, name: 'Common' })
+      expect(r.status).toBe(400)
+      expect(r.body.error.details[0].path).toBe('body.password')
+      expect(r.body.error.message).toMatch(/most common/)
+    }
+    expect(isCommonPassword('long-enough-1')).toBe(false)
+  })
+
+  it('refuses names and titles made of invisible characters or carrying direction controls, naming the field', async () => {
+    const blank = await request(t.app).post('/api/auth/signup').set(CSRF).send({ email: 'blank@example.org', password: 'long-enough-1', name: '\u200B\u2060\uFEFF' })
+    expect(blank.status).toBe(400)
+    expect(blank.body.error.details[0]).toEqual({ path: 'body.name', message: 'the name has no visible character' })
+    const filler = await request(t.app).post('/api/auth/signup').set(CSRF).send({ email: 'blank@example.org', password: 'long-enough-1', name: '\u3164\u3164' })
+    expect(filler.status).toBe(400)
+    const agent = await signedIn(t.app, demo.modeler)
+    const rlo = await agent.post('/api/workspaces/tinmoor/projects').set(CSRF).send({ name: 'Boiler \u202Efdp.exe' })
+    expect(rlo.status).toBe(400)
+    expect(rlo.body.error.details[0].path).toBe('body.name')
+    expect(rlo.body.error.details[0].message).toMatch(/the project name contains a direction-control character/)
+    const model = await agent.post('/api/workspaces/tinmoor/models').set(CSRF).send({ title: '\u200E\u200F', text: 'x' })
+    expect(model.status).toBe(400)
+    expect(model.body.error.details.some((d: { path: string; message: string }) => d.path === 'body.title' && /the model title/.test(d.message))).toBe(true)
+    const token = await agent.post('/api/workspaces/tinmoor/tokens').set(CSRF).send({ name: '\u00A0\u2800', role: 'viewer' })
+    expect(token.status).toBe(400)
+    expect(token.body.error.details[0]).toEqual({ path: 'body.name', message: 'the token name has no visible character' })
+    // ordinary names in any script pass
+    expect(nameProblem('Rührkessel R-2 (Ölbad)')).toBeNull()
+    expect(nameProblem('مرحلة التسخين')).toBeNull()
+  })
+
   it('answers unknown API routes with a JSON 404', async () => {
     const r = await request(t.app).get('/api/no-such-thing')
     expect(r.status).toBe(404)
@@ -133,9 +223,8 @@ describe('roles', () => {
   })
 
   it("answers another workspace's resources with 404", async () => {
-    const outsider = request.agent(t.app)
-    const s = await outsider.post('/api/auth/signup').set(CSRF).send({ email: 'outsider@example.org', password: 'long-enough-3', name: 'Outsider' })
-    const ownWs = s.body.workspaces[0].slug
+    const { agent: outsider, me } = await signUpVerified(t, { email: 'outsider@example.org', password: 'long-enough-3', name: 'Outsider' })
+    const ownWs = me.workspaces[0].slug
     const own = await outsider.post(`/api/workspaces/${ownWs}/projects`).set(CSRF).send({ name: 'mine' })
     expect(own.status).toBe(201)
     expect((await outsider.get('/api/workspaces/tinmoor/projects')).status).toBe(404)
@@ -158,6 +247,23 @@ describe('protection', () => {
     const agent = await signedIn(t.app, demo.modeler)
     const r = await agent.post('/api/workspaces/tinmoor/projects').send({ name: 'x' })
     expect(r.status).toBe(403)
+  })
+
+  it('answers only to PUBLIC_URL\'s host and loopback names (DNS rebinding): others get 421', async () => {
+    const foreign = await request(t.app).get('/api/health').set('Host', 'rebind.attacker.example:3000')
+    expect(foreign.status).toBe(421)
+    expect(foreign.body.error.code).toBe('misdirected_request')
+    expect(foreign.body.error.message).toMatch(/rebind\.attacker\.example/)
+    expect((await request(t.app).get('/api/health').set('Host', 'localhost:3000')).status).toBe(200)
+    expect((await request(t.app).get('/api/health').set('Host', '[::1]:3000')).status).toBe(200)
+    expect((await request(t.app).get('/api/health').set('Host', '127.0.0.2')).status).toBe(200)
+    const own = await makeTestApp('hostcheck', { publicUrl: 'https://pewter.tinmoor.example' }, { seed: false })
+    try {
+      expect((await request(own.app).get('/api/health').set('Host', 'pewter.tinmoor.example')).status).toBe(200)
+      expect((await request(own.app).get('/api/health').set('Host', 'pewter.tinmoor.example.attacker.example')).status).toBe(421)
+    } finally {
+      await own.close()
+    }
   })
 
   it('sends helmet security headers', async () => {

@@ -8,6 +8,7 @@ import { afterAll, beforeAll, describe, expect, it } from 'vitest'
 import request from 'supertest'
 import { createHash } from 'node:crypto'
 import { CSRF, demo, makeTestApp, signedIn, type Agent, type TestApp } from '../helpers/app'
+import { signUpVerified } from '../helpers/signup'
 import { bufferTemplate, newProject, upload, WS } from './runs-helpers'
 
 let t: TestApp
@@ -177,9 +178,7 @@ describe('roles and workspaces', () => {
   })
 
   it('another workspace cannot see the project or its datasets (404)', async () => {
-    const outsider = request.agent(t.app)
-    await outsider.post('/api/auth/signup').set(CSRF).send({ email: 'outsider@example.org', password: 'long-enough-1', name: 'Outsider' })
-    const me = (await outsider.get('/api/auth/me')).body
+    const { agent: outsider, me } = await signUpVerified(t, { email: 'outsider@example.org', password: 'long-enough-1', name: 'Outsider' })
     const own = me.workspaces[0].slug
     const list = (await modeler.get(`${WS}/projects/${pid}/datasets`)).body.datasets
     expect((await outsider.get(`${WS}/projects/${pid}/datasets`)).status).toBe(404)

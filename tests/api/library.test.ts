@@ -5,6 +5,7 @@
 import { afterAll, beforeAll, describe, expect, it } from 'vitest'
 import request from 'supertest'
 import { CSRF, demo, makeTestApp, signedIn, type Agent, type TestApp } from '../helpers/app'
+import { signUpVerified } from '../helpers/signup'
 import { drainSheet, drainSheetV2, drainSheetWithError, lagSheet } from './library-sheets'
 import { checkReply, listModelsReply, modelDetailDto, versionDto } from '../../shared/api/models'
 
@@ -273,10 +274,8 @@ describe('publishing, maintainers and approval', () => {
 
 describe('another workspace', () => {
   it('answers 404 for a foreign workspace and for its models reached through ours', async () => {
-    const outsider = request.agent(t.app)
-    const s = await outsider.post('/api/auth/signup').set(CSRF).send({ email: 'outsider@example.org', password: 'long-enough-1', name: 'Outsider' })
-    expect(s.status).toBe(201)
-    const ows = s.body.workspaces[0].slug
+    const { agent: outsider, me } = await signUpVerified(t, { email: 'outsider@example.org', password: 'long-enough-1', name: 'Outsider' })
+    const ows = me.workspaces[0].slug
     const theirs = await outsider.post(`/api/workspaces/${ows}/models`).set(CSRF).send({ title: 'Their lag', text: lagSheet })
     expect(theirs.status).toBe(201)
     const tid = theirs.body.id

@@ -4,6 +4,7 @@ import request from 'supertest'
 import { eq } from 'drizzle-orm'
 import { CSRF, demo, makeTestApp, signedIn, type TestApp } from '../helpers/app'
 import { memberships, users, workspaces } from '../../server/db/schema'
+import { signUpVerified } from '../helpers/signup'
 
 let t: TestApp
 beforeAll(async () => { t = await makeTestApp('team', { smtpUrl: 'smtp://127.0.0.1:9' }) })
@@ -87,8 +88,7 @@ describe('the last admin', () => {
   })
 
   it('removing a member ends their access and revokes their tokens', async () => {
-    const person = request.agent(t.app)
-    await person.post('/api/auth/signup').set(CSRF).send({ email: 'temp.worker@example.org', password: 'long-enough-5', name: 'Temp Worker' })
+    const { agent: person } = await signUpVerified(t, { email: 'temp.worker@example.org', password: 'long-enough-5', name: 'Temp Worker' })
     const pid = await idOf('temp.worker@example.org')
     const [ws] = await t.context.db.select().from(workspaces).where(eq(workspaces.slug, 'tinmoor'))
     await t.context.db.insert(memberships).values({ workspaceId: ws.id, userId: pid, role: 'modeler' })
@@ -140,9 +140,8 @@ describe('audit log', () => {
   })
 
   it('does not show another workspace its members’ events', async () => {
-    const outsider = request.agent(t.app)
-    const s = await outsider.post('/api/auth/signup').set(CSRF).send({ email: 'elsewhere@example.org', password: 'long-enough-6', name: 'Elsewhere' })
-    const own = s.body.workspaces[0].slug
+    const { agent: outsider, me } = await signUpVerified(t, { email: 'elsewhere@example.org', password: 'long-enough-6', name: 'Elsewhere' })
+    const own = me.workspaces[0].slug
     const r = await outsider.get(`/api/workspaces/${own}/audit`)
     expect(r.status).toBe(200)
     expect(r.body.entries.every((e: { actor: { email: string } | null }) => !e.actor || e.actor.email === 'elsewhere@example.org')).toBe(true)
