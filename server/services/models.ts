@@ -15,6 +15,7 @@ import { audit } from './audit'
 import { checkSheet } from './sheet-check'
 import { diffLines, diffParameters } from './diff'
 import { slugify } from './workspaces'
+import { fourEyesRule } from './workspace-settings'
 import { errorCodes } from '../../shared/api/errors'
 import { can, type Role } from '../../shared/api/auth'
 import {
@@ -379,6 +380,9 @@ export async function approveVersion(db: Db, actor: Actor, modelId: number, numb
     const m = await getModelRow(tx, actor.workspaceId, modelId, true)
     const row = await versionRow(tx, m.id, number)
     if (row.status === 'approved') throw conflict(`Version ${number} is already approved.`)
+    if (row.authorId === actor.userId && await fourEyesRule(tx as unknown as Db, actor.workspaceId)) {
+      throw forbidden(`This workspace applies the four-eyes rule: you wrote version ${number}, so another reviewer or admin must approve it.`)
+    }
     const [u] = await tx.update(modelVersions).set({ status: 'approved', approvedBy: actor.userId, approvedAt: new Date() })
       .where(eq(modelVersions.id, row.id)).returning()
     await tx.update(models).set({ updatedAt: new Date() }).where(eq(models.id, m.id))

@@ -48,6 +48,14 @@ export const passwordResetRequestBody = z.object({ email: emailSchema })
 export const passwordResetBody = z.object({ password: passwordSchema })
 
 export const settingsBody = z.object({ notifyOnFit: z.boolean() })
+
+/** A workspace's own rules (GET by any member, PUT by admins). */
+export const workspaceSettingsDto = z.object({
+  /** four-eyes rule: a model version cannot be approved by its own author */
+  fourEyes: z.boolean(),
+})
+export type WorkspaceSettingsDto = z.infer<typeof workspaceSettingsDto>
+export const workspaceSettingsBody = workspaceSettingsDto.partial()
 export type SettingsDto = z.infer<typeof settingsBody>
 
 export const auditQuery = z.object({

@@ -1,5 +1,6 @@
 /** Calls of the /api/auth routes; shapes come from shared/api/auth.ts. */
-import { meReply, type MeReply, type SigninBody, type SignupBody } from '@shared/api/auth'
+import { z } from 'zod'
+import { meReply, signupReply, verificationPreview, type MeReply, type SigninBody, type SignupBody } from '@shared/api/auth'
 import { api, ApiError } from './client'
 
 /** The signed-in user, or null when the server answers 401 (no session). */
@@ -26,9 +27,24 @@ export async function signIn(body: SigninBody): Promise<MeReply | null> {
   return meAfter(await api.post('/api/auth/signin', body, { silent: [401, 400] }))
 }
 
-export async function signUp(body: SignupBody): Promise<MeReply | null> {
-  return meAfter(await api.post('/api/auth/signup', body, { silent: [400, 409] }))
+/** Always "check your mail" (the same for a new and a known address): the account is made by the mailed link. */
+export async function signUp(body: SignupBody): Promise<string> {
+  return (await api.post('/api/auth/signup', body, { schema: signupReply, silent: [400] })).message
 }
+
+export const previewVerification = (token: string) =>
+  api.get(`/api/auth/verify-email/${encodeURIComponent(token)}`, { schema: verificationPreview, silent: [404, 410] })
+
+/** Follows a verification link; a sign-up link needs the password chosen at sign-up and opens a session. */
+export const confirmEmail = (token: string, password?: string) =>
+  api.post(`/api/auth/verify-email/${encodeURIComponent(token)}`, password ? { password } : {}, {
+    schema: z.object({ created: z.boolean(), me: meReply.nullable() }),
+    silent: [400, 401, 404, 409, 410],
+  })
+
+/** A signed-in account whose address is not confirmed asks for a new link. */
+export const requestVerificationLink = () =>
+  api.post('/api/auth/verify-email', undefined, { schema: signupReply, silent: [409] }).then((r) => r.message)
 
 export async function signOut(): Promise<void> {
   await api.post('/api/auth/signout', undefined, { silent: [401] })

@@ -2,8 +2,8 @@
 import { z } from 'zod'
 import type { Role } from '@shared/api/auth'
 import {
-  apiTokenDto, auditEntryDto, createdTokenReply, invitationDto, invitationPreview, mailDto, memberDto, settingsBody,
-  type CreateTokenBody, type InviteBody,
+  apiTokenDto, auditEntryDto, createdTokenReply, invitationDto, invitationPreview, mailDto, memberDto, settingsBody, workspaceSettingsDto,
+  type CreateTokenBody, type InviteBody, type WorkspaceSettingsDto,
 } from '@shared/api/team'
 import { meReply } from '@shared/api/auth'
 import { api } from './client'
@@ -31,8 +31,9 @@ export const createToken = (slug: string, body: CreateTokenBody) =>
   api.post(`${ws(slug)}/tokens`, body, { schema: createdTokenReply, silent: [400, 403] })
 export const revokeToken = (slug: string, id: number) => api.delete(`${ws(slug)}/tokens/${id}`)
 
-export const listMailbox = (slug: string) =>
-  api.get(`${ws(slug)}/mailbox`, { schema: z.object({ messages: z.array(mailDto), capturing: z.boolean() }) })
+/** The signed-in user's own captured local mail. */
+export const listMailbox = () =>
+  api.get('/api/mailbox', { schema: z.object({ messages: z.array(mailDto), capturing: z.boolean() }) })
 
 export const previewInvitation = (token: string) =>
   api.get(`/api/invitations/${encodeURIComponent(token)}`, { schema: invitationPreview, silent: [404, 410] })
@@ -46,6 +47,10 @@ export const requestPasswordReset = (email: string) =>
   api.post('/api/auth/password-reset', { email }, { schema: z.object({ message: z.string() }), silent: [400] })
 export const resetPassword = (token: string, password: string) =>
   api.post(`/api/auth/password-reset/${encodeURIComponent(token)}`, { password }, { schema: z.object({ message: z.string() }), silent: [400, 404, 410] })
+
+export const getWorkspaceSettings = (slug: string) => api.get(`${ws(slug)}/settings`, { schema: workspaceSettingsDto })
+export const saveWorkspaceSettings = (slug: string, body: Partial<WorkspaceSettingsDto>) =>
+  api.put(`${ws(slug)}/settings`, body, { schema: workspaceSettingsDto })
 
 export const getSettings = () => api.get('/api/auth/settings', { schema: settingsBody })
 export const saveSettings = (notifyOnFit: boolean) => api.put('/api/auth/settings', { notifyOnFit }, { schema: settingsBody })

@@ -57,6 +57,12 @@ export const router = createRouter({
       meta: { public: true, title: 'Choose a new password' },
     },
     {
+      path: '/verify-email/:token',
+      name: 'verify-email',
+      component: () => import('@/views/VerifyEmailView.vue'),
+      meta: { public: true, title: 'Confirm your e-mail address' },
+    },
+    {
       path: '/invitations/:token',
       name: 'accept-invitation',
       component: () => import('@/views/AcceptInvitationView.vue'),
@@ -144,7 +150,7 @@ export const router = createRouter({
           path: 'mailbox',
           name: 'mailbox',
           component: () => import('@/views/MailboxView.vue'),
-          meta: { title: 'Captured mailbox', section: 'team', requires: 'administer' },
+          meta: { title: 'Your captured mail', section: 'team' },
         },
       ],
     },

@@ -69,11 +69,17 @@ export const useSessionStore = defineStore('session', () => {
     setMe(await auth.signIn(body))
   }
 
-  async function signUp(body: SignupBody): Promise<void> {
-    let next = await auth.signUp(body)
-    // If the server does not open a session on sign-up, sign in with the same credentials.
-    if (next === null) next = await auth.signIn({ email: body.email, password: body.password })
-    setMe(next)
+  /** Asks for an account; resolves to the server's "check your mail" message (no session yet). */
+  async function signUp(body: SignupBody): Promise<string> {
+    return auth.signUp(body)
+  }
+
+  /** Follows an e-mail verification link; a sign-up link opens the session of the new account. */
+  async function confirmEmail(token: string, password?: string): Promise<{ created: boolean }> {
+    const r = await auth.confirmEmail(token, password)
+    if (r.me) setMe(r.me)
+    else await refresh()
+    return { created: r.created }
   }
 
   async function signOut(): Promise<void> {
@@ -116,6 +122,7 @@ export const useSessionStore = defineStore('session', () => {
     refresh,
     signIn,
     signUp,
+    confirmEmail,
     signOut,
     switchWorkspace,
     clear,

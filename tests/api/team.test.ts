@@ -5,6 +5,7 @@ import { eq } from 'drizzle-orm'
 import { CSRF, demo, makeTestApp, signedIn, type TestApp } from '../helpers/app'
 import { memberships, users, workspaces } from '../../server/db/schema'
 import { signUpVerified } from '../helpers/signup'
+import { drainSheet } from './library-sheets'
 
 let t: TestApp
 beforeAll(async () => { t = await makeTestApp('team', { smtpUrl: 'smtp://127.0.0.1:9' }) })
@@ -145,5 +146,36 @@ describe('audit log', () => {
     const r = await outsider.get(`/api/workspaces/${own}/audit`)
     expect(r.status).toBe(200)
     expect(r.body.entries.every((e: { actor: { email: string } | null }) => !e.actor || e.actor.email === 'elsewhere@example.org')).toBe(true)
+  })
+})
+
+describe('the four-eyes rule', () => {
+  it('off by default; an admin turns it on (audited) and then nobody approves a version they wrote', async () => {
+    const admin = await signedIn(t.app, demo.admin)
+    const reviewer = await signedIn(t.app, demo.reviewer)
+    const modeler = await signedIn(t.app, demo.modeler)
+    expect((await reviewer.get('/api/workspaces/tinmoor/settings')).body).toEqual({ fourEyes: false })
+    const refused = await modeler.put('/api/workspaces/tinmoor/settings').set(CSRF).send({ fourEyes: true })
+    expect(refused.status).toBe(403)
+
+    const mine = await admin.post('/api/workspaces/tinmoor/models').set(CSRF).send({ title: 'Four-eyes drain', text: drainSheet })
+    expect(mine.status).toBe(201)
+    const on = await admin.put('/api/workspaces/tinmoor/settings').set(CSRF).send({ fourEyes: true })
+    expect(on.status).toBe(200)
+    expect(on.body).toEqual({ fourEyes: true })
+    const audit = await admin.get('/api/workspaces/tinmoor/audit?action=workspace.settings_changed')
+    expect(audit.body.entries[0]).toMatchObject({ actor: { email: demo.admin }, details: { before: { fourEyes: false }, after: { fourEyes: true } } })
+
+    const self = await admin.post(`/api/workspaces/tinmoor/models/${mine.body.id}/versions/1/approve`).set(CSRF)
+    expect(self.status).toBe(403)
+    expect(self.body.error.message).toMatch(/four-eyes rule: you wrote version 1/)
+    const other = await reviewer.post(`/api/workspaces/tinmoor/models/${mine.body.id}/versions/1/approve`).set(CSRF)
+    expect(other.status).toBe(200)
+    expect(other.body.status).toBe('approved')
+
+    // off again: an author may approve their own version
+    expect((await admin.put('/api/workspaces/tinmoor/settings').set(CSRF).send({ fourEyes: false })).body).toEqual({ fourEyes: false })
+    const second = await admin.post('/api/workspaces/tinmoor/models').set(CSRF).send({ title: 'Four-eyes drain two', text: drainSheet })
+    expect((await admin.post(`/api/workspaces/tinmoor/models/${second.body.id}/versions/1/approve`).set(CSRF)).status).toBe(200)
   })
 })

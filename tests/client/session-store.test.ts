@@ -13,6 +13,7 @@ import { DEMO_PASSWORD } from '../../server/db/seed'
 import { memberships, workspaces } from '../../server/db/schema'
 import { ApiError, api, setErrorNotifier } from '../../src/api/client'
 import { useSessionStore } from '../../src/stores/useSessionStore'
+import { capturedMail, mailTo, verificationToken } from '../helpers/signup'
 
 let t: TestApp
 let server: Server
@@ -98,8 +99,14 @@ describe('session store against the server', () => {
 
   it('signs up into a workspace of their own, switches between workspaces, and signs out', async () => {
     const session = useSessionStore()
-    await session.signUp({ email: 'tess.trial@tinmoor.example', password: 'long-enough-9', name: 'Tess Trial' })
+    const after = capturedMail(t.context).length
+    const message = await session.signUp({ email: 'tess.trial@tinmoor.example', password: 'long-enough-9', name: 'Tess Trial' })
+    expect(message).toMatch(/Check your mail/)
+    expect(session.isSignedIn).toBe(false)
+    const token = verificationToken(await mailTo(t.context, 'tess.trial@tinmoor.example', /Confirm your e-mail/, after))
+    expect(await session.confirmEmail(token, 'long-enough-9')).toEqual({ created: true })
     expect(session.isSignedIn).toBe(true)
+    expect(session.user?.emailVerified).toBe(true)
     expect(session.workspaces).toHaveLength(1)
     expect(session.role).toBe('admin')
     const own = session.currentWorkspace!
