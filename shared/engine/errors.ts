@@ -35,10 +35,44 @@ export class NonFiniteDerivativeError extends SimulationError {
   }
 }
 
+/**
+ * What the run had in use when it failed, for advice on the next thing to try that has not been
+ * tried (set by simulate()).
+ */
+export interface RunContext {
+  /** the method that was stepping: 'rk45', 'odex', 'stiff', or 'auto' before/after its switch */
+  solver: string
+  /** auto had switched to the stiff method */
+  switched: boolean
+  /** the smallest relative tolerance */
+  rtol: number
+  maxSteps: number
+  /** sensitivities were integrated under error control */
+  sensitivities: boolean
+}
+
+/** The next things to try, in order, leaving out what the run already did. */
+export function adviceFor(code: 'step_limit' | 'step_too_small', ctx: RunContext): string {
+  const stiffInUse = ctx.solver === 'stiff' || ctx.switched
+  const out: string[] = []
+  if (code === 'step_too_small') {
+    out.push('look for a blow-up, a division by zero or a jump in the sheet near that time')
+    if (!stiffInUse) out.push(`try solver 'stiff' (the run used '${ctx.solver}'${ctx.solver === 'auto' ? ' and did not switch' : ''})`)
+    if (ctx.rtol < 1e-10) out.push(`loosen rtol (now ${fmt(ctx.rtol)})`)
+    return out.join('; ')
+  }
+  if (!stiffInUse) out.push(`try solver 'stiff' (the run used '${ctx.solver}'${ctx.solver === 'auto' ? ' and did not detect stiffness' : ''})`)
+  out.push(`raise maxSteps (now ${ctx.maxSteps})`)
+  if (ctx.rtol < 1e-6) out.push(`loosen rtol (now ${fmt(ctx.rtol)})`)
+  if (ctx.sensitivities) out.push('leave the sensitivities out of error control (errorControl: false)')
+  if (stiffInUse) out.push('check the sheet for fast oscillation or inputs that jump often (the stiff method was already in use)')
+  return out.join('; ')
+}
+
 export class StepSizeTooSmallError extends SimulationError {
   readonly h: number
-  constructor(t: number, h: number) {
-    super('step_too_small', `step size too small (h = ${fmt(h)}) at t = ${fmt(t)}: the solution may blow up or the problem is stiff or discontinuous there`, t)
+  constructor(t: number, h: number, advice?: string) {
+    super('step_too_small', `step size too small (h = ${fmt(h)}) at t = ${fmt(t)}: ${advice ?? 'the solution may blow up or the problem is stiff or discontinuous there'}`, t)
     this.name = 'StepSizeTooSmallError'
     this.h = h
   }
@@ -46,8 +80,8 @@ export class StepSizeTooSmallError extends SimulationError {
 
 export class StepLimitError extends SimulationError {
   readonly maxSteps: number
-  constructor(maxSteps: number, t: number) {
-    super('step_limit', `step limit of ${maxSteps} steps exceeded at t = ${fmt(t)} (raise maxSteps, loosen the tolerances or try the stiff solver)`, t)
+  constructor(maxSteps: number, t: number, advice?: string) {
+    super('step_limit', `step limit of ${maxSteps} steps exceeded at t = ${fmt(t)} (${advice ?? 'raise maxSteps, loosen the tolerances or try the stiff solver'})`, t)
     this.name = 'StepLimitError'
     this.maxSteps = maxSteps
   }

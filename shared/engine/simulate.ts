@@ -14,7 +14,7 @@
  */
 import type { CompiledModel } from '../sheet/compiled'
 import type { SimulationRequest, SimulationResult, SolverName } from './simulate-contract'
-import { AbortedError, SimulationRequestError, fmt } from './errors'
+import { AbortedError, SimulationRequestError, StepLimitError, StepSizeTooSmallError, adviceFor, fmt, type RunContext } from './errors'
 import { InputSet } from './inputs'
 import { ModelSystem, type SensSpec } from './system'
 import { solveSteady, steadyIndices } from './steady'
@@ -246,31 +246,35 @@ export function simulate(model: CompiledModel, req: SimulationRequest): Simulati
     const checkJumps = tauHold || inputs.hasHold
     const nSlots = inputs.nSlots
     let a = t0
-    for (let k = 0; k <= bps.length; k++) {
-      const b = k < bps.length ? bps[k] : tEnd
-      if (k > 0 && checkJumps) inputs.eval(a, ws.uo) // left limit at the breakpoint
-      if (k > 0 && tauSlope) inputs.slope(ws.sl)
-      inputs.setSegment(0.5 * (a + b))
-      if (k > 0 && (checkJumps || tauSlope)) {
-        let jump = false
-        if (checkJumps) {
-          inputs.eval(a, ws.duo)
-          for (let i = 0; i < nSlots; i++) if (ws.uo[i] !== ws.duo[i]) jump = true
-        }
-        if (tauSlope && !jump) {
-          inputs.slope(ws.sr)
-          for (let j = 0; j < ns && !jump; j++) {
-            const slots = sens[j].delaySlots
-            for (let q = 0; q < slots.length; q++) if (ws.sl[slots[q]] !== ws.sr[slots[q]]) jump = true
+    try {
+      for (let k = 0; k <= bps.length; k++) {
+        const b = k < bps.length ? bps[k] : tEnd
+        if (k > 0 && checkJumps) inputs.eval(a, ws.uo) // left limit at the breakpoint
+        if (k > 0 && tauSlope) inputs.slope(ws.sl)
+        inputs.setSegment(0.5 * (a + b))
+        if (k > 0 && (checkJumps || tauSlope)) {
+          let jump = false
+          if (checkJumps) {
+            inputs.eval(a, ws.duo)
+            for (let i = 0; i < nSlots; i++) if (ws.uo[i] !== ws.duo[i]) jump = true
+          }
+          if (tauSlope && !jump) {
+            inputs.slope(ws.sr)
+            for (let j = 0; j < ns && !jump; j++) {
+              const slots = sens[j].delaySlots
+              for (let q = 0; q < slots.length; q++) if (ws.sl[slots[q]] !== ws.sr[slots[q]]) jump = true
+            }
+          }
+          if (jump) {
+            if (tauHold) tauJumps(model, ws, inputs, solver.z, a)
+            solver.breakpoint()
           }
         }
-        if (jump) {
-          if (tauHold) tauJumps(model, ws, inputs, solver.z, a)
-          solver.breakpoint()
-        }
+        solver.advance(b, obs)
+        a = b
       }
-      solver.advance(b, obs)
-      a = b
+    } catch (e) {
+      throw withAdvice(e, solver, limits, tol, ns > 0 && sensCtl, a)
     }
     const c = solver.counters
     res.stats.steps = c.steps
@@ -285,6 +289,17 @@ export function simulate(model: CompiledModel, req: SimulationRequest): Simulati
   } else res.stats.method = solver.name
   res.stats.elapsedMs = now() - start
   return res
+}
+
+/** A step-limit or step-size failure rethrown with advice on what to try next, given what the run used. */
+function withAdvice(e: unknown, solver: OdeSolver, limits: SolverLimits, tol: Tolerances, sens: boolean, tSeg: number): unknown {
+  if (!(e instanceof StepLimitError || e instanceof StepSizeTooSmallError)) return e
+  let rtol = Infinity
+  for (let i = 0; i < tol.rtol.length; i++) rtol = Math.min(rtol, tol.rtol[i])
+  const auto = solver instanceof AutoSolver ? solver : null
+  const ctx: RunContext = { solver: solver.name, switched: auto !== null && auto.switched, rtol, maxSteps: limits.maxSteps, sensitivities: sens }
+  const t = e.t ?? tSeg
+  return e instanceof StepLimitError ? new StepLimitError(e.maxSteps, t, adviceFor('step_limit', ctx)) : new StepSizeTooSmallError(t, e.h, adviceFor('step_too_small', ctx))
 }
 
 /**

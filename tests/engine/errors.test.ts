@@ -102,7 +102,31 @@ describe('typed failures, never a hang', () => {
       const e = caught(() => simulate(osc, { tOut: Float64Array.of(1000), solver, maxSteps: 50 }))
       expect(e, solver).toBeInstanceOf(StepLimitError)
       expect((e as Error).message).toMatch(/step limit of 50 steps exceeded/)
+      expect((e as Error).message).toMatch(/raise maxSteps \(now 50\)/)
     }
+  })
+
+  it('failure advice names the next thing to try that the run has not tried', () => {
+    const osc = makeModel({
+      title: 'osc-advice',
+      states: [{ name: 'x', initial: 1 }, { name: 'v', initial: 0 }],
+      params: [{ name: 'w', value: 1 }],
+      rhs: (t, x, p, u, o) => { o[0] = x[1]; o[1] = -p[0] * p[0] * x[0] },
+      dfdx: (t, x, p, u, o) => { o[0] = 0; o[1] = 1; o[2] = -p[0] * p[0]; o[3] = 0 },
+      dfdp: (t, x, p, u, o) => { o[0] = 0; o[1] = -2 * p[0] * x[0] },
+    })
+    const tOut = Float64Array.of(1000)
+    const explicit = caught(() => simulate(osc, { tOut, solver: 'rk45', maxSteps: 50 })) as Error
+    expect(explicit.message).toMatch(/try solver 'stiff' \(the run used 'rk45'\)/)
+    const notSwitched = caught(() => simulate(osc, { tOut, solver: 'auto', maxSteps: 50 })) as Error
+    expect(notSwitched.message).toMatch(/try solver 'stiff' \(the run used 'auto' and did not detect stiffness\)/)
+    // the stiff method already in use: no advice to use it; tight rtol and sensitivities named
+    const stiff = caught(() => simulate(osc, { tOut, solver: 'stiff', rtol: 1e-9, maxSteps: 50, sensitivities: { params: [0], initialStates: [] } })) as Error
+    expect(stiff).toBeInstanceOf(StepLimitError)
+    expect(stiff.message).not.toMatch(/try solver 'stiff'/)
+    expect(stiff.message).toMatch(/loosen rtol \(now 1e-9\)/)
+    expect(stiff.message).toMatch(/errorControl: false/)
+    expect(stiff.message).toMatch(/stiff method was already in use/)
   })
 
   it('a time budget and an abort signal stop the integration', () => {

@@ -1,15 +1,16 @@
 /**
- * auto: starts with rk45 and switches to the stiff Rosenbrock-W method when rk45's step-size
- * control shows stiffness.
+ * auto: starts with rk45 and switches to the stiff method (RODAS4, rosenbrock.ts) when rk45's
+ * step-size control shows stiffness.
  *
- * Stiffness test (Hairer, Nørsett & Wanner, Solving ODEs I, 2nd ed. 1993, Sec. II.10, "Stiffness
- * detection", as in their dopri5 code): after each accepted step the dominant eigenvalue is
- * estimated from the two last stages, which share the time t + h:
- *     h·|λ| ≈ h · ‖f(y₁) − f(y₆)‖ / ‖y₁ − y₆‖      (state block only)
- * When h·|λ| exceeds 3.25 (the Dormand–Prince stability region ends near −3.3 on the real axis) on
- * 15 accepted steps without 6 calmer steps in between, the step size is limited by stability rather
- * than accuracy: the problem is stiff and the stiff method takes over from the current point and
- * step size. There is no switch back; `switched` reports it.
+ * Stiffness tests (rk45.ts, `stiffnessTest`): after each accepted step the dominant eigenvalue's
+ * size ρ is estimated from the two last stages, which share the time t + h (Hairer, Nørsett &
+ * Wanner, Solving ODEs I, 2nd ed. 1993, Sec. II.10, "Stiffness detection", as in their dopri5 code):
+ *     h·ρ ≈ h · ‖f(y₁) − f(y₆)‖ / ‖y₁ − y₆‖      (state block only)
+ * The problem counts as stiff when h·ρ exceeds 3.25 (the Dormand–Prince stability region ends near
+ * −3.3 on the real axis) on 15 accepted steps without 6 calmer steps in between (dopri5's test), or
+ * when h·ρ stays above 0.6 of that bound on 25 of the last 30 steps: the step size is then held by
+ * stability, not accuracy. The stiff method takes over from the current point and step size. There
+ * is no switch back; `switched` and `switchedAt` report it.
  */
 import { Rk45 } from './rk45'
 import { Rosenbrock } from './rosenbrock'

@@ -23,7 +23,9 @@ export function errNorm(tol: Tolerances, nBlock: number, n: number, e: Float64Ar
     const w = weight[k]
     if (w === 0) continue
     const i = k % nBlock
-    const sc = atol[i] + rtol[i] * Math.max(Math.abs(a[i]), Math.abs(b[i]))
+    // a sensitivity (k ≥ nBlock) is measured against its state's size or its own, whichever is larger
+    const size = k < nBlock ? Math.max(Math.abs(a[i]), Math.abs(b[i])) : Math.max(Math.abs(a[i]), Math.abs(b[i]), w * Math.abs(a[k]), w * Math.abs(b[k]))
+    const sc = atol[i] + rtol[i] * size
     const r = (e[k] * w) / sc
     s += r * r
     cnt++

@@ -1,6 +1,6 @@
 export * from './types'
 export { Rk45, DP54 } from './rk45'
-export { Rosenbrock, ROS34PW2, transformRosenbrock } from './rosenbrock'
+export { Rosenbrock, RODAS4 } from './rosenbrock'
 export { OdexSolver } from './odex'
 export { AutoSolver } from './auto'
 export { luFactor, luSolve } from './lu'

@@ -1,93 +1,92 @@
 /**
- * stiff: the linearly implicit Rosenbrock-W method ROS34PW2 (4 stages, order 3, embedded order 2,
- * L-stable and stiffly accurate), with the exact ∂f/∂x and ∂f/∂t of the compiled sheet.
+ * stiff: the Rosenbrock method RODAS4 (6 stages, order 4, embedded order 3, L-stable, stiffly
+ * accurate), with the exact ∂f/∂x and ∂f/∂t of the compiled sheet and the method's own dense output
+ * of order 3 built from the step's stages.
  *
- * Reference: J. Rang, L. Angermann, "New Rosenbrock W-methods of order 3 for partial
- * differential algebraic equations of index 1", BIT Numerical Mathematics 45 (2005) 761–787,
- * Table for ROS34PW2 (coefficients α_ij, γ_ij, b_i, b̂_i below). The stage equations are those of
- * Hairer & Wanner, Solving Ordinary Differential Equations II, 2nd ed. 1996, Sec. IV.7, eq. (7.4)
- * (non-autonomous form with γ_i h² f_t), implemented in the transformed variables u_i = Σ_j γ_ij k_j
- * of eq. (7.3') so that no Jacobian-vector product is needed.
+ * References:
+ * - Method and coefficients: E. Hairer, G. Wanner, Solving Ordinary Differential Equations II,
+ *   2nd ed. 1996, Sec. VI.4 ("Rosenbrock methods" for index-1 problems, the method RODAS, Table
+ *   of its coefficients) and their Fortran code RODAS (subroutine ROCOE, METH = 1): the transformed
+ *   coefficients a_ij, c_ij, c_i (α_i), d_i (γ_i) below, copied digit for digit.
+ * - Stage equations: Hairer & Wanner II, Sec. IV.7, eq. (7.4) in the transformed variables
+ *   u_i = Σ_j γ_ij k_j of eq. (7.3'):
+ *     (I/(hγ) − J) u_i = f(t + α_i h, y + Σ_j a_ij u_j) + Σ_j (c_ij/h) u_j + γ_i h f_t,
+ *     y₁ = y + Σ_i m_i u_i.
+ *   RODAS4 is stiffly accurate: the embedded solution is the argument of stage 6 (= y + Σ a_5j u_j
+ *   + u_5) and y₁ = that + u_6, so the error estimate is u_6 itself (as in the RODAS code).
+ * - Dense output (Hairer & Wanner II, Sec. IV.7 "Dense output" and the RODAS code, CONTRO/D21–D35):
+ *     y(t + θh) = (1 − θ) y₀ + θ (y₁ + (1 − θ)(w₂ + θ w₃)),  w_k = Σ_{j≤5} d_kj u_j.
+ * - Step-size control: the RODAS code: h_new = h / clamp(err^{1/4}/0.9, 1/6, 5) with Gustafsson's
+ *   predictive controller (Hairer & Wanner II, Sec. IV.8, eq. (8.21)), taking the more cautious of
+ *   the two; no growth right after a rejection.
  *
- * Why a W-method: forward sensitivities are integrated with the states as one augmented system
- * z = [x, ∂x/∂θ_1, …]. Its exact Jacobian has the blocks ∂(J·s)/∂x (second derivatives of f), which
- * the compiled sheet does not provide. A W-method keeps its order with any matrix in place of the
- * Jacobian (Rang & Angermann 2005, Sec. 2; Hairer & Wanner II, Sec. IV.7 "W-methods"), so we use the
- * block-diagonal diag(J, J, …, J) and ∂f/∂t of the state block only: one LU of the nx×nx matrix
- * I/(hγ) − J per step serves every sensitivity. The order 3 of the state and sensitivity results is
- * checked in tests/engine/stiff.test.ts on a problem with a closed-form solution, and the
- * coefficients against the W-method order conditions (Hairer & Wanner II, Sec. IV.7).
- *
- * Dense output: cubic Hermite interpolation from the step's end values and derivatives (order 3,
- * the method's order); the end derivative is the next step's first stage, so it costs nothing extra.
+ * Sensitivities: the system z = [x, s_1, …] (system.ts) has the block lower-triangular Jacobian
+ *   [[J, 0], [M_j, J]],   M_j = ∂(J s_j + ∂f/∂θ_j)/∂x,
+ * and a Rosenbrock method of order 4 needs it exactly (it is not a W-method). Each stage solves the
+ * state block first, u_x = W⁻¹ r_x, then each sensitivity block u_j = W⁻¹ (r_j + M_j u_x): one LU of the
+ * nx×nx matrix serves all blocks. M_j u_x is the directional derivative of the sensitivity right-hand
+ * side along u_x, taken as a central difference of f on the state block (the difference-quotient
+ * approach of Hindmarsh & Serban, CVODES guide, Sec. 2.6 "forward sensitivity", DQ option); the
+ * sensitivity blocks' ∂/∂t comes from a central difference in t (the RODAS code takes a forward one, FX).
  */
 import { checkLimits, checkStepSize, clipStep, errNorm, firstNonFinite, initialStep, nextStep, NonFiniteSeen, stepEnd, throwNonFinite } from './control'
 import { luFactor, luSolve } from './lu'
 import { newCounters, resetCounters, type OdeSolver, type OdeSystem, type SolverLimits, type StepObserver, type Tolerances } from './types'
 
-/** ROS34PW2, Rang & Angermann (2005): γ, α_ij (strictly lower), γ_ij (strictly lower), b, b̂. */
-export const ROS34PW2 = {
-  gamma: 4.3586652150845900e-01,
-  alpha: [
+/** RODAS4 in transformed form: Hairer & Wanner, RODAS code, ROCOE (METH = 1). */
+export const RODAS4 = {
+  stages: 6,
+  gamma: 0.25,
+  /** α_i: stage i is evaluated at t + α_i h */
+  alpha: [0, 0.386, 0.21, 0.63, 1, 1],
+  /** γ_i = Σ_j γ_ij: the f_t weight of stage i */
+  gammaSum: [0.25, -0.1043, 0.1035, -0.3620000000000023e-1, 0, 0],
+  /** a_ij (strictly lower): stage arguments y + Σ_j a_ij u_j */
+  a: [
     [],
-    [8.7173304301691801e-01],
-    [8.4457060015369423e-01, -1.1299064236484185e-01],
-    [0, 0, 1],
+    [0.1544000000000000e+1],
+    [0.9466785280815826, 0.2557011698983284],
+    [0.3314825187068521e+1, 0.2896124015972201e+1, 0.9986419139977817],
+    [0.1221224509226641e+1, 0.6019134481288629e+1, 0.1253708332932087e+2, -0.6878860361058950],
+    [0.1221224509226641e+1, 0.6019134481288629e+1, 0.1253708332932087e+2, -0.6878860361058950, 1],
   ],
-  gammaij: [
+  /** c_ij (strictly lower): the Σ_j (c_ij/h) u_j terms */
+  c: [
     [],
-    [-8.7173304301691801e-01],
-    [-9.0338057013044082e-01, 5.4180672388095326e-02],
-    [2.4212380706095346e-01, -1.2232505839045147e+00, 5.4526025533510214e-01],
+    [-0.5668800000000000e+1],
+    [-0.2430093356833875e+1, -0.2063599157091915],
+    [-0.1073529058151375, -0.9594562251023355e+1, -0.2047028614809616e+2],
+    [0.7496443313967647e+1, -0.1024680431464352e+2, -0.3399990352819905e+2, 0.1170890893206160e+2],
+    [0.8083246795921522e+1, -0.7981132988064893e+1, -0.3152159432874371e+2, 0.1631930543123136e+2, -0.6058818238834054e+1],
   ],
-  b: [2.4212380706095346e-01, -1.2232505839045147e+00, 1.5452602553351020e+00, 4.3586652150845900e-01],
-  bhat: [3.7810903145819369e-01, -9.6042292212423178e-02, 5.0000000000000000e-01, 2.1793326075422950e-01],
-  order: 3,
+  /** y₁ = y₀ + Σ m_i u_i (stiffly accurate: the last row of a, plus u_6) */
+  m: [0.1221224509226641e+1, 0.6019134481288629e+1, 0.1253708332932087e+2, -0.6878860361058950, 1, 1],
+  /** y₁ − ŷ₁ = Σ e_i u_i = u_6 */
+  e: [0, 0, 0, 0, 0, 1],
+  /** dense output w₂, w₃ weights on u_1..u_5 (RODAS code D21–D25, D31–D35) */
+  d2: [0.1012623508344586e+2, -0.7487995877610167e+1, -0.3480091861555747e+2, -0.7992771707568823e+1, 0.1025137723295662e+1],
+  d3: [-0.6762803392801253, 0.6087714651680015e+1, 0.1643084320892478e+2, 0.2476722511418386e+2, -0.6594389125716872e+1],
+  /** order of y₁ */
+  order: 4,
+  /** order of the embedded ŷ₁: the error estimate is O(h^{embeddedOrder+1}) */
+  embeddedOrder: 3,
 } as const
 
-/** The transformed coefficients of Hairer & Wanner II, (7.3'): a = αΓ⁻¹, c = −Γ⁻¹ (off-diagonal), m = bΓ⁻¹. */
-export function transformRosenbrock(tab: { gamma: number; alpha: readonly (readonly number[])[]; gammaij: readonly (readonly number[])[]; b: readonly number[]; bhat: readonly number[] }) {
-  const s = tab.b.length
-  const G: number[][] = []
-  for (let i = 0; i < s; i++) {
-    G.push(Array.from({ length: s }, (_, j) => (j < i ? tab.gammaij[i][j] : j === i ? tab.gamma : 0)))
-  }
-  // inverse of the lower-triangular Γ, column by column
-  const Gi: number[][] = Array.from({ length: s }, () => new Array<number>(s).fill(0))
-  for (let c = 0; c < s; c++) {
-    for (let i = 0; i < s; i++) {
-      let v = i === c ? 1 : 0
-      for (let j = 0; j < i; j++) v -= G[i][j] * Gi[j][c]
-      Gi[i][c] = v / G[i][i]
-    }
-  }
-  const A: number[][] = Array.from({ length: s }, () => new Array<number>(s).fill(0))
-  const C: number[][] = Array.from({ length: s }, () => new Array<number>(s).fill(0))
-  for (let i = 0; i < s; i++) {
-    for (let j = 0; j < i; j++) {
-      let v = 0
-      for (let k = 0; k < i; k++) v += (tab.alpha[i][k] ?? 0) * Gi[k][j]
-      A[i][j] = v
-      C[i][j] = -Gi[i][j]
-    }
-  }
-  const m = new Array<number>(s).fill(0)
-  const mh = new Array<number>(s).fill(0)
-  for (let j = 0; j < s; j++) {
-    for (let i = 0; i < s; i++) {
-      m[j] += tab.b[i] * Gi[i][j]
-      mh[j] += tab.bhat[i] * Gi[i][j]
-    }
-  }
-  const alphaSum = tab.alpha.map((row) => row.reduce((a, v) => a + v, 0))
-  const gammaSum = G.map((row) => row.reduce((a, v) => a + v, 0))
-  return { s, gamma: tab.gamma, A, C, m, me: m.map((v, j) => v - mh[j]), alphaSum, gammaSum }
-}
-
-const T = transformRosenbrock(ROS34PW2)
-const SAFE = 0.9
-const FAC_MIN = 0.2
-const FAC_MAX = 6
+/** safety factor of the step-size controller (RODAS code, WORK(4)) */
+const SAFETY = 0.9
+/** h_new/h stays within [MIN_RATIO, MAX_RATIO] (RODAS code: 0.2 ≤ h_new/h ≤ 6) */
+const MIN_RATIO = 0.2
+const MAX_RATIO = 6
+/** the predictive controller's memory of the error keeps it from dividing by ~0 (RODAS code) */
+const PRED_ERR_FLOOR = 1e-2
+/** a step whose stages are not finite or whose matrix is singular is retried with h × this */
+const RETRY_SHRINK = 0.25
+/**
+ * relative size of the central-difference perturbation for the coupling term: ε^{1/3} balances
+ * truncation O(δ²) and rounding O(ε/δ) (Nocedal & Wright, Numerical Optimization, 2nd ed. 2006,
+ * Sec. 8.1, eq. (8.9))
+ */
+const COUPLING_STEP = Math.cbrt(Number.EPSILON)
 
 export class Rosenbrock implements OdeSolver {
   readonly name = 'stiff'
@@ -103,34 +102,42 @@ export class Rosenbrock implements OdeSolver {
   private u: Float64Array[] = []
   private f0: Float64Array = new Float64Array(0)
   private f1: Float64Array = new Float64Array(0)
-  private fOld: Float64Array = new Float64Array(0)
-  private zOld: Float64Array = new Float64Array(0)
   private z1: Float64Array = new Float64Array(0)
   private ytmp: Float64Array = new Float64Array(0)
+  private fd: Float64Array = new Float64Array(0)
   private ft: Float64Array = new Float64Array(0)
   private J: Float64Array = new Float64Array(0)
   private W: Float64Array = new Float64Array(0)
   private piv = new Int32Array(0)
+  /** dense output of the last accepted step: y₀, w₂, w₃ (y₁ is z) */
+  private zOld: Float64Array = new Float64Array(0)
+  private w2: Float64Array = new Float64Array(0)
+  private w3: Float64Array = new Float64Array(0)
   private tOld = 0
   private hLast = 0
   private haveF0 = false
   private haveJ = false
   private lastRejected = false
+  /** Gustafsson's predictive controller: the last accepted step and its error */
+  private hAcc = 0
+  private errAcc = 0
   private readonly nonFinite = new NonFiniteSeen()
 
   private alloc(n: number, nb: number): void {
     if (this.n === n && this.nb === nb) return
     this.n = n
     this.nb = nb
-    this.u = Array.from({ length: T.s }, () => new Float64Array(n))
+    this.u = Array.from({ length: RODAS4.stages }, () => new Float64Array(n))
     this.f0 = new Float64Array(n)
     this.f1 = new Float64Array(n)
-    this.fOld = new Float64Array(n)
     this.zOld = new Float64Array(n)
     this.z = new Float64Array(n)
     this.z1 = new Float64Array(n)
     this.ytmp = new Float64Array(n)
+    this.fd = new Float64Array(n)
     this.ft = new Float64Array(n)
+    this.w2 = new Float64Array(n)
+    this.w3 = new Float64Array(n)
     this.J = new Float64Array(nb * nb)
     this.W = new Float64Array(nb * nb)
     this.piv = new Int32Array(nb)
@@ -151,6 +158,7 @@ export class Rosenbrock implements OdeSolver {
     this.haveF0 = false
     this.haveJ = false
     this.lastRejected = false
+    this.hAcc = 0
   }
 
   /** attach after `start` of another method: same system, tolerances and limits */
@@ -171,20 +179,60 @@ export class Rosenbrock implements OdeSolver {
     this.haveJ = false
   }
 
+  /** f(t, z) into f0, once per accepted step (it is stage 1 and the base of the differences) */
+  private evalF0(): void {
+    const { sys, n, counters, limits } = this
+    sys.f(this.t, this.z, this.f0)
+    counters.rhsEvals++
+    const bad = firstNonFinite(this.f0, n)
+    if (bad >= 0) throwNonFinite(limits, this.nb, bad, this.t, this.f0[bad])
+    this.haveF0 = true
+  }
+
+  /** J and f_t at the step's start; with sensitivities also their blocks' ∂/∂t by a central difference */
+  private evalJacobian(t: number, z: Float64Array): void {
+    const { sys, n, nb, ft, fd, counters } = this
+    sys.jac(t, z, this.J, ft)
+    counters.jacEvals++
+    if (n > nb) {
+      const dt = COUPLING_STEP * Math.max(1, Math.abs(t))
+      sys.f(t + dt, z, fd)
+      sys.f(t - dt, z, this.f1)
+      counters.rhsEvals += 2
+      for (let i = nb; i < n; i++) ft[i] = (fd[i] - this.f1[i]) / (2 * dt)
+    }
+    this.haveJ = true
+  }
+
+  /**
+   * Adds M_j·v (v = the state block of `r`, already solved) to each sensitivity block of r: a
+   * central difference of f along v on the state block, perturbing each state by at most ε^{1/3} of its
+   * scale |x_i| + atol_i.
+   */
+  private addCoupling(t: number, z: Float64Array, r: Float64Array): void {
+    const { sys, n, nb, ytmp, fd, f1 } = this
+    let q = 0
+    for (let i = 0; i < nb; i++) q = Math.max(q, Math.abs(r[i]) / (Math.abs(z[i]) + this.tol.atol[i]))
+    if (q === 0) return
+    const delta = COUPLING_STEP / q
+    ytmp.set(z)
+    for (let i = 0; i < nb; i++) ytmp[i] = z[i] + delta * r[i]
+    sys.f(t, ytmp, fd)
+    for (let i = 0; i < nb; i++) ytmp[i] = z[i] - delta * r[i]
+    sys.f(t, ytmp, f1)
+    this.counters.rhsEvals += 2
+    for (let i = nb; i < n; i++) r[i] += (fd[i] - f1[i]) / (2 * delta)
+  }
+
   step(tStop: number): void {
     const { sys, n, nb, u, counters, limits, ytmp, ft, J, W, piv } = this
-    const s = T.s
-    if (!this.haveF0) {
-      sys.f(this.t, this.z, this.f0)
-      counters.rhsEvals++
-      const bad = firstNonFinite(this.f0, n)
-      if (bad >= 0) throwNonFinite(limits, nb, bad, this.t, this.f0[bad])
-      this.haveF0 = true
-    }
-    if (this.h === 0 && limits.fixedStep <= 0) {
-      this.h = initialStep(sys, this.tol, this.t, this.z, this.f0, ytmp, this.z1, 3, Math.abs(tStop - this.t), counters)
-    }
+    const s = RODAS4.stages
+    const coupled = n > nb
     const nBlocks = n / nb
+    if (!this.haveF0) this.evalF0()
+    if (this.h === 0 && limits.fixedStep <= 0) {
+      this.h = initialStep(sys, this.tol, this.t, this.z, this.f0, ytmp, this.z1, RODAS4.order, Math.abs(tStop - this.t), counters)
+    }
     for (;;) {
       checkLimits(limits, counters, this.t)
       const t = this.t
@@ -193,108 +241,125 @@ export class Rosenbrock implements OdeSolver {
       const h = clipStep(t, hWanted, tStop)
       const clipped = h < hWanted
       checkStepSize(t, h, this.nonFinite, limits, nb)
-      if (!this.haveJ) {
-        sys.jac(t, z, J, ft)
-        counters.jacEvals++
-        this.haveJ = true
-      }
-      const d = 1 / (h * T.gamma)
+      if (!this.haveJ) this.evalJacobian(t, z)
+      const d = 1 / (h * RODAS4.gamma)
       for (let i = 0; i < nb * nb; i++) W[i] = -J[i]
       for (let i = 0; i < nb; i++) W[i * nb + i] += d
       counters.luDecomps++
       let ok = luFactor(W, nb, piv)
-      if (ok) {
-        for (let st = 0; st < s && ok; st++) {
-          const ui = u[st]
-          const Ai = T.A[st]
-          const Ci = T.C[st]
-          if (st === 0) {
-            ui.set(this.f0)
-          } else {
-            for (let i = 0; i < n; i++) {
-              let acc = z[i]
-              for (let j = 0; j < st; j++) acc += Ai[j] * u[j][i]
-              ytmp[i] = acc
-            }
-            sys.f(t + T.alphaSum[st] * h, ytmp, ui)
-            counters.rhsEvals++
-            const bad = firstNonFinite(ui, n)
-            if (bad >= 0) {
-              this.nonFinite.note(bad, t + T.alphaSum[st] * h, ui[bad])
-              ok = false
-              break
-            }
-            for (let i = 0; i < n; i++) {
-              let acc = 0
-              for (let j = 0; j < st; j++) acc += Ci[j] * u[j][i]
-              ui[i] += acc / h
-            }
+      for (let st = 0; st < s && ok; st++) {
+        const ui = u[st]
+        if (st === 0) {
+          ui.set(this.f0)
+        } else {
+          const a = RODAS4.a[st]
+          for (let i = 0; i < n; i++) {
+            let acc = z[i]
+            for (let j = 0; j < st; j++) acc += a[j] * u[j][i]
+            ytmp[i] = acc
           }
-          const gh = T.gammaSum[st] * h
-          for (let i = 0; i < n; i++) ui[i] += gh * ft[i]
-          for (let b = 0; b < nBlocks; b++) luSolve(W, nb, piv, ui, b * nb)
+          const ts = t + RODAS4.alpha[st] * h
+          sys.f(ts, ytmp, ui)
+          counters.rhsEvals++
+          const bad = firstNonFinite(ui, n)
+          if (bad >= 0) {
+            this.nonFinite.note(bad, ts, ui[bad])
+            ok = false
+            break
+          }
+          const c = RODAS4.c[st]
+          for (let i = 0; i < n; i++) {
+            let acc = 0
+            for (let j = 0; j < st; j++) acc += c[j] * u[j][i]
+            ui[i] += acc / h
+          }
+        }
+        const gh = RODAS4.gammaSum[st] * h
+        if (gh !== 0) for (let i = 0; i < n; i++) ui[i] += gh * ft[i]
+        luSolve(W, nb, piv, ui, 0)
+        if (coupled) {
+          this.addCoupling(t, z, ui)
+          for (let b = 1; b < nBlocks; b++) luSolve(W, nb, piv, ui, b * nb)
         }
       }
       let err = Infinity
       if (ok) {
         const z1 = this.z1
-        const ev = ytmp
+        const u6 = u[s - 1]
         for (let i = 0; i < n; i++) {
           let acc = z[i]
-          let e = 0
-          for (let j = 0; j < s; j++) {
-            acc += T.m[j] * u[j][i]
-            e += T.me[j] * u[j][i]
-          }
+          for (let j = 0; j < s; j++) acc += RODAS4.m[j] * u[j][i]
           z1[i] = acc
-          ev[i] = e
         }
-        err = limits.fixedStep > 0 ? 0 : errNorm(this.tol, nb, n, ev, z, z1)
-        if (!Number.isFinite(err)) ok = false
-      }
-      if (ok && err <= 1) {
-        // derivative at the new point: Hermite end slope and the next step's first stage
-        sys.f(t + h, this.z1, this.f1)
-        counters.rhsEvals++
-        const bad = firstNonFinite(this.f1, n)
-        if (bad >= 0) {
-          this.nonFinite.note(bad, t + h, this.f1[bad])
-          ok = false
-        }
+        err = limits.fixedStep > 0 ? 0 : errNorm(this.tol, nb, n, u6, z, z1)
+        if (!Number.isFinite(err) || firstNonFinite(z1, n) >= 0) ok = false
       }
       if (!ok) {
         counters.rejected++
         this.lastRejected = true
-        this.h = 0.25 * h
+        this.h = RETRY_SHRINK * h
         continue
       }
-      let fac = err === 0 ? FAC_MAX : SAFE * Math.pow(err, -1 / (ROS34PW2.order))
+      // h_new = h / fac, fac = err^{1/(p̂+1)} / SAFETY within [1/MAX_RATIO, 1/MIN_RATIO]
+      const expo = 1 / (RODAS4.embeddedOrder + 1)
+      let fac = Math.max(1 / MAX_RATIO, Math.min(1 / MIN_RATIO, Math.pow(err, expo) / SAFETY))
       if (err <= 1) {
-        fac = Math.min(FAC_MAX, Math.max(FAC_MIN, fac))
-        const hNew = nextStep(h * fac, h, hWanted, clipped, this.lastRejected)
-        this.lastRejected = false
-        counters.steps++
-        this.nonFinite.at = -1
-        // shift: old ← current, current ← new
-        this.zOld.set(z)
-        this.fOld.set(this.f0)
-        const tmpz = this.z
-        this.z = this.z1
-        this.z1 = tmpz
-        const tmpf = this.f0
-        this.f0 = this.f1
-        this.f1 = tmpf
-        this.tOld = t
-        this.t = stepEnd(t, h, tStop, clipped)
-        this.hLast = this.t - t
-        this.haveJ = false
-        this.h = hNew
-        return
+        if (this.hAcc > 0) {
+          const gus = (this.hAcc / h) * Math.pow((err * err) / this.errAcc, expo) / SAFETY
+          fac = Math.max(fac, Math.max(1 / MAX_RATIO, Math.min(1 / MIN_RATIO, gus)))
+        }
+        this.hAcc = h
+        this.errAcc = Math.max(PRED_ERR_FLOOR, err)
+        // the derivative at the new point: the next step's first stage; a non-finite one rejects
+        sys.f(t + h, this.z1, this.f1)
+        counters.rhsEvals++
+        const bad = firstNonFinite(this.f1, n)
+        if (bad < 0) {
+          const hNew = nextStep(h / fac, h, hWanted, clipped, this.lastRejected)
+          this.accept(t, h, tStop, clipped)
+          this.h = hNew
+          this.lastRejected = false
+          return
+        }
+        this.nonFinite.note(bad, t + h, this.f1[bad])
+        counters.rejected++
+        this.lastRejected = true
+        this.h = RETRY_SHRINK * h
+        continue
       }
       counters.rejected++
       this.lastRejected = true
-      this.h = h * Math.max(FAC_MIN, fac)
+      this.h = h / fac
     }
+  }
+
+  /** shift to the new point and keep the dense-output coefficients of [t, t + h] */
+  private accept(t: number, h: number, tStop: number, clipped: boolean): void {
+    const { n, u, w2, w3 } = this
+    const { d2, d3 } = RODAS4
+    for (let i = 0; i < n; i++) {
+      let a = 0
+      let b = 0
+      for (let j = 0; j < 5; j++) {
+        a += d2[j] * u[j][i]
+        b += d3[j] * u[j][i]
+      }
+      w2[i] = a
+      w3[i] = b
+    }
+    this.counters.steps++
+    this.nonFinite.at = -1
+    const old = this.zOld
+    this.zOld = this.z
+    this.z = this.z1
+    this.z1 = old
+    const f = this.f0
+    this.f0 = this.f1
+    this.f1 = f
+    this.tOld = t
+    this.t = stepEnd(t, h, tStop, clipped)
+    this.hLast = this.t - t
+    this.haveJ = false
   }
 
   advance(tStop: number, obs: StepObserver | null): void {
@@ -304,7 +369,7 @@ export class Rosenbrock implements OdeSolver {
     }
   }
 
-  /** cubic Hermite on [tOld, t] from (zOld, fOld) and (z, f0) */
+  /** RODAS continuous extension (order 3) on [tOld, t] */
   dense(t: number, out: Float64Array): void {
     const n = this.n
     const h = this.hLast
@@ -313,16 +378,11 @@ export class Rosenbrock implements OdeSolver {
       return
     }
     const th = (t - this.tOld) / h
-    const th2 = th * th
-    const th3 = th2 * th
-    const h00 = 2 * th3 - 3 * th2 + 1
-    const h10 = th3 - 2 * th2 + th
-    const h01 = -2 * th3 + 3 * th2
-    const h11 = th3 - th2
+    const th1 = 1 - th
     const y0 = this.zOld
     const y1 = this.z
-    const f0 = this.fOld
-    const f1 = this.f0
-    for (let i = 0; i < n; i++) out[i] = h00 * y0[i] + h * h10 * f0[i] + h01 * y1[i] + h * h11 * f1[i]
+    const w2 = this.w2
+    const w3 = this.w3
+    for (let i = 0; i < n; i++) out[i] = th1 * y0[i] + th * (y1[i] + th1 * (w2[i] + th * w3[i]))
   }
 }
