@@ -9,18 +9,20 @@ import type { CompiledModel } from '../../shared/sheet'
 import { runFit, FitInputError, type FitOptions, type ProblemSpec, type ExperimentData } from '../../shared/engine/fit'
 import { parseCsv, CsvError } from '../../shared/data/csv'
 import { experimentFromTable } from '../../shared/data/experiment'
-import type { FitResult, EstimateRow } from '../../shared/api/fit'
+import { describeOutcome, type FitResult, type EstimateRow } from '../../shared/api/fit'
 import { ArgError, splitOption } from './args'
 
 const USAGE = `usage: pewter fit <sheet> <data.csv>… [--validate v.csv] [--method lm|nelder-mead] [--starts N]
   [--weighting sheet|equal|normalized|ml] [--set name=value …] [--fix a,b] [--free c,d] [--bounds c=lo:hi]
   [--local k] [--t0 t] [--rtol r] [--atol a] [--seed n] [--profile name] [--landscape a,b[,n]]
-  [--equation-error compare|start] [--time-budget ms] [--solver auto|rk45|odex|stiff] [--max-iterations n] [--json]`
+  [--equation-error compare|start] [--time-budget ms] [--solver auto|rk45|odex|stiff] [--max-iterations n]
+  [--validation-start sheet|estimate] [--json]`
 
 interface Args {
   sheet: string
   data: string[]
   validate: string[]
+  validationStart?: 'sheet' | 'estimate'
   json: boolean
   set: [string, number][]
   fix: string[]
@@ -133,6 +135,12 @@ export function parseArgs(argv: string[]): Args {
       }
       case '--time-budget': a.opts.timeBudgetMs = number(flag, value()); break
       case '--max-iterations': a.opts.maxIterations = number(flag, value()); break
+      case '--validation-start': {
+        const v = value()
+        if (v !== 'sheet' && v !== 'estimate') throw new ArgError(`--validation-start: '${v}' is not sheet or estimate`)
+        a.validationStart = v
+        break
+      }
       case '--solver': {
         const s = value()
         if (!['auto', 'rk45', 'odex', 'stiff'].includes(s)) throw new ArgError(`--solver: '${s}' is not auto, rk45, odex or stiff`)
@@ -212,7 +220,7 @@ export async function run(argv: string[]): Promise<number> {
         const b = toInternal(n, hi)
         return [n, [Math.min(a, b), Math.max(a, b)]]
       })),
-      fix: args.fix, free: args.free, local: args.local,
+      fix: args.fix, free: args.free, local: args.local, validationStart: args.validationStart,
     }
   } catch (e) {
     if (e instanceof CsvError) {
@@ -234,6 +242,12 @@ export async function run(argv: string[]): Promise<number> {
   result.warnings = [...cliWarnings, ...result.warnings]
   if (args.json) process.stdout.write(JSON.stringify(result) + '\n')
   else process.stdout.write(formatTable(result))
+  // the outcome on stderr whenever it is not a plain convergence, with the engine's own message
+  if (result.status === 'failed') {
+    process.stderr.write(`pewter fit: failed${result.reasonStart !== null ? ` (start ${result.reasonStart})` : ''}: ${result.reason}\n`)
+  } else if (result.status !== 'converged') {
+    process.stderr.write(`pewter fit: ${describeOutcome(result.status, result.convergedBy)}: ${result.reason}\n`)
+  }
   return result.status === 'failed' ? 1 : 0
 }
 
@@ -252,13 +266,13 @@ function estimateTable(rows: EstimateRow[], title: string): string {
   const body = rows.map((p) => [
     p.experiment === null ? p.name : `${p.name} (exp ${p.experiment + 1})`, g(p.value, 8), p.unit || '-', g(p.stdError, 4),
     `[${g(p.ci95[0])}, ${g(p.ci95[1])}]`, `[${g(p.lower)}, ${g(p.upper)}]`,
-    p.atBound ? `at ${p.atBound} bound` : p.profileCi95 ? `profile [${g(p.profileCi95[0])}, ${g(p.profileCi95[1])}]` : '',
+    p.atBound ? `at ${p.atBound} bound` : !p.determined ? `not determined by these data${p.profileCi95 ? `; profile [${g(p.profileCi95[0])}, ${g(p.profileCi95[1])}]` : ''}` : p.profileCi95 ? `profile [${g(p.profileCi95[0])}, ${g(p.profileCi95[1])}]` : '',
   ])
   return `\n${title}\n` + pad([['name', 'value', 'unit', 'std error', '95 % interval', 'bounds', ''], ...body])
 }
 
 export function formatTable(r: FitResult): string {
-  let s = `fit ${r.status}: ${r.reason}\n`
+  let s = `fit ${describeOutcome(r.status, r.convergedBy)}: ${r.reason}\n`
   s += `weighted SSE ${g(r.sse, 10)}   N ${r.nObservations}   p ${r.nEstimated}   iterations ${r.iterations}   simulations ${r.simulations}   ${g(r.elapsedMs, 4)} ms\n`
   s += `AIC ${g(r.aic)}   BIC ${g(r.bic)}   method ${r.method}   weighting ${r.weighting}\n`
   s += estimateTable(r.parameters, 'parameters')
@@ -273,7 +287,16 @@ export function formatTable(r: FitResult): string {
     s += `\nequation-error (OLS) comparison: ${r.equationError.parameters.map((p) => `${p.name} = ${g(p.value)} ± ${g(p.stdError, 3)}`).join(', ')}; output-error SSE there ${g(r.equationError.sse)}\n`
   }
   if (r.starts.length > 1) s += `\nstarts: ${r.starts.length}, best #${r.bestStart}; costs ${r.starts.map((x) => g(x.sse, 5)).join(', ')}\n`
+  if (r.identifiability && r.identifiability.combinations.length > 0) {
+    s += '\nidentifiability\n' + r.identifiability.combinations.map((c) => `  - ${c}\n`).join('')
+    if (r.identifiability.advice) s += `  - ${r.identifiability.advice}\n`
+  }
+  if (r.validationStart) {
+    s += `\nvalidation started from ${r.validationStart === 'estimated' ? 'initial states estimated on each record (parameters frozen)' : "the sheet's initial state"}\n`
+    s += r.validationInitialStates.map((v) => `  ${v.experiment}: ${v.name}(t0) = ${g(v.value)} ${v.unit}\n`).join('')
+  }
   if (r.warnings.length > 0) s += '\nwarnings\n' + r.warnings.map((w) => `  - ${w}\n`).join('')
+  if (r.notes.length > 0) s += '\ninformation\n' + r.notes.map((w) => `  - ${w}\n`).join('')
   s += '\n' + r.cautions.map((c) => `note: ${c}\n`).join('')
   return s
 }

@@ -217,8 +217,12 @@ export const runs = pgTable('runs', {
   modelId: integer('model_id').notNull().references(() => models.id),
   modelVersion: integer('model_version').notNull(),
   bindingId: integer('binding_id'),
-  /** queued | running | succeeded | failed | cancelled */
+  /** lifecycle: queued | running | succeeded (shown as "finished") | failed | cancelled */
   status: varchar({ length: 16 }).notNull().default('queued'),
+  /** the optimiser's outcome once the fit ran (shared/api/fit.ts fitStatus), separate from the lifecycle */
+  outcome: varchar({ length: 16 }),
+  /** for outcome 'converged': gradient | step | cost-change */
+  convergedBy: varchar('converged_by', { length: 16 }),
   settings: jsonb().notNull(),
   provenance: jsonb().notNull(),
   progress: jsonb(),

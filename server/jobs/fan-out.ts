@@ -21,7 +21,7 @@ export type ThreadMessage =
 export interface FanOutRecord { plans: number; helpers: number; threadIds: number[] }
 
 export const failedOutcome = (plan: StartPlan, reason: string): StartOutcome => ({
-  index: plan.index, start: plan.theta, theta: plan.theta, cost: NaN, objective: NaN, status: 'failed', reason,
+  index: plan.index, start: plan.theta, theta: plan.theta, cost: NaN, objective: NaN, status: 'failed', convergedBy: null, reason,
   iterations: 0, simulations: 0, costHistory: [], weights: null,
 })
 

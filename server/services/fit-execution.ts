@@ -3,7 +3,9 @@
  * thread of the pool, a `npm run worker` process): load the run, the model version and the datasets,
  * compile the sheet, fit with shared/engine/fit, and write everything back to the run row:
  *
- * - status running → succeeded | failed | cancelled, with started/finished times;
+ * - status (lifecycle) running → succeeded ("finished") | failed | cancelled, with started/finished times,
+ *   and, once the fit ran, its `outcome` (converged, iteration-limit, time-budget, stalled, failed) and
+ *   `converged_by` in their own columns: a fit stopped at a limit is a finished run, not a converged one;
  * - progress (iteration, cost, cost history, an estimated fraction) at most about 4 times a second;
  * - the row's cancel_requested flag is polled every 200 ms: a cancel asked from any process aborts the
  *   fit through its AbortSignal, and the run ends as cancelled within a second;
@@ -21,7 +23,7 @@ import { runFitWith, makeProblem, type FitOptions } from '../../shared/engine/fi
 import type { ExperimentData, FitProblem, ProblemSpec } from '../../shared/engine/fit/problem'
 import { BoxTransform } from '../../shared/engine/fit/transform'
 import { costLandscape } from '../../shared/engine/landscape'
-import type { FitResult, LandscapeResult } from '../../shared/api/fit'
+import { describeOutcome, type FitResult, type LandscapeResult } from '../../shared/api/fit'
 import type { ColumnMapping, ColumnMeta } from '../../shared/api/datasets'
 import type { OutputTrace, RunProgress, RunSettings } from '../../shared/api/runs'
 import { conversionFor } from './bindings'
@@ -111,6 +113,7 @@ export function problemSpec(model: CompiledModel, settings: RunSettings, est: Lo
     validation: val.map((d) => experimentFrom(model, d, settings.mapping)),
     set, bounds, free, fix,
     weighting: settings.weighting,
+    validationStart: settings.validationStart ?? 'sheet',
   }
 }
 
@@ -159,7 +162,13 @@ export function simulateTraces(model: CompiledModel, prob: FitProblem, result: F
   const all = [...prob.experiments.map((ex, e) => ({ ex, e, ds: est[e], validation: false })), ...prob.validation.map((ex, k) => ({ ex, e: -1, ds: val[k], validation: true }))]
   all.forEach(({ ex, e, ds, validation }, idx) => {
     const hasX0 = prob.fillExperiment(theta, e, p, x0)
-    const res = prob.simulateExperiment(ex, p, hasX0 ? x0 : undefined, false)
+    // a validation record whose initial states were estimated (parameters frozen) starts from them
+    const started = validation ? result.validationInitialStates?.filter((v) => v.experiment === ex.data.name) ?? [] : []
+    for (const v of started) {
+      const k = model.states.findIndex((st) => st.name === v.name)
+      if (k >= 0) x0[k] = toInternal(model.states[k], v.value)
+    }
+    const res = prob.simulateExperiment(ex, p, hasX0 || started.length > 0 ? x0 : undefined, false)
     model.outputs.forEach((o, j) => {
       const col = mapping.outputs[o.name]
       const meas = ex.data.outputs[o.name]
@@ -288,16 +297,19 @@ export async function executeRun(db: Db, runId: number, opts: ExecuteOptions = {
     if (cancelled || controller.signal.aborted || result.status === 'aborted') {
       return await finish('cancelled', { error: cancelled ? 'Cancelled by request.' : 'Stopped: the fit was aborted.', progress: progress(0, best === Infinity ? null : best, 0, 'cancelled', 0) })
     }
+    const outcome = { outcome: result.status, convergedBy: result.convergedBy }
     if (result.status === 'failed') {
-      return await finish('failed', { error: `The fit failed: ${result.reason}`, result: { ...result, traces: [] } as unknown as Record<string, unknown> })
+      const where = result.reasonStart !== null && settings.starts > 1 ? ` (start ${result.reasonStart})` : ''
+      return await finish('failed', { ...outcome, error: `The fit failed${where}: ${result.reason}`, result: { ...result, traces: [] } as unknown as Record<string, unknown> })
     }
     let traces: OutputTrace[] = []
     try { traces = simulateTraces(model, probe, result, est, val, settings.mapping) } catch { traces = [] }
     const lastHistory = result.costHistory.length ? result.costHistory : history
     return await finish('succeeded', {
+      ...outcome,
       result: { ...result, traces } as unknown as Record<string, unknown>,
       error: null,
-      progress: { ...progress(result.iterations, result.sse, settings.starts - 1, `finished: ${result.reason}`, 1), costHistory: thin(lastHistory, 500) },
+      progress: { ...progress(result.iterations, result.sse, settings.starts - 1, `finished, ${describeOutcome(result.status, result.convergedBy)}: ${result.reason}`, 1), costHistory: thin(lastHistory, 500) },
     })
   } catch (e) {
     if (cancelled || controller.signal.aborted) return await finish('cancelled', { error: cancelled ? 'Cancelled by request.' : 'Stopped: the fit was aborted.' })

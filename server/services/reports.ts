@@ -3,7 +3,7 @@
  * each section headed by a comment line) and JSON (settings, provenance and the whole result). Both
  * carry the result caution.
  */
-import type { FitResult } from '../../shared/api/fit'
+import { describeOutcome, type FitResult } from '../../shared/api/fit'
 import { RESULT_CAUTION, type RunDto } from '../../shared/api/runs'
 import { conflict } from '../errors'
 
@@ -20,7 +20,11 @@ export function exportJson(run: RunDto) {
   const { traces, ...fit } = run.result as Record<string, unknown>
   return {
     caution: RESULT_CAUTION,
-    run: { id: run.id, name: run.name, project: run.projectName, model: run.modelTitle, modelVersion: run.modelVersion, status: run.status, createdAt: run.createdAt, finishedAt: run.finishedAt },
+    run: {
+      id: run.id, name: run.name, project: run.projectName, model: run.modelTitle, modelVersion: run.modelVersion, status: run.status,
+      outcome: run.outcome ?? fit.status ?? null, outcomeText: describeOutcome(String(run.outcome ?? fit.status ?? ''), run.convergedBy ?? (fit.convergedBy as string | null | undefined)),
+      createdAt: run.createdAt, finishedAt: run.finishedAt,
+    },
     provenance: run.provenance,
     settings: run.settings,
     result: fit,
@@ -34,25 +38,40 @@ export function exportCsv(run: RunDto): string {
   const out: string[] = []
   out.push(`# ${RESULT_CAUTION}`)
   out.push(`# Pewter fit run ${run.id} "${run.name}": model "${run.modelTitle}" version ${run.modelVersion}, project "${run.projectName}"`)
-  out.push(`# status ${r.status} (${r.reason}); weighted cost ${r.sse}; ${r.iterations} iterations; ${r.simulations} simulations; method ${r.method}; weighting ${r.weighting}`)
+  out.push(`# run finished; optimiser outcome: ${describeOutcome(r.status, r.convergedBy)} (${r.reason}); weighted cost ${r.sse}; ${r.iterations} iterations; ${r.simulations} simulations; method ${r.method}; weighting ${r.weighting}`)
   out.push(`# engine ${run.provenance.engineVersion}; seed ${run.provenance.seed}; sheet sha256 ${run.provenance.sheetHash}`)
   for (const d of run.provenance.datasets) out.push(`# dataset ${d.id} "${d.name}" (${d.role}) sha256 ${d.contentHash}`)
   out.push('')
   out.push('# estimates')
-  out.push(line(['kind', 'name', 'experiment', 'unit', 'estimate', 'std_error', 'ci95_low', 'ci95_high', 'lower_bound', 'upper_bound', 'at_bound', 'start', 'change_from_start']))
+  out.push(line(['kind', 'name', 'experiment', 'unit', 'estimate', 'std_error', 'ci95_low', 'ci95_high', 'lower_bound', 'upper_bound', 'at_bound', 'start', 'change_from_start', 'determined', 'profile_ci95_low', 'profile_ci95_high']))
   const est = (kind: string, e: FitResult['parameters'][number]) =>
-    line([kind, e.name, e.experiment, e.unit, e.value, e.stdError, e.ci95[0], e.ci95[1], e.lower, e.upper, e.atBound ?? '', e.start, e.value - e.start])
+    line([kind, e.name, e.experiment, e.unit, e.value, e.stdError, e.ci95[0], e.ci95[1], e.lower, e.upper, e.atBound ?? '', e.start, e.value - e.start,
+      e.determined === false ? 'not determined by these data' : 'yes', e.profileCi95?.[0], e.profileCi95?.[1]])
   for (const p of r.parameters) out.push(est('parameter', p))
   for (const s of r.initialStates) out.push(est('initial_state', s))
   out.push('')
   out.push('# fit per output and experiment')
   out.push(line(['output', 'experiment', 'data', 'n', 'nrmse', 'rmse', 'r2', 'ljung_box_q', 'ljung_box_p']))
   for (const o of r.outputs) out.push(line([o.name, o.experimentName, o.validation ? 'validation' : 'estimation', o.n, o.nrmse, o.rmse, o.r2, o.residuals?.ljungBox.q, o.residuals?.ljungBox.pValue]))
-  if (r.warnings.length) {
+  if (r.validationStart) {
     out.push('')
-    out.push('# warnings')
-    out.push('warning')
-    for (const w of r.warnings) out.push(line([w]))
+    out.push(`# validation started from ${r.validationStart === 'estimated' ? 'initial states estimated on each record (parameters frozen)' : "the sheet's initial state"}`)
+    if (r.validationInitialStates?.length) {
+      out.push(line(['experiment', 'state', 'unit', 'initial_value']))
+      for (const v of r.validationInitialStates) out.push(line([v.experiment, v.name, v.unit, v.value]))
+    }
+  }
+  const sections: [string, string, string[]][] = [
+    ['identifiability', 'finding', [...(r.identifiability?.combinations ?? []), ...(r.identifiability?.advice ? [r.identifiability.advice] : [])]],
+    ['warnings', 'warning', r.warnings],
+    ['information', 'note', r.notes ?? []],
+  ]
+  for (const [title, head, rows] of sections) {
+    if (!rows.length) continue
+    out.push('')
+    out.push(`# ${title}`)
+    out.push(head)
+    for (const w of rows) out.push(line([w]))
   }
   return out.join('\r\n') + '\r\n'
 }

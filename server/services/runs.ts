@@ -10,7 +10,7 @@ import { bindings, datasets, models, modelVersions, parameterSets, projects, run
 import { badRequest, conflict, notFound } from '../errors'
 import type { JobRunner } from '../jobs/types'
 import { compileModel, SheetError, type CompiledModel } from '../../shared/sheet'
-import type { FitResult } from '../../shared/api/fit'
+import type { ConvergenceTest, FitResult, FitStatus } from '../../shared/api/fit'
 import {
   RESULT_CAUTION, type CreateRunBody, type FreeSpec, type ParameterSetDto, type Provenance, type RunDto,
   type RunProgress, type RunSettings, type RunStatus, type RunSummaryDto,
@@ -141,6 +141,7 @@ async function resolveRun(db: Db, workspaceId: number, projectId: number, body: 
     tolerances: body.tolerances,
     seed,
     rerunOf,
+    validationStart: body.validationStart ?? 'sheet',
   }
   const provenance: Provenance = {
     modelId: body.modelId,
@@ -178,7 +179,7 @@ export async function rerun(db: Db, jobs: JobRunner | undefined, workspaceId: nu
     ...(s.bindingId ? { bindingId: s.bindingId } : {}),
     estimation: s.estimation, validation: s.validation, mapping: s.mapping,
     free: s.free, initialStates: s.initialStates, method: s.method, starts: s.starts, weighting: s.weighting,
-    tolerances: s.tolerances, seed: s.seed,
+    tolerances: s.tolerances, seed: s.seed, validationStart: s.validationStart ?? 'sheet',
   }
   // the datasets must still be the same content
   const prov = row.provenance as Provenance
@@ -204,6 +205,7 @@ function summaryOf(r: RunRow, modelTitle: string, projectName: string): RunSumma
     name: s.name || `Run ${r.id}`, status: r.status as RunStatus, progress: (r.progress as RunProgress | null) ?? null,
     error: r.error, cancelRequested: r.cancelRequested, createdAt: iso(r.createdAt)!, startedAt: iso(r.startedAt), finishedAt: iso(r.finishedAt),
     createdBy: r.createdBy, sse: r.status === 'succeeded' ? result?.sse ?? null : null,
+    outcome: (r.outcome as FitStatus | null) ?? null, convergedBy: (r.convergedBy as ConvergenceTest | null) ?? null,
   }
 }
 
@@ -237,6 +239,7 @@ export async function listRuns(db: Db, workspaceId: number, filter: { projectId?
       id: runs.id, projectId: runs.projectId, modelId: runs.modelId, modelVersion: runs.modelVersion, status: runs.status,
       settings: runs.settings, progress: runs.progress, error: runs.error, cancelRequested: runs.cancelRequested,
       createdAt: runs.createdAt, startedAt: runs.startedAt, finishedAt: runs.finishedAt, createdBy: runs.createdBy,
+      outcome: runs.outcome, convergedBy: runs.convergedBy,
       sse: sql<number | null>`(${runs.result} ->> 'sse')::float8`,
     },
     title: models.title, project: projects.name,

@@ -8,8 +8,44 @@ import { z } from 'zod'
 const num = z.number()
 const numOrNull = z.number().nullable()
 
-export const fitStatus = z.enum(['converged', 'stopped', 'aborted', 'failed'])
+/**
+ * The optimiser's outcome (not the run's lifecycle, shared/api/runs.ts):
+ * - converged: a convergence test passed (`convergedBy` says which);
+ * - iteration-limit: stopped at the iteration (Nelder–Mead: evaluation) limit before any test passed;
+ * - time-budget: stopped when the time budget ran out;
+ * - stalled: no trial step lowered the cost any more although no test passed (Levenberg–Marquardt
+ *   after 40 rejected steps or λ ≥ 1e30): often the cost is only known to the integration accuracy;
+ * - failed: the model could not be evaluated (the engine's message is kept in `reason`);
+ * - aborted: cancelled by the caller.
+ */
+export const fitStatus = z.enum(['converged', 'iteration-limit', 'time-budget', 'stalled', 'failed', 'aborted'])
 export type FitStatus = z.infer<typeof fitStatus>
+
+/** Which test declared convergence: scaled projected gradient, relative step, relative cost change. */
+export const convergenceTest = z.enum(['gradient', 'step', 'cost-change'])
+export type ConvergenceTest = z.infer<typeof convergenceTest>
+
+/** Words for each outcome, shared by the CLI, the pages, the report and the exports. */
+export const FIT_STATUS_WORDS: Record<FitStatus, string> = {
+  'converged': 'converged',
+  'iteration-limit': 'stopped at the iteration limit',
+  'time-budget': 'stopped at the time budget',
+  'stalled': 'stalled (no further decrease)',
+  'failed': 'failed',
+  'aborted': 'aborted',
+}
+export const CONVERGENCE_TEST_WORDS: Record<ConvergenceTest, string> = {
+  'gradient': 'gradient test',
+  'step': 'step-size test',
+  'cost-change': 'cost-change test',
+}
+
+/** "converged (gradient test)", "stopped at the iteration limit", … */
+export function describeOutcome(status: string, convergedBy?: string | null): string {
+  const words = FIT_STATUS_WORDS[status as FitStatus] ?? status
+  const test = convergedBy ? CONVERGENCE_TEST_WORDS[convergedBy as ConvergenceTest] : undefined
+  return status === 'converged' && test ? `${words} (${test})` : words
+}
 
 export const fitMethod = z.enum(['lm', 'nelder-mead'])
 export type FitMethod = z.infer<typeof fitMethod>
@@ -32,6 +68,8 @@ export const estimateRow = z.object({
   /** profile-likelihood 95 % interval, when requested */
   profileCi95: z.tuple([numOrNull, numOrNull]).optional(),
   logTransformed: z.boolean(),
+  /** false when the parameter has a component in the null space of the scaled Jacobian: no s.e., no interval */
+  determined: z.boolean(),
 })
 export type EstimateRow = z.infer<typeof estimateRow>
 
@@ -67,6 +105,7 @@ export const startRow = z.object({
   value: z.array(numOrNull),
   sse: numOrNull,
   status: fitStatus,
+  convergedBy: convergenceTest.nullable(),
   reason: z.string(),
   iterations: z.number().int(),
   simulations: z.number().int(),
@@ -92,9 +131,35 @@ export const equationErrorRow = z.object({
 })
 export type EquationErrorRow = z.infer<typeof equationErrorRow>
 
+export const identifiability = z.object({
+  /** the documented cutoff on σ_k/σ_1 of the unit-column-scaled Jacobian (log coordinates for positive quantities) */
+  cutoff: num,
+  /** σ_k/σ_1, descending, over the quantities not held at a bound */
+  relativeSingularValues: z.array(num),
+  rank: z.number().int(),
+  /** quantities with a component in the null space: "not determined by these data" */
+  undetermined: z.array(z.string()),
+  /** the combinations that are determined, e.g. "a·b is determined; a and b separately are not" */
+  combinations: z.array(z.string()),
+  advice: z.string().nullable(),
+})
+export type Identifiability = z.infer<typeof identifiability>
+
+export const validationStartRow = z.object({
+  experiment: z.string(),
+  name: z.string(),
+  unit: z.string(),
+  value: num,
+})
+
 export const fitResult = z.object({
+  /** the optimiser's outcome at the best start */
   status: fitStatus,
+  /** for `converged`: which test passed */
+  convergedBy: convergenceTest.nullable(),
   reason: z.string(),
+  /** 1-based start the reason belongs to (a failed fit: the start whose engine message is kept) */
+  reasonStart: z.number().int().nullable(),
   /** the weighted cost: Σ over experiments, outputs and samples of w·(y − ŷ)² */
   sse: numOrNull,
   iterations: z.number().int(),
@@ -107,6 +172,12 @@ export const fitResult = z.object({
   /** correlation of every estimated quantity (parameters then initial states); null where undefined */
   correlation: z.object({ names: z.array(z.string()), matrix: z.array(z.array(numOrNull)) }),
   warnings: z.array(z.string()),
+  /** information lines that are not warnings (e.g. strongly correlated pairs, with r) */
+  notes: z.array(z.string()),
+  identifiability: identifiability.nullable(),
+  /** how validation experiments started: the sheet's initial states, or initial states estimated on the record (parameters frozen) */
+  validationStart: z.enum(['sheet', 'estimated']).nullable(),
+  validationInitialStates: z.array(validationStartRow),
   // --- extra fields ---
   method: fitMethod,
   weighting: fitWeighting,

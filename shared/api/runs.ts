@@ -5,8 +5,12 @@
 import { z } from 'zod'
 import { nameProblem, visibleText } from './text'
 import { columnMapping } from './datasets'
-import { fitMethod, fitWeighting, landscapeResult } from './fit'
+import { convergenceTest, fitMethod, fitStatus, fitWeighting, landscapeResult } from './fit'
 
+/**
+ * The run's lifecycle. 'succeeded' means the fit ran to its end and stored a result ("finished" on the
+ * pages); whether the optimiser converged is the separate `outcome`.
+ */
 export const runStatus = z.enum(['queued', 'running', 'succeeded', 'failed', 'cancelled'])
 export type RunStatus = z.infer<typeof runStatus>
 export const terminalStatuses: readonly RunStatus[] = ['succeeded', 'failed', 'cancelled']
@@ -54,6 +58,8 @@ export const createRunBody = z.object({
   tolerances: tolerances.default({}),
   /** seed of the multi-start sampling (default: drawn and stored, so "run again" reproduces) */
   seed: z.number().int().min(0).max(2 ** 31 - 1).optional(),
+  /** validation records start from the sheet's initial state, or from initial states estimated on each (parameters frozen) */
+  validationStart: z.enum(['sheet', 'estimate']).optional(),
 })
 export type CreateRunBody = z.infer<typeof createRunBody>
 
@@ -73,6 +79,8 @@ export const runSettings = z.object({
   seed: z.number(),
   /** set on a run started with "run again" */
   rerunOf: z.number().nullable(),
+  /** absent on runs stored before the option existed (then 'sheet') */
+  validationStart: z.enum(['sheet', 'estimate']).optional(),
 })
 export type RunSettings = z.infer<typeof runSettings>
 
@@ -138,6 +146,9 @@ export const runSummaryDto = z.object({
   modelVersion: z.number(),
   name: z.string(),
   status: runStatus,
+  /** the optimiser's outcome (null until the fit ran) and, when converged, which test passed */
+  outcome: fitStatus.nullable(),
+  convergedBy: convergenceTest.nullable(),
   progress: runProgress.nullable(),
   error: z.string().nullable(),
   cancelRequested: z.boolean(),

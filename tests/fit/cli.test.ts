@@ -51,6 +51,8 @@ beforeAll(async () => {
   await writeFile(join(dir, 'boxbod.csv'), nistCsv(BOXBOD))
   await writeFile(join(dir, 'text.csv'), 't,yobs\n1,109\n2,lots\n3,149\n')
   await writeFile(join(dir, 'notime.csv'), 'label,yobs\nfirst,109\nsecond,149\n')
+  await writeFile(join(dir, 'drain.sheet'), 'model "drain"\ntime [s]\nparam k = 1 [1/s] in [0.5, 5]\nstate h = 1 [1]\nh\' = -k * sqrt(h)\noutput level = h [1]\n')
+  await writeFile(join(dir, 'drain.csv'), ['t,level', ...Array.from({ length: 30 }, (_, i) => `${i * 0.2},0.5`)].join('\n'))
   await writeFile(join(dir, 'fixed.sheet'), 'model "fixed"\ntime [s]\nparam b1 = 200 in [1, 1e4]\nparam b2 = 0.5 fixed\nstate y = 0\ny\' = b2 * (b1 - y)\noutput yobs = y\n')
 })
 afterAll(async () => {
@@ -101,6 +103,19 @@ describe('pewter fit', () => {
       expect(r.code, args.join(' ')).toBe(2)
       expect(r.stderr).toMatch(re)
     }
+  })
+
+  it('the outcome words in the table and on stderr; a failed fit keeps the engine message', async () => {
+    const cut = await pewterHere(['misra.sheet', 'misra.csv', '--max-iterations', '2'])
+    expect(cut.code).toBe(0)
+    expect(cut.stdout).toMatch(/^fit stopped at the iteration limit: iteration limit \(2\)/)
+    expect(cut.stderr).toMatch(/^pewter fit: stopped at the iteration limit: /)
+    const ok = await pewterHere(['misra.sheet', 'misra.csv'])
+    expect(ok.stdout).toMatch(/^fit converged \((gradient|step-size|cost-change) test\)/)
+    expect(ok.stderr).toBe('')
+    const failed = await pewterHere(['drain.sheet', 'drain.csv'])
+    expect(failed.code).toBe(1)
+    expect(failed.stderr).toMatch(/^pewter fit: failed \(start 1\): the model cannot be evaluated at the starting point: .* at t = /)
   })
 
   it('bad data exits 1 naming file, row and column', async () => {

@@ -191,7 +191,7 @@ describe('fit problem', () => {
     const aborted = await runFit(model, spec, { onProgress: (i) => { if (i.iteration === 2) ctl.abort() }, signal: ctl.signal })
     expect(aborted.status).toBe('aborted')
     const budget = await runFit(model, spec, { timeBudgetMs: 0, starts: 3 })
-    expect(budget.status).toBe('stopped')
+    expect(budget.status).toBe('time-budget')
     expect(budget.reason).toMatch(/time budget/)
   })
 

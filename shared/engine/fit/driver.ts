@@ -9,7 +9,7 @@
  * fit stops with "no further decrease possible".
  */
 import type { CompiledModel } from '../../sheet/compiled'
-import type { FitMethod, FitResult, FitWeighting } from '../../api/fit'
+import type { ConvergenceTest, FitMethod, FitResult, FitWeighting } from '../../api/fit'
 import type { SolverName } from '../simulate-contract'
 import { FitProblem, type ProblemSpec, type Simulate } from './problem'
 import { levenbergMarquardt } from './lm'
@@ -64,6 +64,7 @@ export interface StartOutcome {
   /** what starts are compared by: the cost, or for ml weighting Σ N_j ln(SSE_j/N_j) */
   objective: number
   status: StopStatus
+  convergedBy: ConvergenceTest | null
   reason: string
   iterations: number
   simulations: number
@@ -126,10 +127,10 @@ async function optimiseOnce(prob: FitProblem, theta0: ArrayLike<number>, opts: F
     return opts.method === 'nelder-mead' ? nelderMeadFit(prob, theta0, o) : await levenbergMarquardt(prob, theta0, o)
   } catch (e) {
     if (e instanceof FitAborted) {
-      return { theta: Float64Array.from(theta0), cost: NaN, status: 'aborted', reason: 'aborted by the caller', iterations: 0, evaluations: 0, costHistory: [] }
+      return { theta: Float64Array.from(theta0), cost: NaN, status: 'aborted', convergedBy: null, reason: 'aborted by the caller', iterations: 0, evaluations: 0, costHistory: [] }
     }
     if (e instanceof FitTimeout) {
-      return { theta: Float64Array.from(theta0), cost: NaN, status: 'stopped', reason: 'time budget exhausted', iterations: 0, evaluations: 0, costHistory: [] }
+      return { theta: Float64Array.from(theta0), cost: NaN, status: 'time-budget', convergedBy: null, reason: 'time budget exhausted', iterations: 0, evaluations: 0, costHistory: [] }
     }
     throw e
   }
@@ -156,7 +157,7 @@ export async function fitFromStart(
       iterations += next.iterations
       history.push(...next.costHistory)
       res = next
-      if (res.status === 'failed' || res.status === 'aborted' || res.status === 'stopped') break
+      if (res.status !== 'converged' && res.status !== 'stalled') break
     }
     const u = prob.unweightedSsePerOutput(res.theta)
     weights = Array.from({ length: ny }, (_, j) => prob.experiments.find((e) => e.outputCount[j] > 0)?.weights[j] ?? 1)
@@ -167,7 +168,7 @@ export async function fitFromStart(
   }
   return {
     index: plan.index, start: plan.theta, theta: Array.from(res.theta), cost: res.cost, objective,
-    status: res.status, reason: res.reason, iterations, simulations: prob.simulations, costHistory: history, weights,
+    status: res.status, convergedBy: res.convergedBy, reason: res.reason, iterations, simulations: prob.simulations, costHistory: history, weights,
   }
 }
 

@@ -20,6 +20,8 @@
  * - Stopping (MINPACK-style tests, Moré 1978 Sec. 7): relative cost change |ΔC|/C ≤ ftol for both the
  *   actual and the predicted reduction; relative step max_j |Δz_j|/(|z_j| + typ_j) ≤ xtol; scaled
  *   projected gradient max_j |g_j|/(‖J_j‖·‖r‖) ≤ gtol (the cosine of the angle between r and column j).
+ *   Each is reported as 'converged' with the test's name. Otherwise: 'iteration-limit', 'time-budget',
+ *   'stalled' (40 rejected trial steps in a row or λ ≥ 1e30 with no test passed), 'failed', 'aborted'.
  */
 import { householderQR, applyQt, extractR } from '../stats/qr'
 import { svd } from '../stats/svd'
@@ -28,6 +30,7 @@ import {
   FitAborted, FitTimeout, sumSquares, yieldToEventLoop,
   type LsqProblem, type OptimiseOptions, type OptimiseResult, type StopStatus,
 } from './lsq'
+import type { ConvergenceTest } from '../../api/fit'
 
 export const LM_DEFAULTS = { maxIterations: 200, ftol: 1e-10, xtol: 1e-10, gtol: 1e-10 }
 
@@ -68,13 +71,13 @@ export async function levenbergMarquardt(
   }
 
   // a time-out or an abort inside a simulation ends the fit at the last accepted point
-  let interrupted: 'aborted' | 'stopped' | null = null
+  let interrupted: 'aborted' | 'time-budget' | null = null
   const evaluate = (th: Float64Array, rr: Float64Array, jj: Float64Array): boolean => {
     try {
       return prob.evaluate(th, rr, jj)
     } catch (e) {
       if (e instanceof FitAborted) interrupted = 'aborted'
-      else if (e instanceof FitTimeout) interrupted = 'stopped'
+      else if (e instanceof FitTimeout) interrupted = 'time-budget'
       else throw e
       return false
     }
@@ -82,8 +85,9 @@ export async function levenbergMarquardt(
   let evaluations = 1
   if (!evaluate(theta, r, jac) || !allFinite(r) || !allFinite(jac)) {
     if (interrupted === 'aborted') return done('aborted', 'aborted by the caller', 0, NaN)
-    if (interrupted === 'stopped') return done('stopped', 'time budget exhausted', 0, NaN)
-    return done('failed', 'the model cannot be evaluated at the starting point', 0, NaN)
+    if (interrupted === 'time-budget') return done('time-budget', 'time budget exhausted', 0, NaN)
+    const why = prob.failure?.() ?? 'a residual or its sensitivity is not finite'
+    return done('failed', `the model cannot be evaluated at the starting point: ${why}`, 0, NaN)
   }
   let cost = sumSquares(r)
   costHistory.push(cost)
@@ -93,8 +97,8 @@ export async function levenbergMarquardt(
   let nu = 2
   let iter = 0
 
-  function done(status: StopStatus, reason: string, iterations: number, c: number): OptimiseResult {
-    return { theta: Float64Array.from(theta), cost: c, status, reason, iterations, evaluations, costHistory }
+  function done(status: StopStatus, reason: string, iterations: number, c: number, convergedBy: ConvergenceTest | null = null): OptimiseResult {
+    return { theta: Float64Array.from(theta), cost: c, status, convergedBy, reason, iterations, evaluations, costHistory }
   }
 
   function buildJz(): void {
@@ -117,9 +121,9 @@ export async function levenbergMarquardt(
   while (true) {
     if (opts.signal?.aborted) return done('aborted', 'aborted by the caller', iter, cost)
     if (opts.deadline !== undefined && Date.now() > opts.deadline) {
-      return done('stopped', 'time budget exhausted', iter, cost)
+      return done('time-budget', 'time budget exhausted', iter, cost)
     }
-    if (iter >= maxIter) return done('stopped', `iteration limit (${maxIter}) reached`, iter, cost)
+    if (iter >= maxIter) return done('iteration-limit', `iteration limit (${maxIter}) reached before any convergence test passed`, iter, cost)
 
     // gradient in z and the free set
     const rnorm = Math.sqrt(cost)
@@ -141,8 +145,8 @@ export async function levenbergMarquardt(
         if (cn > 0 && rnorm > 0) gmax = Math.max(gmax, Math.abs(s) / (cn * rnorm))
       }
     }
-    if (free.length === 0) return done('converged', 'every parameter is held at a bound', iter, cost)
-    if (cost === 0 || gmax <= gtol) return done('converged', `projected gradient below gtol (${tolText(gtol)})`, iter, cost)
+    if (free.length === 0) return done('converged', 'every parameter is held at a bound (projected gradient zero)', iter, cost, 'gradient')
+    if (cost === 0 || gmax <= gtol) return done('converged', `projected gradient below gtol (${tolText(gtol)})`, iter, cost, 'gradient')
 
     // factorise the scaled free columns: J_F D_F⁻¹ = Q R, R = U S Vᵀ
     const nf = free.length
@@ -173,9 +177,9 @@ export async function levenbergMarquardt(
     let relAct = 0
     while (!accepted) {
       if (opts.signal?.aborted) return done('aborted', 'aborted by the caller', iter, cost)
-      if (opts.deadline !== undefined && Date.now() > opts.deadline) return done('stopped', 'time budget exhausted', iter, cost)
+      if (opts.deadline !== undefined && Date.now() > opts.deadline) return done('time-budget', 'time budget exhausted', iter, cost)
       if (++tries > 40 || !(lambda < 1e30)) {
-        return done('converged', 'no further decrease possible (cost change below the integration accuracy)', iter, cost)
+        return done('stalled', `no trial step lowered the cost (${tries > 40 ? '40 rejected steps' : 'damping λ ≥ 1e30'}) before any convergence test passed; the cost may be known only to the integration accuracy`, iter, cost)
       }
       dz.fill(0)
       for (let c = 0; c < nf; c++) {
@@ -211,7 +215,7 @@ export async function levenbergMarquardt(
       evaluations++
       const ok = evaluate(thetaT, rT, jacT) && allFinite(rT) && allFinite(jacT)
       if (interrupted === 'aborted') return done('aborted', 'aborted by the caller', iter, cost)
-      if (interrupted === 'stopped') return done('stopped', 'time budget exhausted', iter, cost)
+      if (interrupted === 'time-budget') return done('time-budget', 'time budget exhausted', iter, cost)
       const costT = ok ? sumSquares(rT) : Infinity
       const rho = pred > 0 ? (cost - costT) / pred : -1
       if (ok && costT < cost && rho > 1e-4) {
@@ -231,15 +235,15 @@ export async function levenbergMarquardt(
         nu *= 2
       }
     }
-    if (!accepted) return done('converged', `relative step below xtol (${tolText(xtol)})`, iter, cost)
+    if (!accepted) return done('converged', `relative step below xtol (${tolText(xtol)})`, iter, cost, 'step')
     iter++
     costHistory.push(cost)
     buildJz()
     opts.onIteration?.({ iteration: iter, cost, parameters: Array.from(theta) })
     if (relAct <= ftol && relPred <= ftol) {
-      return done('converged', `relative cost change below ftol (${tolText(ftol)})`, iter, cost)
+      return done('converged', `relative cost change below ftol (${tolText(ftol)})`, iter, cost, 'cost-change')
     }
-    if (stepSmall) return done('converged', `relative step below xtol (${tolText(xtol)})`, iter, cost)
+    if (stepSmall) return done('converged', `relative step below xtol (${tolText(xtol)})`, iter, cost, 'step')
     if (iter % 4 === 0 && (opts.signal || opts.deadline !== undefined)) await yieldToEventLoop()
   }
 }

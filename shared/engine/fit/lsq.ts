@@ -1,4 +1,4 @@
-import type { FitStatus } from '../../api/fit'
+import type { ConvergenceTest, FitStatus } from '../../api/fit'
 
 /** A bounded least-squares problem as the optimisers see it: minimise ‖r(θ)‖² over lower ≤ θ ≤ upper. */
 export interface LsqProblem {
@@ -14,6 +14,8 @@ export interface LsqProblem {
    * Returns false when the model cannot be evaluated there (failed or blown-up simulation).
    */
   evaluate(theta: Float64Array, r: Float64Array, jac: Float64Array | null): boolean
+  /** the engine's message for the last evaluation that failed (e.g. "step size too small at t = 1.2") */
+  failure?(): string | null
 }
 
 export type StopStatus = FitStatus
@@ -45,6 +47,8 @@ export interface OptimiseResult {
   theta: Float64Array
   cost: number
   status: StopStatus
+  /** for 'converged': which test passed */
+  convergedBy: ConvergenceTest | null
   reason: string
   iterations: number
   /** residual evaluations (simulations) */

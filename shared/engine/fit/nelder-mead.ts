@@ -5,8 +5,11 @@
  * Box 1966), so every trial point lies within the bounds.
  *
  * fmin's own test stops when the simplex's cost spread is below minErrorDelta (we pass ftol·C₀) and
- * its vertex spread below the same number; we also stop on the iteration limit, the time budget
- * and the abort signal (thrown out of the cost function and caught here).
+ * its vertex spread below the same number: reported as 'converged' by the cost-change test. fmin runs
+ * at most maxIterations simplex iterations and says nothing about why it returned, so we count its
+ * iterations (through its `history` hook) and check its test on the last simplex: not met means
+ * 'iteration-limit'. The evaluation limit (2·maxIterations), the time budget ('time-budget') and the
+ * abort signal are thrown out of the cost function and caught here.
  */
 import { nelderMead } from 'fmin/index.js'
 import { BoxTransform } from './transform'
@@ -49,23 +52,41 @@ export function nelderMeadFit(prob: LsqProblem, theta0: ArrayLike<number>, opts:
   const c0 = prob.evaluate(theta, r, null) ? sumSquares(r) : Infinity
   evaluations++
   if (!Number.isFinite(c0)) {
-    return { theta, cost: NaN, status: 'failed', reason: 'the model cannot be evaluated at the starting point', iterations: 0, evaluations, costHistory }
+    const why = prob.failure?.() ?? 'a residual is not finite'
+    return { theta, cost: NaN, status: 'failed', convergedBy: null, reason: `the model cannot be evaluated at the starting point: ${why}`, iterations: 0, evaluations, costHistory }
   }
   const ftol = opts.ftol ?? 1e-10
+  const maxIterations = opts.maxIterations ?? 400 * n
+  const minErrorDelta = Math.max(ftol * c0, 1e-300)
+  // fmin pushes a copy of the simplex at the top of every iteration: count them, keep the last
+  let simplexIterations = 0
+  let last: { simplex: (number[] & { fx: number })[] } | null = null
+  const history = { push(entry: { simplex: (number[] & { fx: number })[] }) { simplexIterations++; last = entry } }
+  const result = (status: OptimiseResult['status'], reason: string, convergedBy: OptimiseResult['convergedBy'] = null): OptimiseResult => ({
+    theta: best, cost: bestCost, status, convergedBy, reason, iterations: simplexIterations, evaluations, costHistory,
+  })
   try {
-    nelderMead(cost, w0, { maxIterations: opts.maxIterations ?? 400 * n, minErrorDelta: Math.max(ftol * c0, 1e-300), nonZeroDelta: 1.1 })
+    nelderMead(cost, w0, { maxIterations, minErrorDelta, nonZeroDelta: 1.1, history: history as unknown as unknown[] })
   } catch (e) {
-    if (e instanceof FitAborted) {
-      return { theta: best, cost: bestCost, status: 'aborted', reason: 'aborted by the caller', iterations: costHistory.length, evaluations, costHistory }
-    }
+    if (e instanceof FitAborted) return result('aborted', 'aborted by the caller')
     if (e instanceof BudgetExhausted || e instanceof FitTimeout) {
-      const why = evaluations >= maxEval && !(e instanceof FitTimeout) ? 'evaluation limit reached' : 'time budget exhausted'
-      return { theta: best, cost: bestCost, status: 'stopped', reason: why, iterations: costHistory.length, evaluations, costHistory }
+      return evaluations >= maxEval && !(e instanceof FitTimeout)
+        ? result('iteration-limit', `evaluation limit (${maxEval}) reached before the simplex test passed`)
+        : result('time-budget', 'time budget exhausted')
     }
     throw e
   }
-  return {
-    theta: best, cost: bestCost, status: 'converged', reason: 'simplex cost spread below ftol·C₀',
-    iterations: costHistory.length, evaluations, costHistory,
+  if (simplexIterations < maxIterations || (last !== null && simplexTestMet(last, minErrorDelta))) {
+    return result('converged', 'simplex cost spread below ftol·C₀', 'cost-change')
   }
+  return result('iteration-limit', `iteration limit (${maxIterations}) reached before the simplex test passed`)
+}
+
+/** fmin's own test on a simplex: cost spread and first-to-second vertex spread below minErrorDelta. */
+function simplexTestMet(entry: { simplex: (number[] & { fx: number })[] }, minErrorDelta: number): boolean {
+  const sorted = [...entry.simplex].sort((a, b) => a.fx - b.fx)
+  const nv = sorted.length - 1
+  let maxDiff = 0
+  for (let i = 0; i < nv; i++) maxDiff = Math.max(maxDiff, Math.abs(sorted[0][i] - sorted[1][i]))
+  return Math.abs(sorted[0].fx - sorted[nv].fx) < minErrorDelta && maxDiff < minErrorDelta
 }

@@ -60,6 +60,11 @@ export interface ProblemSpec {
   weighting?: FitWeighting
   /** overrides every experiment's t0 */
   t0?: number
+  /**
+   * how validation experiments start: 'sheet' (default) from the sheet's initial state, 'estimate'
+   * from initial states fitted to each validation record with the parameters frozen at the estimate
+   */
+  validationStart?: 'sheet' | 'estimate'
 }
 
 export interface EstimatedQuantity {
@@ -412,7 +417,10 @@ export class FitProblem implements LsqProblem {
   }
 
   /** Run one experiment's simulation. Throws FitAborted when aborted; returns null on failure. */
-  simulateExperiment(ex: PreparedExperiment, p: Float64Array, x0: Float64Array | undefined, withSens: boolean): SimulationResult | null {
+  simulateExperiment(
+    ex: PreparedExperiment, p: Float64Array, x0: Float64Array | undefined,
+    withSens: boolean | { params: number[]; initialStates: number[] },
+  ): SimulationResult | null {
     if (this.sim.signal?.aborted) throw new FitAborted()
     const left = this.sim.deadline !== undefined ? this.sim.deadline - Date.now() : undefined
     if (left !== undefined && left <= 0) throw new FitTimeout()
@@ -424,7 +432,7 @@ export class FitProblem implements LsqProblem {
         inputs: ex.inputs,
         p,
         x0,
-        sensitivities: withSens ? { params: ex.sensParams, initialStates: ex.sensStates } : undefined,
+        sensitivities: withSens === true ? { params: ex.sensParams, initialStates: ex.sensStates } : withSens || undefined,
         solver: this.sim.solver,
         rtol: this.sim.rtol,
         atol: this.sim.atol,
@@ -440,8 +448,13 @@ export class FitProblem implements LsqProblem {
     }
   }
 
+  failure(): string | null {
+    return this.lastError
+  }
+
   evaluate(theta: Float64Array, r: Float64Array, jac: Float64Array | null): boolean {
     const m = this.m
+    this.lastError = null
     for (let e = 0; e < this.experiments.length; e++) {
       const ex = this.experiments[e]
       const hasX0 = this.fillExperiment(theta, e, this.pBuf, this.xBuf)

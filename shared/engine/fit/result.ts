@@ -8,16 +8,26 @@
  *
  * Intervals: value ± t_{0.975, N−p}·se with se from s²·(JᵀJ)⁻¹ of √W·J through the SVD
  * (stats/covariance.ts).
+ *
+ * Rank deficiency: a singular value of the unit-column-scaled Jacobian below `identifiabilityCutoff`
+ * times the largest counts as zero (cutoff max(1e-6, 10·rtol): below about the integration tolerance a
+ * sensitivity column is only known to that accuracy, so smaller singular values are noise). Quantities
+ * with a component in that null space get no standard error and no linearised interval ("not
+ * determined by these data"); the determined combination is named (stats/identifiability.ts).
+ * Correlations |r| > 0.99 among determined quantities are information lines (`notes`), not warnings:
+ * a strongly correlated pair can still have honest intervals.
  */
 import { toDeclared, type CompiledModel, type UnitMap } from '../../sheet/compiled'
 import type {
-  EstimateRow, FitResult, FitWeighting, OutputRow, ResidualDiagnostics, EquationErrorRow, LandscapeResult, StartRow,
+  EstimateRow, FitResult, Identifiability, FitWeighting, OutputRow, ResidualDiagnostics, EquationErrorRow, LandscapeResult, StartRow,
 } from '../../api/fit'
 import { FitProblem, type PreparedExperiment, type ProblemSpec, type Simulate } from './problem'
 import { makeProblem, resolveTolerances, type FitOptions, type StartOutcome } from './driver'
 import { BoxTransform } from './transform'
 import { sumSquares } from './lsq'
 import { linearisedCovariance } from '../stats/covariance'
+import { analyseIdentifiability } from '../stats/identifiability'
+import { estimateValidationStates } from './validation-start'
 import { fitMetrics, aic, bic } from '../stats/metrics'
 import { autocorrelation, crossCorrelation, ljungBox, maxLagFor, whiteBand } from '../stats/residuals'
 import { sampleTrace } from './interp'
@@ -26,6 +36,11 @@ import { costLandscape } from '../landscape'
 import type { EquationErrorEstimate } from './equation-error'
 
 export const AT_BOUND_TOL = 1e-6
+
+/** relative singular value below which the scaled Jacobian counts as rank-deficient */
+export function identifiabilityCutoff(rtol: number): number {
+  return Math.max(1e-6, 10 * rtol)
+}
 
 export const CAUTIONS = [
   'Estimates, intervals and fit figures describe these data and this model only; check the model against independent validation data before using it for control or for any safety-related decision.',
@@ -69,11 +84,20 @@ export async function buildResult(a: BuildArgs): Promise<FitResult> {
   const tr = new BoxTransform(prob.lower, prob.upper, opts.logTransform ?? true)
   const sse = evalOk ? sumSquares(r) : NaN
   let status = best.status
+  let convergedBy = best.convergedBy
   let reason = best.reason
+  let reasonStart: number | null = best.index + 1
   if (!evalOk && status !== 'aborted') {
     status = 'failed'
-    reason = best.status === 'failed' ? `${best.reason}${prob.lastError ? `: ${prob.lastError}` : ''}` : `the model cannot be evaluated at the estimate${prob.lastError ? `: ${prob.lastError}` : ''}`
+    convergedBy = null
+    if (best.status === 'failed') {
+      const failed = a.outcomes.filter((o) => o.status === 'failed').length
+      reason = a.outcomes.length > 1 && failed === a.outcomes.length ? `all ${failed} starts failed; start ${best.index + 1}: ${best.reason}` : best.reason
+    } else {
+      reason = `the model cannot be evaluated at the estimate: ${prob.lastError ?? 'a residual or its sensitivity is not finite'}`
+    }
   }
+  if (status === 'converged') reasonStart = a.outcomes.length > 1 ? best.index + 1 : null
 
   // --- bounds and covariance
   const atBound: ('lower' | 'upper' | null)[] = []
@@ -87,29 +111,44 @@ export async function buildResult(a: BuildArgs): Promise<FitResult> {
   const nf = freeCols.length
   const jf = new Float64Array(m * nf)
   freeCols.forEach((q, c) => jf.set(jac.subarray(q * m, (q + 1) * m), c * m))
-  const cov = evalOk ? linearisedCovariance(jf, m, nf, sse, n) : null
+  const cutoff = identifiabilityCutoff(tol.rtol)
+  const cov = evalOk ? linearisedCovariance(jf, m, nf, sse, n, cutoff) : null
   const se = new Float64Array(n).fill(NaN)
+  const determined = new Array<boolean>(n).fill(true)
   const corr: (number | null)[][] = Array.from({ length: n }, () => new Array<number | null>(n).fill(null))
-  if (cov) {
-    freeCols.forEach((q, c) => {
-      se[q] = cov.stdError[c]
-      freeCols.forEach((q2, c2) => (corr[q][q2] = fin(cov.correlation[c * nf + c2])))
+  const notes: string[] = []
+  let identifiability: Identifiability | null = null
+  if (cov && nf > 0) {
+    const rep = analyseIdentifiability({
+      v: cov.scaledV, s: cov.scaledSingularValues, norms: cov.columnNorms,
+      theta: freeCols.map((q) => theta[q]), names: freeCols.map((q) => prob.names[q]), cutoff,
     })
-  }
-  // identifiability
-  if (cov) {
+    for (const c of rep.undetermined) determined[freeCols[c]] = false
+    identifiability = {
+      cutoff, relativeSingularValues: rep.relativeSingularValues, rank: rep.rank,
+      undetermined: rep.undetermined.map((c) => prob.names[freeCols[c]]),
+      combinations: rep.combinations,
+      advice: rep.undetermined.length
+        ? `fix one of ${rep.undetermined.map((c) => `'${prob.names[freeCols[c]]}'`).join(', ')} at a value known from elsewhere, or rewrite the sheet in terms of the combination that is determined; a profile-likelihood interval (on request) shows how far each one can move`
+        : null,
+    }
+    if (rep.undetermined.length) {
+      const ratio = rep.relativeSingularValues[rep.relativeSingularValues.length - 1]
+      warnings.push(`identifiability: the scaled Jacobian is rank-deficient (smallest/largest singular value ${ratio.toExponential(2)}, below the cutoff ${cutoff.toExponential(0)}); ${rep.combinations.join('; ')}. ${rep.undetermined.map((c) => `'${prob.names[freeCols[c]]}'`).join(', ')}: not determined by these data, so no standard error and no linearised interval`)
+    }
+    freeCols.forEach((q, c) => {
+      if (!determined[q]) return
+      se[q] = cov.stdError[c]
+      freeCols.forEach((q2, c2) => (corr[q][q2] = determined[q2] ? fin(cov.correlation[c * nf + c2]) : null))
+    })
     for (let i = 0; i < nf; i++) {
       for (let j = i + 1; j < nf; j++) {
+        if (!determined[freeCols[i]] || !determined[freeCols[j]]) continue
         const c = cov.correlation[i * nf + j]
         if (Math.abs(c) > 0.99) {
-          warnings.push(`identifiability: '${prob.names[freeCols[i]]}' and '${prob.names[freeCols[j]]}' are strongly correlated (r = ${c.toFixed(4)}); these data hardly tell them apart`)
+          notes.push(`'${prob.names[freeCols[i]]}' and '${prob.names[freeCols[j]]}' are strongly correlated (r = ${c.toFixed(4)}); their intervals already account for it`)
         }
       }
-    }
-    if (cov.rank < nf) {
-      const who = cov.weakDirection.map((c) => `'${prob.names[freeCols[c]]}'`).join(', ')
-      const ratio = cov.scaledSingularValues[nf - 1] / cov.scaledSingularValues[0]
-      warnings.push(`identifiability: the scaled Jacobian is near rank-deficient (smallest/largest singular value ${ratio.toExponential(2)}); ${who} cannot be determined separately from these data`)
     }
   }
   atBound.forEach((b, q) => {
@@ -128,6 +167,10 @@ export async function buildResult(a: BuildArgs): Promise<FitResult> {
     if (!evalOk || !cov || !(cov.dof > 0)) continue
     const pr = await profileInterval(prob, theta, q, sse, cov.s2, t975, se[q], opts, a.deadline)
     profiles.set(q, pr)
+    const open = [pr[0] <= prob.lower[q] ? 'lower' : null, pr[1] >= prob.upper[q] ? 'upper' : null].filter((x) => x !== null)
+    if (open.length) {
+      warnings.push(`identifiability: the profile of '${name}' stays below the 95 % threshold up to its ${open.join(' and ')} bound${open.length > 1 ? 's' : ''}; these data do not bound it there`)
+    }
   }
 
   const row = (q: number): EstimateRow => {
@@ -141,6 +184,7 @@ export async function buildResult(a: BuildArgs): Promise<FitResult> {
       name: qq.name, experiment: qq.experiment, unit: u.unit, value: v, start: toDeclared(u, best.start[q]),
       stdError: fin(s), ci95: [fin(v - t975 * s), fin(v + t975 * s)],
       lower: Math.min(lo, hi), upper: Math.max(lo, hi), atBound: atBound[q], logTransformed: tr.isLog[q],
+      determined: determined[q],
     }
     const pr = profiles.get(q)
     if (pr) out.profileCi95 = [fin(toDeclared(u, pr[0])), fin(toDeclared(u, pr[1]))]
@@ -152,27 +196,45 @@ export async function buildResult(a: BuildArgs): Promise<FitResult> {
 
   // --- per output and experiment
   const outputs: OutputRow[] = []
+  const validationInitialStates: FitResult['validationInitialStates'] = []
   if (evalOk) {
     prob.experiments.forEach((ex, e) => {
       const yh = prob.lastY[e]
       if (yh) outputs.push(...outputRows(model, ex, yh, e, false, best.weights !== null))
     })
     const means = localMeans(prob, theta)
-    if (prob.validation.length > 0 && prob.quantities.some((q) => q.experiment !== null)) {
-      warnings.push('validation: local parameters take the mean of their per-experiment estimates, estimated initial states their sheet values')
+    const estimateStarts = spec.validationStart === 'estimate'
+    if (prob.validation.length > 0 && prob.quantities.some((q) => q.experiment !== null && (q.kind === 'param' || !estimateStarts))) {
+      warnings.push(`validation: local parameters take the mean of their per-experiment estimates${estimateStarts ? '' : ', estimated initial states their sheet values'}`)
     }
-    prob.validation.forEach((ex, k) => {
+    if (prob.validation.length > 0 && !estimateStarts && prob.quantities.some((q) => q.kind === 'state')) {
+      notes.push('validation experiments start from the sheet\'s initial state; ask for estimated validation initial states (parameters frozen) when a record starts elsewhere')
+    }
+    for (let k = 0; k < prob.validation.length; k++) {
+      const ex = prob.validation[k]
       const p = new Float64Array(model.np)
       const x0 = new Float64Array(model.nx)
       prob.fillExperiment(theta, -1, p, x0)
       for (const [idx, v] of means) p[idx] = v
-      const res = prob.simulateExperiment(ex, p, undefined, false)
+      let start: Float64Array = x0
+      if (estimateStarts) {
+        const vs = await estimateValidationStates(prob, ex, p, x0, { ftol: tol.ftol, xtol: tol.xtol, gtol: tol.gtol, signal: opts.signal, deadline: a.deadline })
+        if (vs.problem) warnings.push(`validation ${ex.data.name}: initial states not estimated (${vs.problem}); the sheet's initial state is used`)
+        else {
+          start = vs.x0
+          vs.states.forEach((i, c) => {
+            const u = model.states[i]
+            validationInitialStates.push({ experiment: ex.data.name, name: u.name, unit: u.unit, value: toDeclared(u, vs.values[c]) })
+          })
+        }
+      }
+      const res = prob.simulateExperiment(ex, p, start, false)
       if (!res) {
         warnings.push(`validation ${ex.data.name}: the simulation failed: ${prob.lastError}`)
-        return
+        continue
       }
       outputs.push(...outputRows(model, ex, res.y, prob.experiments.length + k, true, best.weights !== null))
-    })
+    }
   }
 
   // --- landscape
@@ -195,7 +257,7 @@ export async function buildResult(a: BuildArgs): Promise<FitResult> {
   }
 
   const starts: StartRow[] = a.outcomes.map((o) => ({
-    index: o.index, start: o.start, value: o.theta.map(fin), sse: fin(o.cost), status: o.status, reason: o.reason,
+    index: o.index, start: o.start, value: o.theta.map(fin), sse: fin(o.cost), status: o.status, convergedBy: o.convergedBy, reason: o.reason,
     iterations: o.iterations, simulations: o.simulations,
   }))
   const totalSims = a.outcomes.reduce((s, o) => s + o.simulations, 0) + prob.simulations
@@ -207,11 +269,15 @@ export async function buildResult(a: BuildArgs): Promise<FitResult> {
     if (failed > 0) warnings.push(`${failed} of ${a.outcomes.length} starts failed`)
   }
   return {
-    status, reason, sse: fin(sse), iterations: best.iterations, simulations: totalSims,
+    status, convergedBy, reason, reasonStart, sse: fin(sse), iterations: best.iterations, simulations: totalSims,
     elapsedMs: performance.now() - a.startedAt,
     parameters, initialStates, outputs,
     correlation: { names: prob.names, matrix: corr },
     warnings: dedupe(warnings),
+    notes: dedupe(notes),
+    identifiability,
+    validationStart: prob.validation.length === 0 ? null : spec.validationStart === 'estimate' && validationInitialStates.length > 0 ? 'estimated' : 'sheet',
+    validationInitialStates,
     method: opts.method ?? 'lm', weighting: a.weighting, nObservations: m, nEstimated: n,
     dof: m - n, s2: cov ? fin(cov.s2) : null, tQuantile: fin(t975),
     aic: evalOk && sse > 0 ? fin(aic(sse, m, n)) : null, bic: evalOk && sse > 0 ? fin(bic(sse, m, n)) : null,

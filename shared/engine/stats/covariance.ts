@@ -7,10 +7,11 @@
  * Nonlinear Regression, 1989, Sec. 2.1; the SVD route of Golub & Van Loan, Matrix Computations,
  * 4th ed., 2013, Sec. 5.5.
  *
- * Identifiability: with each Jacobian column scaled to unit norm, a smallest-to-largest singular value
- * ratio below `rankTol` (default 1e-6, i.e. a condition number of JᵀJ above 1e12) is called near rank-
- * deficient, and the parameters carrying the weakest singular direction (|v_j| ≥ 0.3) are named; so is
- * every pair with |correlation| > 0.99 (common practice, no source).
+ * Identifiability: with each Jacobian column scaled to unit norm, a singular value below `rankTol`
+ * times the largest (default 1e-6, i.e. a condition number of JᵀJ above 1e12) counts as zero: the
+ * numerical rank is the number above it, the pseudo-inverse is truncated there (so a null direction
+ * never contributes a huge or a falsely small variance), and the right singular vectors of the
+ * dropped values span the null space (identifiability.ts names what is and is not determined).
  */
 import { householderQR, extractR } from './qr'
 import { svd, type SVD } from './svd'
@@ -27,6 +28,10 @@ export interface CovarianceResult {
   rank: number
   /** indices (into the columns given) in the weakest direction when near rank-deficient */
   weakDirection: number[]
+  /** n×n row-major right singular vectors of the unit-column-scaled Jacobian (columns, descending σ) */
+  scaledV: Float64Array
+  /** the column norms ‖J_j‖ used for the scaling */
+  columnNorms: Float64Array
   s2: number
   dof: number
   tQuantile: number
@@ -56,7 +61,7 @@ export function linearisedCovariance(
   const stdError = new Float64Array(n).fill(NaN)
   const correlation = new Float64Array(n * n).fill(NaN)
   if (n === 0) {
-    return { cov, stdError, correlation, scaledSingularValues: new Float64Array(0), rank: 0, weakDirection: [], s2, dof, tQuantile }
+    return { cov, stdError, correlation, scaledSingularValues: new Float64Array(0), rank: 0, weakDirection: [], scaledV: new Float64Array(0), columnNorms: new Float64Array(0), s2, dof, tQuantile }
   }
   const d = new Float64Array(n)
   const js = Float64Array.from(j)
@@ -77,8 +82,8 @@ export function linearisedCovariance(
     const k = n - 1
     for (let c = 0; c < n; c++) if (Math.abs(svdR.v[c * n + k]) >= 0.3 || d[c] === 0) weakDirection.push(c)
   }
-  // pseudo-inverse through the singular values that are not numerically zero
-  const cutoff = Math.max(m, n) * 2.220446049250313e-16 * smax
+  // pseudo-inverse through the singular values above the rank cutoff
+  const cutoff = Math.max(rankTol * smax, Math.max(m, n) * 2.220446049250313e-16 * smax)
   for (let a = 0; a < n; a++) {
     for (let b = 0; b < n; b++) {
       let s = 0
@@ -93,5 +98,5 @@ export function linearisedCovariance(
   for (let a = 0; a < n; a++) {
     for (let b = 0; b < n; b++) correlation[a * n + b] = cov[a * n + b] / (stdError[a] * stdError[b])
   }
-  return { cov, stdError, correlation, scaledSingularValues: sv, rank, weakDirection, s2, dof, tQuantile }
+  return { cov, stdError, correlation, scaledSingularValues: sv, rank, weakDirection, scaledV: svdR.v, columnNorms: d, s2, dof, tQuantile }
 }
