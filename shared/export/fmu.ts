@@ -116,7 +116,8 @@ typedef struct {
   fmi2Real time;
   double x[NXA], p[NPA], u[NUA], f[NXA], y[NYA];
   double fx[NXA * NXA], fu[NXA * NUA], gx[NYA * NXA], gu[NYA * NUA];
-  fmi2CallbackFunctions cb;
+  /* FMI 2.0, Sec. 2.1.5: the importer keeps the callback struct valid until fmi2FreeInstance */
+  const fmi2CallbackFunctions *cb;
   fmi2Boolean logging;
 } Instance;
 
@@ -126,7 +127,7 @@ static void refresh(Instance *m) {
 }
 
 static void note(Instance *m, fmi2Status s, const char *msg) {
-  if (m && m->cb.logger && (m->logging || s != fmi2OK)) m->cb.logger(m->cb.componentEnvironment, "${id}", s, "error", msg);
+  if (m && m->cb->logger && (m->logging || s != fmi2OK)) m->cb->logger(m->cb->componentEnvironment, "${id}", s, "error", msg);
 }
 
 const char *fmi2GetTypesPlatform(void) { return "default"; }
@@ -150,7 +151,7 @@ fmi2Component fmi2Instantiate(fmi2String instanceName, fmi2Type fmuType, fmi2Str
   Instance *m = (Instance *)functions->allocateMemory(1, sizeof(Instance));
   if (!m) return NULL;
   memset(m, 0, sizeof(Instance));
-  m->cb = *functions;
+  m->cb = functions;
   m->logging = loggingOn;
   for (int i = 0; i < ${P}_NX; i++) m->x[i] = ${id}_initial_state[i];
   for (int i = 0; i < ${P}_NP; i++) m->p[i] = ${id}_parameters[i];
@@ -161,7 +162,7 @@ fmi2Component fmi2Instantiate(fmi2String instanceName, fmi2Type fmuType, fmi2Str
 
 void fmi2FreeInstance(fmi2Component c) {
   Instance *m = (Instance *)c;
-  if (m) m->cb.freeMemory(m);
+  if (m) m->cb->freeMemory(m);
 }
 
 fmi2Status fmi2SetupExperiment(fmi2Component c, fmi2Boolean toleranceDefined, fmi2Real tolerance, fmi2Real startTime, fmi2Boolean stopTimeDefined, fmi2Real stopTime) {
