@@ -7,6 +7,8 @@ const commands: Record<string, () => Promise<{ run: (args: string[]) => Promise<
   simulate: () => import('./simulate'),
   fit: () => import('./fit'),
   submit: () => import('./submit'),
+  linearize: () => import('./linearize'),
+  export: () => import('./export'),
 }
 
 async function main(argv: string[]): Promise<number> {

@@ -4,7 +4,7 @@
  * function writes into the caller's preallocated Float64Array, allocates nothing, and computes
  * each needed `let` once per call.
  */
-import { type Expr, fold, mul, num, walk, isNum } from './ast'
+import { type CmpOp, type Expr, type FnName, fold, mul, num, walk, isNum } from './ast'
 import { diff, type Var } from './derivative'
 import type { ParsedModel } from './model'
 
@@ -38,16 +38,51 @@ const MATH: Record<string, string> = {
 }
 const CMP: Record<string, string> = { '<': '<', '<=': '<=', '>': '>', '>=': '>=', '==': '===', '!=': '!==' }
 
+/**
+ * The target language of generated code: JavaScript (the compiled model, the ES module export) or C99
+ * (the C and FMU exports). Both get the same expressions, lets and derivative temporaries.
+ */
+export interface Dialect {
+  lit(v: number): string
+  fn(f: FnName, args: string[]): string
+  cmp(op: CmpOp): string
+  /** a constant local: `const L0=…;` */
+  decl(name: string, value: string): string
+  /** opening line of one generated function (t, x, p, u, out) */
+  open(name: string): string
+  /** set out[0 … n) to zero */
+  zero(n: number): string
+  /** a lookup call: table i, its slope when d */
+  lookup(i: number, d: boolean, arg: string): string
+  /** the seconds-per-time-unit constant's name */
+  spt: string
+  /** marks a local as possibly unused ('' when the language does not care) */
+  unused(name: string): string
+}
+
+export const JS_DIALECT: Dialect = {
+  lit,
+  fn: (f, args) => `${MATH[f]}(${args.join(',')})`,
+  cmp: (op) => CMP[op],
+  decl: (name, value) => `const ${name}=${value};`,
+  open: (name) => `function ${name}(t,x,p,u,out){`,
+  zero: () => 'out.fill(0);',
+  lookup: (i, d, arg) => `${d ? 'lkd' : 'lkv'}(X${i},Y${i},${arg})`,
+  spt: 'SPT',
+  unused: () => '',
+}
+
 export class Emitter {
-  constructor(private readonly m: ParsedModel) {}
+  constructor(private readonly m: ParsedModel, private readonly d: Dialect = JS_DIALECT) {}
   emit(e: Expr): string {
+    const d = this.d
     switch (e.k) {
-      case 'num': return lit(e.v)
+      case 'num': return d.lit(e.v)
       case 'x': return `x[${e.i}]`
       case 'p': return `p[${e.i}]`
       case 'u': return `u[${e.i}]`
       case 'delay': return `u[${e.slot}]`
-      case 'c': return lit(this.m.consts[e.i].value)
+      case 'c': return d.lit(this.m.consts[e.i].value)
       case 'let': return `L${e.i}`
       case 'tmp': return `D${e.i}`
       case 't': return 'ts'
@@ -55,15 +90,15 @@ export class Emitter {
       case 'bin': {
         if (e.op === '^') {
           if (isNum(e.b, 2) && isSimple(e.a)) { const a = this.emit(e.a); return `(${a}*${a})` }
-          if (isNum(e.b, 0.5)) return `Math.sqrt(${this.emit(e.a)})`
-          return `Math.pow(${this.emit(e.a)},${this.emit(e.b)})`
+          if (isNum(e.b, 0.5)) return d.fn('sqrt', [this.emit(e.a)])
+          return d.fn('pow', [this.emit(e.a), this.emit(e.b)])
         }
         return `(${this.emit(e.a)}${e.op}${this.emit(e.b)})`
       }
-      case 'cmp': return `(${this.emit(e.a)}${CMP[e.op]}${this.emit(e.b)}?1:0)`
+      case 'cmp': return `(${this.emit(e.a)}${d.cmp(e.op)}${this.emit(e.b)}?${d.lit(1)}:${d.lit(0)})`
       case 'cond': return `(${this.emit(e.c)}?${this.emit(e.a)}:${this.emit(e.b)})`
-      case 'fn': return `${MATH[e.f]}(${e.args.map((a) => this.emit(a)).join(',')})`
-      case 'lookup': return `${e.d ? 'lkd' : 'lkv'}(X${e.i},Y${e.i},${this.emit(e.a)})`
+      case 'fn': return d.fn(e.f, e.args.map((a) => this.emit(a)))
+      case 'lookup': return d.lookup(e.i, e.d, this.emit(e.a))
     }
   }
 }
@@ -87,9 +122,14 @@ function directVars(e: Expr, lets: Set<number>): Set<Key> {
   return out
 }
 
-export function generateSource(m: ParsedModel): string {
+/** names of the generated functions, in order */
+export const GENERATED = ['rhs', 'outputs', 'dfdx', 'dfdp', 'dfdu', 'dfdt', 'dgdx', 'dgdp', 'dgdu'] as const
+export type GeneratedName = (typeof GENERATED)[number]
+
+/** The nine model functions as source text of the dialect. */
+export function generateFunctions(m: ParsedModel, dialect: Dialect = JS_DIALECT): Record<GeneratedName, string> {
   const nu = m.inputs.length + m.delays.length
-  const em = new Emitter(m)
+  const em = new Emitter(m, dialect)
 
   // right sides in the compiled units: d(x_SI)/d(t_sheet) for derivatives, x(k+1) for next-equations
   const constant = (i: number) => m.consts[i].value
@@ -127,10 +167,10 @@ export function generateSource(m: ParsedModel): string {
     }
     return m.letOrder.filter((i) => need.has(i))
   }
-  const letLines = (order: number[]) => order.map((i) => `const L${i}=${em.emit(letExpr[i])};`).join('\n')
+  const letLines = (order: number[]) => order.map((i) => dialect.decl(`L${i}`, em.emit(letExpr[i]))).join('\n')
 
   const valueFn = (name: string, exprs: Expr[], infos: { lets: Set<number> }[]) => {
-    const lines = [`function ${name}(t,x,p,u,out){`, 'const ts=t*SPT;', letLines(neededLets(infos))]
+    const lines = [dialect.open(name), dialect.decl('ts', `t*${dialect.spt}`), dialect.unused('ts'), letLines(neededLets(infos))]
     exprs.forEach((e, i) => lines.push(`out[${i}]=${em.emit(e)};`))
     lines.push('}')
     return lines.join('\n')
@@ -155,7 +195,7 @@ export function generateSource(m: ParsedModel): string {
         const d = diff(letExpr[li], v, ctx)
         if (isNum(d, 0)) continue
         hasTmp.add(li)
-        body.push(`const D${li}=${em.emit(d)};`)
+        body.push(dialect.decl(`D${li}`, em.emit(d)))
       }
       for (const i of rows) {
         const d = diff(exprs[i], v, ctx)
@@ -164,8 +204,8 @@ export function generateSource(m: ParsedModel): string {
       }
       if (body.length) lines.push('{', ...body, '}')
     })
-    const head = [`function ${name}(t,x,p,u,out){`, 'out.fill(0);']
-    if (lines.length) head.push('const ts=t*SPT;', letLines(order))
+    const head = [dialect.open(name), dialect.zero(exprs.length * ncol)]
+    if (lines.length) head.push(dialect.decl('ts', `t*${dialect.spt}`), dialect.unused('ts'), letLines(order))
     return [...head, ...lines, '}'].join('\n')
   }
 
@@ -174,6 +214,21 @@ export function generateSource(m: ParsedModel): string {
   const us: Var[] = Array.from({ length: nu }, (_, i) => ({ k: 'u', i }))
   const ts: Var[] = [{ k: 't' }]
 
+  return {
+    rhs: valueFn('rhs', f, fInfo),
+    outputs: valueFn('outputs', g, gInfo),
+    dfdx: jacFn('dfdx', f, fInfo, xs),
+    dfdp: jacFn('dfdp', f, fInfo, ps),
+    dfdu: jacFn('dfdu', f, fInfo, us),
+    dfdt: jacFn('dfdt', f, fInfo, ts),
+    dgdx: jacFn('dgdx', g, gInfo, xs),
+    dgdp: jacFn('dgdp', g, gInfo, ps),
+    dgdu: jacFn('dgdu', g, gInfo, us),
+  }
+}
+
+export function generateSource(m: ParsedModel): string {
+  const fns = generateFunctions(m, JS_DIALECT)
   const parts: string[] = [
     "'use strict';",
     `const SPT=${lit(m.secondsPerTimeUnit)};`,
@@ -181,15 +236,7 @@ export function generateSource(m: ParsedModel): string {
     'function lkv(X,Y,v){const n=X.length;if(v!==v)return v;if(v<=X[0])return Y[0];if(v>=X[n-1])return Y[n-1];let lo=0,hi=n-1;while(hi-lo>1){const k=(lo+hi)>>1;if(X[k]<=v)lo=k;else hi=k;}return Y[lo]+(Y[lo+1]-Y[lo])*(v-X[lo])/(X[lo+1]-X[lo]);}',
     'function lkd(X,Y,v){const n=X.length;if(v!==v)return v;if(v<=X[0]||v>=X[n-1])return 0;let lo=0,hi=n-1;while(hi-lo>1){const k=(lo+hi)>>1;if(X[k]<=v)lo=k;else hi=k;}return (Y[lo+1]-Y[lo])/(X[lo+1]-X[lo]);}',
     ...m.lookups.map((_, i) => `const X${i}=TX[${i}],Y${i}=TY[${i}];`),
-    valueFn('rhs', f, fInfo),
-    valueFn('outputs', g, gInfo),
-    jacFn('dfdx', f, fInfo, xs),
-    jacFn('dfdp', f, fInfo, ps),
-    jacFn('dfdu', f, fInfo, us),
-    jacFn('dfdt', f, fInfo, ts),
-    jacFn('dgdx', g, gInfo, xs),
-    jacFn('dgdp', g, gInfo, ps),
-    jacFn('dgdu', g, gInfo, us),
+    ...GENERATED.map((n) => fns[n]),
     'return {rhs,outputsFn:outputs,dfdx,dfdp,dfdu,dfdt,dgdx,dgdp,dgdu};',
   ]
   return parts.join('\n')

@@ -1,0 +1,12 @@
+/** Linear analysis of a compiled sheet: operating points, linearisation, poles, zeros, responses, uncertainty. */
+export { analyzeModel, type AnalysisRequest } from './analysis'
+export { findOperatingPoints, type OperatingPointResult, type OperatingPointSolution } from './operating-point'
+export { linearize, type LinearModel } from './linearize'
+export { eigenvalues, type Eigenvalues } from './eigen'
+export { transmissionZeros, channelZeros } from './zeros'
+export { frequencyResponse, defaultFrequencies } from './frequency-response'
+export { linearStep, expm } from './step-response'
+export { dcGain, poleInfo, controllabilityRank, observabilityRank, RANK_TOL } from './properties'
+export { covarianceFromFit, propagate, matchPoles, type ParameterCovariance } from './uncertainty'
+export { resolveValues, inputSlots, type ValueSources, type ResolvedValues } from './parameters'
+export { AnalysisInputError, LinearAlgebraError } from './errors'
