@@ -5,7 +5,7 @@ import { parse } from '../middleware/validate'
 import { requireUser } from '../middleware/auth'
 import * as auth from '../services/auth'
 import { audit } from '../services/audit'
-import { signinBody, signupBody, switchWorkspaceBody } from '../../shared/api/auth'
+import { signinBody, signupBody, switchWorkspaceBody, type SessionReply } from '../../shared/api/auth'
 
 function regenerate(req: Parameters<Parameters<Router['post']>[1]>[0]) {
   return new Promise<void>((resolve, reject) => req.session.regenerate((err) => (err ? reject(err) : resolve())))
@@ -48,6 +48,13 @@ export function authRoutes(limitPerWindow: number) {
 
   router.get('/me', requireUser, async (req, res) => {
     res.json(await auth.me(ctx(req).db, req.auth!.userId))
+  })
+
+  // The client's first question on every page load: answers 200 whether or not anyone is signed in,
+  // so signed-out pages log no failed request.
+  router.get('/session', async (req, res) => {
+    const reply: SessionReply = { session: req.auth?.userId ? await auth.me(ctx(req).db, req.auth.userId) : null }
+    res.json(reply)
   })
 
   router.post('/workspace', requireUser, async (req, res) => {
