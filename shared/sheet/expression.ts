@@ -3,7 +3,7 @@
  * and converted to our own tree (ast.ts) with names resolved. User text never reaches generated
  * code: the tree holds numbers and indices only.
  */
-import { parse } from 'mathjs'
+import { parse } from '../mathjs-lite'
 import type { MathNode } from 'mathjs'
 import { type Cols, type Expr, type FnName, type CmpOp, FUNCTIONS, constValue } from './ast'
 import type { DiagnosticList } from './diagnostics'
