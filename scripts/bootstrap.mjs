@@ -11,3 +11,7 @@ if (stale) {
   const r = spawnSync('npm', ['ci', '--no-audit', '--no-fund'], { stdio: 'inherit' })
   if (r.status !== 0) process.exit(r.status ?? 1)
 }
+
+// the command line, bundled ahead of time so `npm run -s pewter -- …` starts at once
+const { ensureCli } = await import('./cli-bundle.mjs')
+await ensureCli()

@@ -1,14 +1,23 @@
 /**
  * `npm run -s pewter -- <command> …`: the command-line face of the shared sheet and engine code.
  * Each sub-command lives in its own module exporting `run(args): Promise<number>` (the exit code).
+ * Static imports: scripts/pewter.mjs bundles this file ahead of time into one ESM file, and a bundle
+ * of static imports is tree-shaken (lazily imported modules would be kept whole).
  */
+import * as check from './check'
+import * as simulate from './simulate'
+import * as fit from './fit'
+import * as submit from './submit'
+import * as linearize from './linearize'
+import * as exportCmd from './export'
+
 const commands: Record<string, () => Promise<{ run: (args: string[]) => Promise<number> }>> = {
-  check: () => import('./check'),
-  simulate: () => import('./simulate'),
-  fit: () => import('./fit'),
-  submit: () => import('./submit'),
-  linearize: () => import('./linearize'),
-  export: () => import('./export'),
+  check: async () => check,
+  simulate: async () => simulate,
+  fit: async () => fit,
+  submit: async () => submit,
+  linearize: async () => linearize,
+  export: async () => exportCmd,
 }
 
 async function main(argv: string[]): Promise<number> {

@@ -7,7 +7,7 @@ import * as auth from '../services/auth'
 import * as verification from '../services/email-verification'
 import { assertUncommonPassword } from '../auth/passwords'
 import { audit } from '../services/audit'
-import { SIGNUP_MESSAGE, signinBody, signupBody, switchWorkspaceBody, verifyEmailBody } from '../../shared/api/auth'
+import { SIGNUP_MESSAGE, signinBody, signupBody, switchWorkspaceBody, verifyEmailBody, type SessionReply } from '../../shared/api/auth'
 
 function regenerate(req: Parameters<Parameters<Router['post']>[1]>[0]) {
   return new Promise<void>((resolve, reject) => req.session.regenerate((err) => (err ? reject(err) : resolve())))
@@ -76,6 +76,13 @@ export function authRoutes(limitPerWindow: number) {
 
   router.get('/me', requireUser, async (req, res) => {
     res.json(await auth.me(ctx(req).db, req.auth!.userId))
+  })
+
+  // The client's first question on every page load: answers 200 whether or not anyone is signed in,
+  // so signed-out pages log no failed request.
+  router.get('/session', async (req, res) => {
+    const reply: SessionReply = { session: req.auth?.userId ? await auth.me(ctx(req).db, req.auth.userId) : null }
+    res.json(reply)
   })
 
   router.post('/workspace', requireUser, async (req, res) => {

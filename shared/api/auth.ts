@@ -73,3 +73,7 @@ export const meReply = z.object({
   currentWorkspaceId: z.number().nullable(),
 })
 export type MeReply = z.infer<typeof meReply>
+
+/** GET /api/auth/session: the signed-in user's MeReply, or null when nobody is signed in (always 200). */
+export const sessionReply = z.object({ session: meReply.nullable() })
+export type SessionReply = z.infer<typeof sessionReply>

@@ -3,7 +3,7 @@
  * between two units is affine, v_to = a·v_from + b (b ≠ 0 only for offset units such as degC, which
  * are converted as absolute temperatures), so we ask mathjs twice and apply a and b in the loop.
  */
-import { unit as mathUnit } from 'mathjs'
+import { unit as mathUnit } from '../mathjs-lite'
 
 export interface Affine {
   a: number

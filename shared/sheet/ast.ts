@@ -10,7 +10,9 @@ export type Fn2 = 'atan2' | 'pow' | 'min' | 'max'
 export type FnName = Fn1 | Fn2 | 'hypot'
 export const FN1: readonly Fn1[] = ['sin', 'cos', 'tan', 'asin', 'acos', 'atan', 'sinh', 'cosh', 'tanh', 'exp', 'log', 'log10', 'sqrt', 'abs', 'sign', 'floor', 'ceil']
 export const FN2: readonly Fn2[] = ['atan2', 'pow', 'min', 'max']
-export const FUNCTIONS: readonly string[] = [...FN1, ...FN2, 'hypot']
+/** Smooth switches and limits, written out in the functions above by smooth.ts. */
+export const SMOOTH_FUNCTION_NAMES: readonly string[] = ['soft_step', 'soft_switch', 'soft_max', 'soft_min', 'soft_clamp']
+export const FUNCTIONS: readonly string[] = [...FN1, ...FN2, 'hypot', ...SMOOTH_FUNCTION_NAMES]
 
 export type BinOp = '+' | '-' | '*' | '/' | '^'
 export type CmpOp = '<' | '<=' | '>' | '>=' | '==' | '!='

@@ -3,11 +3,12 @@
  * and converted to our own tree (ast.ts) with names resolved. User text never reaches generated
  * code: the tree holds numbers and indices only.
  */
-import { parse } from 'mathjs'
+import { parse } from '../mathjs-lite'
 import type { MathNode } from 'mathjs'
 import { type Cols, type Expr, type FnName, type CmpOp, FUNCTIONS, constValue } from './ast'
 import type { DiagnosticList } from './diagnostics'
 import { didYouMean } from './suggest'
+import { expandSmooth, isSmoothName, SMOOTH_FUNCTIONS, smoothSignature } from './smooth'
 
 export const MAX_EXPRESSION_LENGTH = 4000
 export const MAX_NESTING = 64
@@ -234,9 +235,14 @@ class Converter {
       return this.fail(nameCols, `unknown function '${name}'${didYouMean(name, this.ctx.callables())}`)
     }
     if (bad) return null
-    const fname = name as FnName
     const s = this.span([nameCols, ...args.map((a) => a.s)])
     const nargs = args.length
+    if (isSmoothName(name)) {
+      const want = SMOOTH_FUNCTIONS[name].length
+      if (nargs !== want) return this.fail(nameCols, `${name} takes ${want} arguments, got ${nargs}: ${smoothSignature(name)}`)
+      return expandSmooth(name, args, s)
+    }
+    const fname = name as FnName
     if (fname === 'min' || fname === 'max') {
       if (nargs < 2) return this.fail(nameCols, `${fname} needs at least two arguments`)
       // n-ary min/max as nested binary calls (one active argument per derivative)

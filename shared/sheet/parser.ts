@@ -12,6 +12,7 @@ import { LineScanner, NUMBER_RE, stripComment, type Tok } from './line-scanner'
 import type { ConstDecl, EquationDecl, InputDecl, LetDecl, LookupDecl, OutputDecl, ParamDecl, ParsedModel, StateDecl } from './model'
 import { didYouMean } from './suggest'
 import { checkUnits } from './unit-check'
+import { checkComparisons } from './comparison-check'
 import { parseUnit, SECONDS_PER, sameDims, TIME_DIMS, type UnitInfo } from './units'
 
 export const MAX_SHEET_CHARS = 2_000_000
@@ -706,6 +707,7 @@ class SheetParser {
       delays: this.delays,
     }
     checkUnits(model, d)
+    checkComparisons(model, d)
     return model
   }
 

@@ -4,7 +4,7 @@
  * SI: internal = declared * scale + offset. The angle dimension is dropped (the radian is
  * dimensionless in SI: BIPM, "The International System of Units", 9th edition 2019, table 4).
  */
-import { unit as mathUnit } from 'mathjs'
+import { unit as mathUnit } from '../mathjs-lite'
 
 /** mass, length, time, current, temperature, luminous intensity, amount, (angle dropped), bit */
 export const N_DIMS = 9

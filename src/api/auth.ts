@@ -1,21 +1,16 @@
 /** Calls of the /api/auth routes; shapes come from shared/api/auth.ts. */
 import { z } from 'zod'
-import { meReply, signupReply, verificationPreview, type MeReply, type SigninBody, type SignupBody } from '@shared/api/auth'
-import { api, ApiError } from './client'
+import { meReply, sessionReply, signupReply, verificationPreview, type MeReply, type SigninBody, type SignupBody } from '@shared/api/auth'
+import { api } from './client'
 
-/** The signed-in user, or null when the server answers 401 (no session). */
+/** The signed-in user, or null when nobody is signed in (the session route answers 200 either way). */
 export async function fetchMe(): Promise<MeReply | null> {
-  try {
-    return await api.get('/api/auth/me', { schema: meReply, silent: [401] })
-  } catch (e) {
-    if (e instanceof ApiError && e.status === 401) return null
-    throw e
-  }
+  return (await api.get('/api/auth/session', { schema: sessionReply })).session
 }
 
 /**
  * The sign-in, sign-up and switch routes may answer with the new MeReply or with a bare
- * acknowledgement; either way the caller gets the session as /api/auth/me reports it.
+ * acknowledgement; either way the caller gets the session as /api/auth/session reports it.
  */
 async function meAfter(reply: unknown): Promise<MeReply | null> {
   const direct = meReply.safeParse(reply)

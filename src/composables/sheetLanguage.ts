@@ -95,6 +95,11 @@ const FUNCTION_HELP: Record<string, string> = {
   atan2: 'atan2(y, x) — angle of the point (x, y)', pow: 'pow(a, b) — a to the power b', min: 'min(a, b, …)', max: 'max(a, b, …)',
   hypot: 'hypot(a, b, …) — square root of the sum of squares', delay: 'delay(input, tau) — the input trace read at t − tau (tau ≥ 0, a param or const)',
   log: 'log(x) — natural logarithm', log10: 'log10(x) — base-10 logarithm', sign: 'sign(x) — −1, 0 or 1',
+  soft_step: 'soft_step(x, at, width) — smooth 0 → 1 around at (0.12 to 0.88 over width); a fit can move at',
+  soft_switch: 'soft_switch(x, at, width, below, above) — smooth form of x >= at ? above : below',
+  soft_max: 'soft_max(a, b, width) — smooth max, at most width/2 above it',
+  soft_min: 'soft_min(a, b, width) — smooth min, at most width/2 below it',
+  soft_clamp: 'soft_clamp(x, lo, hi, width) — soft limit of x between lo and hi',
 }
 
 let registered = false

@@ -13,7 +13,7 @@ export type Permission = keyof typeof can
 
 export const useSessionStore = defineStore('session', () => {
   const me = ref<MeReply | null>(null)
-  /** True once the first /api/auth/me has answered (signed in or not). */
+  /** True once the first /api/auth/session has answered (signed in or not). */
   const loaded = ref(false)
   let loading: Promise<void> | null = null
 

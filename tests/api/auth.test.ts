@@ -87,6 +87,17 @@ describe('sign-up with e-mail verification, sign-in, sign-out', () => {
     expect((await agent.get('/api/auth/me')).status).toBe(401)
   })
 
+  it('answers the session question with 200 whether or not anyone is signed in', async () => {
+    const agent = request.agent(t.app)
+    const before = await agent.get('/api/auth/session')
+    expect(before.status).toBe(200)
+    expect(before.body).toEqual({ session: null })
+    await agent.post('/api/auth/signin').set(CSRF).send({ email: demo.modeler, password: 'pewter-demo' })
+    const after = await agent.get('/api/auth/session')
+    expect(after.status).toBe(200)
+    expect(after.body.session.user.email).toBe(demo.modeler)
+  })
+
   it('regenerates the session id at sign-in (no session fixation)', async () => {
     const agent = request.agent(t.app)
     const first = await agent.post('/api/auth/signin').set(CSRF).send({ email: demo.viewer, password: 'pewter-demo' })

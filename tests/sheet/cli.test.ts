@@ -14,6 +14,21 @@ function pewter(...args: string[]) {
   return { code: r.status, out: r.stdout, err: r.stderr }
 }
 
+describe('the command line built ahead of time', () => {
+  it('is rebuilt from its sources and answers exactly as the sources do', async () => {
+    const { buildCli, cliBundleStale, CLI_BUNDLE } = await import('../../scripts/cli-bundle.mjs')
+    await buildCli()
+    expect(cliBundleStale()).toBe(false)
+    const sheet = join(MODELS_DIR, 'heated-buffer-vessel.sheet')
+    const bundled = spawnSync(process.execPath, [join(ROOT, 'scripts', 'pewter.mjs'), 'check', sheet], { cwd: ROOT, encoding: 'utf8', timeout: 60_000 })
+    expect(bundled.status).toBe(0)
+    expect(JSON.parse(bundled.stdout)).toEqual(JSON.parse(pewter('check', sheet).out))
+    const usage = spawnSync(process.execPath, [CLI_BUNDLE, 'nonsense'], { cwd: ROOT, encoding: 'utf8', timeout: 60_000 })
+    expect(usage.status).toBe(2)
+    expect(usage.stderr).toMatch(/usage: pewter <check\|simulate\|fit\|submit>/)
+  }, 180_000)
+})
+
 describe('pewter check', () => {
   it('a clean template: exit 0 and the summary', () => {
     const r = pewter('check', join(MODELS_DIR, 'heated-buffer-vessel.sheet'))
