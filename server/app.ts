@@ -3,6 +3,7 @@
  */
 import express from 'express'
 import helmet from 'helmet'
+import compression from 'compression'
 import { existsSync } from 'node:fs'
 import path from 'node:path'
 import { fileURLToPath } from 'node:url'
@@ -43,6 +44,13 @@ export function createApp(context: AppContext, options: AppOptions = {}) {
       },
     },
     strictTransportSecurity: context.config.trustProxy,
+  }))
+
+  // gzip (or deflate) of every compressible reply above 1 kB: the client's scripts, styles and JSON;
+  // server-sent events stream uncompressed so each event arrives at once
+  app.use(compression({
+    threshold: 1024,
+    filter: (req, res) => !String(res.getHeader('Content-Type') ?? '').startsWith('text/event-stream') && compression.filter(req, res),
   }))
 
   app.use('/api', express.json({ limit: '2mb' }))

@@ -1,6 +1,5 @@
 import { createApp } from 'vue'
 import { createPinia } from 'pinia'
-import ElementPlus from 'element-plus'
 import 'element-plus/dist/index.css'
 import '@fontsource/fira-sans/400.css'
 import '@fontsource/fira-sans/500.css'
@@ -16,7 +15,6 @@ const app = createApp(App)
 const pinia = createPinia()
 app.use(pinia)
 app.use(router)
-app.use(ElementPlus)
 
 // A session that ends while the page is open (expired, signed out elsewhere): forget it and go to
 // sign-in, coming back here afterwards.

@@ -87,6 +87,17 @@ describe('sign-up with e-mail verification, sign-in, sign-out', () => {
     expect((await agent.get('/api/auth/me')).status).toBe(401)
   })
 
+  it('compresses large replies for clients that accept gzip', async () => {
+    const agent = await signedIn(t.app, demo.modeler)
+    const r = await agent.get('/api/workspaces/tinmoor/models').set('Accept-Encoding', 'gzip')
+    expect(r.status).toBe(200)
+    expect(JSON.stringify(r.body).length).toBeGreaterThan(1024)
+    expect(r.headers['content-encoding']).toBe('gzip')
+    const plain = await agent.get('/api/workspaces/tinmoor/models').set('Accept-Encoding', 'identity')
+    expect(plain.headers['content-encoding']).toBeUndefined()
+    expect(plain.body).toEqual(r.body)
+  })
+
   it('answers the session question with 200 whether or not anyone is signed in', async () => {
     const agent = request.agent(t.app)
     const before = await agent.get('/api/auth/session')
