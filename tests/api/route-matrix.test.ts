@@ -37,6 +37,7 @@ const MATRIX: Record<string, Access> = {
   'POST /api/auth/signin': 'public',
   'POST /api/auth/signout': 'public',
   'GET /api/auth/me': 'user',
+  'GET /api/auth/session': 'public',
   'POST /api/auth/workspace': 'user',
   'POST /api/auth/password-reset': 'public',
   'POST /api/auth/password-reset/:token': 'public',
