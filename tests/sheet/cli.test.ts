@@ -25,7 +25,7 @@ describe('the command line built ahead of time', () => {
     expect(JSON.parse(bundled.stdout)).toEqual(JSON.parse(pewter('check', sheet).out))
     const usage = spawnSync(process.execPath, [CLI_BUNDLE, 'nonsense'], { cwd: ROOT, encoding: 'utf8', timeout: 60_000 })
     expect(usage.status).toBe(2)
-    expect(usage.stderr).toMatch(/usage: pewter <check\|simulate\|fit\|submit>/)
+    expect(usage.stderr).toMatch(/usage: pewter <check\|simulate\|fit\|submit\|linearize\|export>/)
   }, 180_000)
 })
 
