@@ -28,7 +28,8 @@ export function nameProblem(text: string): string | null {
 export function visibleText(field: string, max: number, emptyMessage = `${field} is required`) {
   return z.string().trim().min(1, emptyMessage).max(max, `${field} has at most ${max} characters`)
     .superRefine((s, ctx) => {
-      const problem = nameProblem(s)
+      // an empty value already has its own message (min)
+      const problem = s.length ? nameProblem(s) : null
       if (problem) ctx.addIssue({ code: 'custom', message: `${field} ${problem}` })
     })
 }
