@@ -7,6 +7,8 @@ import { requireCapability } from '../middleware/auth'
 import { intParam, parse } from '../middleware/validate'
 import * as library from '../services/models'
 import { notifyEnvOf, notifyForked } from '../services/notifications'
+import { exportVersion, linearizeVersion } from '../services/handover'
+import { exportBody, handoverBody } from '../../shared/api/handover'
 import {
   createModelBody, diffQuery, forkBody, listModelsQuery, publishBody, saveDraftBody, setMaintainersBody, updateModelBody,
 } from '../../shared/api/models'
@@ -32,6 +34,18 @@ export function modelRoutes() {
   router.put('/:id/maintainers', requireCapability('write'), async (req, res) => {
     const id = intParam(req.params, 'id')
     res.json(await library.setMaintainers(ctx(req).db, actor(req), id, parse(setMaintainersBody, req.body)))
+  })
+  // hand-over: linear analysis and exports of a version (POST: bodies carry options; nothing is stored)
+  router.post('/:id/versions/:n/linearize', requireCapability('read'), async (req, res) => {
+    const body = parse(handoverBody, req.body)
+    res.json(await linearizeVersion(ctx(req).db, actor(req), intParam(req.params, 'id'), intParam(req.params, 'n'), body))
+  })
+  router.post('/:id/versions/:n/export', requireCapability('read'), async (req, res) => {
+    const body = parse(exportBody, req.body)
+    const file = await exportVersion(ctx(req).db, actor(req), intParam(req.params, 'id'), intParam(req.params, 'n'), body)
+    res.setHeader('Content-Type', file.contentType)
+    res.setHeader('Content-Disposition', `attachment; filename="${file.fileName}"`)
+    res.send(typeof file.data === 'string' ? file.data : Buffer.from(file.data))
   })
   router.delete('/:id', requireCapability('administer'), async (req, res) => {
     const id = intParam(req.params, 'id')
