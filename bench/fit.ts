@@ -3,7 +3,10 @@
  *  1. NIST StRD Misra1a and BoxBOD as sheets (y' = b2·(b1 − y)), both NIST starts, lm, rtol = atol = 1e-11.
  *  2. The same fits with scipy's solve_ivp (DOP853, with the forward-sensitivity equations, so both sides
  *     use an exact Jacobian) + least_squares (trf, bounds) when python3 with scipy is installed; the ratio.
- *  3. A 3-state cascade of vessels (seeded synthetic data) on 1 000, 10 000 and 100 000 samples.
+ *  3. A 3-state cascade of vessels (seeded synthetic data) on 1 000, 10 000 and 100 000 samples, with the
+ *     feed input given on every row; prints time(100 k)/time(10 k) per fit and per simulation (goal ≤ 10),
+ *     and the CSV parsing time of the same sheets of data.
+ *  `npm run bench:fit -- --scaling` runs part 3 only.
  */
 import { spawnSync } from 'node:child_process'
 import { compileModel } from '../shared/sheet'
@@ -11,6 +14,7 @@ import { simulate } from '../shared/engine/simulate'
 import { runFit, type ProblemSpec } from '../shared/engine/fit'
 import { BOXBOD, MISRA1A, nistSheet, type NistProblem } from '../tests/fit/fixtures/nist'
 import { gaussian } from '../tests/fit/fixtures/synthetic'
+import { parseCsv } from '../shared/data/csv'
 
 function median(v: number[]): number {
   const s = [...v].sort((a, b) => a - b)
@@ -111,7 +115,7 @@ output l1 = h1 [m]
 output l3 = h3 [m]
 `
 
-async function cascade(n: number): Promise<{ n: number; ms: number; sims: number; iters: number; perSample: number; ok: boolean }> {
+async function cascade(n: number): Promise<{ n: number; ms: number; sims: number; iters: number; perSample: number; ok: boolean; csvMs: number }> {
   const model = compileModel(CASCADE)
   const dt = 2
   const t = Float64Array.from({ length: n }, (_, i) => i * dt)
@@ -130,13 +134,37 @@ async function cascade(n: number): Promise<{ n: number; ms: number; sims: number
     l1[i] = sim.y[2 * i] + 0.002 * noise()
     l3[i] = sim.y[2 * i + 1] + 0.002 * noise()
   }
+  // the same sheet of data as a CSV file: time, the input on every row, two outputs
+  const lines = ['t [s],q [m^3/s],l1 [m],l3 [m]']
+  for (let i = 0; i < n; i++) lines.push(`${t[i]},${qv[i]},${l1[i].toPrecision(8)},${l3[i].toPrecision(8)}`)
+  const text = lines.join('\n')
+  const c0 = performance.now()
+  const table = parseCsv(text, { file: `cascade-${n}.csv` })
+  const csvMs = performance.now() - c0
+  if (table.time.values.length !== n) throw new Error('csv rows lost')
   const spec: ProblemSpec = { experiments: [{ name: `n=${n}`, time: t, outputs: { l1, l3 }, inputs: { q: { t, v: qv } } }] }
   const res = await runFit(model, spec, { rtol: 1e-7 })
   const ok = res.status === 'converged' && Math.abs(res.parameters[0].value - 0.006) < 5 * (res.parameters[0].stdError ?? Infinity)
-  return { n, ms: res.elapsedMs, sims: res.simulations, iters: res.iterations, perSample: (res.elapsedMs * 1000) / n, ok }
+  return { n, ms: res.elapsedMs, sims: res.simulations, iters: res.iterations, perSample: (res.elapsedMs * 1000) / n, ok, csvMs }
+}
+
+async function scaling(): Promise<void> {
+  console.log('\n3-state cascade, 3 free parameters, 2 outputs, the feed input on every row, rtol 1e-7, lm from the sheet values:')
+  const crow: string[][] = [['samples', 'ms', 'iterations', 'simulations', 'ms per simulation', 'µs per sample', 'CSV parse ms', 'converged near truth']]
+  const got: Record<number, { ms: number; sims: number; csvMs: number }> = {}
+  for (const n of [1_000, 10_000, 100_000]) {
+    const c = await cascade(n)
+    got[n] = c
+    crow.push([String(c.n), g(c.ms), String(c.iters), String(c.sims), g(c.ms / c.sims, 3), g(c.perSample, 3), g(c.csvMs, 3), c.ok ? 'yes' : 'NO'])
+  }
+  console.log(pad(crow))
+  const a = got[10_000]
+  const b = got[100_000]
+  console.log(`\ntime(100 k)/time(10 k): whole fit ${g(b.ms / a.ms, 3)}, per simulation ${g((b.ms / b.sims) / (a.ms / a.sims), 3)}, CSV parsing ${g(b.csvMs / a.csvMs, 3)} (goal: at most 10)`)
 }
 
 async function main(): Promise<void> {
+  if (process.argv.includes('--scaling')) return scaling()
   console.log('Pewter fit benchmark (prints figures; not a test). Machine: 2 shared cores; NIST times are the best of 15 (Pewter) and 5 (scipy) runs, medians in brackets.\n')
   const ours = await nistPewter()
   const theirs = nistScipy()
@@ -153,13 +181,7 @@ async function main(): Promise<void> {
     const med = theirs.reduce((x, t) => x + t.msMedian, 0) / ours.reduce((x, r) => x + r.msMedian, 0)
     console.log(`the same from the medians: ${g(med, 3)}× (a loaded machine spreads both; compare best-of figures)`)
   }
-  console.log('\n3-state cascade, 3 free parameters, 2 outputs, rtol 1e-7, lm from the sheet values:')
-  const crow: string[][] = [['samples', 'ms', 'iterations', 'simulations', 'µs per sample', 'converged near truth']]
-  for (const n of [1_000, 10_000, 100_000]) {
-    const c = await cascade(n)
-    crow.push([String(c.n), g(c.ms), String(c.iters), String(c.sims), g(c.perSample, 3), c.ok ? 'yes' : 'NO'])
-  }
-  console.log(pad(crow))
+  await scaling()
 }
 
 main().catch((e) => {

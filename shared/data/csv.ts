@@ -1,6 +1,6 @@
 /**
  * Measured traces from CSV text, shared by the CLI and the server's dataset upload. Pure TypeScript
- * (papaparse for the record splitting; RFC 4180 quoting rules).
+ * (csv-records.ts splits the records in one linear pass; RFC 4180 quoting rules).
  *
  * - A header row names the columns; a unit may follow in brackets: `level [cm]`, `temp [degC]`.
  * - Time: the column named `t` or `time` (any case), else the first column. Numbers are seconds unless
@@ -11,7 +11,7 @@
  * - Empty cells and `NaN` are missing values (NaN); they are skipped by the fit.
  * - Rows are counted as in the file, the header being row 1. Errors say row and column.
  */
-import Papa from 'papaparse'
+import { CsvRecords } from './csv-records'
 import { timeScaleSeconds } from './units'
 
 export interface CsvColumn {
@@ -106,10 +106,9 @@ export function parseCsv(text: string, opts: CsvOptions = {}): CsvTable {
   if (body.trim() === '') fail(null, null, 'the file is empty')
   const firstLine = body.slice(0, Math.max(0, body.search(/\r?\n/)) || body.length)
   const delimiter = detectDelimiter(firstLine)
-  const parsed = Papa.parse<string[]>(body, { delimiter, skipEmptyLines: false, header: false })
-  const records = parsed.data
+  const records = new CsvRecords(body, delimiter)
   // header
-  const headerCells = records[0] ?? []
+  const headerCells = records.count > 0 ? records.cells(0) : []
   if (headerCells.length === 0 || headerCells.every((c) => c.trim() === '')) fail(1, null, 'the header row is empty')
   const headers = headerCells.map(parseHeader)
   const seen = new Map<string, number>()
@@ -122,27 +121,31 @@ export function parseCsv(text: string, opts: CsvOptions = {}): CsvTable {
   const nCol = headers.length
   // data records (blank lines skipped, rows counted as in the file)
   const maxRows = opts.maxRows ?? 2_000_000
-  const dataRecs: { row: number; cells: string[] }[] = []
-  for (let r = 1; r < records.length; r++) {
-    const cells = records[r]
-    if (cells.length === 1 && cells[0].trim() === '') continue
-    if (cells.length !== nCol) fail(r + 1, null, `the row has ${cells.length} field(s), the header has ${nCol}`)
-    dataRecs.push({ row: r + 1, cells })
-    if (dataRecs.length > maxRows) fail(r + 1, null, `too many rows: the limit is ${maxRows} data rows`)
+  // record index of each data row (the file's row number is record index + 1)
+  let recIdx = new Int32Array(Math.max(0, records.count - 1))
+  let nData = 0
+  for (let r = 1; r < records.count; r++) {
+    if (records.isBlank(r)) continue
+    const w = records.width(r)
+    if (w !== nCol) fail(r + 1, null, `the row has ${w} field(s), the header has ${nCol}`)
+    recIdx[nData++] = r
+    if (nData > maxRows) fail(r + 1, null, `too many rows: the limit is ${maxRows} data rows`)
   }
-  if (dataRecs.length === 0) fail(2, null, 'the file has a header but no data rows')
+  recIdx = recIdx.subarray(0, nData)
+  if (nData === 0) fail(2, null, 'the file has a header but no data rows')
+  const cellOf = (k: number, c: number) => records.cell(recIdx[k], c)
   // time column
   let tCol = headers.findIndex((h) => h.name.toLowerCase() === 't' || h.name.toLowerCase() === 'time')
   const named = tCol >= 0
   if (!named) tCol = 0
-  const firstTime = dataRecs[0].cells[tCol].trim()
+  const firstTime = cellOf(0, tCol).trim()
   const iso = ISO.test(firstTime)
   // decimal comma: only when the delimiter is not a comma
   let decimalComma = false
   if (delimiter !== ',') {
-    outer: for (const rec of dataRecs.slice(0, 50)) {
-      for (const c of rec.cells) {
-        const s = c.trim()
+    outer: for (let k = 0; k < Math.min(50, nData); k++) {
+      for (let c = 0; c < nCol; c++) {
+        const s = cellOf(k, c).trim()
         if (s.includes(',') && NUMBER_COMMA.test(s)) {
           decimalComma = true
           break outer
@@ -159,9 +162,9 @@ export function parseCsv(text: string, opts: CsvOptions = {}): CsvTable {
   }
   if (!iso && !Number.isFinite(num(firstTime))) {
     if (!named) {
-      fail(dataRecs[0].row, headers[0].name, `no time column: name one column 't' or 'time' or put the time first (found '${firstTime}', not a number or an ISO-8601 time)`)
+      fail(recIdx[0] + 1, headers[0].name, `no time column: name one column 't' or 'time' or put the time first (found '${firstTime}', not a number or an ISO-8601 time)`)
     }
-    fail(dataRecs[0].row, headers[tCol].name, `the time '${firstTime}' is not a number or an ISO-8601 time`)
+    fail(recIdx[0] + 1, headers[tCol].name, `the time '${firstTime}' is not a number or an ISO-8601 time`)
   }
   const tHeader = headers[tCol]
   let tScale = 1
@@ -171,14 +174,14 @@ export function parseCsv(text: string, opts: CsvOptions = {}): CsvTable {
     if (sc === null) fail(1, `${tHeader.name} [${tHeader.unit}]`, `'${tHeader.unit}' is not a unit of time`)
     tScale = sc!
   }
-  const n = dataRecs.length
+  const n = nData
   const time = new Float64Array(n)
   const rows = new Int32Array(n)
   let origin = 0
   for (let k = 0; k < n; k++) {
-    const { row, cells } = dataRecs[k]
+    const row = recIdx[k] + 1
     rows[k] = row
-    const s = cells[tCol].trim()
+    const s = cellOf(k, tCol).trim()
     let v: number
     if (iso) {
       v = isoSeconds(s)
@@ -204,7 +207,7 @@ export function parseCsv(text: string, opts: CsvOptions = {}): CsvTable {
     let count = 0
     let issue: CsvIssue | null = null
     for (let k = 0; k < n; k++) {
-      const s = dataRecs[k].cells[c]
+      const s = cellOf(k, c)
       const v = num(s)
       if (v === Number.POSITIVE_INFINITY) {
         issue = { row: rows[k], column: h.name, message: `'${s.trim()}' is not a number` }
@@ -222,8 +225,9 @@ export function parseCsv(text: string, opts: CsvOptions = {}): CsvTable {
   // gap warnings
   const warnings: string[] = []
   if (n > 2) {
-    const steps = Array.from({ length: n - 1 }, (_, k) => time[k + 1] - time[k]).sort((a, b) => a - b)
-    const median = steps[Math.floor(steps.length / 2)]
+    const steps = new Float64Array(n - 1)
+    for (let k = 0; k + 1 < n; k++) steps[k] = time[k + 1] - time[k]
+    const median = kthSmallest(steps, Math.floor(steps.length / 2))
     const factor = opts.gapFactor ?? 5
     let reported = 0
     let total = 0
@@ -240,6 +244,35 @@ export function parseCsv(text: string, opts: CsvOptions = {}): CsvTable {
     if (total > reported) warnings.push(`${total - reported} more gap(s) in time not listed`)
   }
   return { time: { name: tHeader.name, unit: iso ? 'ISO-8601' : tHeader.unit || 's', values: time, iso }, columns, rows, delimiter, decimalComma, warnings }
+}
+
+/**
+ * The k-th smallest value (0-based) in expected linear time, reordering `a`: Hoare's FIND (C. A. R.
+ * Hoare, "Algorithm 65: Find", Commun. ACM 4 (1961) 321–322) with the middle element as pivot.
+ */
+function kthSmallest(a: Float64Array, k: number): number {
+  let lo = 0
+  let hi = a.length - 1
+  while (lo < hi) {
+    const pivot = a[(lo + hi) >> 1]
+    let i = lo
+    let j = hi
+    while (i <= j) {
+      while (a[i] < pivot) i++
+      while (a[j] > pivot) j--
+      if (i <= j) {
+        const t = a[i]
+        a[i] = a[j]
+        a[j] = t
+        i++
+        j--
+      }
+    }
+    if (k <= j) hi = j
+    else if (k >= i) lo = i
+    else return a[k]
+  }
+  return a[k]
 }
 
 /** parseCsv without throwing: the table or the issue. */

@@ -42,8 +42,11 @@ export class InputSet {
   readonly hasHold: boolean
   readonly hasTraces: boolean
   private t0 = 0
+  /** the caller's traces array: the key of the breakpoint cache */
+  private readonly owner: object | null
 
   constructor(model: CompiledModel, traces: readonly (InputTrace | null | undefined)[] | undefined) {
+    this.owner = traces ?? null
     const nu = model.nu
     const tr: (InputTrace | null)[] = []
     for (let i = 0; i < nu; i++) tr.push(traces?.[i] ?? null)
@@ -52,7 +55,10 @@ export class InputSet {
     }
     for (let i = 0; i < nu; i++) {
       const info = model.inputs[i]
-      if (tr[i] !== null) validateTrace(info.name, tr[i] as InputTrace)
+      if (tr[i] !== null && !validated.has(tr[i] as InputTrace)) {
+        validateTrace(info.name, tr[i] as InputTrace)
+        validated.add(tr[i] as InputTrace)
+      }
       this.slots.push({ name: info.name, hold: info.interp === 'hold', trace: tr[i], value: info.value, shift: 0, delayed: false, idx: -1, clamped: false })
     }
     for (let k = 0; k < model.nd; k++) {
@@ -88,28 +94,22 @@ export class InputSet {
     return warnings
   }
 
-  /** sorted distinct breakpoints strictly inside (t0, tEnd) */
+  /**
+   * Sorted distinct breakpoints strictly inside (t0, tEnd). Each trace's times are already sorted
+   * (validated), and a constant shift keeps them sorted, so the slots' times are merged in one linear
+   * pass into a typed array (no sort, no growing array). The answer is cached on the traces array for
+   * the same (t0, tEnd, shifts): the simulations of one experiment during a fit build it once.
+   */
   breakpoints(t0: number, tEnd: number): Float64Array {
-    const pts: number[] = []
-    for (const s of this.slots) {
-      if (s.trace === null) continue
-      const tt = s.trace.t
-      for (let i = 0; i < tt.length; i++) {
-        const b = tt[i] + s.shift
-        if (b > t0 && b < tEnd) pts.push(b)
-      }
-      if (s.delayed) {
-        const b = t0 + s.shift
-        if (b > t0 && b < tEnd) pts.push(b)
-      }
+    const key = breakpointKey(t0, tEnd, this.slots)
+    const owner = this.owner
+    if (owner) {
+      const hit = breakpointCache.get(owner)
+      if (hit && hit.key === key && hit.traces.every((t, k) => t === this.slots[k].trace)) return hit.points
     }
-    pts.sort((a, b) => a - b)
-    const out: number[] = []
-    for (const b of pts) {
-      const prev = out.length ? out[out.length - 1] : t0
-      if (b - prev > 1e-13 * Math.max(1, Math.abs(b))) out.push(b)
-    }
-    return Float64Array.from(out)
+    const points = mergeBreakpoints(this.slots, t0, tEnd)
+    if (owner) breakpointCache.set(owner, { key, traces: this.slots.map((s) => s.trace), points })
+    return points
   }
 
   /** fix every slot's interval for the segment containing tMid (strictly inside it) */
@@ -191,6 +191,64 @@ export class InputSet {
     const s = this.slots[k]
     return s.delayed && t - s.shift < this.t0
   }
+}
+
+/** traces already checked (a fit simulates the same traces many times); traces are not mutated afterwards */
+const validated = new WeakSet<InputTrace>()
+/** last breakpoints per traces array */
+const breakpointCache = new WeakMap<object, { key: string; traces: (InputTrace | null)[]; points: Float64Array }>()
+
+function breakpointKey(t0: number, tEnd: number, slots: readonly Slot[]): string {
+  let k = `${t0}|${tEnd}`
+  for (const s of slots) k += `|${s.trace === null ? '-' : s.shift}`
+  return k
+}
+
+/**
+ * k-way merge of sorted streams, de-duplicated, keeping only values strictly inside (t0, tEnd): each
+ * slot's sample times plus its shift, and for a delayed slot the single value t0 + shift (its clamped
+ * start). Linear in the number of samples times the (small) number of streams.
+ */
+function mergeBreakpoints(slots: readonly Slot[], t0: number, tEnd: number): Float64Array {
+  const times: Float64Array[] = []
+  const shifts: number[] = []
+  for (const s of slots) {
+    if (s.trace === null) continue
+    times.push(s.trace.t)
+    shifts.push(s.shift)
+    if (s.delayed) {
+      times.push(Float64Array.of(t0))
+      shifts.push(s.shift)
+    }
+  }
+  let total = 0
+  for (const t of times) total += t.length
+  const out = new Float64Array(total)
+  const pos = new Int32Array(times.length)
+  const ns = times.length
+  let count = 0
+  let prev = t0
+  while (true) {
+    let best = -1
+    let bv = Infinity
+    for (let k = 0; k < ns; k++) {
+      const tt = times[k]
+      if (pos[k] < tt.length) {
+        const v = tt[pos[k]] + shifts[k]
+        if (v < bv) {
+          bv = v
+          best = k
+        }
+      }
+    }
+    if (best < 0 || !(bv < tEnd)) break
+    pos[best]++
+    if (bv > t0 && bv - prev > 1e-13 * Math.max(1, Math.abs(bv))) {
+      out[count++] = bv
+      prev = bv
+    }
+  }
+  return out.slice(0, count)
 }
 
 function validateTrace(name: string, tr: InputTrace): void {

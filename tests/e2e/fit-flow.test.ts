@@ -84,6 +84,9 @@ it('goes from a CSV to a judged, exported fit in the browser', { timeout: 600_00
   await page.waitForURL(/\/runs\/\d+$/).catch(async () => { await rig.screenshot(page, 'fit-flow-debug'); throw new Error(`no run page: ${errors.join(' | ')}`) })
   await page.locator('[data-status="succeeded"]').first().waitFor({ timeout: 180_000 })
   await page.getByTestId('parameter-table').waitFor()
+  // lifecycle and optimiser outcome are two tags: "finished" and "converged (… test)"
+  await expect(page.getByTestId('run-status').textContent()).resolves.toBe('finished')
+  await expect(page.getByTestId('run-outcome').textContent()).resolves.toMatch(/^converged \((gradient|step-size|cost-change) test\)$/)
   await expect(page.getByTestId('caution').textContent()).resolves.toContain(RESULT_CAUTION)
   const table = await page.getByTestId('parameter-table').textContent()
   for (const name of ['Cv', 'UA', 'tau', 'T']) expect(table).toContain(name)
