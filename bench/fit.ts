@@ -7,14 +7,41 @@
  *     feed input given on every row; prints time(100 k)/time(10 k) per fit and per simulation (goal ≤ 10),
  *     and the CSV parsing time of the same sheets of data.
  *  `npm run bench:fit -- --scaling` runs part 3 only.
+ *  4. Single against multiple shooting (seeded synthetic data, tests/fit/fixtures/shooting.ts): the
+ *     predator–prey record from the sheet start 30 % off, and the open-loop unstable plant's closed-loop
+ *     record; cost, time and simulations (a multiple-shooting simulation is one segment's).
+ *     `npm run bench:fit -- shooting` prints this part alone.
  */
 import { spawnSync } from 'node:child_process'
 import { compileModel } from '../shared/sheet'
 import { simulate } from '../shared/engine/simulate'
-import { runFit, type ProblemSpec } from '../shared/engine/fit'
+import { runFit, type FitOptions, type ProblemSpec } from '../shared/engine/fit'
 import { BOXBOD, MISRA1A, nistSheet, type NistProblem } from '../tests/fit/fixtures/nist'
 import { gaussian } from '../tests/fit/fixtures/synthetic'
 import { parseCsv } from '../shared/data/csv'
+import { LV_SHEET, lotkaVolterraSpec, UNSTABLE_SHEET, unstableSpec } from '../tests/fit/fixtures/shooting'
+
+async function shooting(): Promise<string[][]> {
+  const rows: string[][] = [['case', 'method', 'SSE', 'ms', 'iterations', 'simulations', 'segment sims', 'continuity defect']]
+  const cases = [
+    { name: 'predator–prey, 60 samples × 2', model: compileModel(LV_SHEET), spec: lotkaVolterraSpec(), segments: 10 },
+    { name: 'unstable plant, 81 samples', model: compileModel(UNSTABLE_SHEET), spec: unstableSpec(), segments: 8 },
+  ]
+  for (const c of cases) {
+    const runs: [string, FitOptions][] = [['single', {}], ['single, 30 starts', { starts: 29, seed: 3 }], [`multiple, ${c.segments} segments`, { segments: { segments: c.segments } }]]
+    for (const [label, opts] of runs) {
+      const times: number[] = []
+      let last = await runFit(c.model, c.spec, opts)
+      for (let k = 0; k < 3; k++) {
+        last = await runFit(c.model, c.spec, opts)
+        times.push(last.elapsedMs)
+      }
+      const ms = last.multipleShooting
+      rows.push([c.name, label, g(last.sse ?? NaN, 8), g(Math.min(...times)), String(last.iterations), String(last.simulations), ms ? String(ms.simulations) : '—', ms ? `${g(ms.defect ?? NaN, 2)} (${ms.continuous ? 'continuous' : 'NOT continuous'})` : '—'])
+    }
+  }
+  return rows
+}
 
 function median(v: number[]): number {
   const s = [...v].sort((a, b) => a - b)
@@ -165,6 +192,11 @@ async function scaling(): Promise<void> {
 
 async function main(): Promise<void> {
   if (process.argv.includes('--scaling')) return scaling()
+  if (process.argv.includes('shooting')) {
+    console.log('single against multiple shooting only (`npm run bench:fit -- shooting`):')
+    console.log(pad(await shooting()))
+    return
+  }
   console.log('Pewter fit benchmark (prints figures; not a test). Machine: 2 shared cores; NIST times are the best of 15 (Pewter) and 5 (scipy) runs, medians in brackets.\n')
   const ours = await nistPewter()
   const theirs = nistScipy()
@@ -182,6 +214,8 @@ async function main(): Promise<void> {
     console.log(`the same from the medians: ${g(med, 3)}× (a loaded machine spreads both; compare best-of figures)`)
   }
   await scaling()
+  console.log('\nsingle against multiple shooting from the sheet start (best of 3 runs; simulations count whole-record and segment simulations alike, segment sims are those of the shooting phase before the single-shooting polish):')
+  console.log(pad(await shooting()))
 }
 
 main().catch((e) => {

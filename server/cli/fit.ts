@@ -16,7 +16,9 @@ const USAGE = `usage: pewter fit <sheet> <data.csv>… [--validate v.csv] [--met
   [--weighting sheet|equal|normalized|ml] [--set name=value …] [--fix a,b] [--free c,d] [--bounds c=lo:hi]
   [--local k] [--t0 t] [--rtol r] [--atol a] [--seed n] [--profile name] [--landscape a,b[,n]]
   [--equation-error compare|start] [--time-budget ms] [--solver auto|rk45|odex|stiff] [--max-iterations n]
-  [--validation-start sheet|estimate] [--json]`
+  [--validation-start sheet|estimate] [--segments N | --segment-length T] [--json]
+  --segments N, --segment-length T: multiple shooting, each record cut into N segments (or segments of
+  about T in the sheet's time unit), then a single-shooting polish`
 
 interface Args {
   sheet: string
@@ -131,6 +133,20 @@ export function parseArgs(argv: string[]): Args {
         const v = value()
         if (v !== 'compare' && v !== 'start') throw new ArgError("--equation-error: 'compare' or 'start'")
         a.opts.equationError = v
+        break
+      }
+      case '--segments': {
+        const n = number(flag, value())
+        if (!Number.isInteger(n) || n < 1 || n > 10000) throw new ArgError('--segments: a whole number from 1 to 10000')
+        if (a.opts.segments?.segmentLength !== undefined) throw new ArgError('give --segments or --segment-length, not both')
+        a.opts.segments = { segments: n }
+        break
+      }
+      case '--segment-length': {
+        const t = number(flag, value())
+        if (!(t > 0)) throw new ArgError("--segment-length: a positive time in the sheet's time unit")
+        if (a.opts.segments?.segments !== undefined) throw new ArgError('give --segments or --segment-length, not both')
+        a.opts.segments = { segmentLength: t }
         break
       }
       case '--time-budget': a.opts.timeBudgetMs = number(flag, value()); break
@@ -275,6 +291,10 @@ export function formatTable(r: FitResult): string {
   let s = `fit ${describeOutcome(r.status, r.convergedBy)}: ${r.reason}\n`
   s += `weighted SSE ${g(r.sse, 10)}   N ${r.nObservations}   p ${r.nEstimated}   iterations ${r.iterations}   simulations ${r.simulations}   ${g(r.elapsedMs, 4)} ms\n`
   s += `AIC ${g(r.aic)}   BIC ${g(r.bic)}   method ${r.method}   weighting ${r.weighting}\n`
+  const ms = r.multipleShooting
+  if (ms) {
+    s += `multiple shooting: ${ms.segments} segments, ${ms.continuous ? 'continuous' : 'NOT continuous'} (largest scaled defect ${g(ms.defect, 3)}, tolerance ${g(ms.defectTolerance, 2)}), ${ms.penaltyRounds} penalty rounds, ${ms.simulations} segment simulations; cost over the segments ${g(ms.segmentCost, 10)}, in one piece ${g(ms.singleShootingCostAtEstimate, 10)}; then the single-shooting polish\n`
+  }
   s += estimateTable(r.parameters, 'parameters')
   s += estimateTable(r.initialStates, 'initial states')
   if (r.outputs.length > 0) {

@@ -19,7 +19,8 @@ import { datasets, modelVersions, runs } from '../db/schema'
 import { compileModel, type CompiledModel } from '../../shared/sheet'
 import { toDeclared, toInternal } from '../../shared/sheet/compiled'
 import { simulate } from '../../shared/engine'
-import { runFitWith, makeProblem, type FitOptions } from '../../shared/engine/fit/driver'
+import { makeProblem, type FitOptions } from '../../shared/engine/fit/driver'
+import { runFit } from '../../shared/engine/fit'
 import type { ExperimentData, FitProblem, ProblemSpec } from '../../shared/engine/fit/problem'
 import { BoxTransform } from '../../shared/engine/fit/transform'
 import { costLandscape } from '../../shared/engine/landscape'
@@ -129,6 +130,7 @@ export function fitOptions(settings: RunSettings, extra: Partial<FitOptions> = {
     ...(t.xtol !== undefined ? { xtol: t.xtol } : {}),
     ...(t.gtol !== undefined ? { gtol: t.gtol } : {}),
     ...(t.maxIterations !== undefined ? { maxIterations: t.maxIterations } : { maxIterations: 200 }),
+    ...(settings.segments !== undefined && settings.segments > 1 ? { segments: { segments: settings.segments } } : {}),
     ...extra,
   }
 }
@@ -287,12 +289,13 @@ export async function executeRun(db: Db, runId: number, opts: ExecuteOptions = {
         history.push(best)
         const start = info.start ?? 0
         const fraction = Math.min(0.97, (start + 1 - Math.exp(-(info.iteration + 1) / 12)) / settings.starts)
-        pending = progress(info.iteration, info.cost, start, `start ${start + 1} of ${settings.starts}, iteration ${info.iteration}`, fraction)
+        const how = options.segments ? `multiple shooting over ${options.segments.segments} segments, ` : ''
+        pending = progress(info.iteration, info.cost, start, `${how}start ${start + 1} of ${settings.starts}, iteration ${info.iteration}`, fraction)
         const now = Date.now()
         if (now - lastWrite >= PROGRESS_INTERVAL_MS) { lastWrite = now; writeProgress(pending); pending = null }
       },
     })
-    const result = await runFitWith(model, spec, options, simulate)
+    const result = await runFit(model, spec, options, simulate)
     if (pending) writeProgress(pending)
     if (cancelled || controller.signal.aborted || result.status === 'aborted') {
       return await finish('cancelled', { error: cancelled ? 'Cancelled by request.' : 'Stopped: the fit was aborted.', progress: progress(0, best === Infinity ? null : best, 0, 'cancelled', 0) })

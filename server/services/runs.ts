@@ -137,6 +137,7 @@ async function resolveRun(db: Db, workspaceId: number, projectId: number, body: 
     initialStates: states.out,
     method: body.method,
     starts: body.starts,
+    ...(body.segments !== undefined && body.segments > 1 ? { segments: body.segments } : {}),
     weighting: body.weighting,
     tolerances: body.tolerances,
     seed,
@@ -179,6 +180,7 @@ export async function rerun(db: Db, jobs: JobRunner | undefined, workspaceId: nu
     ...(s.bindingId ? { bindingId: s.bindingId } : {}),
     estimation: s.estimation, validation: s.validation, mapping: s.mapping,
     free: s.free, initialStates: s.initialStates, method: s.method, starts: s.starts, weighting: s.weighting,
+    ...(s.segments !== undefined ? { segments: s.segments } : {}),
     tolerances: s.tolerances, seed: s.seed, validationStart: s.validationStart ?? 'sheet',
   }
   // the datasets must still be the same content

@@ -151,6 +151,28 @@ export const validationStartRow = z.object({
   unit: z.string(),
   value: num,
 })
+/** How a multiple-shooting fit went before its single-shooting polish (absent for single shooting). */
+export const multipleShootingInfo = z.object({
+  /** segments over all experiments */
+  segments: z.number().int(),
+  /** per fit experiment: the times (sheet time unit) where segments after the first begin */
+  experiments: z.array(z.object({ experiment: z.number().int(), name: z.string(), boundaries: z.array(num) })),
+  secondsPerTimeUnit: num,
+  /** largest continuity defect at the end, each state's defect divided by its typical magnitude */
+  defect: numOrNull,
+  defectTolerance: num,
+  /** the defect is at or below the tolerance */
+  continuous: z.boolean(),
+  penaltyRounds: z.number().int(),
+  iterations: z.number().int(),
+  /** segment simulations of every start (each segment counts once) */
+  simulations: z.number().int(),
+  /** weighted output cost over the segments at the end, and simulated in one piece from there */
+  segmentCost: numOrNull,
+  singleShootingCostAtEstimate: numOrNull,
+  reason: z.string(),
+})
+export type MultipleShootingInfo = z.infer<typeof multipleShootingInfo>
 
 export const fitResult = z.object({
   /** the optimiser's outcome at the best start */
@@ -195,5 +217,7 @@ export const fitResult = z.object({
   landscape: landscapeResult.nullable(),
   equationError: equationErrorRow.nullable(),
   cautions: z.array(z.string()),
+  /** present when the fit used multiple shooting */
+  multipleShooting: multipleShootingInfo.optional(),
 })
 export type FitResult = z.infer<typeof fitResult>

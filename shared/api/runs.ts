@@ -54,6 +54,8 @@ export const createRunBody = z.object({
   initialStates: freeList.optional(),
   method: fitMethod.default('lm'),
   starts: z.number().int().min(1).max(64).default(1),
+  /** multiple shooting: segments per estimation record (1 or absent: single shooting) */
+  segments: z.number().int().min(1).max(1000).optional(),
   weighting: weighting.default('sheet'),
   tolerances: tolerances.default({}),
   /** seed of the multi-start sampling (default: drawn and stored, so "run again" reproduces) */
@@ -74,6 +76,8 @@ export const runSettings = z.object({
   initialStates: z.array(z.object({ name: z.string(), lower: z.number(), upper: z.number(), start: z.number() })),
   method: fitMethod,
   starts: z.number(),
+  /** segments per estimation record for multiple shooting; absent or 1: single shooting */
+  segments: z.number().optional(),
   weighting,
   tolerances,
   seed: z.number(),

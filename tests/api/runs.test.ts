@@ -87,6 +87,24 @@ describe('a fit from upload to result', () => {
     expect(run.progress.costHistory.length).toBeGreaterThan(1)
   })
 
+  it('fits by multiple shooting when segments are asked for: same constants, segment boundaries in the result', async () => {
+    const r = await modeler.post(`${WS}/projects/${pid}/runs`).set(CSRF).send({ ...baseRun(), weighting: 'sheet', name: 'segmented fit', segments: 6 })
+    expect(r.status).toBe(201)
+    expect(r.body.settings.segments).toBe(6)
+    const run = await waitForRun(modeler, r.body.id)
+    expect(run.error).toBeNull()
+    expect(run.status).toBe('succeeded')
+    const result = fitResult.parse(Object.fromEntries(Object.entries(run.result).filter(([k]) => k !== 'traces')))
+    const ms = result.multipleShooting!
+    expect(ms.segments).toBe(6)
+    expect(ms.continuous).toBe(true)
+    expect(ms.experiments[0].boundaries).toHaveLength(5)
+    const byName = Object.fromEntries(result.parameters.map((p) => [p.name, p]))
+    for (const [name, truth] of [['Cv', BUFFER_TRUTH.Cv], ['UA', BUFFER_TRUTH.UA], ['tau', BUFFER_TRUTH.tau]] as const) {
+      expect(Math.abs(byName[name].value - truth), name).toBeLessThan(4 * byName[name].stdError!)
+    }
+  })
+
   it('records the provenance: model version, dataset hashes, settings, seed and engine version', async () => {
     const p = finished.provenance
     expect(p.modelId).toBe(tv.modelId)

@@ -7,6 +7,7 @@ import { join } from 'node:path'
 import { fitResult } from '../../shared/api/fit'
 import { MISRA1A, BOXBOD, nistCsv, nistSheet, sameDigits } from './fixtures/nist'
 import { run } from '../../server/cli/fit'
+import { LV_SHEET, lotkaVolterraSpec } from './fixtures/shooting'
 
 let dir = ''
 const tsx = join(process.cwd(), 'node_modules/.bin/tsx')
@@ -53,6 +54,10 @@ beforeAll(async () => {
   await writeFile(join(dir, 'notime.csv'), 'label,yobs\nfirst,109\nsecond,149\n')
   await writeFile(join(dir, 'drain.sheet'), 'model "drain"\ntime [s]\nparam k = 1 [1/s] in [0.5, 5]\nstate h = 1 [1]\nh\' = -k * sqrt(h)\noutput level = h [1]\n')
   await writeFile(join(dir, 'drain.csv'), ['t,level', ...Array.from({ length: 30 }, (_, i) => `${i * 0.2},0.5`)].join('\n'))
+  // predator–prey record (seeded synthetic data, fixtures/shooting.ts)
+  const lv = lotkaVolterraSpec().experiments[0]
+  await writeFile(join(dir, 'lv.sheet'), LV_SHEET)
+  await writeFile(join(dir, 'lv.csv'), ['t [s],prey,predator', ...Array.from(lv.time, (t, i) => `${t},${lv.outputs.prey[i]},${lv.outputs.predator[i]}`)].join('\n'))
   await writeFile(join(dir, 'fixed.sheet'), 'model "fixed"\ntime [s]\nparam b1 = 200 in [1, 1e4]\nparam b2 = 0.5 fixed\nstate y = 0\ny\' = b2 * (b1 - y)\noutput yobs = y\n')
 })
 afterAll(async () => {
@@ -85,6 +90,20 @@ describe('pewter fit', () => {
     expect(r.stdout).toMatch(/note: .*control or for any safety-related decision/)
   })
 
+  it('--segments fits by multiple shooting and adds its section to the JSON; the table says how it went', async () => {
+    const r = await pewterHere(['lv.sheet', 'lv.csv', '--segments', '10', '--json'])
+    expect(r.code).toBe(0)
+    const res = fitResult.parse(JSON.parse(r.stdout))
+    expect(res.multipleShooting?.segments).toBe(10)
+    expect(res.multipleShooting?.continuous).toBe(true)
+    expect(res.status).toBe('converged')
+    const single = fitResult.parse(JSON.parse((await pewterHere(['lv.sheet', 'lv.csv', '--json'])).stdout))
+    expect(single.multipleShooting).toBeUndefined()
+    expect(single.sse!).toBeGreaterThan(100 * res.sse!)
+    const t = await pewterHere(['lv.sheet', 'lv.csv', '--segment-length', '1.5'])
+    expect(t.stdout).toMatch(/multiple shooting: 10 segments, continuous/)
+  }, 60_000)
+
   it('bad arguments exit 2 with a one-line reason', async () => {
     const cases: [string[], RegExp][] = [
       [['misra.sheet', 'misra.csv', '--frobnicate'], /unknown option --frobnicate/],
@@ -94,6 +113,9 @@ describe('pewter fit', () => {
       [['fixed.sheet', 'misra.csv', '--free', 'b2'], /--free b2: 'b2' has no bounds/],
       [['misra.sheet', 'missing.csv'], /cannot read missing.csv: ENOENT/],
       [['misra.sheet'], /give a sheet file and at least one data file/],
+      [['lv.sheet', 'lv.csv', '--segments', '2', '--segment-length', '1'], /give --segments or --segment-length, not both/],
+      [['lv.sheet', 'lv.csv', '--segments', '0'], /--segments: a whole number from 1 to 10000/],
+      [['lv.sheet', 'lv.csv', '--segments', '40'], /lv.csv: 60 samples allow at most 30 segments/],
     ]
     const viaProcess = await pewter(cases[1][0])
     expect(viaProcess.code).toBe(2)

@@ -44,6 +44,8 @@ export interface FitOptions {
   landscape?: LandscapeRequest
   /** equation-error (one-step-ahead OLS) estimate: 'compare' adds the comparison row, 'start' also starts from it */
   equationError?: 'compare' | 'start'
+  /** multiple shooting (multiple-shooting/): segments per experiment or a segment length; absent: single shooting */
+  segments?: { segments?: number; segmentLength?: number }
   /** run the planned starts elsewhere (workers); must return one outcome per plan, in any order */
   runStarts?: (plans: StartPlan[]) => Promise<StartOutcome[]>
 }

@@ -11,6 +11,7 @@ import type { CompiledModel } from '../../sheet/compiled'
 import type { FitResult } from '../../api/fit'
 import { simulate } from '../simulate'
 import type { ProblemSpec, Simulate } from './problem'
+import { runMultipleShootingFit } from './multiple-shooting/solve'
 import {
   runFitWith, planStarts as planStartsWith, fitFromStart as fitFromStartWith,
   type FitOptions, type StartPlan, type StartOutcome,
@@ -27,11 +28,16 @@ export { levenbergMarquardt, LM_DEFAULTS } from './lm'
 export { nelderMeadFit } from './nelder-mead'
 export { latinHypercube } from './lhs'
 export { AT_BOUND_TOL, CAUTIONS } from './result'
+export { suggestSegments, segmentStarts } from './multiple-shooting/segments'
+export { MultipleShootingProblem } from './multiple-shooting/problem'
+export { defectTolerance } from './multiple-shooting/solve'
 
 const engineSimulate: Simulate = simulate
 
+/** A fit by single shooting, or by multiple shooting when `options.segments` is given. */
 export function runFit(model: CompiledModel, spec: ProblemSpec, options: FitOptions = {}, sim: Simulate = engineSimulate): Promise<FitResult> {
-  return runFitWith(model, spec, options, sim)
+  const segments = options.segments
+  return segments ? runMultipleShootingFit(model, spec, { ...options, segments }, sim) : runFitWith(model, spec, options, sim)
 }
 
 export function planStarts(model: CompiledModel, spec: ProblemSpec, options: FitOptions = {}): StartPlan[] {
