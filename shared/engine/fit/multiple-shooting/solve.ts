@@ -68,7 +68,7 @@ export async function shootFromStart(
     w = ms.initialNodes(theta0)
   } catch (e) {
     if (e instanceof FitAborted) return bad('aborted', 'aborted by the caller')
-    if (e instanceof FitTimeout) return bad('stopped', 'time budget exhausted')
+    if (e instanceof FitTimeout) return bad('time-budget', 'time budget exhausted')
     throw e
   }
   const r = new Float64Array(ms.m)
@@ -82,7 +82,7 @@ export async function shootFromStart(
   const history: number[] = [c0]
   let iterations = 0
   let prevDefect = ms.maxDefect()
-  let status: StopStatus = 'stopped'
+  let status: StopStatus = 'stalled'
   let reason = ''
   let rounds = 0
   let cost = c0
@@ -109,8 +109,8 @@ export async function shootFromStart(
     cost = ms.outputCost(r)
     defect = ms.maxDefect()
     history.push(cost)
-    if (res.status === 'stopped') {
-      status = 'stopped'
+    if (res.status === 'iteration-limit' || res.status === 'time-budget') {
+      status = res.status
       reason = res.reason
       break
     }
@@ -123,7 +123,7 @@ export async function shootFromStart(
     if (defect > 0.25 * prevDefect) ms.mu *= 10
     prevDefect = defect
   }
-  if (status === 'stopped' && !reason) {
+  if (status === 'stalled' && !reason) {
     reason = `continuity not reached: largest scaled defect ${defect.toExponential(2)} > ${dTol.toExponential(0)} after ${rounds} penalty rounds`
   }
   return {
@@ -180,12 +180,12 @@ export async function runMultipleShootingFit(
     const polished = await fitFromStart(model, spec, { ...plan, theta: shot.theta }, opts, simulate, deadline)
     const status: StopStatus = shot.status === 'aborted' || polished.status === 'aborted' ? 'aborted'
       : polished.status === 'failed' ? 'failed'
-        : !shot.feasible && polished.status === 'converged' ? 'stopped' : polished.status
+        : !shot.feasible && polished.status === 'converged' ? 'stalled' : polished.status
     const reason = shot.feasible || shot.status === 'aborted'
       ? `${polished.reason} (single-shooting polish after multiple shooting: ${shot.reason})`
       : `multiple shooting did not reach continuity (${shot.reason}); single-shooting polish: ${polished.reason}`
     outcomes.push({
-      ...polished, start: plan.theta, status, reason,
+      ...polished, start: plan.theta, status, convergedBy: status === 'converged' ? polished.convergedBy : null, reason,
       iterations: shot.iterations + polished.iterations, simulations: shot.simulations + polished.simulations,
       costHistory: [...shot.costHistory, ...polished.costHistory],
     })
