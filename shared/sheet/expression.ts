@@ -298,9 +298,18 @@ class Converter {
   }
 
   private call(f: { fn: MathNode; args: MathNode[] }, depth: number): Expr | null {
-    if (f.fn.type !== 'SymbolNode') return this.fail(undefined, 'only named functions may be called')
-    const nameCols = this.nextLeaf() ?? this.wholeCols()
-    const name = (f.fn as unknown as { name: string }).name
+    let name: string
+    let nameCols: Cols
+    if (f.fn.type === 'SymbolNode') {
+      nameCols = this.nextLeaf() ?? this.wholeCols()
+      name = (f.fn as unknown as { name: string }).name
+    } else if (f.fn.type === 'AccessorNode') {
+      // a part's lookup: upper.valve(x)
+      const r = this.reference(f.fn, depth + 1)
+      if (!r) return null
+      name = r.name
+      nameCols = r.cols
+    } else return this.fail(undefined, 'only named functions may be called')
     if (name === 'delay') return this.delayCall(f.args, nameCols, depth)
     if (name === 'sum' || name === 'prod') return this.reduce(name, f.args, nameCols, depth)
     const args: Expr[] = []
@@ -347,18 +356,22 @@ class Converter {
       return this.fail(nameCols, 'delay takes two arguments: delay(input, tau)')
     }
     const [u, tau] = args
-    if (u.type !== 'SymbolNode') {
+    if (u.type !== 'SymbolNode' && u.type !== 'AccessorNode') {
       const e = this.convert(u, depth + 1)
       this.convert(tau, depth + 1)
       return this.fail(e?.s ?? nameCols, 'delay applies only to inputs: its first argument must be the name of an input')
     }
-    const uCols = this.nextLeaf() ?? nameCols
-    const uName = (u as unknown as { name: string }).name
+    const ur = this.reference(u, depth + 1)
+    if (!ur) return null
+    const uCols = ur.cols
+    const uName = ur.name
     let tauName: string | null = null
     let tauCols: Cols
-    if (tau.type === 'SymbolNode') {
-      tauCols = this.nextLeaf() ?? nameCols
-      tauName = (tau as unknown as { name: string }).name
+    if (tau.type === 'SymbolNode' || tau.type === 'AccessorNode') {
+      const tr = this.reference(tau, depth + 1)
+      if (!tr) return null
+      tauCols = tr.cols
+      tauName = tr.name
     } else {
       const e = this.convert(tau, depth + 1)
       tauCols = e?.s ?? nameCols

@@ -18,7 +18,7 @@ export const MAX_SHEET_CHARS = 2_000_000
 export const MAX_LINE_CHARS = 10_000
 export const MAX_DIAGNOSTICS = 200
 
-export const KEYWORDS = ['model', 'time', 'sample', 'input', 'param', 'const', 'lookup', 'state', 'let', 'next', 'output'] as const
+export const KEYWORDS = ['model', 'time', 'sample', 'input', 'param', 'const', 'lookup', 'state', 'let', 'next', 'output', 'part', 'feed'] as const
 /** reductions over an index range: sum(i in 1..N, …), prod(i in 1..N, …) */
 export const REDUCERS = ['sum', 'prod'] as const
 /** the most names one indexed declaration may expand to */
@@ -63,8 +63,13 @@ export interface ParseResult {
   diagnostics: Diagnostic[]
 }
 
-export function parseSheet(text: unknown): ParseResult {
-  const p = new SheetParser()
+export interface ParseOptions {
+  /** accept qualified names `part.name` (the flat text of a sheet with parts, see parts.ts) */
+  qualified?: boolean
+}
+
+export function parseSheet(text: unknown, opts: ParseOptions = {}): ParseResult {
+  const p = new SheetParser(opts.qualified === true)
   try {
     return p.run(text)
   } catch (e) {
@@ -76,6 +81,7 @@ export function parseSheet(text: unknown): ParseResult {
 }
 
 class SheetParser {
+  constructor(private readonly qualified: boolean) {}
   diags = new DiagnosticList()
   private names = new Map<string, Entry>()
   private title = ''
@@ -149,7 +155,7 @@ class SheetParser {
     const s = new LineScanner(code, lineNo)
     if (s.atEnd()) return i
     this.statements++
-    const head = s.ident()
+    const head = this.name(s)
     if (!head) {
       const w = s.word()
       d.error(w.span, `a line must start with a keyword (${KEYWORDS.join(', ')}) or an equation x' = …; found '${w.text.slice(0, 40)}'`)
@@ -175,7 +181,7 @@ class SheetParser {
       case 'lookup': return this.lookup(s, lines, i)
       case 'let': this.letLine(s); return i
       case 'next': {
-        const name = s.ident()
+        const name = this.name(s)
         if (!name) { d.error(s.here(), 'expected a state name after next'); return i }
         let r: Range | null | false = null
         if (s.text[s.pos] === '[') { r = this.rangeAfter(s, name.text); if (!r) return i }
@@ -183,6 +189,9 @@ class SheetParser {
         return i
       }
       case 'output': this.output(s); return i
+      case 'part': case 'feed':
+        d.error(head.span, `${head.text} lines need the model library: check the sheet where its parts can be found (the editor, or the command line with --library DIR)`)
+        return i
       default: {
         if (s.peek() === '=') {
           d.error(head.span, `unknown statement: to define '${head.text}' write let ${head.text} = …, or ${head.text}' = … for a state's derivative`)
@@ -280,8 +289,28 @@ class SheetParser {
     return b ? this.unitAt(b) : null
   }
 
+  /** a name; `part.name` (several levels) in the flat text of a sheet with parts */
+  private name(s: LineScanner): Tok | null {
+    const t = s.ident()
+    if (t && !this.qualified && s.text[s.pos] === '.' && /[A-Za-z_]/.test(s.text[s.pos + 1] ?? '')) {
+      this.diags.error(s.span(t.span.column - 1, s.text.length), `qualified names belong to parts: there is no part named '${t.text}' (declare part ${t.text} = HANDLE@VERSION)`)
+      s.pos = s.text.length
+      return null
+    }
+    if (!t || !this.qualified) return t
+    let end = s.pos
+    while (s.text[end] === '.' && /[A-Za-z_]/.test(s.text[end + 1] ?? '')) {
+      end++
+      while (/[A-Za-z0-9_]/.test(s.text[end] ?? '')) end++
+    }
+    if (end === s.pos) return t
+    const start = t.span.column - 1
+    s.pos = end
+    return { text: s.text.slice(start, end), span: s.span(start, end) }
+  }
+
   private declareName(s: LineScanner, kind: Kind): Tok | null {
-    const name = s.ident()
+    const name = this.name(s)
     if (!name) {
       const w = s.atEnd() ? s.here() : s.word().span
       this.diags.error(w, `expected a name after ${kind}`)
@@ -622,13 +651,16 @@ class SheetParser {
       if (range.single) { this.diags.error(range.span, `an indexed let needs a range: let ${name.text}[i in 1..N] = …`); return }
     }
     if (!s.eat('=')) { this.diags.error(s.restSpan(), `missing value: write let ${name.text} = <expression>`); return }
-    const raw = this.rawExpr(s, this.exprEnd(s, false))
+    const raw = this.rawExpr(s, this.exprEnd(s, true))
+    const unit = this.optionalUnit(s)
+    if (unit === false) return
     const description = this.description(s)
+    if (!s.atEnd()) { this.trailing(s, 'the let'); return }
     const names = range ? this.expandRange(name, 'let', range) : [name]
     names.forEach((nm, j) => {
       this.register(nm, 'let', this.lets.length)
       const env = range && range.v !== null ? { v: range.v, k: range.lo + j } : null
-      this.lets.push({ decl: { name: nm.text, description, unit: null, span: name.span, text: raw.text }, raw, env })
+      this.lets.push({ decl: { name: nm.text, description, unit, span: name.span, text: raw.text }, raw, env })
     })
   }
 
@@ -880,6 +912,7 @@ class SheetParser {
       case 'p': return this.params[i].unit
       case 'u': return this.inputs[i].unit
       case 'c': return this.consts[i].unit
+      case 'let': return this.lets[i].decl.unit
       default: return null
     }
   }
