@@ -61,7 +61,10 @@ export const sheetSummary = z.object({
   lookups: z.array(z.object({ name: z.string(), points: z.number(), line: z.number() })),
   lets: z.number(),
   /** parts the sheet declares (library models at pinned versions) */
-  parts: z.array(z.object({ name: z.string(), handle: z.string(), version: z.number(), description: z.string(), line: z.number() })).default([]),
+  parts: z.array(z.object({
+    name: z.string(), handle: z.string(), version: z.number(), description: z.string(), line: z.number(),
+    inputs: z.array(z.object({ name: z.string(), unit: z.string() })), outputs: z.array(z.object({ name: z.string(), unit: z.string() })),
+  })).default([]),
   /** every part version the flattened sheet holds, directly or inside other parts */
   partsUsed: z.array(z.object({ handle: z.string(), version: z.number() })).default([]),
 })

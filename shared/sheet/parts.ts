@@ -21,7 +21,14 @@ import type { ParsedModel } from './model'
 export type ResolvePart = (handle: string, version: number) => string | null
 
 export interface PartRef { handle: string; version: number }
-export interface PartUse extends PartRef { name: string; line: number; description: string }
+export interface PartUse extends PartRef {
+  name: string
+  line: number
+  description: string
+  /** the part's inputs and outputs with their units (filled once the part is read) */
+  inputs: { name: string; unit: string }[]
+  outputs: { name: string; unit: string }[]
+}
 
 export interface FlattenResult {
   /** the flat sheet (the input itself when it uses no part) */
@@ -104,7 +111,7 @@ export function flattenSheet(text: string, resolve: ResolvePart | null, chain: s
       const m = PART_RE.exec(code)
       if (!m) { err(i + 1, 'a part is declared as: part NAME = HANDLE@VERSION "description" (e.g. part upper = gravity-tank@3)'); return }
       if (direct.some((p) => p.name === m[1])) { err(i + 1, `duplicate part '${m[1]}'`); return }
-      direct.push({ name: m[1], handle: m[2], version: Number(m[3]), line: i + 1, description: m[4] ?? '' })
+      direct.push({ name: m[1], handle: m[2], version: Number(m[3]), line: i + 1, description: m[4] ?? '', inputs: [], outputs: [] })
       out[i] = ''
     } else if (FEED_HEAD_RE.test(code)) {
       const m = FEED_RE.exec(code)
@@ -155,6 +162,8 @@ export function flattenSheet(text: string, resolve: ResolvePart | null, chain: s
       continue
     }
     const m = pm.model
+    part.inputs = m.inputs.map((u) => ({ name: u.name, unit: u.unit?.text ?? '' }))
+    part.outputs = m.outputs.map((o) => ({ name: o.name, unit: o.unit?.text ?? '' }))
     if (!sameTiming(host, m)) {
       err(part.line, `part ${part.name} (${key}) is ${m.kind === 'discrete' ? `discrete-time (sample ${m.sampleTime} ${m.timeUnit})` : 'continuous'} in [${m.timeUnit}], this sheet is ${host.discrete ? 'discrete-time' : 'continuous'} in [${host.timeUnit}]: parts must share the time unit and kind`)
       continue

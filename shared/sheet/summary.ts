@@ -13,7 +13,7 @@ export interface SheetSummary {
   consts: { name: string; value: number; unit: string; line: number }[]
   lookups: { name: string; points: number; line: number }[]
   lets: number
-  parts: { name: string; handle: string; version: number; description: string; line: number }[]
+  parts: { name: string; handle: string; version: number; description: string; line: number; inputs: { name: string; unit: string }[]; outputs: { name: string; unit: string }[] }[]
   partsUsed: { handle: string; version: number }[]
 }
 
@@ -31,7 +31,7 @@ export function summarize(m: ParsedModel): SheetSummary {
     consts: m.consts.map((c) => ({ name: c.name, value: c.declaredValue, unit: unit(c.unit), line: c.span.line })),
     lookups: m.lookups.map((l) => ({ name: l.name, points: l.xs.length, line: l.span.line })),
     lets: m.lets.length,
-    parts: (m.parts ?? []).map((p) => ({ name: p.name, handle: p.handle, version: p.version, description: p.description, line: p.line })),
+    parts: (m.parts ?? []).map((p) => ({ name: p.name, handle: p.handle, version: p.version, description: p.description, line: p.line, inputs: p.inputs, outputs: p.outputs })),
     partsUsed: (m.partsUsed ?? []).map((p) => ({ handle: p.handle, version: p.version })),
   }
 }
