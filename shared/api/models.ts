@@ -187,6 +187,8 @@ export const modelDetailDto = modelListItemDto.extend({
   can: modelPermissions,
   /** the origin's latest version number (forks only; null when the origin was deleted) */
   originLatestVersion: z.number().nullable(),
+  /** model versions that use a version of this model as a part (lineage) */
+  usedIn: z.array(z.object({ model: modelRefDto, version: z.number(), partVersion: z.number() })).default([]),
 })
 export type ModelDetailDto = z.infer<typeof modelDetailDto>
 
