@@ -4,13 +4,29 @@
  * Exit 0: no error; 1: the sheet has errors; 2: bad arguments or unreadable file.
  */
 import { readFile, stat } from 'node:fs/promises'
-import { checkModel, tryCompileModel } from '../../shared/sheet/index'
+import { checkModel, type ResolvePart, tryCompileModel } from '../../shared/sheet/index'
+import { ArgError, folderLibrary, splitOption } from './args'
 
-const USAGE = 'usage: pewter check <sheet-file>\n'
+const USAGE = 'usage: pewter check <sheet-file> [--library DIR]\n'
 const MAX_BYTES = 4 * 1024 * 1024
 
 export async function run(args: string[]): Promise<number> {
-  const files = args.filter((a) => a !== '--')
+  const files: string[] = []
+  let resolvePart: ResolvePart | null = null
+  try {
+    for (let i = 0; i < args.length; i++) {
+      const { flag, inline } = splitOption(args[i])
+      if (flag === '--library') {
+        const dir = inline ?? args[++i]
+        if (!dir) throw new ArgError('--library needs a folder')
+        resolvePart = folderLibrary(dir)
+      } else if (args[i] !== '--') files.push(args[i])
+    }
+  } catch (e) {
+    if (!(e instanceof ArgError)) throw e
+    process.stderr.write(`pewter check: ${e.message}\n${USAGE}`)
+    return 2
+  }
   if (files.length !== 1 || files[0].startsWith('-')) {
     process.stderr.write(files.length === 0 ? `pewter check: no sheet file given\n${USAGE}` : `pewter check: expected exactly one sheet file\n${USAGE}`)
     return 2
@@ -26,12 +42,12 @@ export async function run(args: string[]): Promise<number> {
     process.stderr.write(`pewter check: cannot read ${file}: ${e instanceof Error ? e.message : String(e)}\n`)
     return 2
   }
-  const r = checkModel(text)
+  const r = checkModel(text, { resolvePart })
   let ok = r.ok
   let diagnostics = r.diagnostics
   if (ok) {
     // compile as well, so that a sheet that checks clean is known to build
-    const c = tryCompileModel(text)
+    const c = tryCompileModel(text, { resolvePart })
     if (!c.compiled) { ok = false; diagnostics = c.diagnostics }
   }
   const s = r.summary
@@ -45,6 +61,8 @@ export async function run(args: string[]): Promise<number> {
     parameters: s.parameters.map((p) => ({ name: p.name, value: p.value, unit: p.unit, lower: p.lower, upper: p.upper, fixed: p.fixed })),
     inputs: s.inputs.map((u) => ({ name: u.name, value: u.value, unit: u.unit, interp: u.interp })),
     outputs: s.outputs.map((o) => ({ name: o.name, unit: o.unit, sigma: o.sigma })),
+    parts: s.parts.map((p) => ({ name: p.name, handle: p.handle, version: p.version })),
+    partsUsed: s.partsUsed,
   }
   process.stdout.write(JSON.stringify(out, null, 2) + '\n')
   return ok ? 0 : 1

@@ -4,18 +4,18 @@
  */
 import { readFile } from 'node:fs/promises'
 import { basename } from 'node:path'
-import { compileModel, SheetError } from '../../shared/sheet'
+import { compileModel, type ResolvePart, SheetError } from '../../shared/sheet'
 import type { CompiledModel } from '../../shared/sheet'
 import { runFit, FitInputError, type FitOptions, type ProblemSpec, type ExperimentData } from '../../shared/engine/fit'
 import { parseCsv, CsvError } from '../../shared/data/csv'
 import { experimentFromTable } from '../../shared/data/experiment'
 import { describeOutcome, type FitResult, type EstimateRow } from '../../shared/api/fit'
-import { ArgError, splitOption } from './args'
+import { ArgError, folderLibrary, splitOption } from './args'
 
 const USAGE = `usage: pewter fit <sheet> <data.csv>… [--validate v.csv] [--method lm|nelder-mead] [--starts N]
   [--weighting sheet|equal|normalized|ml] [--set name=value …] [--fix a,b] [--free c,d] [--bounds c=lo:hi]
   [--local k] [--t0 t] [--rtol r] [--atol a] [--seed n] [--profile name] [--landscape a,b[,n]]
-  [--equation-error compare|start] [--time-budget ms] [--solver auto|rk45|odex|stiff] [--max-iterations n]
+  [--equation-error compare|start] [--time-budget ms] [--solver auto|rk45|odex|stiff] [--max-iterations n] [--library DIR]
   [--validation-start sheet|estimate] [--segments N | --segment-length T] [--json]
   --segments N, --segment-length T: multiple shooting, each record cut into N segments (or segments of
   about T in the sheet's time unit), then a single-shooting polish`
@@ -34,6 +34,7 @@ interface Args {
   t0?: number
   opts: FitOptions
   weighting: ProblemSpec['weighting']
+  library: ResolvePart | null
 }
 
 function number(flag: string, v: string): number {
@@ -48,7 +49,7 @@ function list(v: string): string[] {
 
 export function parseArgs(argv: string[]): Args {
   const pos: string[] = []
-  const a: Args = { sheet: '', data: [], validate: [], json: false, set: [], fix: [], free: [], bounds: [], local: [], opts: {}, weighting: undefined }
+  const a: Args = { sheet: '', data: [], validate: [], json: false, set: [], fix: [], free: [], bounds: [], local: [], opts: {}, weighting: undefined, library: null }
   for (let i = 0; i < argv.length; i++) {
     const arg = argv[i]
     if (!arg.startsWith('--')) {
@@ -68,6 +69,7 @@ export function parseArgs(argv: string[]): Args {
     }
     switch (flag) {
       case '--validate': a.validate.push(value()); break
+      case '--library': a.library = folderLibrary(value()); break
       case '--method': {
         const m = value()
         if (m !== 'lm' && m !== 'nelder-mead') throw new ArgError(`--method: '${m}' is not lm or nelder-mead`)
@@ -199,7 +201,7 @@ export async function run(argv: string[]): Promise<number> {
     throw e
   }
   try {
-    model = compileModel(texts.get(args.sheet)!)
+    model = compileModel(texts.get(args.sheet)!, { resolvePart: args.library })
   } catch (e) {
     if (e instanceof SheetError) {
       const errs = e.diagnostics.filter((d) => d.severity === 'error')

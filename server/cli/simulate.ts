@@ -11,14 +11,14 @@
  * Exit 0: done; 1: the sheet has errors or the integration failed; 2: bad arguments or input file.
  */
 import { readFile } from 'node:fs/promises'
-import { compileModel, SheetError } from '../../shared/sheet/index'
+import { compileModel, type ResolvePart, SheetError } from '../../shared/sheet/index'
 import { toDeclared, toInternal, type CompiledModel } from '../../shared/sheet/compiled'
 import { simulate } from '../../shared/engine/simulate'
 import { SimulationError } from '../../shared/engine/errors'
 import type { InputTrace, SimulationRequest, SolverName } from '../../shared/engine/simulate-contract'
 import { CsvError, parseCsv } from '../../shared/data/csv'
 import { unitConversion } from '../../shared/data/units'
-import { ArgError, splitOption } from './args'
+import { ArgError, folderLibrary, splitOption } from './args'
 
 interface Options {
   sheet: string
@@ -34,6 +34,7 @@ interface Options {
   maxSteps: number | undefined
   states: boolean
   format: 'csv' | 'json'
+  library: ResolvePart | null
 }
 
 function num(flag: string, s: string | undefined): number {
@@ -44,7 +45,7 @@ function num(flag: string, s: string | undefined): number {
 }
 
 export function parseArgs(args: string[]): Options {
-  const o: Partial<Options> & { sets: Options['sets'] } = { sets: [], t0: 0, solver: 'auto', states: false, format: 'csv', step: null, at: null, inputs: null }
+  const o: Partial<Options> & { sets: Options['sets'] } = { sets: [], t0: 0, solver: 'auto', states: false, format: 'csv', step: null, at: null, inputs: null, library: null }
   let tEnd: number | undefined
   const files: string[] = []
   for (let i = 0; i < args.length; i++) {
@@ -54,6 +55,12 @@ export function parseArgs(args: string[]): Options {
     switch (flag) {
       case '--': break
       case '--t-end': tEnd = num('--t-end', next()); break
+      case '--library': {
+        const dir = next()
+        if (!dir || dir.startsWith('--')) throw new ArgError('--library needs a folder')
+        o.library = folderLibrary(dir)
+        break
+      }
       case '--t0': o.t0 = num('--t0', next()); break
       case '--step': o.step = num('--step', next()); break
       case '--at': {
@@ -70,7 +77,7 @@ export function parseArgs(args: string[]): Options {
       }
       case '--set': {
         const s = next()
-        const m = s ? /^([A-Za-z_][A-Za-z0-9_]*)=(.+)$/.exec(s) : null
+        const m = s ? /^([A-Za-z_][A-Za-z0-9_.[\]]*)=(.+)$/.exec(s) : null
         if (!m) throw new ArgError(`--set needs name=value, got '${s ?? ''}'`)
         o.sets.push({ name: m[1], value: num(`--set ${m[1]}`, m[2]) })
         break
@@ -193,7 +200,7 @@ export async function run(args: string[]): Promise<number> {
   }
   let model: CompiledModel
   try {
-    model = compileModel(text)
+    model = compileModel(text, { resolvePart: o.library })
   } catch (e) {
     if (e instanceof SheetError) {
       process.stderr.write(`pewter simulate: ${o.sheet}: ${e.message}\n`)

@@ -159,6 +159,13 @@ export const modelVersions = pgTable('model_versions', {
   createdAt: now(),
 }, (t) => [uniqueIndex('model_versions_model_number_uq').on(t.modelId, t.number)])
 
+/** Lineage: the exact part versions a version's sheet uses (directly or inside its parts). */
+export const modelVersionParts = pgTable('model_version_parts', {
+  versionId: integer('version_id').notNull().references(() => modelVersions.id, { onDelete: 'cascade' }),
+  partModelId: integer('part_model_id').notNull().references(() => models.id),
+  partVersion: integer('part_version').notNull(),
+}, (t) => [primaryKey({ columns: [t.versionId, t.partModelId, t.partVersion] }), index('model_version_parts_part_idx').on(t.partModelId, t.partVersion)])
+
 export const modelDrafts = pgTable('model_drafts', {
   modelId: integer('model_id').notNull().references(() => models.id, { onDelete: 'cascade' }),
   userId: integer('user_id').notNull().references(() => users.id, { onDelete: 'cascade' }),

@@ -16,6 +16,7 @@ import { readFileSync } from 'node:fs'
 import { and, eq, inArray, sql } from 'drizzle-orm'
 import type { Db } from '../db/client'
 import { datasets, modelVersions, runs } from '../db/schema'
+import { workspaceParts } from './part-library'
 import { compileModel, type CompiledModel } from '../../shared/sheet'
 import { toDeclared, toInternal } from '../../shared/sheet/compiled'
 import { simulate } from '../../shared/engine'
@@ -149,7 +150,8 @@ export async function loadRunInputs(db: Db, run: typeof runs.$inferSelect) {
     if (!d) throw new RunInputError(`dataset ${id} no longer exists in this project`)
     return d
   }
-  const model = compileModel(version.text)
+  // parts are read from the run's workspace library at the versions the sheet pins
+  const model = compileModel(version.text, { resolvePart: await workspaceParts(db, run.workspaceId, version.text) })
   return { settings, model, est: settings.estimation.map(get), val: settings.validation.map(get), versionText: version.text }
 }
 

@@ -13,6 +13,7 @@ import { bindings, memberships, modelDrafts, modelMaintainers, models, modelVers
 import { conflict, forbidden, HttpError, notFound } from '../errors'
 import { audit } from './audit'
 import { checkSheet } from './sheet-check'
+import { recordParts, usersOf, workspaceParts } from './part-library'
 import { diffLines, diffParameters } from './diff'
 import { slugify } from './workspaces'
 import { fourEyesRule } from './workspace-settings'
@@ -123,8 +124,8 @@ async function uniqueModelSlug(db: Conn, workspaceId: number, title: string): Pr
 }
 
 /** The sheet must check without errors; otherwise 400 with every diagnostic. */
-function requireCleanSheet(text: string): SheetSummary {
-  const r = checkSheet(text)
+async function requireCleanSheet(db: Conn, workspaceId: number, text: string): Promise<SheetSummary> {
+  const r = checkSheet(text, await workspaceParts(db, workspaceId, text))
   const errors = r.diagnostics.filter((d) => d.severity === 'error')
   if (!errors.length && !r.summary) throw new Error('the sheet checker returned a summary of an unexpected shape')
   if (errors.length || !r.summary) {
@@ -213,8 +214,10 @@ export async function getModel(db: Conn, actor: Actor, modelId: number): Promise
     id: f.id, slug: f.slug, title: f.title, owner: person(p, f.ownerId), fromVersion: f.forkOfVersion ?? 1, createdAt: iso(f.createdAt)!,
   }))
   const admin = actor.role === 'admin'
+  const usedIn = (await usersOf(db, m.id)).map((u) => ({ model: { id: u.modelId, slug: u.slug, title: u.title }, version: u.version, partVersion: u.partVersion }))
   return {
     ...listItem(m, latest, status, forks.length, p, origins),
+    usedIn,
     createdAt: iso(m.createdAt)!,
     maintainers: maint.map((x) => person(p, x.id)).sort((a, b) => a.name.localeCompare(b.name)),
     versions: versions.map((v) => toVersionMeta(v, p)),
@@ -260,7 +263,8 @@ async function insertModel(tx: Tx, workspaceId: number, nm: NewModel): Promise<M
       }).onConflictDoNothing().returning()
       if (!m) { if (attempt < 5) continue; throw conflict('Could not find a free name for the model; try another title.') }
       await tx.insert(modelMaintainers).values({ modelId: m.id, userId: nm.ownerId })
-      await tx.insert(modelVersions).values({ modelId: m.id, number: 1, text: nm.text, note: nm.note, authorId: nm.ownerId, summary: nm.summary, status: 'draft' })
+      const [v] = await tx.insert(modelVersions).values({ modelId: m.id, number: 1, text: nm.text, note: nm.note, authorId: nm.ownerId, summary: nm.summary, status: 'draft' }).returning()
+      await recordParts(tx, workspaceId, v.id, nm.summary)
       return m
     } catch (e) {
       if (isUniqueViolation(e) && attempt < 5) continue
@@ -270,7 +274,7 @@ async function insertModel(tx: Tx, workspaceId: number, nm: NewModel): Promise<M
 }
 
 export async function createModel(db: Db, actor: Actor, body: CreateModelBody): Promise<ModelDetailDto> {
-  const summary = requireCleanSheet(body.text)
+  const summary = await requireCleanSheet(db, actor.workspaceId, body.text)
   const m = await db.transaction((tx) => insertModel(tx, actor.workspaceId, {
     title: body.title, description: body.description, tags: body.tags, text: body.text, note: body.note || 'First version', summary, ownerId: actor.userId,
   }))
@@ -340,7 +344,7 @@ export async function discardDraft(db: Db, actor: Actor, modelId: number): Promi
 
 // ── publish ─────────────────────────────────────────────────────────────────────────────────────
 export async function publishVersion(db: Db, actor: Actor, modelId: number, body: PublishBody): Promise<VersionDto> {
-  const summary = requireCleanSheet(body.text)
+  const summary = await requireCleanSheet(db, actor.workspaceId, body.text)
   const latestConflict = async (latest: number) => {
     const v = await toVersion(db, await versionRow(db, modelId, 'latest'))
     return conflict(`Version ${latest} was published after version ${body.baseVersion}, which you edited. Rebase your changes on version ${latest} and publish again.`, { latest: v })
@@ -361,6 +365,7 @@ export async function publishVersion(db: Db, actor: Actor, modelId: number, body
       const [v] = await tx.insert(modelVersions).values({
         modelId: m.id, number: latest + 1, text: body.text, note: body.note, authorId: actor.userId, summary, status: 'draft',
       }).returning()
+      await recordParts(tx, actor.workspaceId, v.id, summary)
       await tx.update(models).set({ updatedAt: new Date() }).where(eq(models.id, m.id))
       await tx.delete(modelDrafts).where(and(eq(modelDrafts.modelId, m.id), eq(modelDrafts.userId, actor.userId)))
       return v
@@ -427,6 +432,12 @@ export async function deleteModel(db: Db, actor: Actor, modelId: number): Promis
   if (!can.administer(actor.role)) throw forbidden(`Your role (${actor.role}) does not allow this: it needs the admin role.`)
   const gone = await db.transaction(async (tx) => {
     const m = await getModelRow(tx, actor.workspaceId, modelId, true)
+    const users = (await usersOf(tx, m.id)).filter((u) => u.modelId !== m.id)
+    if (users.length) {
+      const named = users.map((u) => `"${u.title}" version ${u.version} (uses version ${u.partVersion})`)
+      throw conflict(`"${m.title}" cannot be deleted: it is used as a part by ${named.join(', ')}. Update or delete those versions first.`,
+        { usedIn: users.map((u) => ({ model: { id: u.modelId, slug: u.slug, title: u.title }, version: u.version, partVersion: u.partVersion })) })
+    }
     const used = await tx.select({ version: runs.modelVersion, n: sql<number>`count(*)::int` }).from(runs)
       .where(eq(runs.modelId, m.id)).groupBy(runs.modelVersion).orderBy(runs.modelVersion)
     if (used.length) {

@@ -21,15 +21,17 @@ import { autoMatch, checkMapping, checkMappingNames, getVersionRow, signalsOf } 
 import { getProjectRow } from './projects'
 import { ENGINE_VERSION } from './fit-execution'
 import { publishVersion, type Actor } from './models'
+import { workspaceParts } from './part-library'
 import { toDeclared } from '../../shared/sheet/compiled'
 
 type RunRow = typeof runs.$inferSelect
 
 const iso = (d: Date | string | null) => (d === null ? null : new Date(d).toISOString())
 
-function compileOrThrow(text: string): CompiledModel {
+async function compileOrThrow(db: Db, workspaceId: number, text: string): Promise<CompiledModel> {
+  const resolvePart = await workspaceParts(db, workspaceId, text)
   try {
-    return compileModel(text)
+    return compileModel(text, { resolvePart })
   } catch (e) {
     if (e instanceof SheetError) throw badRequest(`The model version has errors and cannot be fitted: ${e.message}`)
     throw e
@@ -84,7 +86,7 @@ function sha256(text: string) {
 /** Checks the body against the project, model version and datasets; returns the settings and provenance. */
 async function resolveRun(db: Db, workspaceId: number, projectId: number, body: CreateRunBody, rerunOf: number | null) {
   const { v } = await getVersionRow(db, workspaceId, body.modelId, body.version)
-  const model = compileOrThrow(v.text)
+  const model = await compileOrThrow(db, workspaceId, v.text)
   const ids = [...body.estimation, ...body.validation]
   const rows = await db.select({ id: datasets.id, name: datasets.name, contentHash: datasets.contentHash, columns: datasets.columns })
     .from(datasets).where(and(eq(datasets.projectId, projectId), inArray(datasets.id, ids)))

@@ -2,11 +2,11 @@
  * Checks a sheet with the shared parser and returns its diagnostics and the summary stored with a
  * version (states, parameters with units and bounds, inputs, outputs). Nothing is saved here.
  */
-import { checkModel } from '../../shared/sheet'
+import { checkModel, type ResolvePart } from '../../shared/sheet'
 import { sheetSummary, type CheckReply, type DiagnosticDto } from '../../shared/api/models'
 
-export function checkSheet(text: string): CheckReply {
-  const r = checkModel(text)
+export function checkSheet(text: string, resolvePart: ResolvePart | null = null): CheckReply {
+  const r = checkModel(text, { resolvePart })
   const diagnostics: DiagnosticDto[] = r.diagnostics.map((d) => ({ line: d.line, column: d.column, endColumn: d.endColumn, severity: d.severity, message: d.message }))
   // the summary is validated against the stored shape (a drift between the two fails loudly on publish)
   const parsed = sheetSummary.safeParse(r.summary)

@@ -61,11 +61,18 @@ export const sheetSummary = z.object({
   consts: z.array(z.object({ name: z.string(), value: z.number(), unit: z.string(), line: z.number() })),
   lookups: z.array(z.object({ name: z.string(), points: z.number(), line: z.number() })),
   lets: z.number(),
+  /** parts the sheet declares (library models at pinned versions) */
+  parts: z.array(z.object({
+    name: z.string(), handle: z.string(), version: z.number(), description: z.string(), line: z.number(),
+    inputs: z.array(z.object({ name: z.string(), unit: z.string() })), outputs: z.array(z.object({ name: z.string(), unit: z.string() })),
+  })).default([]),
+  /** every part version the flattened sheet holds, directly or inside other parts */
+  partsUsed: z.array(z.object({ handle: z.string(), version: z.number() })).default([]),
 })
 export type SheetSummary = z.infer<typeof sheetSummary>
 
 export const emptySheetSummary = (): SheetSummary => ({
-  title: '', kind: 'continuous', timeUnit: 's', sampleTime: null, states: [], parameters: [], inputs: [], outputs: [], consts: [], lookups: [], lets: 0,
+  title: '', kind: 'continuous', timeUnit: 's', sampleTime: null, states: [], parameters: [], inputs: [], outputs: [], consts: [], lookups: [], lets: 0, parts: [], partsUsed: [],
 })
 
 export const checkBody = z.object({ text: sheetText })
@@ -181,6 +188,8 @@ export const modelDetailDto = modelListItemDto.extend({
   can: modelPermissions,
   /** the origin's latest version number (forks only; null when the origin was deleted) */
   originLatestVersion: z.number().nullable(),
+  /** model versions that use a version of this model as a part (lineage) */
+  usedIn: z.array(z.object({ model: modelRefDto, version: z.number(), partVersion: z.number() })).default([]),
 })
 export type ModelDetailDto = z.infer<typeof modelDetailDto>
 

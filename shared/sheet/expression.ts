@@ -5,13 +5,15 @@
  */
 import { parse } from '../mathjs-lite'
 import type { MathNode } from 'mathjs'
-import { type Cols, type Expr, type FnName, type CmpOp, FUNCTIONS, constValue } from './ast'
+import { type Cols, type Expr, type FnName, type CmpOp, FUNCTIONS, constValue, fold } from './ast'
 import type { DiagnosticList } from './diagnostics'
 import { didYouMean } from './suggest'
 import { expandSmooth, isSmoothName, SMOOTH_FUNCTIONS, smoothSignature } from './smooth'
 
 export const MAX_EXPRESSION_LENGTH = 4000
 export const MAX_NESTING = 64
+/** the most terms one sum(…) or prod(…) may expand to */
+export const MAX_REDUCTION = 10_000
 
 /** What the expression builder needs from the sheet. */
 export interface ExprContext {
@@ -25,9 +27,13 @@ export interface ExprContext {
   callables(): string[]
   /** kind of a declared name, for messages */
   kindOf(name: string): string | null
+  /** the value of const i (index arithmetic folds consts) */
+  constValue(i: number): number
+  /** bind index variable `name` to `k` (innermost), or unbind the innermost with k = null; false when the name is taken */
+  bindIndex(name: string, k: number | null): boolean
 }
 
-const ALLOWED_CHARS = /[A-Za-z0-9_ \t.+\-*/^(),<>=!?:]/
+const ALLOWED_CHARS = /[A-Za-z0-9_ \t.+\-*/^(),<>=!?:[\]]/
 const OPS: Record<string, string> = {
   add: '+', subtract: '-', multiply: '*', divide: '/', pow: '^',
   smaller: '<', smallerEq: '<=', larger: '>', largerEq: '>=', equal: '==', unequal: '!=',
@@ -39,8 +45,10 @@ interface Leaf { start: number; end: number }
  * Build the tree of `text`, found on `line` starting at column `col0` (1-based).
  * Reports every problem to ctx.diags and returns null when the expression is unusable.
  */
-export function buildExpr(text: string, line: number, col0: number, ctx: ExprContext): Expr | null {
+export function buildExpr(source: string, line: number, col0: number, ctx: ExprContext): Expr | null {
   const d = ctx.diags
+  // an index range `1..N` is read as mathjs's range `1: N` (same length, so columns stay put)
+  const text = source.replace(/\.\./g, ': ')
   const whole = { line, column: col0, endColumn: col0 + Math.max(1, text.length) }
   if (text.trim() === '') {
     d.error(whole, 'missing expression after =')
@@ -58,7 +66,7 @@ export function buildExpr(text: string, line: number, col0: number, ctx: ExprCon
     if (!ALLOWED_CHARS.test(ch)) {
       if (ch === ';') d.error(at, "only one equation per line: ';' is not allowed")
       else if (ch === '"' || ch === "'" || ch === '`') d.error(at, 'text in quotes is not allowed in an expression')
-      else if (ch === '[' || ch === ']' || ch === '{' || ch === '}') d.error(at, `'${ch}' is not allowed in an expression (units go in [..] only after a declaration's value)`)
+      else if (ch === '{' || ch === '}') d.error(at, `'${ch}' is not allowed in an expression`)
       else d.error(at, `unexpected character ${printable(ch)} in an expression`)
       return null
     }
@@ -203,19 +211,108 @@ class Converter {
       case 'AssignmentNode': return this.fail(undefined, "assignment is not allowed inside an expression (one '=' per line)")
       case 'FunctionAssignmentNode': return this.fail(undefined, 'function definitions are not allowed in a sheet')
       case 'BlockNode': return this.fail(undefined, 'only one expression per line')
-      case 'AccessorNode': case 'IndexNode': return this.fail(undefined, "property access and indexing ('.' or [..]) are not allowed")
+      case 'AccessorNode': {
+        const r = this.reference(n, depth)
+        if (!r) return null
+        const e = this.ctx.symbol(r.name, r.cols)
+        if (!e) { this.failed = true; return null }
+        return { ...e, s: r.cols } as Expr
+      }
+      case 'IndexNode': return this.fail(undefined, "an index [..] must follow a name: T[i]")
       case 'ArrayNode': return this.fail(undefined, 'matrices are not allowed in a sheet')
       case 'ObjectNode': return this.fail(undefined, 'objects are not allowed in a sheet')
-      case 'RangeNode': return this.fail(undefined, "ranges (a:b) are not allowed; for a conditional write cond ? a : b")
+      case 'RangeNode': return this.fail(undefined, "a range (a..b) may only follow 'in' inside sum(i in a..b, …) or prod(…); for a conditional write cond ? a : b")
       default: return this.fail(undefined, `'${n.type}' is not allowed in an expression`)
     }
   }
 
+  /**
+   * A qualified or indexed name: `upper.level`, `T[i-1]`, `upper.T[N]`. The index is evaluated
+   * now (index variables and consts are known), so `T[i-1]` becomes the plain name `T[4]`.
+   */
+  private reference(n: MathNode, depth: number): { name: string; cols: Cols } | null {
+    if (n.type === 'SymbolNode') {
+      const cols = this.nextLeaf() ?? this.wholeCols()
+      return { name: (n as unknown as { name: string }).name, cols }
+    }
+    if (n.type !== 'AccessorNode') return this.fail(undefined, "'.' and [..] may only follow a name")
+    const a = n as unknown as { object: MathNode; index: { dimensions: MathNode[]; dotNotation: boolean } }
+    const obj = this.reference(a.object, depth + 1)
+    if (!obj) return null
+    const dims = a.index.dimensions
+    if (a.index.dotNotation) {
+      const cols = this.nextLeaf() ?? this.wholeCols()
+      return { name: `${obj.name}.${String((dims[0] as unknown as { value: unknown }).value)}`, cols: [obj.cols[0], cols[1]] }
+    }
+    if (dims.length !== 1) {
+      for (const x of dims) this.convert(x, depth + 1)
+      return this.fail(obj.cols, `${obj.name} takes one index: ${obj.name}[i]`)
+    }
+    const ie = this.convert(dims[0], depth + 1)
+    if (!ie) return null
+    const k = this.indexOf(ie)
+    if (k === null) return null
+    return { name: `${obj.name}[${k}]`, cols: this.span([obj.cols, ie.s]) ?? obj.cols }
+  }
+
+  /** the whole-number value of an index expression (numbers, index variables, consts), or null after reporting */
+  private indexOf(e: Expr): number | null {
+    const v = constValue(fold(e, (i) => this.ctx.constValue(i)))
+    if (v === null) return this.fail(e.s, 'an index must be computed from whole numbers, index variables and consts (not from states, params, inputs or lets)')
+    if (!Number.isInteger(v)) return this.fail(e.s, `an index must be a whole number, this one is ${v}`)
+    return v
+  }
+
+  /** sum(i in a..b, body) / prod(…): the body once per index, combined as a balanced tree */
+  private reduce(name: 'sum' | 'prod', args: MathNode[], nameCols: Cols, depth: number): Expr | null {
+    const spec = args[0] as unknown as { type: string; fn?: string; args?: MathNode[] } | undefined
+    const rng = spec?.args?.[1] as unknown as { type: string; start: MathNode; end: MathNode; step: MathNode | null } | undefined
+    if (args.length !== 2 || spec?.type !== 'OperatorNode' || spec.fn !== 'to' || spec.args?.[0].type !== 'SymbolNode' || rng?.type !== 'RangeNode' || rng.step) {
+      return this.fail(nameCols, `write ${name}(i in 1..N, expression of i)`)
+    }
+    const vCols = this.nextLeaf() ?? nameCols
+    const v = (spec.args[0] as unknown as { name: string }).name
+    const lo = this.convert(rng.start, depth + 1)
+    const hi = this.convert(rng.end, depth + 1)
+    if (!lo || !hi) return null
+    const a = this.indexOf(lo), b = this.indexOf(hi)
+    if (a === null || b === null) return null
+    if (b < a) return this.fail(this.span([lo.s, hi.s]), `empty range ${a}..${b} in ${name}`)
+    if (b - a >= MAX_REDUCTION) return this.fail(this.span([lo.s, hi.s]), `${name} over ${b - a + 1} terms is too long (at most ${MAX_REDUCTION})`)
+    if (!this.ctx.bindIndex(v, a)) return this.fail(vCols, `the index variable '${v}' must not be a declared or reserved name`)
+    const terms: Expr[] = []
+    const mark = this.leafIndex
+    let ok = true
+    for (let k = a; k <= b && ok; k++) {
+      if (k > a) { this.ctx.bindIndex(v, null); this.ctx.bindIndex(v, k) }
+      this.leafIndex = mark
+      const t = this.convert(args[1], depth + 1)
+      if (!t) ok = false
+      else terms.push(t)
+    }
+    this.ctx.bindIndex(v, null)
+    if (!ok) return null
+    const op = name === 'sum' ? '+' : '*'
+    const s = this.span([nameCols, terms[0].s])
+    const tree = (i: number, j: number): Expr => (j - i === 1 ? terms[i] : { k: 'bin', op, a: tree(i, (i + j) >> 1), b: tree((i + j) >> 1, j), s })
+    return { ...tree(0, terms.length), s } as Expr
+  }
+
   private call(f: { fn: MathNode; args: MathNode[] }, depth: number): Expr | null {
-    if (f.fn.type !== 'SymbolNode') return this.fail(undefined, 'only named functions may be called')
-    const nameCols = this.nextLeaf() ?? this.wholeCols()
-    const name = (f.fn as unknown as { name: string }).name
+    let name: string
+    let nameCols: Cols
+    if (f.fn.type === 'SymbolNode') {
+      nameCols = this.nextLeaf() ?? this.wholeCols()
+      name = (f.fn as unknown as { name: string }).name
+    } else if (f.fn.type === 'AccessorNode') {
+      // a part's lookup: upper.valve(x)
+      const r = this.reference(f.fn, depth + 1)
+      if (!r) return null
+      name = r.name
+      nameCols = r.cols
+    } else return this.fail(undefined, 'only named functions may be called')
     if (name === 'delay') return this.delayCall(f.args, nameCols, depth)
+    if (name === 'sum' || name === 'prod') return this.reduce(name, f.args, nameCols, depth)
     const args: Expr[] = []
     let bad = false
     for (const a of f.args) {
@@ -265,18 +362,22 @@ class Converter {
       return this.fail(nameCols, 'delay takes two arguments: delay(input, tau)')
     }
     const [u, tau] = args
-    if (u.type !== 'SymbolNode') {
+    if (u.type !== 'SymbolNode' && u.type !== 'AccessorNode') {
       const e = this.convert(u, depth + 1)
       this.convert(tau, depth + 1)
       return this.fail(e?.s ?? nameCols, 'delay applies only to inputs: its first argument must be the name of an input')
     }
-    const uCols = this.nextLeaf() ?? nameCols
-    const uName = (u as unknown as { name: string }).name
+    const ur = this.reference(u, depth + 1)
+    if (!ur) return null
+    const uCols = ur.cols
+    const uName = ur.name
     let tauName: string | null = null
     let tauCols: Cols
-    if (tau.type === 'SymbolNode') {
-      tauCols = this.nextLeaf() ?? nameCols
-      tauName = (tau as unknown as { name: string }).name
+    if (tau.type === 'SymbolNode' || tau.type === 'AccessorNode') {
+      const tr = this.reference(tau, depth + 1)
+      if (!tr) return null
+      tauCols = tr.cols
+      tauName = tr.name
     } else {
       const e = this.convert(tau, depth + 1)
       tauCols = e?.s ?? nameCols

@@ -106,4 +106,7 @@ export interface ParsedModel {
   equations: EquationDecl[]
   outputs: OutputDecl[]
   delays: DelayInfo[]
+  /** parts the sheet declares and every part version it holds (sheets with parts only) */
+  parts?: { name: string; handle: string; version: number; description: string; line: number; inputs: { name: string; unit: string }[]; outputs: { name: string; unit: string }[] }[]
+  partsUsed?: { handle: string; version: number }[]
 }

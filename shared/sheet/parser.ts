@@ -19,18 +19,44 @@ export const MAX_SHEET_CHARS = 2_000_000
 export const MAX_LINE_CHARS = 10_000
 export const MAX_DIAGNOSTICS = 200
 
-export const KEYWORDS = ['model', 'time', 'sample', 'input', 'param', 'const', 'lookup', 'state', 'let', 'next', 'output'] as const
+export const KEYWORDS = ['model', 'time', 'sample', 'input', 'param', 'const', 'lookup', 'state', 'let', 'next', 'output', 'part', 'feed'] as const
+/** reductions over an index range: sum(i in 1..N, …), prod(i in 1..N, …) */
+export const REDUCERS = ['sum', 'prod'] as const
+/** the most names one indexed declaration may expand to */
+export const MAX_RANGE = 10_000
 const MODIFIERS = ['in', 'fixed', 'estimate', 'steady', 'linear', 'hold', 'sigma']
 /** words that mathjs's parser reads as operators or constants, and JavaScript's object internals */
 const HOST_WORDS = ['mod', 'to', 'and', 'or', 'not', 'xor', 'true', 'false', 'null', 'undefined', 'Infinity', 'NaN', 'end', 'constructor', 'prototype', '__proto__']
-export const RESERVED = new Set<string>([...KEYWORDS, ...MODIFIERS, ...FUNCTIONS, ...HOST_WORDS, 'delay', 't', 'pi', 'e'])
+export const RESERVED = new Set<string>([...KEYWORDS, ...MODIFIERS, ...FUNCTIONS, ...REDUCERS, ...HOST_WORDS, 'delay', 't', 'pi', 'e'])
+
+/**
+ * The position of the first `[` at or after `from` that opens a unit: one that does not follow a
+ * name or `]` directly (those open an index, `T[i-1]`); -1 when there is none.
+ */
+function unitBracket(t: string, from: number): number {
+  for (let j = from; j < t.length; j++) {
+    if (t[j] !== '[') continue
+    if (j > 0 && /[A-Za-z0-9_\]]/.test(t[j - 1])) {
+      const close = t.indexOf(']', j)
+      if (close < 0) return -1
+      j = close
+      continue
+    }
+    return j
+  }
+  return -1
+}
 
 type Kind = 'state' | 'param' | 'const' | 'input' | 'lookup' | 'let'
 interface Entry { kind: Kind; index: number; span: Span }
 
 interface RawExpr { text: string; line: number; col0: number }
-interface RawLet { decl: Omit<LetDecl, 'expr'>; raw: RawExpr }
-interface RawEq { name: string; span: Span; form: 'derivative' | 'next'; raw: RawExpr }
+/** an index range written after a name: `[lo..hi]`, `[i in lo..hi]` or a single index `[k]` */
+interface Range { v: string | null; lo: number; hi: number; single: boolean; span: Span }
+/** the value of the index variable while an expression of a ranged statement is built */
+interface IndexEnv { v: string; k: number }
+interface RawLet { decl: Omit<LetDecl, 'expr'>; raw: RawExpr; env: IndexEnv | null }
+interface RawEq { name: string; span: Span; form: 'derivative' | 'next'; raw: RawExpr; env: IndexEnv | null }
 interface RawOut { decl: Omit<OutputDecl, 'expr'>; raw: RawExpr }
 
 export interface ParseResult {
@@ -38,8 +64,13 @@ export interface ParseResult {
   diagnostics: Diagnostic[]
 }
 
-export function parseSheet(text: unknown): ParseResult {
-  const p = new SheetParser()
+export interface ParseOptions {
+  /** accept qualified names `part.name` (the flat text of a sheet with parts, see parts.ts) */
+  qualified?: boolean
+}
+
+export function parseSheet(text: unknown, opts: ParseOptions = {}): ParseResult {
+  const p = new SheetParser(opts.qualified === true)
   try {
     return p.run(text)
   } catch (e) {
@@ -51,6 +82,7 @@ export function parseSheet(text: unknown): ParseResult {
 }
 
 class SheetParser {
+  constructor(private readonly qualified: boolean) {}
   diags = new DiagnosticList()
   private names = new Map<string, Entry>()
   private title = ''
@@ -69,6 +101,10 @@ class SheetParser {
   private statements = 0
   private delays: DelayInfo[] = []
   private delayKeys = new Map<string, number>()
+  /** indexed declarations: base name → its range and kind */
+  private ranges = new Map<string, { lo: number; hi: number; kind: Kind; span: Span }>()
+  /** index variables bound while an expression is built (innermost last) */
+  private indexEnv: IndexEnv[] = []
 
   run(text: unknown): ParseResult {
     const d = this.diags
@@ -120,10 +156,17 @@ class SheetParser {
     const s = new LineScanner(code, lineNo)
     if (s.atEnd()) return i
     this.statements++
-    const head = s.ident()
+    const head = this.name(s)
     if (!head) {
       const w = s.word()
       d.error(w.span, `a line must start with a keyword (${KEYWORDS.join(', ')}) or an equation x' = …; found '${w.text.slice(0, 40)}'`)
+      return i
+    }
+    if (s.text[s.pos] === '[' && s.text.slice(s.pos).match(/^\[[^\]]*\]'/)) {
+      const r = this.rangeAfter(s, head.text)
+      if (!r) return i
+      s.pos++
+      this.equation(s, head, 'derivative', r)
       return i
     }
     if (s.text[s.pos] === "'") {
@@ -139,12 +182,17 @@ class SheetParser {
       case 'lookup': return this.lookup(s, lines, i)
       case 'let': this.letLine(s); return i
       case 'next': {
-        const name = s.ident()
+        const name = this.name(s)
         if (!name) { d.error(s.here(), 'expected a state name after next'); return i }
-        this.equation(s, name, 'next')
+        let r: Range | null | false = null
+        if (s.text[s.pos] === '[') { r = this.rangeAfter(s, name.text); if (!r) return i }
+        this.equation(s, name, 'next', r ?? undefined)
         return i
       }
       case 'output': this.output(s); return i
+      case 'part': case 'feed':
+        d.error(head.span, `${head.text} lines need the model library: check the sheet where its parts can be found (the editor, or the command line with --library DIR)`)
+        return i
       default: {
         if (s.peek() === '=') {
           d.error(head.span, `unknown statement: to define '${head.text}' write let ${head.text} = …, or ${head.text}' = … for a state's derivative`)
@@ -242,8 +290,28 @@ class SheetParser {
     return b ? this.unitAt(b) : null
   }
 
+  /** a name; `part.name` (several levels) in the flat text of a sheet with parts */
+  private name(s: LineScanner): Tok | null {
+    const t = s.ident()
+    if (t && !this.qualified && s.text[s.pos] === '.' && /[A-Za-z_]/.test(s.text[s.pos + 1] ?? '')) {
+      this.diags.error(s.span(t.span.column - 1, s.text.length), `qualified names belong to parts: there is no part named '${t.text}' (declare part ${t.text} = HANDLE@VERSION)`)
+      s.pos = s.text.length
+      return null
+    }
+    if (!t || !this.qualified) return t
+    let end = s.pos
+    while (s.text[end] === '.' && /[A-Za-z_]/.test(s.text[end + 1] ?? '')) {
+      end++
+      while (/[A-Za-z0-9_]/.test(s.text[end] ?? '')) end++
+    }
+    if (end === s.pos) return t
+    const start = t.span.column - 1
+    s.pos = end
+    return { text: s.text.slice(start, end), span: s.span(start, end) }
+  }
+
   private declareName(s: LineScanner, kind: Kind): Tok | null {
-    const name = s.ident()
+    const name = this.name(s)
     if (!name) {
       const w = s.atEnd() ? s.here() : s.word().span
       this.diags.error(w, `expected a name after ${kind}`)
@@ -270,6 +338,12 @@ class SheetParser {
     const d = this.diags
     const name = this.declareName(s, kind)
     if (!name) return
+    let range: Range | null | false = null
+    if (s.text[s.pos] === '[') {
+      range = this.rangeAfter(s, name.text)
+      if (!range) return
+      if (range.single) { d.error(range.span, `an indexed ${kw} needs a range: ${kw} ${name.text}[1..N] = …`); return }
+    }
     const example = `${kw} ${name.text} = 1 [unit]`
     if (!s.eat('=')) {
       const at = s.atEnd() ? s.here() : s.word().span
@@ -336,27 +410,101 @@ class SheetParser {
     const base = { name: name.text, description, unit, span: name.span }
     const lower = bounds && Number.isFinite(bounds.lo) ? bounds.lo : null
     const upper = bounds && Number.isFinite(bounds.hi) ? bounds.hi : null
-    switch (kind) {
-      case 'param':
-        if (!bounds && !fixed) d.warning(name.span, `param ${name.text} has neither bounds nor fixed: a fit treats it as free and unbounded (write in [lower, upper])`)
-        this.register(name, kind, this.params.length)
-        this.params.push({ ...base, value: conv(v.value)!, declaredValue: v.value, lower: conv(lower), upper: conv(upper), declaredLower: lower, declaredUpper: upper, fixed })
-        break
-      case 'state':
-        if (steady && estimate) d.warning(name.span, `state ${name.text} is both steady and estimate: the steady state wins`)
-        this.register(name, kind, this.states.length)
-        this.states.push({ ...base, initial: conv(v.value)!, declaredInitial: v.value, estimate, steady, lower: conv(lower), upper: conv(upper), declaredLower: lower, declaredUpper: upper })
-        break
-      case 'const':
-        this.register(name, kind, this.consts.length)
-        this.consts.push({ ...base, value: conv(v.value)!, declaredValue: v.value })
-        break
-      case 'input':
-        this.register(name, kind, this.inputs.length)
-        this.inputs.push({ ...base, value: conv(v.value)!, declaredValue: v.value, interp })
-        break
-      default: break
+    if (kind === 'param' && !bounds && !fixed) d.warning(name.span, `param ${name.text} has neither bounds nor fixed: a fit treats it as free and unbounded (write in [lower, upper])`)
+    if (kind === 'state' && steady && estimate) d.warning(name.span, `state ${name.text} is both steady and estimate: the steady state wins`)
+    const names = range ? this.expandRange(name, kind, range) : [name]
+    for (const nm of names) {
+      const decl = { ...base, name: nm.text }
+      switch (kind) {
+        case 'param':
+          this.register(nm, kind, this.params.length)
+          this.params.push({ ...decl, value: conv(v.value)!, declaredValue: v.value, lower: conv(lower), upper: conv(upper), declaredLower: lower, declaredUpper: upper, fixed })
+          break
+        case 'state':
+          this.register(nm, kind, this.states.length)
+          this.states.push({ ...decl, initial: conv(v.value)!, declaredInitial: v.value, estimate, steady, lower: conv(lower), upper: conv(upper), declaredLower: lower, declaredUpper: upper })
+          break
+        case 'const':
+          this.register(nm, kind, this.consts.length)
+          this.consts.push({ ...decl, value: conv(v.value)!, declaredValue: v.value })
+          break
+        case 'input':
+          this.register(nm, kind, this.inputs.length)
+          this.inputs.push({ ...decl, value: conv(v.value)!, declaredValue: v.value, interp })
+          break
+        default: break
+      }
     }
+  }
+
+  // ---------------------------------------------------------------- index ranges
+  /** the names `base[lo]` … `base[hi]` of an indexed declaration (the base is remembered) */
+  private expandRange(name: Tok, kind: Kind, r: Range): Tok[] {
+    this.ranges.set(name.text, { lo: r.lo, hi: r.hi, kind, span: name.span })
+    const out: Tok[] = []
+    for (let k = r.lo; k <= r.hi; k++) out.push({ text: `${name.text}[${k}]`, span: name.span })
+    return out
+  }
+
+  /**
+   * `[lo..hi]`, `[i in lo..hi]` or `[k]` written directly after a name. Bounds are whole numbers
+   * or integer consts declared above, with + and - terms (`N-1`). Null after reporting.
+   */
+  private rangeAfter(s: LineScanner, what: string): Range | null {
+    const d = this.diags
+    const open = s.pos
+    const close = s.text.indexOf(']', open)
+    if (close < 0) { d.error(s.restSpan(), `the index of ${what} has no closing ']'`); return null }
+    const span = s.span(open, close + 1)
+    const inner = s.text.slice(open + 1, close)
+    s.pos = close + 1
+    let v: string | null = null
+    let body = inner
+    const m = /^\s*([A-Za-z_][A-Za-z0-9_]*)\s+in\s+(.*)$/.exec(inner)
+    if (m) {
+      v = m[1]
+      body = m[2]
+      if (RESERVED.has(v) || this.names.has(v)) { d.error(span, `the index variable '${v}' must not be a declared or reserved name`); return null }
+    }
+    const dots = body.indexOf('..')
+    if (dots < 0) {
+      if (v !== null) { d.error(span, `expected a range after '${v} in': [${v} in 1..N]`); return null }
+      const k = this.indexValue(body, span)
+      return k === null ? null : { v, lo: k, hi: k, single: true, span }
+    }
+    const lo = this.indexValue(body.slice(0, dots), span)
+    const hi = this.indexValue(body.slice(dots + 2), span)
+    if (lo === null || hi === null) return null
+    if (hi < lo) { d.error(span, `empty range ${lo}..${hi}: the first index must not exceed the last`); return null }
+    if (hi - lo + 1 > MAX_RANGE) { d.error(span, `the range ${lo}..${hi} is too long (at most ${MAX_RANGE} indices)`); return null }
+    return { v, lo, hi, single: false, span }
+  }
+
+  /** a whole number, or integer consts and numbers joined by + and - */
+  private indexValue(text: string, span: Span): number | null {
+    const t = text.trim()
+    if (!/^[+-]?\s*(?:\d+|[A-Za-z_][A-Za-z0-9_.]*)(?:\s*[+-]\s*(?:\d+|[A-Za-z_][A-Za-z0-9_.]*))*$/.test(t)) {
+      this.diags.error(span, `an index bound must be a whole number or an integer const, with + and - (found '${t.slice(0, 40)}')`)
+      return null
+    }
+    let total = 0
+    const re = /([+-]?)\s*(\d+|[A-Za-z_][A-Za-z0-9_.]*)/g
+    let m: RegExpExecArray | null
+    while ((m = re.exec(t)) !== null) {
+      let val: number
+      if (/^\d/.test(m[2])) val = Number(m[2])
+      else {
+        const ent = this.names.get(m[2])
+        if (!ent || ent.kind !== 'const') {
+          this.diags.error(span, ent ? `'${m[2]}' is a ${ent.kind}: index bounds use whole numbers and consts declared above` : `unknown name '${m[2]}' in an index bound (declare const ${m[2]} = … above)`)
+          return null
+        }
+        val = this.consts[ent.index].value
+        if (!Number.isInteger(val)) { this.diags.error(span, `const ${m[2]} = ${val} is not a whole number and cannot size a range`); return null }
+      }
+      total += m[1] === '-' ? -val : val
+    }
+    return total
   }
 
   private boundNumber(part: string, col: number, line: number, what: string): { value: number; span: Span } | null {
@@ -476,7 +624,7 @@ class SheetParser {
     const m0 = /"[^"]*"\s*$/.exec(t.slice(s.pos))
     if (m0) end = s.pos + m0.index
     if (stopAtUnit) {
-      const br = t.indexOf('[', s.pos)
+      const br = unitBracket(t, s.pos)
       if (br >= 0 && br < end) end = br
       const re = /\bsigma\b/g
       re.lastIndex = s.pos
@@ -497,20 +645,41 @@ class SheetParser {
   private letLine(s: LineScanner): void {
     const name = this.declareName(s, 'let')
     if (!name) return
+    let range: Range | null = null
+    if (s.text[s.pos] === '[') {
+      range = this.rangeAfter(s, name.text)
+      if (!range) return
+      if (range.single) { this.diags.error(range.span, `an indexed let needs a range: let ${name.text}[i in 1..N] = …`); return }
+    }
     if (!s.eat('=')) { this.diags.error(s.restSpan(), `missing value: write let ${name.text} = <expression>`); return }
-    const raw = this.rawExpr(s, this.exprEnd(s, false))
+    const raw = this.rawExpr(s, this.exprEnd(s, true))
+    const unit = this.optionalUnit(s)
+    if (unit === false) return
     const description = this.description(s)
-    this.register(name, 'let', this.lets.length)
-    this.lets.push({ decl: { name: name.text, description, unit: null, span: name.span, text: raw.text }, raw })
+    if (!s.atEnd()) { this.trailing(s, 'the let'); return }
+    const names = range ? this.expandRange(name, 'let', range) : [name]
+    names.forEach((nm, j) => {
+      this.register(nm, 'let', this.lets.length)
+      const env = range && range.v !== null ? { v: range.v, k: range.lo + j } : null
+      this.lets.push({ decl: { name: nm.text, description, unit, span: name.span, text: raw.text }, raw, env })
+    })
   }
 
-  private equation(s: LineScanner, name: Tok, form: 'derivative' | 'next'): void {
+  private equation(s: LineScanner, name: Tok, form: 'derivative' | 'next', range?: Range): void {
     const lhs = form === 'derivative' ? `${name.text}'` : `next ${name.text}`
     if (!s.eat('=')) { this.diags.error(s.restSpan(), `expected '=' after ${lhs}`); return }
     const raw = this.rawExpr(s, this.exprEnd(s, false))
     if (!s.atEnd()) this.trailing(s, 'the equation')
-    const span = form === 'derivative' ? { ...name.span, endColumn: name.span.endColumn + 1 } : name.span
-    this.eqs.push({ name: name.text, span, form, raw })
+    const end = range ? range.span.endColumn : name.span.endColumn
+    const span = { ...name.span, endColumn: form === 'derivative' ? end + 1 : end }
+    if (!range) { this.eqs.push({ name: name.text, span, form, raw, env: null }); return }
+    if (!this.ranges.has(name.text)) {
+      this.diags.error(name.span, `${name.text} is not an indexed state: declare state ${name.text}[1..N] = …`)
+      return
+    }
+    for (let k = range.lo; k <= range.hi; k++) {
+      this.eqs.push({ name: `${name.text}[${k}]`, span, form, raw, env: range.v !== null ? { v: range.v, k } : null })
+    }
   }
 
   private output(s: LineScanner): void {
@@ -551,12 +720,13 @@ class SheetParser {
     return {
       diags: d,
       symbol: (name, cols) => {
+        for (let j = this.indexEnv.length - 1; j >= 0; j--) if (this.indexEnv[j].v === name) return { k: 'num', v: this.indexEnv[j].k }
         if (name === 't') return { k: 't' }
         if (name === 'pi') return { k: 'num', v: Math.PI }
         if (name === 'e') return { k: 'num', v: Math.E }
         const ent = this.names.get(name)
         if (!ent) {
-          this.pendingError(cols, `unknown name '${name}'${didYouMean(name, all())}`)
+          this.pendingError(cols, this.unknownName(name, all))
           return null
         }
         switch (ent.kind) {
@@ -614,9 +784,29 @@ class SheetParser {
         }
         return { k: 'delay', input: ent.index, slot: this.inputs.length + k, tau }
       },
-      callables: () => [...FUNCTIONS, 'delay', ...this.lookups.map((l) => l.name)],
+      callables: () => [...FUNCTIONS, ...REDUCERS, 'delay', ...this.lookups.map((l) => l.name)],
       kindOf: (name) => this.names.get(name)?.kind ?? null,
+      constValue: (i) => this.consts[i].value,
+      bindIndex: (v, k) => {
+        if (k === null) { this.indexEnv.pop(); return true }
+        if (this.names.has(v) || RESERVED.has(v)) return false
+        this.indexEnv.push({ v, k })
+        return true
+      },
     }
+  }
+
+  /** the message for a name that is not declared: an indexed base, an index out of range, a typo */
+  private unknownName(name: string, all: () => string[]): string {
+    const r = this.ranges.get(name)
+    if (r) return `${name} is indexed over ${r.lo}..${r.hi}: write ${name}[i] (e.g. ${name}[${r.lo}])`
+    const m = /^(.*)\[(-?\d+)\]$/.exec(name)
+    if (m) {
+      const b = this.ranges.get(m[1])
+      if (b) return `index ${m[2]} is outside ${m[1]}[${b.lo}..${b.hi}]`
+      if (this.names.has(m[1])) return `${m[1]} is not indexed: write ${m[1]} without [..]`
+    }
+    return `unknown name '${name}'${didYouMean(name, all())}`
   }
 
   private curLine = 0
@@ -624,9 +814,12 @@ class SheetParser {
     this.diags.error({ line: this.curLine, column: cols[0], endColumn: cols[1] }, msg)
   }
 
-  private build(raw: RawExpr, ctx: ExprContext): Expr | null {
+  private build(raw: RawExpr, ctx: ExprContext, env: IndexEnv | null = null): Expr | null {
     this.curLine = raw.line
-    return buildExpr(raw.text, raw.line, raw.col0, ctx)
+    this.indexEnv = env ? [env] : []
+    const e = buildExpr(raw.text, raw.line, raw.col0, ctx)
+    this.indexEnv = []
+    return e
   }
 
   private finish(text: string): ParsedModel | null {
@@ -634,9 +827,10 @@ class SheetParser {
     const ctx = this.context()
     const lets: LetDecl[] = []
     let broken = false
+    const failedRaw = new Set<RawExpr>()
     for (const l of this.lets) {
-      const e = this.build(l.raw, ctx)
-      if (!e) broken = true
+      const e = failedRaw.has(l.raw) ? null : this.build(l.raw, ctx, l.env)
+      if (!e) { broken = true; failedRaw.add(l.raw) }
       lets.push({ ...l.decl, expr: e ?? { k: 'num', v: NaN } })
     }
     const letOrder = this.orderLets(lets)
@@ -659,15 +853,18 @@ class SheetParser {
       if (!discrete && q.form === 'next') { d.error(q.span, `${lhs}: next-equations need a sample line (sample 1 [s]); a continuous sheet writes ${q.name}' = …`); continue }
       const prev = equations[ent.index]
       if (prev) { d.error(q.span, `second equation for ${q.name} (the first is at line ${prev.span.line})`); continue }
-      const e = this.build(q.raw, ctx)
-      if (!e) { broken = true }
+      const e = failedRaw.has(q.raw) ? null : this.build(q.raw, ctx, q.env)
+      if (!e) { broken = true; failedRaw.add(q.raw) }
       equations[ent.index] = { state: ent.index, expr: e ?? { k: 'num', v: NaN }, text: q.raw.text, span: q.span, form: q.form, timeFactor: 1 }
     }
     if (this.states.length === 0) {
       d.error({ line: 1, column: 1, endColumn: 2 }, 'the sheet declares no state: add state x = <initial value> [unit] and its equation')
     }
+    const missing = new Set<Span>()
     this.states.forEach((st, i) => {
-      if (!equations[i]) d.error(st.span, discrete ? `state ${st.name} has no next-equation: add next ${st.name} = …` : `state ${st.name} has no derivative: add ${st.name}' = …`)
+      if (equations[i] || missing.has(st.span)) return
+      missing.add(st.span)
+      d.error(st.span, discrete ? `state ${st.name} has no next-equation: add next ${st.name} = …` : `state ${st.name} has no derivative: add ${st.name}' = …`)
     })
     const outputs: OutputDecl[] = []
     for (const o of this.outs) {
@@ -717,6 +914,7 @@ class SheetParser {
       case 'p': return this.params[i].unit
       case 'u': return this.inputs[i].unit
       case 'c': return this.consts[i].unit
+      case 'let': return this.lets[i].decl.unit
       default: return null
     }
   }

@@ -13,6 +13,8 @@ export interface SheetSummary {
   consts: { name: string; value: number; unit: string; line: number }[]
   lookups: { name: string; points: number; line: number }[]
   lets: number
+  parts: { name: string; handle: string; version: number; description: string; line: number; inputs: { name: string; unit: string }[]; outputs: { name: string; unit: string }[] }[]
+  partsUsed: { handle: string; version: number }[]
 }
 
 export function summarize(m: ParsedModel): SheetSummary {
@@ -29,9 +31,11 @@ export function summarize(m: ParsedModel): SheetSummary {
     consts: m.consts.map((c) => ({ name: c.name, value: c.declaredValue, unit: unit(c.unit), line: c.span.line })),
     lookups: m.lookups.map((l) => ({ name: l.name, points: l.xs.length, line: l.span.line })),
     lets: m.lets.length,
+    parts: (m.parts ?? []).map((p) => ({ name: p.name, handle: p.handle, version: p.version, description: p.description, line: p.line, inputs: p.inputs, outputs: p.outputs })),
+    partsUsed: (m.partsUsed ?? []).map((p) => ({ handle: p.handle, version: p.version })),
   }
 }
 
 export function emptySummary(): SheetSummary {
-  return { title: '', kind: 'continuous', timeUnit: 's', sampleTime: null, states: [], parameters: [], inputs: [], outputs: [], consts: [], lookups: [], lets: 0 }
+  return { title: '', kind: 'continuous', timeUnit: 's', sampleTime: null, states: [], parameters: [], inputs: [], outputs: [], consts: [], lookups: [], lets: 0, parts: [], partsUsed: [] }
 }

@@ -23,7 +23,12 @@ export function checkUnits(m: ParsedModel, diags: DiagnosticList): void {
   const ctx: Ctx = { m, diags, line: 0, letUnits, symUnit }
   for (const i of m.letOrder) {
     ctx.line = m.lets[i].span.line
-    letUnits[i] = unitOf(m.lets[i].expr, ctx)
+    const l = m.lets[i]
+    const u = unitOf(l.expr, ctx)
+    if (l.unit && u.k === 'dims' && !sameDims(u.d, l.unit.dims)) {
+      diags.error(eqSpan(l.expr, l.span.line, l.span), `let ${l.name} has unit ${formatDims(u.d)} but is declared in ${l.unit.text || '1'} (${formatDims(l.unit.dims)})`)
+    }
+    letUnits[i] = l.unit ? symUnit(l.unit) : u
   }
   const timeName = m.timeUnit
   for (const eq of m.equations) {

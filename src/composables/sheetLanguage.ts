@@ -16,11 +16,12 @@ export { stripComment }
 export const SHEET_LANGUAGE = 'pewter-sheet'
 export const SHEET_THEME = 'pewter-light'
 
-export const SHEET_KEYWORDS = ['model', 'time', 'sample', 'input', 'param', 'const', 'lookup', 'state', 'let', 'next', 'output'] as const
+export const SHEET_KEYWORDS = ['model', 'time', 'sample', 'input', 'param', 'const', 'lookup', 'state', 'let', 'next', 'output', 'part', 'feed'] as const
 export const SHEET_MODIFIERS = ['in', 'fixed', 'estimate', 'steady', 'linear', 'hold', 'sigma'] as const
 const BUILTINS = ['delay', 't', 'pi', 'e']
+const REDUCERS = ['sum', 'prod']
 
-export type SymbolKind = 'input' | 'param' | 'const' | 'lookup' | 'state' | 'let' | 'output'
+export type SymbolKind = 'input' | 'param' | 'const' | 'lookup' | 'state' | 'let' | 'output' | 'part'
 
 export interface SheetSymbol {
   name: string
@@ -34,22 +35,32 @@ export interface SheetSymbol {
   lower?: number | null
   upper?: number | null
   fixed?: boolean
+  /** indexed declarations: the range as written (`1..N`) */
+  range?: string
+  /** parts: the library model and version, and (when the sheet checks) its inputs and outputs */
+  part?: { handle: string; version: number; inputs?: { name: string; unit: string }[]; outputs?: { name: string; unit: string }[] }
 }
 
-const DECL_RE = /^\s*(input|param|const|lookup|state|let|output)\s+([A-Za-z_][A-Za-z0-9_]*)/
+const DECL_RE = /^\s*(input|param|const|lookup|state|let|output)\s+([A-Za-z_][A-Za-z0-9_]*)(?:\[([^\]]*)\])?/
+const PART_DECL_RE = /^\s*part\s+([A-Za-z_][A-Za-z0-9_]*)\s*=\s*([A-Za-z0-9][A-Za-z0-9_-]*)@(\d+)\s*(?:"([^"]*)")?/
 
 /** Declared names of a sheet, by a line scan (works on sheets with errors), enriched by a check's summary. */
 export function scanSymbols(text: string, check?: CheckReply | null): SheetSymbol[] {
   const out: SheetSymbol[] = []
   text.split(/\r?\n/).forEach((raw, i) => {
     const line = stripComment(raw)
+    const pm = PART_DECL_RE.exec(line)
+    if (pm) {
+      out.push({ name: pm[1], kind: 'part', unit: '', description: pm[4] ?? '', line: i + 1, part: { handle: pm[2], version: Number(pm[3]) } })
+      return
+    }
     const m = DECL_RE.exec(line)
     if (!m) return
     const rest = line.slice(m[0].length)
     const unit = /\[([^\]]*)\]/.exec(rest)?.[1]?.trim() ?? ''
     const strings = [...rest.matchAll(/"([^"]*)"/g)]
     const description = strings.length ? strings[strings.length - 1][1] : ''
-    out.push({ name: m[2], kind: m[1] as SymbolKind, unit, description, line: i + 1 })
+    out.push({ name: m[2], kind: m[1] as SymbolKind, unit, description, line: i + 1, ...(m[3] !== undefined ? { range: m[3].replace(/^\s*[A-Za-z_]\w*\s+in\s+/, '').trim() } : {}) })
   })
   const s = check?.summary
   if (s) {
@@ -60,6 +71,9 @@ export function scanSymbols(text: string, check?: CheckReply | null): SheetSymbo
       } else if (sym.kind === 'state') {
         const x = s.states.find((v) => v.name === sym.name) as { initial?: number; lower?: number | null; upper?: number | null } | undefined
         if (x) Object.assign(sym, { value: x.initial ?? null, lower: x.lower ?? null, upper: x.upper ?? null })
+      } else if (sym.kind === 'part') {
+        const p = s.parts?.find((v) => v.name === sym.name)
+        if (p && sym.part) Object.assign(sym.part, { inputs: p.inputs, outputs: p.outputs })
       } else if (sym.kind === 'input') {
         const u = s.inputs.find((v) => v.name === sym.name) as { value?: number } | undefined
         if (u) sym.value = u.value ?? null
@@ -73,15 +87,25 @@ export function scanSymbols(text: string, check?: CheckReply | null): SheetSymbo
 export const sheetSymbols = new Map<string, SheetSymbol[]>()
 
 const kindLabel: Record<SymbolKind, string> = {
-  input: 'input', param: 'parameter', const: 'constant', lookup: 'lookup', state: 'state', let: 'intermediate (let)', output: 'output',
+  input: 'input', param: 'parameter', const: 'constant', lookup: 'lookup', state: 'state', let: 'intermediate (let)', output: 'output', part: 'part',
 }
 
 const fmt = (v: number) => (Math.abs(v) >= 1e5 || (Math.abs(v) < 1e-3 && v !== 0) ? v.toExponential(3).replace(/\.?0+e/, 'e') : String(Number(v.toPrecision(6))))
 
 /** Markdown shown when hovering a declared name. */
 export function describeSymbol(s: SheetSymbol): string {
-  const parts = [`**${s.name}** — ${kindLabel[s.kind]}${s.unit ? ` [${s.unit}]` : ''}`]
+  if (s.part) {
+    const lines = [`**${s.name}** — part: library model **${s.part.handle}**, version ${s.part.version}`]
+    if (s.description) lines.push(s.description)
+    const list = (xs: { name: string; unit: string }[]) => xs.map((x) => `${s.name}.${x.name}${x.unit ? ` [${x.unit}]` : ''}`).join(', ') || 'none'
+    if (s.part.inputs) lines.push(`inputs (feed ${s.name}.…): ${list(s.part.inputs)}`)
+    if (s.part.outputs) lines.push(`outputs: ${list(s.part.outputs)}`)
+    lines.push(`declared on line ${s.line}`)
+    return lines.join('\n\n')
+  }
+  const parts = [`**${s.name}${s.range ? `[${s.range}]` : ''}** — ${s.range ? 'indexed ' : ''}${kindLabel[s.kind]}${s.unit ? ` [${s.unit}]` : ''}`]
   if (s.description) parts.push(s.description)
+  if (s.range) parts.push(`one ${kindLabel[s.kind]} per index ${s.range}: write ${s.name}[i]`)
   const facts: string[] = []
   if (s.value !== undefined && s.value !== null) facts.push(`${s.kind === 'state' ? 'initial value' : 'value'} ${fmt(s.value)}${s.unit ? ` ${s.unit}` : ''}`)
   if (s.kind === 'param' && s.fixed) facts.push('fixed')
@@ -94,6 +118,7 @@ export function describeSymbol(s: SheetSymbol): string {
 const FUNCTION_HELP: Record<string, string> = {
   atan2: 'atan2(y, x) — angle of the point (x, y)', pow: 'pow(a, b) — a to the power b', min: 'min(a, b, …)', max: 'max(a, b, …)',
   hypot: 'hypot(a, b, …) — square root of the sum of squares', delay: 'delay(input, tau) — the input trace read at t − tau (tau ≥ 0, a param or const)',
+  sum: 'sum(i in 1..N, expression of i) — the sum over an index range', prod: 'prod(i in 1..N, expression of i) — the product over an index range',
   log: 'log(x) — natural logarithm', log10: 'log10(x) — base-10 logarithm', sign: 'sign(x) — −1, 0 or 1',
   soft_step: 'soft_step(x, at, width) — smooth 0 → 1 around at (0.12 to 0.88 over width); a fit can move at',
   soft_switch: 'soft_switch(x, at, width, below, above) — smooth form of x >= at ? above : below',
@@ -112,7 +137,7 @@ export function registerSheetLanguage(monaco: typeof Monaco): void {
     comments: { lineComment: '#' },
     brackets: [['(', ')'], ['[', ']'], ['{', '}']],
     autoClosingPairs: [{ open: '(', close: ')' }, { open: '[', close: ']' }, { open: '{', close: '}' }, { open: '"', close: '"' }],
-    wordPattern: /[A-Za-z_][A-Za-z0-9_]*|-?\d*\.?\d+(?:[eE][+-]?\d+)?/,
+    wordPattern: /[A-Za-z_][A-Za-z0-9_]*(?:\.[A-Za-z_][A-Za-z0-9_]*)*|-?\d*\.?\d+(?:[eE][+-]?\d+)?/,
   })
   monaco.languages.setMonarchTokensProvider(SHEET_LANGUAGE, {
     keywords: [...SHEET_KEYWORDS],
@@ -176,9 +201,18 @@ export function registerSheetLanguage(monaco: typeof Monaco): void {
       const word = model.getWordAtPosition(position)
       if (!word) return null
       const range = new monaco.Range(position.lineNumber, word.startColumn, position.lineNumber, word.endColumn)
-      const sym = (sheetSymbols.get(model.uri.toString()) ?? []).find((s) => s.name === word.word)
+      const syms = sheetSymbols.get(model.uri.toString()) ?? []
+      const sym = syms.find((s) => s.name === word.word)
       if (sym) return { range, contents: [{ value: describeSymbol(sym) }] }
-      if ((FUNCTIONS as readonly string[]).includes(word.word) || word.word === 'delay') {
+      const dot = word.word.indexOf('.')
+      const owner = dot > 0 ? syms.find((s) => s.kind === 'part' && s.name === word.word.slice(0, dot)) : undefined
+      if (owner?.part) {
+        const member = word.word.slice(dot + 1)
+        const io = owner.part.outputs?.find((o) => o.name === member) ? 'output' : owner.part.inputs?.find((o) => o.name === member) ? 'input' : 'symbol'
+        const unit = [...(owner.part.outputs ?? []), ...(owner.part.inputs ?? [])].find((o) => o.name === member)?.unit
+        return { range, contents: [{ value: `**${word.word}** — ${io} ${member}${unit ? ` [${unit}]` : ''} of part ${owner.name} (${owner.part.handle}@${owner.part.version})` }] }
+      }
+      if ((FUNCTIONS as readonly string[]).includes(word.word) || word.word === 'delay' || REDUCERS.includes(word.word)) {
         return { range, contents: [{ value: `**${word.word}** — function\n\n${FUNCTION_HELP[word.word] ?? `${word.word}(x)`}` }] }
       }
       if (word.word === 't') return { range, contents: [{ value: '**t** — the time, in the sheet\'s time unit' }] }
@@ -192,7 +226,7 @@ export function registerSheetLanguage(monaco: typeof Monaco): void {
       const range = new monaco.Range(position.lineNumber, word.startColumn, position.lineNumber, word.endColumn)
       const K = monaco.languages.CompletionItemKind
       const kindOf: Record<SymbolKind, Monaco.languages.CompletionItemKind> = {
-        state: K.Variable, param: K.Constant, const: K.Constant, input: K.Field, lookup: K.Function, let: K.Variable, output: K.Value,
+        state: K.Variable, param: K.Constant, const: K.Constant, input: K.Field, lookup: K.Function, let: K.Variable, output: K.Value, part: K.Module,
       }
       const seen = new Set<string>()
       const suggestions: Monaco.languages.CompletionItem[] = []
@@ -203,8 +237,15 @@ export function registerSheetLanguage(monaco: typeof Monaco): void {
           label: s.name, kind: kindOf[s.kind], insertText: s.name, range, sortText: `0${s.name}`,
           detail: `${kindLabel[s.kind]}${s.unit ? ` [${s.unit}]` : ''}`, documentation: { value: describeSymbol(s) },
         })
+        // a part's inputs and outputs under its name
+        for (const io of [...(s.part?.outputs ?? []), ...(s.part?.inputs ?? [])]) {
+          const q = `${s.name}.${io.name}`
+          if (seen.has(q)) continue
+          seen.add(q)
+          suggestions.push({ label: q, kind: K.Field, insertText: q, range, sortText: `0${q}`, detail: `part ${s.name} (${s.part!.handle}@${s.part!.version})${io.unit ? ` [${io.unit}]` : ''}` })
+        }
       }
-      for (const f of [...FUNCTIONS, 'delay']) {
+      for (const f of [...FUNCTIONS, 'delay', ...REDUCERS]) {
         suggestions.push({
           label: f, kind: K.Function, insertText: `${f}($0)`, insertTextRules: monaco.languages.CompletionItemInsertTextRule.InsertAsSnippet,
           range, sortText: `1${f}`, detail: 'function', documentation: FUNCTION_HELP[f],

@@ -64,7 +64,9 @@ describe('generated code agrees with mathjs evaluate', () => {
     expect(compareWithMathjs(KITCHEN_SINK, pts)).toBeLessThan(1e-12)
   })
 
-  for (const { file, text } of templates()) {
+  // indexed templates (T[i-1], sum(i in 1..N, …)) are outside what mathjs evaluates; they are
+  // compared with their hand-flattened form in indexed.test.ts
+  for (const { file, text } of templates().filter((x) => !x.text.includes('..'))) {
     it(`template ${file} at its own values and at 50 perturbed points`, () => {
       const c = compileModel(text)
       const base = defaultPoint(c)

@@ -1,0 +1,59 @@
+/**
+ * Parts in the workspace library: a version that uses another model as a part is checked against
+ * the library at the pinned version, records the exact part versions it uses (lineage), the part's
+ * page lists its users, and the part cannot be deleted while used.
+ */
+import { readFileSync } from 'node:fs'
+import { join } from 'node:path'
+import { afterAll, beforeAll, describe, expect, it } from 'vitest'
+import { CSRF, demo, makeTestApp, signedIn, type Agent, type TestApp } from '../helpers/app'
+
+let t: TestApp
+let modeler: Agent
+let admin: Agent
+const base = `/api/workspaces/${demo.ws}/models`
+const MODELS = join(__dirname, '..', '..', 'models', 'parts')
+const tank = readFileSync(join(MODELS, 'gravity-tank@1.sheet'), 'utf8')
+const cascade = (slug: string, v: number) => readFileSync(join(MODELS, 'tank-cascade.sheet'), 'utf8').replaceAll('gravity-tank@1', `${slug}@${v}`)
+
+beforeAll(async () => {
+  t = await makeTestApp('library_parts')
+  modeler = await signedIn(t.app, demo.modeler)
+  admin = await signedIn(t.app, demo.admin)
+})
+afterAll(async () => { await t.close() })
+
+describe('parts from the workspace library', () => {
+  it('publishes a sheet with parts, records lineage, lists users and refuses to delete a used part', async () => {
+    const part = await modeler.post(base).set(CSRF).send({ title: 'Part tank', text: tank })
+    expect(part.status).toBe(201)
+    const slug = part.body.slug as string
+
+    // a missing version is refused with the place and the reason
+    const bad = await modeler.post(base).set(CSRF).send({ title: 'Cascade (bad)', text: cascade(slug, 7) })
+    expect(bad.status).toBe(400)
+    expect(bad.body.error.message).toMatch(new RegExp(`part upper: no model '${slug}' version 7 in the library`))
+
+    const host = await modeler.post(base).set(CSRF).send({ title: 'Cascade', text: cascade(slug, 1) })
+    expect(host.status).toBe(201)
+    const v = await modeler.get(`${base}/${host.body.id}/versions/1`)
+    expect(v.body.summary.partsUsed).toEqual([{ handle: slug, version: 1 }])
+    expect(v.body.summary.states.map((s: { name: string }) => s.name)).toEqual(['upper.h', 'lower.h'])
+
+    const rows = await t.context.database.pool.query('select part_model_id, part_version from model_version_parts')
+    expect(rows.rows).toEqual([{ part_model_id: part.body.id, part_version: 1 }])
+
+    const page = await modeler.get(`${base}/${part.body.id}`)
+    expect(page.body.usedIn).toEqual([{ model: { id: host.body.id, slug: host.body.slug, title: 'Cascade' }, version: 1, partVersion: 1 }])
+
+    const del = await admin.delete(`${base}/${part.body.id}`).set(CSRF)
+    expect(del.status).toBe(409)
+    expect(del.body.error.message).toBe('"Part tank" cannot be deleted: it is used as a part by "Cascade" version 1 (uses version 1). Update or delete those versions first.')
+    // nothing was lost
+    expect((await modeler.get(`${base}/${part.body.id}`)).status).toBe(200)
+
+    // once the user is gone, the part may go
+    expect((await admin.delete(`${base}/${host.body.id}`).set(CSRF)).status).toBe(200)
+    expect((await admin.delete(`${base}/${part.body.id}`).set(CSRF)).status).toBe(200)
+  })
+})

@@ -1,0 +1,29 @@
+import { describe, expect, it } from 'vitest'
+import { readFileSync } from 'node:fs'
+import { join } from 'node:path'
+import { checkModel } from '../../shared/sheet/index'
+import { describeSymbol, scanSymbols } from '../../src/composables/sheetLanguage'
+
+const MODELS = join(__dirname, '..', '..', 'models')
+const lib = (h: string, v: number) => { try { return readFileSync(join(MODELS, 'parts', `${h}@${v}.sheet`), 'utf8') } catch { return null } }
+
+describe('editor symbols for parts and indexed names', () => {
+  it('a part hovers with its version, inputs and outputs', () => {
+    const text = readFileSync(join(MODELS, 'parts', 'tank-cascade.sheet'), 'utf8')
+    const r = checkModel(text, { resolvePart: lib })
+    const syms = scanSymbols(text, { ok: r.ok, diagnostics: r.diagnostics, summary: r.summary })
+    const upper = syms.find((s) => s.name === 'upper')!
+    expect(upper.kind).toBe('part')
+    const md = describeSymbol(upper)
+    expect(md).toContain('library model **gravity-tank**, version 1')
+    expect(md).toContain('upper.q_in [m^3/s]')
+    expect(md).toContain('upper.level [m]')
+  })
+  it('an indexed state hovers with its range', () => {
+    const text = readFileSync(join(MODELS, 'heat-exchanger-cells.sheet'), 'utf8')
+    const th = scanSymbols(text).find((s) => s.name === 'Th')!
+    expect(th.range).toBe('1..N')
+    expect(describeSymbol(th)).toMatch(/\*\*Th\[1..N\]\*\* — indexed state \[degC\]/)
+    expect(scanSymbols(text).find((s) => s.name === 'q')!.range).toBe('1..N')
+  })
+})
