@@ -2,7 +2,7 @@
 // packages) bundled by esbuild into one ESM file, so a command starts without transpiling TypeScript
 // or loading hundreds of package modules. Rebuilt when any file that went into it is newer.
 // Node built-ins only at the top: esbuild is imported only when a build is needed.
-import { existsSync, mkdirSync, readFileSync, statSync, writeFileSync } from 'node:fs'
+import { existsSync, mkdirSync, readFileSync, renameSync, statSync, writeFileSync } from 'node:fs'
 import path from 'node:path'
 import { fileURLToPath } from 'node:url'
 
@@ -28,6 +28,7 @@ export function cliBundleStale() {
 export async function buildCli() {
   const esbuild = await import('esbuild')
   mkdirSync(path.dirname(CLI_BUNDLE), { recursive: true })
+  const tmp = `${CLI_BUNDLE}.${process.pid}.tmp.mjs`
   const r = await esbuild.build({
     absWorkingDir: ROOT,
     entryPoints: ['server/cli/index.ts'],
@@ -36,7 +37,8 @@ export async function buildCli() {
     format: 'esm',
     target: 'node20',
     minify: true,
-    outfile: CLI_BUNDLE,
+    // written aside and renamed: a command starting meanwhile never reads a half-written bundle
+    outfile: tmp,
     metafile: true,
     logLevel: 'warning',
     // CommonJS packages inside an ESM bundle may still call require()
@@ -44,7 +46,9 @@ export async function buildCli() {
   })
   // only our own sources: packages change with the lock file, which is checked separately
   const ours = Object.keys(r.metafile.inputs).filter((f) => !f.includes('node_modules'))
-  writeFileSync(INPUTS, JSON.stringify(ours))
+  writeFileSync(`${INPUTS}.${process.pid}.tmp`, JSON.stringify(ours))
+  renameSync(`${INPUTS}.${process.pid}.tmp`, INPUTS)
+  renameSync(tmp, CLI_BUNDLE)
 }
 
 export async function ensureCli() {

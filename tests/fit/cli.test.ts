@@ -10,12 +10,12 @@ import { run } from '../../server/cli/fit'
 import { LV_SHEET, lotkaVolterraSpec } from './fixtures/shooting'
 
 let dir = ''
-const tsx = join(process.cwd(), 'node_modules/.bin/tsx')
-const cli = join(process.cwd(), 'server/cli/index.ts')
+// the command line as users run it: the ahead-of-time bundle (rebuilt first when a source is newer)
+const cli = join(process.cwd(), 'scripts/pewter.mjs')
 
 function pewter(args: string[]): Promise<{ code: number; stdout: string; stderr: string }> {
   return new Promise((resolve) => {
-    execFile(tsx, [cli, 'fit', ...args], { cwd: dir, timeout: 120_000 }, (err, stdout, stderr) => {
+    execFile(process.execPath, [cli, 'fit', ...args], { cwd: dir, timeout: 120_000 }, (err, stdout, stderr) => {
       const code = err ? (typeof (err as { code?: unknown }).code === 'number' ? (err as { code: number }).code : -1) : 0
       resolve({ code, stdout, stderr })
     })
