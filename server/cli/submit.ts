@@ -9,6 +9,7 @@
 import { readFile } from 'node:fs/promises'
 import { basename } from 'node:path'
 import { terminalStatuses, type RunStatus } from '../../shared/api/runs'
+import { describeOutcome } from '../../shared/api/fit'
 
 const USAGE = `usage: pewter submit --workspace <slug> --project <id> --model <id> --version <n>
   (--estimation <datasetId,…> | --upload <estimation.csv>…) [--validation <datasetId,…>] [--upload-validation <v.csv>…]
@@ -157,12 +158,12 @@ export async function submit(a: SubmitArgs, io: SubmitIo = defaultIo): Promise<n
   }
   let last = ''
   for (;;) {
-    const r = await call<{ id: number; status: RunStatus; error: string | null; progress: { message?: string } | null; result: unknown }>(io, a, 'GET', `/runs/${run.id}`)
+    const r = await call<{ id: number; status: RunStatus; outcome?: string | null; convergedBy?: string | null; error: string | null; progress: { message?: string } | null; result: unknown }>(io, a, 'GET', `/runs/${run.id}`)
     const line = `${r.status}${r.progress?.message ? `: ${r.progress.message}` : ''}`
     if (line !== last) { io.err(`run ${run.id} ${line}\n`); last = line }
     if (terminalStatuses.includes(r.status)) {
       if (a.json) io.out(`${JSON.stringify(r.status === 'succeeded' ? r.result : { id: r.id, status: r.status, error: r.error }, null, 2)}\n`)
-      else io.out(`run ${r.id} ${r.status}${r.error ? `: ${r.error}` : ''}\n`)
+      else io.out(`run ${r.id} ${r.status === 'succeeded' ? 'finished' : r.status}${r.outcome ? `, optimiser ${describeOutcome(r.outcome, r.convergedBy)}` : ''}${r.error ? `: ${r.error}` : ''}\n`)
       return r.status === 'succeeded' ? 0 : 1
     }
     await io.sleep(1000)

@@ -204,11 +204,11 @@ export async function buildResult(a: BuildArgs): Promise<FitResult> {
     })
     const means = localMeans(prob, theta)
     const estimateStarts = spec.validationStart === 'estimate'
-    if (prob.validation.length > 0 && prob.quantities.some((q) => q.experiment !== null && (q.kind === 'param' || !estimateStarts))) {
-      warnings.push(`validation: local parameters take the mean of their per-experiment estimates${estimateStarts ? '' : ', estimated initial states their sheet values'}`)
+    if (prob.validation.length > 0 && prob.quantities.some((q) => q.experiment !== null && q.kind === 'param')) {
+      warnings.push('validation: local parameters take the mean of their per-experiment estimates')
     }
     if (prob.validation.length > 0 && !estimateStarts && prob.quantities.some((q) => q.kind === 'state')) {
-      notes.push('validation experiments start from the sheet\'s initial state; ask for estimated validation initial states (parameters frozen) when a record starts elsewhere')
+      warnings.push("validation: the estimated initial states take their sheet values on validation records; ask for initial states estimated on each record (parameters frozen) when a record starts elsewhere")
     }
     for (let k = 0; k < prob.validation.length; k++) {
       const ex = prob.validation[k]
