@@ -2,7 +2,7 @@
  * The demo workspace, created on first start only. Tinmoor Works is an invented food-and-beverage
  * process plant; its people are invented too (no real company or person).
  */
-import { eq } from 'drizzle-orm'
+import { and, eq, inArray, isNull } from 'drizzle-orm'
 import type { Db } from './client'
 import { memberships, users, workspaces } from './schema'
 import { hashPassword } from '../auth/passwords'
@@ -26,7 +26,12 @@ export const registerSeedHook = (h: SeedHook) => { hooks.push(h) }
 /** Seeds the demo workspace when it does not exist yet; returns true when it seeded. */
 export async function seedDemo(db: Db): Promise<boolean> {
   const existing = await db.select({ id: workspaces.id }).from(workspaces).where(eq(workspaces.slug, DEMO_WORKSPACE.slug)).limit(1)
-  if (existing.length) return false
+  if (existing.length) {
+    // installs seeded before addresses were confirmed: the demo addresses (reserved .example domain) count as confirmed
+    await db.update(users).set({ emailVerifiedAt: new Date() })
+      .where(and(inArray(users.email, DEMO_USERS.map((u) => u.email)), isNull(users.emailVerifiedAt)))
+    return false
+  }
   const passwordHash = await hashPassword(DEMO_PASSWORD)
   const ids = {} as Record<Role | 'modeler2', number>
   const workspaceId = await db.transaction(async (tx) => {

@@ -6,6 +6,7 @@ import { SESSION_COOKIE } from '../../server/auth/session'
 import { BCRYPT_COST, bcryptCost, isCommonPassword } from '../../server/auth/passwords'
 import { nameProblem } from '../../shared/api/text'
 import { users } from '../../server/db/schema'
+import { seedDemo } from '../../server/db/seed'
 import { capturedMail, mailTo, signUpVerified, verificationToken } from '../helpers/signup'
 
 let t: TestApp
@@ -71,6 +72,15 @@ describe('sign-up with e-mail verification, sign-in, sign-out', () => {
     expect((await request(t.app).post(`/api/auth/verify-email/${token}`).set(CSRF).send({})).status).toBe(200)
     expect((await agent.get('/api/auth/me')).body.user.emailVerified).toBe(true)
     expect((await agent.post('/api/auth/verify-email').set(CSRF)).status).toBe(409)
+  })
+
+  it('the demo users are confirmed, also on an install seeded before confirmation existed', async () => {
+    const me = (await (await signedIn(t.app, demo.reviewer)).get('/api/auth/me')).body
+    expect(me.user.emailVerified).toBe(true)
+    await t.context.db.update(users).set({ emailVerifiedAt: null }).where(eq(users.email, demo.reviewer))
+    expect(await seedDemo(t.context.db)).toBe(false)
+    const [row] = await t.context.db.select().from(users).where(eq(users.email, demo.reviewer))
+    expect(row.emailVerifiedAt).not.toBeNull()
   })
 
   it('signs in, keeps the session across requests, and signs out', async () => {
