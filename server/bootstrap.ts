@@ -7,7 +7,7 @@ import type { AppContext } from './context'
 import { migrateDatabase, openDatabase } from './db/client'
 import { seedDemo } from './db/seed'
 import { attachServices } from './services/runtime'
-import { loadTemplates } from './services/templates'
+import { loadTemplatesEverywhere } from './services/templates'
 import { seedDemoProject } from './services/demo-project'
 
 export async function createContext(overrides: Partial<Config> = {}, opts: { seed?: boolean } = {}): Promise<AppContext> {
@@ -18,7 +18,7 @@ export async function createContext(overrides: Partial<Config> = {}, opts: { see
   const context: AppContext = { config, database, db: database.db, services: {} }
   if (opts.seed !== false) {
     await seedDemo(database.db)
-    await loadTemplates(database.db, database.pool)
+    await loadTemplatesEverywhere(database.db, database.pool)
     // the demo project runs a fit on first start; test apps skip it unless asked (tests seed it themselves)
     if (process.env.NODE_ENV !== 'test' || process.env.PEWTER_DEMO_PROJECT === '1') await seedDemoProject(database.db)
   }

@@ -4,6 +4,7 @@ import { ctx } from '../context'
 import { parse } from '../middleware/validate'
 import { requireUser } from '../middleware/auth'
 import * as auth from '../services/auth'
+import { loadTemplates } from '../services/templates'
 import { audit } from '../services/audit'
 import { signinBody, signupBody, switchWorkspaceBody, type SessionReply } from '../../shared/api/auth'
 
@@ -21,7 +22,10 @@ export function authRoutes(limitPerWindow: number) {
     await regenerate(req)
     req.session.userId = user.id
     await audit(ctx(req).db, { actorId: user.id, action: 'auth.signup', target: user.email, ip: req.ip })
-    res.status(201).json(await auth.me(ctx(req).db, user.id))
+    const me = await auth.me(ctx(req).db, user.id)
+    // the new workspace's library starts with the shipped templates
+    for (const w of me.workspaces) await loadTemplates(ctx(req).db, ctx(req).database.pool, { workspaceSlug: w.slug })
+    res.status(201).json(me)
   })
 
   router.post('/signin', limiter, async (req, res) => {
