@@ -65,7 +65,7 @@ describe('browser: signed-out pages', () => {
         await page.close()
       }
     }
-  })
+  }, 240_000)
 })
 
 describe('browser: first steps', () => {
@@ -106,7 +106,7 @@ describe('browser: first steps', () => {
     await poll(() => page.getByText('B2 first calibration (demo)').count()).toBeGreaterThan(0)
     await rig.screenshot(page, 'newcomer-example-run-1440')
     await page.close()
-  })
+  }, 240_000)
 })
 
 describe('browser: phone width (390 px)', () => {
@@ -137,5 +137,5 @@ describe('browser: phone width (390 px)', () => {
     await page.waitForURL(/\/projects$/)
     expect(await nav.isVisible()).toBe(false)
     await page.close()
-  })
+  }, 240_000)
 })
