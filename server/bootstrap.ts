@@ -7,7 +7,7 @@ import type { AppContext } from './context'
 import { migrateDatabase, openDatabase } from './db/client'
 import { seedDemo } from './db/seed'
 import { attachServices } from './services/runtime'
-import { loadTemplates } from './services/templates'
+import { loadTemplatesEverywhere } from './services/templates'
 import { seedDemoProject } from './services/demo-project'
 import { demoDecision } from './startup-policy'
 
@@ -20,7 +20,7 @@ export async function createContext(overrides: Partial<Config> = {}, opts: { see
   // the demo workspace (published password) only where PEWTER_DEMO and the listening address allow it
   if (opts.seed !== false && demoDecision(config).seed) {
     await seedDemo(database.db)
-    await loadTemplates(database.db, database.pool)
+    await loadTemplatesEverywhere(database.db, database.pool)
     // the demo project runs a fit on first start; test apps skip it unless asked (tests seed it themselves)
     if (process.env.NODE_ENV !== 'test' || process.env.PEWTER_DEMO_PROJECT === '1') await seedDemoProject(database.db)
   }

@@ -6,6 +6,7 @@ import { requireSession, requireUser } from '../middleware/auth'
 import * as auth from '../services/auth'
 import * as verification from '../services/email-verification'
 import { assertUncommonPassword } from '../auth/passwords'
+import { loadTemplates } from '../services/templates'
 import { audit } from '../services/audit'
 import { SIGNUP_MESSAGE, signinBody, signupBody, switchWorkspaceBody, verifyEmailBody, type SessionReply } from '../../shared/api/auth'
 
@@ -40,6 +41,8 @@ export function authRoutes(limitPerWindow: number) {
       await regenerate(req)
       req.session.userId = r.userId
       await audit(db, { actorId: r.userId, action: 'auth.signup', target: r.email, ip: req.ip })
+      // the new workspace's library starts with the shipped templates
+      for (const w of (await auth.me(db, r.userId)).workspaces) await loadTemplates(db, ctx(req).database.pool, { workspaceSlug: w.slug })
     } else {
       await audit(db, { actorId: r.userId, action: 'auth.email_verified', target: r.email, ip: req.ip })
     }

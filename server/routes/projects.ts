@@ -3,7 +3,9 @@ import { ctx } from '../context'
 import { requireCapability } from '../middleware/auth'
 import { intParam, parse } from '../middleware/validate'
 import * as projects from '../services/projects'
-import { createProjectBody, updateProjectBody } from '../../shared/api/projects'
+import { createProjectBody, updateProjectBody, type ExampleProjectReply } from '../../shared/api/projects'
+import { startExampleProject } from '../services/demo-project'
+import type { JobRunner } from '../jobs/types'
 
 export function projectRoutes() {
   const router = Router({ mergeParams: true })
@@ -13,6 +15,11 @@ export function projectRoutes() {
   router.post('/', requireCapability('write'), async (req, res) => {
     const body = parse(createProjectBody, req.body)
     res.status(201).json(await projects.createProject(ctx(req).db, req.workspace!.id, req.auth!.userId, body))
+  })
+  // "try it on example data": the buffer-vessel template, two invented traces and a first fit
+  router.post('/example', requireCapability('write'), async (req, res) => {
+    const reply: ExampleProjectReply = await startExampleProject(ctx(req).db, ctx(req).services.jobs as JobRunner | undefined, req.workspace!.id, req.auth!.userId)
+    res.status(201).json(reply)
   })
   router.get('/:pid', requireCapability('read'), async (req, res) => {
     const pid = intParam(req.params, 'pid')

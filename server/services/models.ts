@@ -104,6 +104,7 @@ async function isMaintainer(db: Conn, modelId: number, userId: number): Promise<
 
 /** Publishing and editing a model: a modeler who maintains it, or an admin. */
 async function assertMaintainer(db: Conn, actor: Actor, m: ModelRow) {
+  if (m.template) throw conflict(`"${m.title}" is a template shipped with Pewter and is read-only: fork it (New model → A template) to make a model of your own.`)
   if (actor.role === 'admin') return
   if (!can.write(actor.role)) throw forbidden(`Your role (${actor.role}) does not allow this: it needs the modeler or admin role.`)
   if (!(await isMaintainer(db, m.id, actor.userId))) {
@@ -224,8 +225,9 @@ export async function getModel(db: Conn, actor: Actor, modelId: number): Promise
     forks: forkDtos,
     draft: draft ? { text: draft.text, baseVersion: draft.baseVersion, updatedAt: iso(draft.updatedAt)! } : null,
     can: {
-      publish: admin || (can.write(actor.role) && maintains),
-      edit: admin || (can.write(actor.role) && maintains),
+      // a shipped template is read-only for everyone: fork it to change it
+      publish: !m.template && (admin || (can.write(actor.role) && maintains)),
+      edit: !m.template && (admin || (can.write(actor.role) && maintains)),
       approve: can.approve(actor.role),
       fork: can.write(actor.role),
       remove: can.administer(actor.role),

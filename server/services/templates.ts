@@ -1,6 +1,6 @@
 /**
- * Loads the template sheets shipped in models/ into the demo workspace as version 1 of library
- * models. Runs at every start and is idempotent: a template already loaded (matched by its file name
+ * Loads the template sheets shipped in models/ into every workspace (at each start, and into a new
+ * workspace when it is made) as version 1 of read-only library models (fork one to change it). Runs at every start and is idempotent: a template already loaded (matched by its file name
  * in models.template) is left alone, so later starts never duplicate it, and a template added to
  * models/ later appears at the next start; a template model an admin deleted is not brought back
  * (its deletion is in the audit log). Concurrent starts are serialised by an advisory lock.
@@ -57,6 +57,12 @@ export function readTemplates(folder = templatesFolder): TemplateSheet[] {
     const { description, tags } = headerOf(text)
     return { file, title: titleOf(text, file), description, tags: [...new Set(['template', ...tags])].slice(0, 12), text }
   })
+}
+
+/** Loads the templates into every workspace (each start): every library holds them, read-only. */
+export async function loadTemplatesEverywhere(db: Db, pool: Pool, opts: { folder?: string; log?: (m: string) => void } = {}): Promise<void> {
+  const all = await db.select({ slug: workspaces.slug }).from(workspaces).orderBy(workspaces.id)
+  for (const w of all) await loadTemplates(db, pool, { ...opts, workspaceSlug: w.slug })
 }
 
 /**

@@ -23,3 +23,7 @@ export const projectDto = z.object({
   createdBy: z.number().nullable(),
 })
 export type ProjectDto = z.infer<typeof projectDto>
+
+/** POST /api/workspaces/:ws/projects/example: the example project made and its first fit queued. */
+export const exampleProjectReply = z.object({ projectId: z.number().int(), runId: z.number().int() })
+export type ExampleProjectReply = z.infer<typeof exampleProjectReply>

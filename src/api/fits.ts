@@ -1,5 +1,5 @@
 /** Calls of the project, dataset, binding and run routes; every shape comes from shared/api. */
-import type { ProjectDto } from '@shared/api/projects'
+import { exampleProjectReply, type ProjectDto } from '@shared/api/projects'
 import type {
   BindingDto, ColumnMapping, ConditioningStep, DatasetDataDto, DatasetDto, DatasetPurpose, DatasetSummaryDto, MappingCheck,
 } from '@shared/api/datasets'
@@ -13,6 +13,8 @@ const w = (ws: string) => `/api/workspaces/${encodeURIComponent(ws)}`
 export const listProjects = (ws: string) => api.get<{ projects: ProjectDto[] }>(`${w(ws)}/projects`).then((r) => r.projects)
 export const getProject = (ws: string, pid: number) => api.get<ProjectDto>(`${w(ws)}/projects/${pid}`)
 export const createProject = (ws: string, body: { name: string; description: string }) => api.post<ProjectDto>(`${w(ws)}/projects`, body, { silent: [400] })
+/** "Try it on example data": a project with a template, invented traces and a first fit (queued). */
+export const startExampleProject = (ws: string) => api.post(`${w(ws)}/projects/example`, {}, { schema: exampleProjectReply })
 
 // datasets
 export const listDatasets = (ws: string, pid?: number) =>

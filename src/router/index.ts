@@ -93,6 +93,12 @@ export const router = createRouter({
           meta: { title: 'Model', section: 'library' },
         },
         {
+          path: 'reference',
+          name: 'reference',
+          component: () => import('@/views/ReferenceView.vue'),
+          meta: { title: 'Sheet language reference', section: 'library' },
+        },
+        {
           path: 'projects',
           name: 'projects',
           component: () => import('@/views/ProjectsView.vue'),

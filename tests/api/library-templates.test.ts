@@ -98,3 +98,37 @@ describe('templates from models/', () => {
     expect(r.summary?.title).toBe("Tank 'T-1' (invented)")
   })
 })
+
+describe('templates in every workspace, and the example project', () => {
+  it('gives a new workspace the shipped templates, read-only and forkable', async () => {
+    const agent = (await import('supertest')).default.agent(t.app)
+    const r = await agent.post('/api/auth/signup').set(CSRF).send({ email: 'first.steps@example.org', password: 'long-enough-1', name: 'First Steps' })
+    expect(r.status).toBe(201)
+    const ws = r.body.workspaces[0].slug
+    const list = (await agent.get(`/api/workspaces/${ws}/models`).query({ tag: 'template', pageSize: 100 })).body.items
+    expect(list.map((m: { template: string }) => m.template).sort()).toEqual(readTemplates().map((x) => x.file).sort())
+    const buffer = list.find((m: { template: string }) => m.template === 'heated-buffer-vessel.sheet')
+    const detail = (await agent.get(`/api/workspaces/${ws}/models/${buffer.id}`)).body
+    // the workspace's own admin may fork the template but not change it
+    expect(detail.can).toMatchObject({ publish: false, edit: false, fork: true })
+    const v1 = (await agent.get(`/api/workspaces/${ws}/models/${buffer.id}/versions/1`)).body
+    const pub = await agent.post(`/api/workspaces/${ws}/models/${buffer.id}/versions`).set(CSRF).send({ text: v1.text, note: 'try', baseVersion: 1 })
+    expect(pub.status).toBe(409)
+    expect(pub.body.error.message).toMatch(/read-only: fork it/)
+    const fork = await agent.post(`/api/workspaces/${ws}/models/${buffer.id}/fork`).set(CSRF).send({ title: 'My buffer vessel' })
+    expect(fork.status).toBe(201)
+  })
+
+  it('"try it on example data" makes a project with invented traces, a binding and a queued first fit', async () => {
+    const agent = await signedIn(t.app, demo.modeler)
+    const r = await agent.post(`/api/workspaces/${demo.ws}/projects/example`).set(CSRF).send({})
+    expect(r.status).toBe(201)
+    const project = (await agent.get(`/api/workspaces/${demo.ws}/projects/${r.body.projectId}`)).body
+    expect(project.description).toMatch(/invented/i)
+    const run = (await agent.get(`/api/workspaces/${demo.ws}/runs/${r.body.runId}`)).body
+    expect(run.projectId ?? run.project?.id).toBe(r.body.projectId)
+    expect(['queued', 'running', 'succeeded', 'failed']).toContain(run.status)
+    const viewer = await signedIn(t.app, demo.viewer)
+    expect((await viewer.post(`/api/workspaces/${demo.ws}/projects/example`).set(CSRF).send({})).status).toBe(403)
+  })
+})
