@@ -12,6 +12,7 @@ import { csrfGuard } from './auth/csrf'
 import { resolveAuth } from './middleware/auth'
 import { errorHandler, notFoundHandler } from './middleware/errors'
 import { apiRouter } from './routes'
+import { healthRoutes } from './routes/health'
 
 export interface AppOptions {
   /** serve the built client from dist/ (default: when dist/index.html exists) */
@@ -43,6 +44,8 @@ export function createApp(context: AppContext, options: AppOptions = {}) {
     strictTransportSecurity: context.config.trustProxy,
   }))
 
+  // health answers without the session store (it must answer 503 with the reason while the database is away)
+  app.use('/api/health', healthRoutes())
   app.use('/api', express.json({ limit: '2mb' }))
   app.use('/api', sessionMiddleware(context.database.pool, context.config))
   app.use('/api', csrfGuard([context.config.publicUrl]))

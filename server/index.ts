@@ -2,8 +2,10 @@
 import { createApp } from './app'
 import { createContext } from './bootstrap'
 import { DEMO_PASSWORD, DEMO_USERS } from './db/seed'
+import { survivePostgresRestarts } from './db/resilience'
 
 export async function startServer() {
+  survivePostgresRestarts((m) => console.error(`[pewter] ${m}`))
   const context = await createContext()
   const app = createApp(context)
   const host = process.env.HOST ?? '127.0.0.1'

@@ -22,4 +22,8 @@ export const errorCodes = {
   tooLarge: 'payload_too_large',
   rateLimited: 'rate_limited',
   internal: 'internal_error',
+  /** the database is away (restart, network): retry shortly */
+  unavailable: 'service_unavailable',
+  /** a request's work passed a size or time limit (the message names it) */
+  limit: 'limit_exceeded',
 } as const

@@ -7,6 +7,27 @@
 import { type Expr, fold, mul, num, walk, isNum } from './ast'
 import { diff, type Var } from './derivative'
 import type { ParsedModel } from './model'
+import { SheetError, type Span } from './diagnostics'
+
+/**
+ * Largest generated source (characters). A checked sheet can still ask for a huge derivative (each
+ * equation is differentiated by every state, parameter and input); past this the compile stops with a
+ * diagnostic on the equation being generated instead of building megabytes of code.
+ */
+export const MAX_GENERATED_CHARS = 1_000_000
+
+/** Counts the generated characters; throws a SheetError at `span` once the total passes the limit. */
+class SizeBudget {
+  used = 0
+  add(text: string, span: Span | undefined): string {
+    this.used += text.length
+    if (this.used > MAX_GENERATED_CHARS) {
+      const at = span ?? { line: 1, column: 1, endColumn: 2 }
+      throw new SheetError([{ ...at, severity: 'error', message: `the code generated for this sheet is too large (more than ${MAX_GENERATED_CHARS} characters; this equation and its derivatives pass the limit): simplify it or split it with let` }])
+    }
+    return text
+  }
+}
 
 export interface GeneratedFunctions {
   rhs: Fn
@@ -90,6 +111,8 @@ function directVars(e: Expr, lets: Set<number>): Set<Key> {
 export function generateSource(m: ParsedModel): string {
   const nu = m.inputs.length + m.delays.length
   const em = new Emitter(m)
+  const budget = new SizeBudget()
+  const letSpan = (i: number) => m.lets[i].span
 
   // right sides in the compiled units: d(x_SI)/d(t_sheet) for derivatives, x(k+1) for next-equations
   const constant = (i: number) => m.consts[i].value
@@ -127,16 +150,16 @@ export function generateSource(m: ParsedModel): string {
     }
     return m.letOrder.filter((i) => need.has(i))
   }
-  const letLines = (order: number[]) => order.map((i) => `const L${i}=${em.emit(letExpr[i])};`).join('\n')
+  const letLines = (order: number[]) => order.map((i) => budget.add(`const L${i}=${em.emit(letExpr[i])};`, letSpan(i))).join('\n')
 
-  const valueFn = (name: string, exprs: Expr[], infos: { lets: Set<number> }[]) => {
+  const valueFn = (name: string, exprs: Expr[], infos: { lets: Set<number> }[], spans: Span[]) => {
     const lines = [`function ${name}(t,x,p,u,out){`, 'const ts=t*SPT;', letLines(neededLets(infos))]
-    exprs.forEach((e, i) => lines.push(`out[${i}]=${em.emit(e)};`))
+    exprs.forEach((e, i) => lines.push(budget.add(`out[${i}]=${em.emit(e)};`, spans[i])))
     lines.push('}')
     return lines.join('\n')
   }
 
-  const jacFn = (name: string, exprs: Expr[], infos: { vars: Set<Key>; lets: Set<number> }[], vars: Var[]) => {
+  const jacFn = (name: string, exprs: Expr[], infos: { vars: Set<Key>; lets: Set<number> }[], vars: Var[], spans: Span[]) => {
     const ncol = vars.length
     const order = neededLets(infos)
     const lines: string[] = []
@@ -155,12 +178,12 @@ export function generateSource(m: ParsedModel): string {
         const d = diff(letExpr[li], v, ctx)
         if (isNum(d, 0)) continue
         hasTmp.add(li)
-        body.push(`const D${li}=${em.emit(d)};`)
+        body.push(budget.add(`const D${li}=${em.emit(d)};`, letSpan(li)))
       }
       for (const i of rows) {
         const d = diff(exprs[i], v, ctx)
         if (isNum(d, 0)) continue
-        body.push(`out[${i * ncol + j}]=${em.emit(d)};`)
+        body.push(budget.add(`out[${i * ncol + j}]=${em.emit(d)};`, spans[i]))
       }
       if (body.length) lines.push('{', ...body, '}')
     })
@@ -169,6 +192,8 @@ export function generateSource(m: ParsedModel): string {
     return [...head, ...lines, '}'].join('\n')
   }
 
+  const fSpans = m.equations.map((q) => q.span)
+  const gSpans = m.outputs.map((o) => o.span)
   const xs: Var[] = m.states.map((_, i) => ({ k: 'x', i }))
   const ps: Var[] = m.params.map((_, i) => ({ k: 'p', i }))
   const us: Var[] = Array.from({ length: nu }, (_, i) => ({ k: 'u', i }))
@@ -181,15 +206,15 @@ export function generateSource(m: ParsedModel): string {
     'function lkv(X,Y,v){const n=X.length;if(v!==v)return v;if(v<=X[0])return Y[0];if(v>=X[n-1])return Y[n-1];let lo=0,hi=n-1;while(hi-lo>1){const k=(lo+hi)>>1;if(X[k]<=v)lo=k;else hi=k;}return Y[lo]+(Y[lo+1]-Y[lo])*(v-X[lo])/(X[lo+1]-X[lo]);}',
     'function lkd(X,Y,v){const n=X.length;if(v!==v)return v;if(v<=X[0]||v>=X[n-1])return 0;let lo=0,hi=n-1;while(hi-lo>1){const k=(lo+hi)>>1;if(X[k]<=v)lo=k;else hi=k;}return (Y[lo+1]-Y[lo])/(X[lo+1]-X[lo]);}',
     ...m.lookups.map((_, i) => `const X${i}=TX[${i}],Y${i}=TY[${i}];`),
-    valueFn('rhs', f, fInfo),
-    valueFn('outputs', g, gInfo),
-    jacFn('dfdx', f, fInfo, xs),
-    jacFn('dfdp', f, fInfo, ps),
-    jacFn('dfdu', f, fInfo, us),
-    jacFn('dfdt', f, fInfo, ts),
-    jacFn('dgdx', g, gInfo, xs),
-    jacFn('dgdp', g, gInfo, ps),
-    jacFn('dgdu', g, gInfo, us),
+    valueFn('rhs', f, fInfo, fSpans),
+    valueFn('outputs', g, gInfo, gSpans),
+    jacFn('dfdx', f, fInfo, xs, fSpans),
+    jacFn('dfdp', f, fInfo, ps, fSpans),
+    jacFn('dfdu', f, fInfo, us, fSpans),
+    jacFn('dfdt', f, fInfo, ts, fSpans),
+    jacFn('dgdx', g, gInfo, xs, gSpans),
+    jacFn('dgdp', g, gInfo, ps, gSpans),
+    jacFn('dgdu', g, gInfo, us, gSpans),
     'return {rhs,outputsFn:outputs,dfdx,dfdp,dfdu,dfdt,dgdx,dgdp,dgdu};',
   ]
   return parts.join('\n')
