@@ -3,6 +3,7 @@ import { ctx } from '../context'
 import { requireCapability } from '../middleware/auth'
 import { intParam, parse } from '../middleware/validate'
 import * as projects from '../services/projects'
+import { deleteProject } from '../services/deletes'
 import { createProjectBody, updateProjectBody } from '../../shared/api/projects'
 
 export function projectRoutes() {
@@ -21,6 +22,10 @@ export function projectRoutes() {
   router.patch('/:pid', requireCapability('write'), async (req, res) => {
     const pid = intParam(req.params, 'pid')
     res.json(await projects.updateProject(ctx(req).db, req.workspace!.id, pid, parse(updateProjectBody, req.body)))
+  })
+  router.delete('/:pid', requireCapability('write'), async (req, res) => {
+    await deleteProject(ctx(req).db, req.workspace!.id, intParam(req.params, 'pid'))
+    res.status(204).end()
   })
   return router
 }
