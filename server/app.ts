@@ -14,6 +14,7 @@ import { resolveAuth } from './middleware/auth'
 import { hostCheck } from './middleware/host-check'
 import { errorHandler, notFoundHandler } from './middleware/errors'
 import { apiRouter } from './routes'
+import { healthRoutes } from './routes/health'
 
 export interface AppOptions {
   /** serve the built client from dist/ (default: when dist/index.html exists) */
@@ -53,6 +54,8 @@ export function createApp(context: AppContext, options: AppOptions = {}) {
     filter: (req, res) => !String(res.getHeader('Content-Type') ?? '').startsWith('text/event-stream') && compression.filter(req, res),
   }))
 
+  // health answers without the session store (it must answer 503 with the reason while the database is away)
+  app.use('/api/health', healthRoutes())
   app.use('/api', express.json({ limit: '2mb' }))
   app.use('/api', sessionMiddleware(context.database.pool, context.config))
   app.use('/api', csrfGuard([context.config.publicUrl]))

@@ -32,6 +32,10 @@ export interface Config {
   trustProxy: boolean
   rateLimitAuth: number
   uploadLimitBytes: number
+  /** threads of the pool that does the CPU-heavy work of requests (compile for a run, CSV reading, conditioning) */
+  requestThreads: number
+  /** time limit of one request's work on that pool */
+  requestTimeLimitMs: number
 }
 
 /** The development secret used when SESSION_SECRET is unset; refused when the server is reachable from other machines. */
@@ -61,5 +65,7 @@ export function loadConfig(env: NodeJS.ProcessEnv = process.env): Config {
     trustProxy: env.TRUST_PROXY === '1',
     rateLimitAuth: Number(env.PEWTER_AUTH_RATE_LIMIT ?? 20),
     uploadLimitBytes: Number(env.PEWTER_UPLOAD_LIMIT_BYTES ?? 20 * 1024 * 1024),
+    requestThreads: Math.max(1, Number(env.PEWTER_REQUEST_THREADS ?? 1)),
+    requestTimeLimitMs: Math.max(100, Number(env.PEWTER_REQUEST_TIME_LIMIT_SECONDS ?? 30) * 1000),
   }
 }

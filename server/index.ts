@@ -4,10 +4,12 @@ import { createContext } from './bootstrap'
 import { loadConfig } from './config'
 import { DEMO_PASSWORD, DEMO_USERS } from './db/seed'
 import { demoDecision, startRefusal } from './startup-policy'
+import { survivePostgresRestarts } from './db/resilience'
 
 export async function startServer() {
   const refusal = startRefusal(loadConfig())
   if (refusal) throw new Error(refusal)
+  survivePostgresRestarts((m) => console.error(`[pewter] ${m}`))
   const context = await createContext()
   const app = createApp(context)
   const { host, port } = context.config

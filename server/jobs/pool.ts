@@ -14,6 +14,7 @@ import type { Db } from '../db/client'
 import { claimRun, forceStatus, heartbeat, releaseClaims, runStatus, settleRun, type ClaimResult } from './claims'
 import type { HelperTask, RunTask } from './thread-task'
 import { FanOut, type FanOutRecord, type ThreadMessage } from './fan-out'
+import { newAbortFlag, raiseAbortFlag, type AbortFlag } from './abort-flag'
 import { runs } from '../db/schema'
 import { and, eq, sql } from 'drizzle-orm'
 
@@ -45,6 +46,8 @@ interface Active {
   timers: NodeJS.Timeout[]
   fanOut: FanOut | null
   helpers: MessagePort[]
+  /** shared with the run's and its helpers' threads: raised on cancel or timeout */
+  flag: AbortFlag
 }
 
 export const newWorkerId = (kind: string) => `${kind}@${hostname()}:${process.pid}:${randomBytes(3).toString('hex')}`
@@ -148,11 +151,11 @@ export class RunPool {
 
   private async runClaimed(runId: number) {
     const { port1, port2 } = new MessageChannel()
-    const a: Active = { port: port1, hard: new AbortController(), stop: null, timers: [], fanOut: null, helpers: [] }
+    const a: Active = { port: port1, hard: new AbortController(), stop: null, timers: [], fanOut: null, helpers: [], flag: newAbortFlag() }
     this.active.set(runId, a)
     port1.on('message', (m: ThreadMessage) => this.onRunMessage(runId, a, m))
     a.timers.push(setTimeout(() => this.requestStop(runId, 'timeout'), this.o.timeoutSeconds * 1000))
-    const task: RunTask = { runId, databaseUrl: this.o.databaseUrl, workerId: this.workerId, executorUrl: this.o.executorUrl, port: port2 }
+    const task: RunTask = { runId, databaseUrl: this.o.databaseUrl, workerId: this.workerId, executorUrl: this.o.executorUrl, port: port2, abortFlag: a.flag }
     let failure: unknown = null
     try {
       await this.piscina.run(task, { transferList: [port2], signal: a.hard.signal })
@@ -211,7 +214,7 @@ export class RunPool {
       if (m.type === 'next') fan.next(port1)
       else if (m.type === 'outcome') fan.outcome(port1, m.outcome, m.threadId)
     })
-    const task: HelperTask = { runId, databaseUrl: this.o.databaseUrl, deadline: fan.deadline, port: port2 }
+    const task: HelperTask = { runId, databaseUrl: this.o.databaseUrl, deadline: fan.deadline, port: port2, abortFlag: a.flag }
     this.piscina.run(task, { name: 'helper', transferList: [port2], signal: a.hard.signal })
       .then(() => fan.lost(port1, 'ended'), (err) => fan.lost(port1, err instanceof Error ? err.message : String(err)))
       .finally(() => { this.helping--; port1.close() })
@@ -233,6 +236,7 @@ export class RunPool {
     if (!a || a.stop) return
     a.stop = why
     const reason = why === 'cancel' ? 'cancelled' : 'time limit exceeded'
+    raiseAbortFlag(a.flag)
     a.port.postMessage({ abort: reason })
     for (const h of a.helpers) h.postMessage({ abort: reason })
     a.fanOut?.stop()

@@ -12,6 +12,7 @@
 import { threadId, type MessagePort } from 'node:worker_threads'
 import { openDatabase, type Database } from '../db/client'
 import { loadExecutor, type RunExecutor } from './executor'
+import { alsoAbortedWhen, flagRaised, type AbortFlag } from './abort-flag'
 import { fitSharedPlans, planRequests, threadRunStarts } from './fan-out'
 import { deadlineOf, fitPlan } from './start-fits'
 import { runs } from '../db/schema'
@@ -26,6 +27,8 @@ export interface RunTask {
   workerId: string
   executorUrl: string
   port: MessagePort
+  /** raised by the pool on cancel or timeout (abort-flag.ts) */
+  abortFlag?: AbortFlag
 }
 
 export interface LandscapeTask {
@@ -44,6 +47,7 @@ export interface HelperTask {
   databaseUrl: string
   deadline: number | null
   port: MessagePort
+  abortFlag?: AbortFlag
 }
 
 const databases = new Map<string, Database>()
@@ -58,9 +62,11 @@ function database(url: string) {
   return d
 }
 
-function abortable(port: MessagePort) {
+function abortable(port: MessagePort, flag?: AbortFlag) {
   const controller = new AbortController()
   port.on('message', (m: { abort?: string }) => { if (m?.abort) controller.abort(new Error(m.abort)) })
+  // seen at once inside synchronous simulations, where the message above waits for the next await
+  alsoAbortedWhen(controller.signal, flagRaised(flag))
   return controller
 }
 
@@ -71,7 +77,7 @@ export default async function runTask(task: RunTask): Promise<{ ok: true }> {
     exec = loadExecutor(task.executorUrl)
     executors.set(task.executorUrl, exec)
   }
-  const controller = abortable(task.port)
+  const controller = abortable(task.port, task.abortFlag)
   let deadline: number | null = null
   const runStarts = threadRunStarts(task.port, (plan) => fitPlan(db.db, task.runId, plan, deadline, controller.signal), threadId, () => deadline)
   try {
@@ -92,7 +98,7 @@ export default async function runTask(task: RunTask): Promise<{ ok: true }> {
 
 export async function helper(task: HelperTask): Promise<{ fitted: number }> {
   const db = database(task.databaseUrl)
-  const controller = abortable(task.port)
+  const controller = abortable(task.port, task.abortFlag)
   const requests = planRequests(task.port)
   task.port.on('message', (m: { type?: string; plan?: StartPlan | null }) => { if (m?.type === 'plan') requests.deliver(m.plan ?? null) })
   try {
@@ -120,3 +126,5 @@ export async function ping(): Promise<number> {
   await new Promise((r) => setTimeout(r, 200))
   return threadId
 }
+// the request pool's tasks (request-pool.ts) load through this same entry
+export { compileSheet, upload, condition } from './request-tasks'

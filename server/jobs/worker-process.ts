@@ -15,8 +15,10 @@ import { FIT_QUEUE, sendFit, startBoss, type FitJob } from './boss'
 import { requeueStale } from './queue-runner'
 import { reapPeriodMs } from './claims'
 import { executorUrl } from './executor'
+import { survivePostgresRestarts } from '../db/resilience'
 
 async function main() {
+  survivePostgresRestarts((m) => console.error(`[pewter-worker] ${m}`))
   const config = loadConfig()
   if (!config.databaseUrl) throw new Error('DATABASE_URL is not set: point the worker at the database of the Pewter server')
   const workerId = process.env.PEWTER_WORKER_ID ?? newWorkerId('worker')
@@ -43,7 +45,8 @@ async function main() {
   for (let i = 0; i < config.workerThreads; i++) {
     await boss.work<FitJob>(FIT_QUEUE, { batchSize: 1, pollingIntervalSeconds: 0.5 }, async (jobs) => {
       for (const job of jobs) {
-        const outcome = await pool.execute(job.data.runId)
+        // a failure here (database away) leaves the run's heartbeat to go stale: the reaper queues it again
+        const outcome = await pool.execute(job.data.runId).catch((e) => `not finished (${e instanceof Error ? e.message : e}); it is queued again once its heartbeat is stale`)
         log(`run ${job.data.runId}: ${outcome}`)
       }
     })

@@ -1,5 +1,6 @@
 import type { ErrorRequestHandler, RequestHandler } from 'express'
 import { HttpError } from '../errors'
+import { databaseUnavailable } from '../db/resilience'
 import { errorCodes } from '../../shared/api/errors'
 
 export const notFoundHandler: RequestHandler = (_req, res) => {
@@ -25,6 +26,11 @@ export const errorHandler: ErrorRequestHandler = (err, req, res, _next) => {
     res.status(e.status).json({ error: { code: errorCodes.badRequest, message: e.message ?? 'Bad request.' } })
     return
   }
+  if (databaseUnavailable(err)) {
+    res.status(503).json({ error: { code: errorCodes.unavailable, message: 'The database is unreachable at the moment; try again shortly (GET /api/health tells when it is back).' } })
+    return
+  }
   if (process.env.NODE_ENV !== 'test' || process.env.PEWTER_LOG_ERRORS) console.error(`[pewter] ${req.method} ${req.originalUrl}:`, err)
   res.status(500).json({ error: { code: errorCodes.internal, message: 'Something went wrong on the server.' } })
 }
+

@@ -1,16 +1,17 @@
+/**
+ * GET /api/health: 200 `{ ok: true, db: true }` when the database answers, else 503 with the reason
+ * (`{ ok: false, db: false, reason }`). Mounted before the session middleware, so it answers without
+ * touching the session store while the database is away; no restart is needed when it comes back.
+ */
 import { Router } from 'express'
-import { sql } from 'drizzle-orm'
 import { ctx } from '../context'
+import { databaseHealth } from '../services/health'
 
 export function healthRoutes() {
   const router = Router()
   router.get('/', async (req, res) => {
-    let db = false
-    try {
-      await ctx(req).db.execute(sql`select 1`)
-      db = true
-    } catch { db = false }
-    res.status(db ? 200 : 503).json({ ok: db, db })
+    const h = await databaseHealth(ctx(req).database.pool)
+    res.status(h.ok ? 200 : 503).json(h.ok ? { ok: true, db: true } : { ok: false, db: false, reason: h.reason })
   })
   return router
 }

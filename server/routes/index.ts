@@ -1,12 +1,12 @@
 /**
  * Mounts every API router. Workspace-scoped routers go under /workspaces/:ws (membership checked
- * by loadWorkspace: a foreign workspace answers 404).
+ * by loadWorkspace: a foreign workspace answers 404). /api/health is mounted in app.ts, before the
+ * session middleware.
  */
 import { Router } from 'express'
 import type { AppContext } from '../context'
 import { loadWorkspace } from '../middleware/auth'
 import { authRoutes } from './auth'
-import { healthRoutes } from './health'
 import { workspaceRoutes } from './workspaces'
 import { projectRoutes } from './projects'
 import { datasetRoutes, projectDatasetRoutes } from './datasets'
@@ -22,7 +22,6 @@ import { checkRoutes } from './check'
 
 export function apiRouter(context: AppContext) {
   const api = Router()
-  api.use('/health', healthRoutes())
   api.use('/auth', authRoutes(context.config.rateLimitAuth))
   api.use('/auth', accountRoutes(context.config.rateLimitAuth))
   api.use('/invitations', invitationTokenRoutes())

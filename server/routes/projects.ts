@@ -6,6 +6,7 @@ import * as projects from '../services/projects'
 import { createProjectBody, updateProjectBody, type ExampleProjectReply } from '../../shared/api/projects'
 import { startExampleProject } from '../services/demo-project'
 import type { JobRunner } from '../jobs/types'
+import { deleteProject } from '../services/deletes'
 
 export function projectRoutes() {
   const router = Router({ mergeParams: true })
@@ -28,6 +29,10 @@ export function projectRoutes() {
   router.patch('/:pid', requireCapability('write'), async (req, res) => {
     const pid = intParam(req.params, 'pid')
     res.json(await projects.updateProject(ctx(req).db, req.workspace!.id, pid, parse(updateProjectBody, req.body)))
+  })
+  router.delete('/:pid', requireCapability('write'), async (req, res) => {
+    await deleteProject(ctx(req).db, req.workspace!.id, intParam(req.params, 'pid'))
+    res.status(204).end()
   })
   return router
 }

@@ -1,7 +1,7 @@
 /**
  * Fit runs (thin: parse, authorize, call the services).
  *   under /projects/:pid: POST runs, GET runs, GET parameter-sets
- *   under /runs: GET /, GET /:rid, GET /:rid/events (server-sent events), POST /:rid/cancel,
+ *   under /runs: GET /, GET /:rid, DELETE /:rid, GET /:rid/events (server-sent events), POST /:rid/cancel,
  *     POST /:rid/rerun, GET /:rid/export?format=csv|json, GET /:rid/landscape?a=&b=&n=,
  *     POST /:rid/parameter-sets {name}, POST /:rid/publish {note?}
  */
@@ -14,6 +14,8 @@ import { intParam, parse } from '../middleware/validate'
 import type { JobRunner } from '../jobs/types'
 import * as runs from '../services/runs'
 import { exportCsv, exportJson } from '../services/reports'
+import { sheetCompiler } from '../services/request-work'
+import { deleteRun } from '../services/deletes'
 import { runLandscape, withoutLandscapeCache } from '../services/landscape'
 import { createRunBody, landscapeQuery, publishFromRunBody, saveParameterSetBody, terminalStatuses, type RunStatus } from '../../shared/api/runs'
 
@@ -23,7 +25,7 @@ export function projectRunRoutes() {
   const router = Router({ mergeParams: true })
   router.post('/runs', requireCapability('write'), async (req, res) => {
     const body = parse(createRunBody, req.body)
-    res.status(201).json(await runs.createRun(ctx(req).db, jobs(req), req.workspace!.id, intParam(req.params, 'pid'), req.auth!.userId, body))
+    res.status(201).json(await runs.createRun(ctx(req).db, jobs(req), req.workspace!.id, intParam(req.params, 'pid'), req.auth!.userId, body, null, sheetCompiler(ctx(req))))
   })
   router.get('/runs', requireCapability('read'), async (req, res) => {
     res.json({ runs: await runs.listRuns(ctx(req).db, req.workspace!.id, { projectId: intParam(req.params, 'pid') }) })
@@ -87,11 +89,15 @@ export function runRoutes() {
     await tick(first)
   })
 
+  router.delete('/:rid', requireCapability('write'), async (req, res) => {
+    await deleteRun(ctx(req).db, req.workspace!.id, intParam(req.params, 'rid'))
+    res.status(204).end()
+  })
   router.post('/:rid/cancel', requireCapability('write'), async (req, res) => {
     res.json(withoutLandscapeCache(await runs.cancelRun(ctx(req).db, jobs(req), req.workspace!.id, intParam(req.params, 'rid'))))
   })
   router.post('/:rid/rerun', requireCapability('write'), async (req, res) => {
-    res.status(201).json(await runs.rerun(ctx(req).db, jobs(req), req.workspace!.id, intParam(req.params, 'rid'), req.auth!.userId))
+    res.status(201).json(await runs.rerun(ctx(req).db, jobs(req), req.workspace!.id, intParam(req.params, 'rid'), req.auth!.userId, sheetCompiler(ctx(req))))
   })
   router.get('/:rid/export', requireCapability('read'), async (req, res) => {
     const { format } = parse(z.object({ format: z.enum(['csv', 'json']).default('json') }), req.query, 'query')

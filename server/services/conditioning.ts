@@ -42,6 +42,23 @@ function checkColumns(t: Table, names: string[] | undefined, stepNo: number): st
 
 const fmt = (v: number) => String(Number(v.toPrecision(8)))
 
+/** Most samples × window (× columns) one outlier step may process (common practice, no source: a few seconds of work). */
+export const MAX_FILTER_WORK = 20_000_000
+
+/** For each time, whether it lies in one of the windows [a, b]: windows sorted once, one sweep (n log n, not n × windows). */
+function insideWindows(time: number[], windows: [number, number][]): Uint8Array {
+  const w = windows.slice().sort((x, y) => x[0] - y[0])
+  const out = new Uint8Array(time.length)
+  let j = 0
+  let reach = -Infinity // furthest end of the windows started so far
+  for (let k = 0; k < time.length; k++) {
+    const tt = time[k]
+    while (j < w.length && w[j][0] <= tt) { if (w[j][1] > reach) reach = w[j][1]; j++ }
+    if (tt <= reach) out[k] = 1
+  }
+  return out
+}
+
 export function applySteps(input: Table, steps: ConditioningStep[]): { table: Table; applied: AppliedStep[] } {
   let table = input
   const applied: AppliedStep[] = []
@@ -71,12 +88,11 @@ function applyStep(t: Table, step: ConditioningStep, no: number): { table: Table
       const cols = checkColumns(t, step.columns, no)
       for (const [a, b] of step.windows) if (!(a < b)) throw new ConditioningError(`step ${no} (exclude): window [${a}, ${b}] must have from < to`)
       const columns: Table['columns'] = { ...t.columns }
+      const inside = insideWindows(t.time, step.windows)
       let blanked = 0
       for (const c of cols) {
         const v = t.columns[c].slice()
-        t.time.forEach((tt, k) => {
-          if (step.windows.some(([a, b]) => tt >= a && tt <= b) && v[k] !== null) { v[k] = null; blanked++ }
-        })
+        for (let k = 0; k < v.length; k++) if (inside[k] && v[k] !== null) { v[k] = null; blanked++ }
         columns[c] = v
       }
       return {
@@ -117,6 +133,8 @@ function applyStep(t: Table, step: ConditioningStep, no: number): { table: Table
     }
     case 'outliers': {
       const cols = checkColumns(t, step.columns, no)
+      const work = t.time.length * (2 * step.halfWindow + 1) * cols.length
+      if (work > MAX_FILTER_WORK) throw new ConditioningError(`step ${no} (outliers): ${t.time.length} samples × a window of ${2 * step.halfWindow + 1} × ${cols.length} column(s) = ${work} exceeds the limit of ${MAX_FILTER_WORK} for samples × window; use a smaller window, fewer columns or fewer samples`)
       const columns: Table['columns'] = { ...t.columns }
       const marked: Record<string, number[]> = {}
       let total = 0

@@ -9,12 +9,12 @@
  * then checked for the row limit.
  */
 import { createHash } from 'node:crypto'
-import { and, desc, eq } from 'drizzle-orm'
+import { and, desc, eq, sql } from 'drizzle-orm'
 import type { Db } from '../db/client'
 import { datasets } from '../db/schema'
 import { badRequest, notFound } from '../errors'
 import type {
-  AppliedStep, ColumnMeta, ColumnStats, ConditionBody, DatasetDataDto, DatasetDto, DatasetPurpose, DatasetSummaryDto,
+  AppliedStep, ColumnMeta, ColumnStats, ColumnSummary, ConditionBody, DatasetDataDto, DatasetDto, DatasetPurpose, DatasetSummaryDto,
   DatasetWarning, UpdateDatasetBody,
 } from '../../shared/api/datasets'
 import { decodeUpload } from './upload-checks'
@@ -77,19 +77,14 @@ export function gapWarnings(time: number[], rows?: number[]): DatasetWarning[] {
 const fmt = (v: number) => String(Number(v.toPrecision(6)))
 const iso = (d: Date | string | null) => (d === null ? null : new Date(d).toISOString())
 
-type SummaryRow = Omit<DatasetRow, 'workspaceId' | 'original' | 'data'>
+type SummaryRow = Omit<DatasetRow, 'workspaceId' | 'original' | 'data' | 'columns'> & { columns: ColumnSummary[] }
 
 function summaryOf(r: SummaryRow, timeSpan: [number, number] | null): DatasetSummaryDto {
   return {
     id: r.id, projectId: r.projectId, name: r.name, filename: r.filename, purpose: (r.purpose as DatasetPurpose | null) ?? null,
-    contentHash: r.contentHash, rowCount: r.rowCount, columns: columnsOf(r), warnings: r.warnings as DatasetWarning[],
+    contentHash: r.contentHash, rowCount: r.rowCount, columns: r.columns, warnings: r.warnings as DatasetWarning[],
     parentId: r.parentId, steps: r.steps as AppliedStep[], timeSpan, createdAt: iso(r.createdAt)!, createdBy: r.createdBy,
   }
-}
-
-function summaryDto(r: DatasetRow): DatasetSummaryDto {
-  const { time } = r.data as StoredData
-  return summaryOf(r, time.length ? [time[0], time[time.length - 1]] : null)
 }
 
 function fullDto(r: DatasetRow): DatasetDto {
@@ -97,7 +92,8 @@ function fullDto(r: DatasetRow): DatasetDto {
   const data = r.data as StoredData
   const preview: (number | null)[][] = []
   for (let k = 0; k < Math.min(PREVIEW_ROWS, data.time.length); k++) preview.push([data.time[k], ...meta.columns.map((c) => data.columns[c.name][k])])
-  return { ...summaryDto(r), time: meta.time, preview, notes: meta.notes }
+  const timeSpan: [number, number] | null = data.time.length ? [data.time[0], data.time[data.time.length - 1]] : null
+  return { ...summaryOf({ ...r, columns: meta.columns }, timeSpan), columns: meta.columns, time: meta.time, preview, notes: meta.notes }
 }
 
 /** Column metadata as the bindings and the fit read it (the `columns` jsonb holds more). */
@@ -164,12 +160,15 @@ export async function getDatasetData(db: Db, workspaceId: number, datasetId: num
 export async function listDatasets(db: Db, workspaceId: number, projectId?: number): Promise<DatasetSummaryDto[]> {
   if (projectId) await getProjectRow(db, workspaceId, projectId)
   const cond = projectId ? and(eq(datasets.workspaceId, workspaceId), eq(datasets.projectId, projectId)) : eq(datasets.workspaceId, workspaceId)
+  // a summary per dataset: column names and units without their statistics, steps without their details
+  // (outlier rows), and no samples (so no time span); the database does the projection
   const rows = await db.select({
     id: datasets.id, projectId: datasets.projectId, name: datasets.name, filename: datasets.filename, purpose: datasets.purpose,
-    contentHash: datasets.contentHash, columns: datasets.columns, rowCount: datasets.rowCount, warnings: datasets.warnings,
-    parentId: datasets.parentId, steps: datasets.steps, createdAt: datasets.createdAt, createdBy: datasets.createdBy,
+    contentHash: datasets.contentHash, rowCount: datasets.rowCount, warnings: datasets.warnings, parentId: datasets.parentId,
+    columns: sql<ColumnSummary[]>`coalesce((select jsonb_agg(jsonb_build_object('name', c->'name', 'header', c->'header', 'unit', c->'unit')) from jsonb_array_elements(${datasets.columns}->'columns') c), '[]'::jsonb)`,
+    steps: sql<AppliedStep[]>`coalesce((select jsonb_agg(s - 'details') from jsonb_array_elements(${datasets.steps}) s), '[]'::jsonb)`,
+    createdAt: datasets.createdAt, createdBy: datasets.createdBy,
   }).from(datasets).where(cond).orderBy(desc(datasets.createdAt), desc(datasets.id))
-  // the samples are not loaded for the list, so no time span
   return rows.map((r) => summaryOf(r, null))
 }
 

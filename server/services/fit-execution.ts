@@ -18,6 +18,7 @@ import type { Db } from '../db/client'
 import { datasets, modelVersions, runs } from '../db/schema'
 import { workspaceParts } from './part-library'
 import { compileModel, type CompiledModel } from '../../shared/sheet'
+import { alsoAbortedWhen } from '../jobs/abort-flag'
 import { toDeclared, toInternal } from '../../shared/sheet/compiled'
 import { simulate } from '../../shared/engine'
 import { makeProblem, type FitOptions } from '../../shared/engine/fit/driver'
@@ -240,6 +241,8 @@ export async function executeRun(db: Db, runId: number, opts: ExecuteOptions = {
   if (!started.length) return 'finished'
 
   const controller = new AbortController()
+  // the outer signal may be raised through shared memory while the fit computes (jobs/abort-flag.ts)
+  alsoAbortedWhen(controller.signal, () => opts.signal?.aborted === true)
   const onOuterAbort = () => controller.abort()
   opts.signal?.addEventListener('abort', onOuterAbort)
   if (opts.signal?.aborted) controller.abort()

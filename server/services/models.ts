@@ -9,7 +9,7 @@
  */
 import { and, asc, desc, eq, inArray, sql, type SQL } from 'drizzle-orm'
 import type { Db } from '../db/client'
-import { bindings, memberships, modelDrafts, modelMaintainers, models, modelVersions, parameterSets, runs, users } from '../db/schema'
+import { bindings, memberships, modelDrafts, modelMaintainers, models, modelVersions, parameterSets, projects, runs, users } from '../db/schema'
 import { conflict, forbidden, HttpError, notFound } from '../errors'
 import { audit } from './audit'
 import { checkSheet } from './sheet-check'
@@ -448,10 +448,13 @@ export async function deleteModel(db: Db, actor: Actor, modelId: number): Promis
       throw conflict(`"${m.title}" cannot be deleted: ${n} fit run${n === 1 ? '' : 's'} use${n === 1 ? 's' : ''} version${used.length === 1 ? '' : 's'} ${vs} of it. Delete those runs first.`,
         { runs: n, versions: used.map((r) => r.version) })
     }
-    const [b] = await tx.select({ n: sql<number>`count(*)::int` }).from(bindings).where(eq(bindings.modelId, m.id))
-    if (b.n) throw conflict(`"${m.title}" cannot be deleted: ${b.n} project binding${b.n === 1 ? '' : 's'} use${b.n === 1 ? 's' : ''} it. Remove them first.`, { bindings: b.n })
-    const [ps] = await tx.select({ n: sql<number>`count(*)::int` }).from(parameterSets).where(eq(parameterSets.modelId, m.id))
-    if (ps.n) throw conflict(`"${m.title}" cannot be deleted: ${ps.n} saved parameter set${ps.n === 1 ? '' : 's'} refer${ps.n === 1 ? 's' : ''} to it.`, { parameterSets: ps.n })
+    // bindings and saved parameter sets belong to projects and are deleted with their project
+    const [b] = await tx.select({ n: sql<number>`count(*)::int`, projects: sql<string[]>`array_agg(distinct ${projects.name})` }).from(bindings)
+      .innerJoin(projects, eq(projects.id, bindings.projectId)).where(eq(bindings.modelId, m.id))
+    if (b.n) throw conflict(`"${m.title}" cannot be deleted: ${b.n} binding${b.n === 1 ? '' : 's'} in project${b.projects.length === 1 ? '' : 's'} ${b.projects.map((x) => `'${x}'`).join(', ')} use${b.n === 1 ? 's' : ''} it. Delete ${b.projects.length === 1 ? 'that project' : 'those projects'} first.`, { bindings: b.n, projects: b.projects })
+    const [ps] = await tx.select({ n: sql<number>`count(*)::int`, projects: sql<string[]>`array_agg(distinct ${projects.name})` }).from(parameterSets)
+      .innerJoin(projects, eq(projects.id, parameterSets.projectId)).where(eq(parameterSets.modelId, m.id))
+    if (ps.n) throw conflict(`"${m.title}" cannot be deleted: ${ps.n} saved parameter set${ps.n === 1 ? '' : 's'} in project${ps.projects.length === 1 ? '' : 's'} ${ps.projects.map((x) => `'${x}'`).join(', ')} refer${ps.n === 1 ? 's' : ''} to it. Delete ${ps.projects.length === 1 ? 'that project' : 'those projects'} first.`, { parameterSets: ps.n, projects: ps.projects })
     await tx.delete(models).where(eq(models.id, m.id))
     return { title: m.title, template: m.template }
   })

@@ -22,6 +22,23 @@ export async function workspaceParts(db: Conn, workspaceId: number, text: string
   })
 }
 
+/**
+ * The texts of every part a sheet needs (recursively), keyed `handle@version`, as plain data that can
+ * travel to a worker thread (see partsResolver in shared/sheet/parts.ts). Empty for a sheet without parts.
+ */
+export async function workspacePartTexts(db: Conn, workspaceId: number, text: string): Promise<Record<string, string>> {
+  const out: Record<string, string> = {}
+  if (!usesParts(text)) return out
+  await loadParts(text, async (handle, version) => {
+    const [row] = await db.select({ text: modelVersions.text }).from(modelVersions)
+      .innerJoin(models, eq(models.id, modelVersions.modelId))
+      .where(and(eq(models.workspaceId, workspaceId), eq(models.slug, handle), eq(modelVersions.number, version))).limit(1)
+    if (row) out[`${handle}@${version}`] = row.text
+    return row?.text ?? null
+  })
+  return out
+}
+
 /** Record the part versions a new version uses (from its checked summary). */
 export async function recordParts(tx: Conn, workspaceId: number, versionId: number, summary: SheetSummary): Promise<void> {
   const used = summary.partsUsed ?? []

@@ -9,7 +9,8 @@ import type { Db } from '../db/client'
 import { bindings, datasets, models, modelVersions, parameterSets, projects, runs } from '../db/schema'
 import { badRequest, conflict, notFound } from '../errors'
 import type { JobRunner } from '../jobs/types'
-import { compileModel, SheetError, type CompiledModel } from '../../shared/sheet'
+import { compileHere, type SheetCompiler } from './request-work'
+import type { SheetMeta } from '../jobs/request-tasks'
 import type { ConvergenceTest, FitResult, FitStatus } from '../../shared/api/fit'
 import {
   RESULT_CAUTION, type CreateRunBody, type FreeSpec, type ParameterSetDto, type Provenance, type RunDto,
@@ -21,25 +22,15 @@ import { autoMatch, checkMapping, checkMappingNames, getVersionRow, signalsOf } 
 import { getProjectRow } from './projects'
 import { ENGINE_VERSION } from './fit-execution'
 import { publishVersion, type Actor } from './models'
-import { workspaceParts } from './part-library'
+import { workspacePartTexts } from './part-library'
 import { toDeclared } from '../../shared/sheet/compiled'
 
 type RunRow = typeof runs.$inferSelect
 
 const iso = (d: Date | string | null) => (d === null ? null : new Date(d).toISOString())
 
-async function compileOrThrow(db: Db, workspaceId: number, text: string): Promise<CompiledModel> {
-  const resolvePart = await workspaceParts(db, workspaceId, text)
-  try {
-    return compileModel(text, { resolvePart })
-  } catch (e) {
-    if (e instanceof SheetError) throw badRequest(`The model version has errors and cannot be fitted: ${e.message}`)
-    throw e
-  }
-}
-
 /** Free parameters / initial states with bounds and starts in declared units, defaults from the sheet. */
-function resolveFree(model: CompiledModel, given: FreeSpec[] | undefined, kind: 'free' | 'initialStates') {
+function resolveFree(model: SheetMeta, given: FreeSpec[] | undefined, kind: 'free' | 'initialStates') {
   const path = kind
   const isParam = kind === 'free'
   const pool = isParam ? model.params : model.states
@@ -56,7 +47,7 @@ function resolveFree(model: CompiledModel, given: FreeSpec[] | undefined, kind: 
     }
     if (seen.has(f.name)) { details.push({ path: `body.${path}.${i}.name`, message: `'${f.name}' is listed twice` }); return }
     seen.add(f.name)
-    const value = isParam ? (q as CompiledModel['params'][number]).value : (q as CompiledModel['states'][number]).initial
+    const value = isParam ? (q as SheetMeta['params'][number]).value : (q as SheetMeta['states'][number]).initial
     const a = q.lower === null ? null : toDeclared(q, q.lower)
     const b = q.upper === null ? null : toDeclared(q, q.upper)
     const lower = f.lower ?? (a === null || b === null ? null : Math.min(a, b))
@@ -84,9 +75,10 @@ function sha256(text: string) {
 }
 
 /** Checks the body against the project, model version and datasets; returns the settings and provenance. */
-async function resolveRun(db: Db, workspaceId: number, projectId: number, body: CreateRunBody, rerunOf: number | null) {
+async function resolveRun(db: Db, workspaceId: number, projectId: number, body: CreateRunBody, rerunOf: number | null, compile: SheetCompiler) {
   const { v } = await getVersionRow(db, workspaceId, body.modelId, body.version)
-  const model = await compileOrThrow(db, workspaceId, v.text)
+  // compiled off the event loop (request pool), with a time limit; the parts' texts travel with it
+  const model = await compile(v.text, 'The model version', await workspacePartTexts(db, workspaceId, v.text))
   const ids = [...body.estimation, ...body.validation]
   const rows = await db.select({ id: datasets.id, name: datasets.name, contentHash: datasets.contentHash, columns: datasets.columns })
     .from(datasets).where(and(eq(datasets.projectId, projectId), inArray(datasets.id, ids)))
@@ -159,9 +151,9 @@ async function resolveRun(db: Db, workspaceId: number, projectId: number, body: 
   return { settings, provenance }
 }
 
-export async function createRun(db: Db, jobs: JobRunner | undefined, workspaceId: number, projectId: number, userId: number, body: CreateRunBody, rerunOf: number | null = null): Promise<RunDto> {
+export async function createRun(db: Db, jobs: JobRunner | undefined, workspaceId: number, projectId: number, userId: number, body: CreateRunBody, rerunOf: number | null = null, compile: SheetCompiler = compileHere): Promise<RunDto> {
   await getProjectRow(db, workspaceId, projectId)
-  const { settings, provenance } = await resolveRun(db, workspaceId, projectId, body, rerunOf)
+  const { settings, provenance } = await resolveRun(db, workspaceId, projectId, body, rerunOf, compile)
   const [row] = await db.insert(runs).values({
     workspaceId, projectId, modelId: body.modelId, modelVersion: body.version, bindingId: settings.bindingId,
     status: 'queued', settings, provenance, createdBy: userId,
@@ -174,7 +166,7 @@ export async function createRun(db: Db, jobs: JobRunner | undefined, workspaceId
 }
 
 /** "Run again": the same model version, datasets, settings and seed. */
-export async function rerun(db: Db, jobs: JobRunner | undefined, workspaceId: number, runId: number, userId: number) {
+export async function rerun(db: Db, jobs: JobRunner | undefined, workspaceId: number, runId: number, userId: number, compile: SheetCompiler = compileHere) {
   const row = await getRunRow(db, workspaceId, runId)
   const s = row.settings as RunSettings
   const body: CreateRunBody = {
@@ -192,7 +184,7 @@ export async function rerun(db: Db, jobs: JobRunner | undefined, workspaceId: nu
     const cur = now.find((x) => x.id === d.id)
     if (!cur || cur.contentHash !== d.contentHash) throw conflict(`Dataset '${d.name}' (${d.id}) is gone or changed since run ${row.id}; it cannot be reproduced`)
   }
-  return createRun(db, jobs, workspaceId, row.projectId, userId, body, row.id)
+  return createRun(db, jobs, workspaceId, row.projectId, userId, body, row.id, compile)
 }
 
 export async function getRunRow(db: Db, workspaceId: number, runId: number): Promise<RunRow> {
@@ -235,6 +227,12 @@ export async function getRunState(db: Db, workspaceId: number, runId: number) {
 }
 
 export async function listRuns(db: Db, workspaceId: number, filter: { projectId?: number; modelId?: number } = {}): Promise<RunSummaryDto[]> {
+  // a project or model of another workspace (or none) answers 404, not an empty list
+  if (filter.projectId) await getProjectRow(db, workspaceId, filter.projectId)
+  if (filter.modelId) {
+    const [m] = await db.select({ id: models.id }).from(models).where(and(eq(models.id, filter.modelId), eq(models.workspaceId, workspaceId))).limit(1)
+    if (!m) throw notFound('Model')
+  }
   const conds = [eq(runs.workspaceId, workspaceId)]
   if (filter.projectId) conds.push(eq(runs.projectId, filter.projectId))
   if (filter.modelId) conds.push(eq(runs.modelId, filter.modelId))

@@ -1,7 +1,8 @@
 /**
  * Attaches the services of the jobs and mail layers to an app context (called by createContext):
  * `ctx.services.mailer` (nodemailer over SMTP), `ctx.services.jobs` (the JobRunner chosen by
- * PEWTER_JOBS), and API-token bearer authentication. Closing the database closes them first.
+ * PEWTER_JOBS), `ctx.services.requests` (the request pool: CPU-heavy work of requests off the event
+ * loop), and API-token bearer authentication. Closing the database closes them first.
  */
 import type { AppContext } from '../context'
 import { createMailer, type Mailer } from '../mail/mailer'
@@ -10,6 +11,7 @@ import type { JobRunner } from '../jobs/types'
 import { registerTokenResolver } from '../middleware/auth'
 import { apiTokenResolver } from './api-tokens'
 import { notifyRunSettled } from './notifications'
+import { RequestPool } from '../jobs/request-pool'
 
 let resolverRegistered = false
 
@@ -24,9 +26,12 @@ export async function attachServices(context: AppContext) {
     onSettled: (runId) => notifyRunSettled({ db: context.db, mailer, publicUrl: context.config.publicUrl }, runId).then(() => {}),
   })
   context.services.jobs = jobs
+  const requests = new RequestPool({ threads: context.config.requestThreads, timeLimitMs: context.config.requestTimeLimitMs, warm: process.env.NODE_ENV !== 'test' })
+  context.services.requests = requests
   const closeDatabase = context.database.close
   context.database.close = async () => {
     await jobs.close().catch(() => {})
+    await requests.close().catch(() => {})
     mailer.close()
     await closeDatabase()
   }

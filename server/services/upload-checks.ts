@@ -3,7 +3,8 @@
  * are not UTF-8 (named by line and column), the UTF-8 byte-order mark, and leading `# …` comment lines
  * (kept as the dataset's notes: the demo files say there that their data are invented).
  */
-import { badRequest } from '../errors'
+import { badRequest, HttpError } from '../errors'
+import { errorCodes } from '../../shared/api/errors'
 
 export interface DecodedUpload {
   /** the CSV text without the leading comment lines */
@@ -77,4 +78,32 @@ export function decodeUpload(bytes: Uint8Array, filename: string): DecodedUpload
   const rest = lines.slice(skipped).join('\n')
   if (rest.trim() === '') throw badRequest(`${filename}: the file has no header row and no data`)
   return { text: rest, notes, skippedLines: skipped }
+}
+
+const mib = (bytes: number) => `${Math.round((bytes / 1024 / 1024) * 10) / 10} MiB`
+
+/**
+ * Every error of the multipart reader (multer/busboy) as a 4xx with a message: too large (413, naming the
+ * limit), a second file, a file in another field, too many fields, a malformed body (400).
+ */
+export function uploadError(err: unknown, limitBytes: number): HttpError {
+  if (err instanceof HttpError) return err
+  const e = err as { code?: string; field?: string; message?: string }
+  const field = e.field ? ` '${e.field}'` : ''
+  switch (e.code) {
+    case 'LIMIT_FILE_SIZE':
+      return new HttpError(413, errorCodes.tooLarge, `The uploaded file is larger than the limit of ${mib(limitBytes)} (${limitBytes} bytes, PEWTER_UPLOAD_LIMIT_BYTES).`)
+    case 'LIMIT_FILE_COUNT':
+      return badRequest("Send one file per upload: the request has more than one file (field 'file').", [{ path: 'body.file', message: 'more than one file' }])
+    case 'LIMIT_UNEXPECTED_FILE':
+      return e.field === 'file'
+        ? badRequest("Send one file per upload: the field 'file' appears more than once.", [{ path: 'body.file', message: 'more than one file' }])
+        : badRequest(`Unexpected file field${field}: send the CSV in the field 'file'.`, [{ path: `body.${e.field ?? ''}`, message: 'unexpected file field' }])
+    case 'LIMIT_PART_COUNT': case 'LIMIT_FIELD_COUNT':
+      return badRequest('The upload has too many fields: send the file and at most the fields name and purpose.')
+    case 'LIMIT_FIELD_KEY': case 'LIMIT_FIELD_VALUE': case 'LIMIT_FIELD_NESTING': case 'LIMIT_FIELD_ARRAY_INDEX': case 'MISSING_FIELD_NAME': case 'INVALID_FIELD_NAME':
+      return badRequest(`The upload's form field${field} was refused: ${e.message ?? e.code}.`)
+    default:
+      return badRequest(`The upload could not be read as multipart/form-data: ${e.message ?? String(err)}. Send the CSV in the field 'file'.`)
+  }
 }

@@ -33,6 +33,10 @@ export const columnMeta = z.object({
 })
 export type ColumnMeta = z.infer<typeof columnMeta>
 
+/** A column as dataset lists show it: no statistics (GET of one dataset has them). */
+export const columnSummary = columnMeta.omit({ stats: true })
+export type ColumnSummary = z.infer<typeof columnSummary>
+
 export const datasetWarning = z.object({
   message: z.string(),
   row: z.number().optional(),
@@ -40,11 +44,28 @@ export const datasetWarning = z.object({
 })
 export type DatasetWarning = z.infer<typeof datasetWarning>
 
+/** most exclusion windows one conditioning step may list */
+export const MAX_EXCLUDE_WINDOWS = 1000
+
+/**
+ * The window cap checked on the raw body before the schema walks every window (a body of 100 000 windows
+ * is refused at once): the message, or null.
+ */
+export function tooManyWindows(body: unknown): string | null {
+  const steps = (body as { steps?: unknown } | null)?.steps
+  if (!Array.isArray(steps)) return null
+  for (let i = 0; i < steps.length; i++) {
+    const w = (steps[i] as { windows?: unknown } | null)?.windows
+    if (Array.isArray(w) && w.length > MAX_EXCLUDE_WINDOWS) return `steps.${i}.windows: ${w.length} windows; at most ${MAX_EXCLUDE_WINDOWS} exclusion windows per step`
+  }
+  return null
+}
+
 export const conditioningStep = z.discriminatedUnion('op', [
   z.object({ op: z.literal('trim'), from: z.number(), to: z.number() }),
   z.object({
     op: z.literal('exclude'),
-    windows: z.array(z.tuple([z.number(), z.number()])).min(1, 'give at least one window [from, to]'),
+    windows: z.array(z.tuple([z.number(), z.number()])).min(1, 'give at least one window [from, to]').max(MAX_EXCLUDE_WINDOWS, `at most ${MAX_EXCLUDE_WINDOWS} exclusion windows per step`),
     /** columns to blank in the windows (default: all) */
     columns: z.array(z.string()).optional(),
   }),
@@ -94,7 +115,7 @@ export const datasetSummaryDto = z.object({
   purpose: datasetPurpose.nullable(),
   contentHash: z.string(),
   rowCount: z.number(),
-  columns: z.array(columnMeta),
+  columns: z.array(columnSummary),
   warnings: z.array(datasetWarning),
   parentId: z.number().nullable(),
   steps: z.array(appliedStep),
@@ -106,6 +127,8 @@ export const datasetSummaryDto = z.object({
 export type DatasetSummaryDto = z.infer<typeof datasetSummaryDto>
 
 export const datasetDto = datasetSummaryDto.extend({
+  /** every column with its statistics */
+  columns: z.array(columnMeta),
   /** the time column's header and unit as uploaded */
   time: z.object({ header: z.string(), unit: z.string(), format: z.enum(['numeric', 'iso8601']) }),
   /** the first rows: [t_seconds, ...values in column order] */

@@ -24,4 +24,8 @@ export const errorCodes = {
   internal: 'internal_error',
   /** the Host header names a host this server does not answer to */
   misdirected: 'misdirected_request',
+  /** the database is away (restart, network): retry shortly */
+  unavailable: 'service_unavailable',
+  /** a request's work passed a size or time limit (the message names it) */
+  limit: 'limit_exceeded',
 } as const

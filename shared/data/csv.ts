@@ -59,6 +59,8 @@ export interface CsvOptions {
   file?: string
   /** default 2 000 000 data rows */
   maxRows?: number
+  /** default MAX_COLUMNS, time column included */
+  maxColumns?: number
   /** a gap warning when a time step exceeds this multiple of the median step (default 5) */
   gapFactor?: number
   /**
@@ -67,6 +69,9 @@ export interface CsvOptions {
    */
   strict?: boolean
 }
+
+/** most columns a trace file may have (the time column included) */
+export const MAX_COLUMNS = 1000
 
 const NUMBER = /^[+-]?(\d+\.?\d*|\.\d+)([eE][+-]?\d+)?$/
 const NUMBER_COMMA = /^[+-]?(\d+,?\d*|,\d+)([eE][+-]?\d+)?$/
@@ -106,6 +111,10 @@ export function parseCsv(text: string, opts: CsvOptions = {}): CsvTable {
   if (body.trim() === '') fail(null, null, 'the file is empty')
   const firstLine = body.slice(0, Math.max(0, body.search(/\r?\n/)) || body.length)
   const delimiter = detectDelimiter(firstLine)
+  // the header alone first: a file of a million columns is refused before its rows are split
+  const maxColumns = opts.maxColumns ?? MAX_COLUMNS
+  const headerOnly = new CsvRecords(firstLine, delimiter).cells(0)
+  if (headerOnly.length > maxColumns) fail(1, null, `too many columns: the header has ${headerOnly.length}, the limit is ${maxColumns} columns`)
   const records = new CsvRecords(body, delimiter)
   // header
   const headerCells = records.count > 0 ? records.cells(0) : []

@@ -248,6 +248,8 @@ export function simulate(model: CompiledModel, req: SimulationRequest): Simulati
     let a = t0
     try {
       for (let k = 0; k <= bps.length; k++) {
+        // cancellation between input segments too (the solvers check it at every step)
+        if (limits.signal !== null && limits.signal.aborted) throw new AbortedError(a)
         const b = k < bps.length ? bps[k] : tEnd
         if (k > 0 && checkJumps) inputs.eval(a, ws.uo) // left limit at the breakpoint
         if (k > 0 && tauSlope) inputs.slope(ws.sl)

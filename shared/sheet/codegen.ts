@@ -7,6 +7,27 @@
 import { type CmpOp, type Expr, type FnName, fold, mul, num, walk, isNum } from './ast'
 import { diff, type Var } from './derivative'
 import type { ParsedModel } from './model'
+import { SheetError, type Span } from './diagnostics'
+
+/**
+ * Largest generated source (characters). A checked sheet can still ask for a huge derivative (each
+ * equation is differentiated by every state, parameter and input); past this the compile stops with a
+ * diagnostic on the equation being generated instead of building megabytes of code.
+ */
+export const MAX_GENERATED_CHARS = 1_000_000
+
+/** Counts the generated characters; throws a SheetError at `span` once the total passes the limit. */
+class SizeBudget {
+  used = 0
+  add(text: string, span: Span | undefined): string {
+    this.used += text.length
+    if (this.used > MAX_GENERATED_CHARS) {
+      const at = span ?? { line: 1, column: 1, endColumn: 2 }
+      throw new SheetError([{ ...at, severity: 'error', message: `the code generated for this sheet is too large (more than ${MAX_GENERATED_CHARS} characters; this equation and its derivatives pass the limit): simplify it or split it with let` }])
+    }
+    return text
+  }
+}
 
 export interface GeneratedFunctions {
   rhs: Fn
@@ -130,6 +151,8 @@ export type GeneratedName = (typeof GENERATED)[number]
 export function generateFunctions(m: ParsedModel, dialect: Dialect = JS_DIALECT): Record<GeneratedName, string> {
   const nu = m.inputs.length + m.delays.length
   const em = new Emitter(m, dialect)
+  const budget = new SizeBudget()
+  const letSpan = (i: number) => m.lets[i].span
 
   // right sides in the compiled units: d(x_SI)/d(t_sheet) for derivatives, x(k+1) for next-equations
   const constant = (i: number) => m.consts[i].value
@@ -167,16 +190,16 @@ export function generateFunctions(m: ParsedModel, dialect: Dialect = JS_DIALECT)
     }
     return m.letOrder.filter((i) => need.has(i))
   }
-  const letLines = (order: number[]) => order.map((i) => dialect.decl(`L${i}`, em.emit(letExpr[i]))).join('\n')
+  const letLines = (order: number[]) => order.map((i) => budget.add(dialect.decl(`L${i}`, em.emit(letExpr[i])), letSpan(i))).join('\n')
 
-  const valueFn = (name: string, exprs: Expr[], infos: { lets: Set<number> }[]) => {
+  const valueFn = (name: string, exprs: Expr[], infos: { lets: Set<number> }[], spans: Span[]) => {
     const lines = [dialect.open(name), dialect.decl('ts', `t*${dialect.spt}`), dialect.unused('ts'), letLines(neededLets(infos))]
-    exprs.forEach((e, i) => lines.push(`out[${i}]=${em.emit(e)};`))
+    exprs.forEach((e, i) => lines.push(budget.add(`out[${i}]=${em.emit(e)};`, spans[i])))
     lines.push('}')
     return lines.join('\n')
   }
 
-  const jacFn = (name: string, exprs: Expr[], infos: { vars: Set<Key>; lets: Set<number> }[], vars: Var[]) => {
+  const jacFn = (name: string, exprs: Expr[], infos: { vars: Set<Key>; lets: Set<number> }[], vars: Var[], spans: Span[]) => {
     const ncol = vars.length
     const order = neededLets(infos)
     const lines: string[] = []
@@ -195,12 +218,12 @@ export function generateFunctions(m: ParsedModel, dialect: Dialect = JS_DIALECT)
         const d = diff(letExpr[li], v, ctx)
         if (isNum(d, 0)) continue
         hasTmp.add(li)
-        body.push(dialect.decl(`D${li}`, em.emit(d)))
+        body.push(budget.add(dialect.decl(`D${li}`, em.emit(d)), letSpan(li)))
       }
       for (const i of rows) {
         const d = diff(exprs[i], v, ctx)
         if (isNum(d, 0)) continue
-        body.push(`out[${i * ncol + j}]=${em.emit(d)};`)
+        body.push(budget.add(`out[${i * ncol + j}]=${em.emit(d)};`, spans[i]))
       }
       if (body.length) lines.push('{', ...body, '}')
     })
@@ -209,21 +232,23 @@ export function generateFunctions(m: ParsedModel, dialect: Dialect = JS_DIALECT)
     return [...head, ...lines, '}'].join('\n')
   }
 
+  const fSpans = m.equations.map((q) => q.span)
+  const gSpans = m.outputs.map((o) => o.span)
   const xs: Var[] = m.states.map((_, i) => ({ k: 'x', i }))
   const ps: Var[] = m.params.map((_, i) => ({ k: 'p', i }))
   const us: Var[] = Array.from({ length: nu }, (_, i) => ({ k: 'u', i }))
   const ts: Var[] = [{ k: 't' }]
 
   return {
-    rhs: valueFn('rhs', f, fInfo),
-    outputs: valueFn('outputs', g, gInfo),
-    dfdx: jacFn('dfdx', f, fInfo, xs),
-    dfdp: jacFn('dfdp', f, fInfo, ps),
-    dfdu: jacFn('dfdu', f, fInfo, us),
-    dfdt: jacFn('dfdt', f, fInfo, ts),
-    dgdx: jacFn('dgdx', g, gInfo, xs),
-    dgdp: jacFn('dgdp', g, gInfo, ps),
-    dgdu: jacFn('dgdu', g, gInfo, us),
+    rhs: valueFn('rhs', f, fInfo, fSpans),
+    outputs: valueFn('outputs', g, gInfo, gSpans),
+    dfdx: jacFn('dfdx', f, fInfo, xs, fSpans),
+    dfdp: jacFn('dfdp', f, fInfo, ps, fSpans),
+    dfdu: jacFn('dfdu', f, fInfo, us, fSpans),
+    dfdt: jacFn('dfdt', f, fInfo, ts, fSpans),
+    dgdx: jacFn('dgdx', g, gInfo, xs, gSpans),
+    dgdp: jacFn('dgdp', g, gInfo, ps, gSpans),
+    dgdu: jacFn('dgdu', g, gInfo, us, gSpans),
   }
 }
 

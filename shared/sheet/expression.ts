@@ -14,6 +14,13 @@ export const MAX_EXPRESSION_LENGTH = 4000
 export const MAX_NESTING = 64
 /** the most terms one sum(…) or prod(…) may expand to */
 export const MAX_REDUCTION = 10_000
+/**
+ * Operator chains count towards the depth: every `^` (right-associative, and its derivative grows with
+ * the square of the chain), unary sign, function call and ?: adds a level; a run of `+ -` or of `* /`
+ * at one level adds one level for the whole run but may hold at most MAX_CHAIN operators.
+ */
+export const MAX_DEPTH = MAX_NESTING
+export const MAX_CHAIN = 1000
 
 /** What the expression builder needs from the sheet. */
 export interface ExprContext {
@@ -104,6 +111,13 @@ export function buildExpr(source: string, line: number, col0: number, ctx: ExprC
   return { ...e, s: [col0, col0 + text.length] } as Expr
 }
 
+/** `+ -` and `* /` runs count as one level (their operators as a chain); every other operator is a level */
+function chainGroup(fn: string | undefined): 'add' | 'mul' | null {
+  if (fn === 'add' || fn === 'subtract') return 'add'
+  if (fn === 'multiply' || fn === 'divide') return 'mul'
+  return null
+}
+
 function printable(ch: string): string {
   const c = ch.codePointAt(0) ?? 0
   if (c < 32 || c === 127 || c > 126) return `(code ${c})`
@@ -150,8 +164,23 @@ class Converter {
     return a === Infinity ? undefined : [a, b]
   }
 
-  convert(n: MathNode, depth: number): Expr | null {
-    if (depth > 2 * MAX_EXPRESSION_LENGTH) return this.fail(undefined, "expression is nested too deeply")
+  private tooDeep = false
+
+  /** the place of the next leaf (the leftmost of the subtree about to be converted) */
+  private hereCols(): Cols {
+    const l = this.leaves[this.leafIndex]
+    return l ? [this.col0 + l.start, this.col0 + l.end] : this.wholeCols()
+  }
+
+  /** `depth`: operator levels above n (see MAX_DEPTH); `chain`: operators of n's `+ -` or `* /` run above n (n is number chain + 1 of the run) */
+  convert(n: MathNode, depth: number, chain = 0): Expr | null {
+    if (depth > MAX_DEPTH || chain >= MAX_CHAIN) {
+      if (this.tooDeep) { this.failed = true; return null }
+      this.tooDeep = true
+      return this.fail(this.hereCols(), depth > MAX_DEPTH
+        ? `expression is nested too deeply (more than ${MAX_DEPTH} levels; each ^ of a chain such as x^x^x, each sign, function call and ?: counts one level): split it with let`
+        : `too many operators in one chain of + - or * / (more than ${MAX_CHAIN}): split it with let`)
+    }
     const node = n as MathNode & Record<string, unknown>
     switch (n.type) {
       case 'ConstantNode': {
@@ -171,7 +200,7 @@ class Converter {
         return { ...r, s: cols } as Expr
       }
       case 'ParenthesisNode':
-        return this.convert((node as unknown as { content: MathNode }).content, depth + 1)
+        return this.convert((node as unknown as { content: MathNode }).content, depth)
       case 'OperatorNode': {
         const op = node as unknown as { fn: string; op: string; args: MathNode[]; implicit: boolean }
         if (op.implicit) {
@@ -191,8 +220,12 @@ class Converter {
           const parts = op.args.map((x) => this.convert(x, depth + 1)?.s)
           return this.fail(this.span(parts), `operator '${op.op}' is not allowed (allowed: + - * / ^ < <= > >= == != and ?:)`)
         }
-        const a = this.convert(op.args[0], depth + 1)
-        const b = this.convert(op.args[1], depth + 1)
+        const group = chainGroup(op.fn)
+        const operand = (x: MathNode) => (group && chainGroup((x as unknown as { fn?: string }).fn) === group && x.type === 'OperatorNode' && (x as unknown as { args: MathNode[] }).args.length === 2
+          ? this.convert(x, depth, chain + 1)
+          : this.convert(x, depth + 1))
+        const a = operand(op.args[0])
+        const b = operand(op.args[1])
         if (!a || !b) return null
         const s = this.span([a.s, b.s])
         if (sym === '+' || sym === '-' || sym === '*' || sym === '/' || sym === '^') return { k: 'bin', op: sym, a, b, s }

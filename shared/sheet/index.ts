@@ -106,6 +106,7 @@ export function tryCompileModel(text: string, opts: SheetOptions = {}): TryCompi
   try {
     return { compiled: compileModel(r.model), diagnostics: r.diagnostics }
   } catch (e) {
+    if (e instanceof SheetError) return { compiled: null, diagnostics: [...r.diagnostics, ...e.diagnostics] }
     return { compiled: null, diagnostics: [...r.diagnostics, { line: 1, column: 1, endColumn: 2, severity: 'error', message: `internal error while compiling: ${e instanceof Error ? e.message : String(e)}` }] }
   }
 }

@@ -67,6 +67,12 @@ export function partRefs(text: string): PartRef[] {
   return out
 }
 
+/** A resolver over part texts keyed `handle@version` (null when the sheet uses no part). */
+export function partsResolver(texts: Record<string, string> | undefined): ResolvePart | undefined {
+  if (!texts || Object.keys(texts).length === 0) return undefined
+  return (h, v) => texts[`${h}@${v}`] ?? null
+}
+
 /** Fetch the texts of every part a sheet needs (recursively) and return a resolver over them. */
 export async function loadParts(text: string, load: (handle: string, version: number) => Promise<string | null>): Promise<ResolvePart> {
   const got = new Map<string, string | null>()

@@ -70,6 +70,18 @@ describe('embedded worker-thread pool', () => {
     expect(run.finishedAt).not.toBeNull()
   })
 
+  it('a cancel reaches a fit inside a long synchronous computation (shared abort flag), so it stops itself instead of being terminated', async () => {
+    // one step of 60 s of synchronous CPU work: an abort sent as a message could only arrive after it;
+    // the signal's shared-memory flag is read inside the loop, so the executor itself records the cancel
+    const id = await insertRun(t.context.db, fx, { steps: 1, stepMs: 60_000, checkSignalInStep: true })
+    await jobs().enqueue(id)
+    await waitFor('the fit to start', async () => (await executions(t.context.db, id)).length === 1)
+    await jobs().cancel(id)
+    const run = await waitFor('cancelled', async () => { const r = await getRun(t.context.db, id); return r.status === 'cancelled' && r }, 30_000)
+    // 'Cancelled.' is written by the executor; a terminated thread would leave 'Cancelled; the fit was stopped.'
+    expect(run.error).toBe('Cancelled.')
+  })
+
   it('marks a run failed with the error the executor raised', async () => {
     const id = await insertRun(t.context.db, fx, { steps: 10, stepMs: 5, failAt: 3 })
     await jobs().enqueue(id)

@@ -10,12 +10,19 @@ import type { Db } from '../../server/db/client'
 import { runs } from '../../server/db/schema'
 import type { ExecuteOptions } from '../../server/jobs/executor'
 
-export interface TestSettings { steps: number; stepMs: number; failAt?: number; ignoreCancel?: boolean }
+export interface TestSettings {
+  steps: number
+  stepMs: number
+  failAt?: number
+  ignoreCancel?: boolean
+  /** the spin reads the abort signal synchronously, as the engine's solvers do at every step */
+  checkSignalInStep?: boolean
+}
 
-function spin(ms: number) {
+function spin(ms: number, signal?: AbortSignal) {
   const end = performance.now() + ms
   let x = 0
-  while (performance.now() < end) x += Math.sqrt(x + 1)
+  while (performance.now() < end && !signal?.aborted) x += Math.sqrt(x + 1)
   return x
 }
 
@@ -28,7 +35,7 @@ export async function executeRun(db: Db, runId: number, opts: ExecuteOptions = {
   await db.update(runs).set({ status: 'running', startedAt: sql`coalesce(${runs.startedAt}, now())` }).where(eq(runs.id, runId))
   let sum = 0
   for (let i = 1; i <= s.steps; i++) {
-    spin(s.stepMs)
+    spin(s.stepMs, s.checkSignalInStep ? opts.signal : undefined)
     sum += i * i
     if (s.failAt === i) throw new Error(`synthetic failure at step ${i}`)
     const [row] = await db.update(runs).set({ progress: { iteration: i, of: s.steps } }).where(eq(runs.id, runId)).returning({ cancel: runs.cancelRequested })

@@ -1,6 +1,8 @@
 // Hostile input: every case must give diagnostics, never throw, never execute anything, never hang.
 import { afterEach, describe, expect, it } from 'vitest'
 import { checkModel, parseModel, tryCompileModel } from '../../shared/sheet/index'
+import { MAX_CHAIN, MAX_DEPTH } from '../../shared/sheet/expression'
+import { MAX_GENERATED_CHARS } from '../../shared/sheet/codegen'
 
 const g = globalThis as unknown as Record<string, unknown>
 afterEach(() => { delete g.__pewterPwned })
@@ -93,6 +95,45 @@ describe('hostile sheets', () => {
   it('deep chains of unary minus and powers do not blow the stack', () => {
     hostile(wrap('-'.repeat(1990) + 'x'))
     hostile(wrap(Array(1000).fill('x').join('^')))
+  })
+
+  it('a chain of powers counts one level per ^ and is refused past the depth limit at its line and column', () => {
+    // dimensionless state so that x^x is a legal power: only the depth refuses it
+    const sheet = (n: number) => `param k = 1 [1/s] in [0, 2]\nstate x = 1 [1]\nx' = k*(${Array(n).fill('x').join('^')})\noutput y = x`
+    expect(tryCompileModel(sheet(MAX_DEPTH)).compiled).not.toBeNull()
+    for (const n of [MAX_DEPTH + 1, 1000, 1990]) {
+      const r = hostile(sheet(n))
+      expect(r.ok).toBe(false)
+      const d = r.diagnostics.find((x) => /nested too deeply/.test(x.message))
+      expect(d, JSON.stringify(r.diagnostics)).toBeDefined()
+      expect(d!.message).toContain(`more than ${MAX_DEPTH} levels`)
+      // line 3, at the x where the chain passes the limit: "x' = k*(" is 8 characters, the i-th x is at 9 + 2(i-1)
+      expect(d!.line).toBe(3)
+      expect(d!.column).toBe(9 + 2 * (MAX_DEPTH - 1))
+      expect(tryCompileModel(sheet(n)).compiled).toBeNull()
+    }
+  })
+
+  it('a chain of + or * is one level but at most MAX_CHAIN operators', () => {
+    const sum = (n: number) => `param k = 1 [1/s] in [0, 2]\nstate x = 1 [1]\nx' = k*(${Array(n).fill('x').join('+')})\noutput y = x`
+    expect(checkModel(sum(MAX_CHAIN + 1)).ok).toBe(true)
+    const r = hostile(sum(MAX_CHAIN + 2))
+    expect(r.diagnostics.some((d) => d.line === 3 && /more than 1000\)/.test(d.message) && /chain of \+ -/.test(d.message)), JSON.stringify(r.diagnostics)).toBe(true)
+  })
+
+  it('generated code has a size limit, reported at the equation that passes it', () => {
+    // 40 states whose right sides are 60-deep power chains: each passes the depth check, together they
+    // would generate megabytes of derivative code
+    const lines = Array.from({ length: 40 }, (_, i) => `state x${i} = 1 [1]\nx${i}' = k*(${Array(60).fill(`x${i}`).join('^')})`)
+    const text = `param k = 1 [1/s] in [0, 2]\n${lines.join('\n')}\noutput y = x1`
+    expect(checkModel(text).ok).toBe(true)
+    const r = tryCompileModel(text)
+    expect(r.compiled).toBeNull()
+    const d = r.diagnostics.find((x) => /too large/.test(x.message))
+    expect(d, JSON.stringify(r.diagnostics)).toBeDefined()
+    expect(d!.message).toContain(`more than ${MAX_GENERATED_CHARS} characters`)
+    expect(d!.line).toBeGreaterThan(2)
+    expect(d!.line % 2).toBe(1) // an equation line (declarations are on even lines)
   })
 
   it('10 000 declarations', () => {

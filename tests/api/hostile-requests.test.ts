@@ -1,0 +1,136 @@
+/**
+ * Requests that used to freeze the event loop: each is answered with a 4xx whose message names the limit,
+ * and /api/health answers (200, within the 2 s the service promises) while the work is in flight on the
+ * request pool's thread. For the requests that keep a thread busy, health is asked once the thread has
+ * started and must complete before the hostile request returns (event order, no timing threshold).
+ * All data here are invented for the test.
+ */
+import { afterAll, beforeAll, describe, expect, it } from 'vitest'
+import request from 'supertest'
+import { CSRF, demo, makeTestApp, signedIn, type Agent, type TestApp } from '../helpers/app'
+import { newProject, upload, WS } from './runs-helpers'
+import type { RequestPool } from '../../server/jobs/request-pool'
+import { MAX_GENERATED_CHARS } from '../../shared/sheet/codegen'
+import { MAX_COLUMNS } from '../../shared/data/csv'
+import { MAX_EXCLUDE_WINDOWS } from '../../shared/api/datasets'
+import { MAX_FILTER_WORK } from '../../server/services/conditioning'
+import { waitFor } from '../helpers/jobs'
+
+let t: TestApp
+let modeler: Agent
+let pid: number
+let datasetId: number
+const pool = () => t.context.services.requests as RequestPool
+
+beforeAll(async () => {
+  t = await makeTestApp('hostile_requests', { uploadLimitBytes: 8 * 1024 * 1024 })
+  modeler = await signedIn(t.app, demo.modeler)
+  pid = await newProject(modeler, 'Hostile requests (synthetic)')
+  // 1 000 rows of an invented trace
+  const rows = Array.from({ length: 1000 }, (_, k) => `${k},${Math.sin(k / 10).toFixed(4)},${(k % 7) / 7}`)
+  const r = await upload(modeler, pid, ['t [s],level [m],valve', ...rows].join('\n'), 'thousand.csv')
+  expect(r.status).toBe(201)
+  datasetId = r.body.id
+})
+afterAll(async () => { await t?.close() })
+
+interface Outcome { status: number; body: { error?: { message: string } } }
+
+/**
+ * Sends the hostile request, then (once `busy()` says its work is running, when given) a health request;
+ * returns both answers and whether health came back first.
+ */
+async function whileInFlight(hostile: () => PromiseLike<Outcome>, busy?: () => boolean) {
+  let hostileDone = false
+  const h = Promise.resolve(hostile()).then((r) => { hostileDone = true; return r })
+  if (busy) await waitFor('the hostile request to be at work', async () => busy() || hostileDone, 60_000)
+  const t0 = performance.now()
+  const health = await request(t.app).get('/api/health')
+  const healthMs = performance.now() - t0
+  const healthFirst = !hostileDone
+  const r = await h
+  expect(health.status).toBe(200)
+  expect(healthMs).toBeLessThan(2000)
+  return { r, healthFirst }
+}
+
+const threadBusy = () => pool().running > 0
+
+describe('hostile requests', () => {
+  it('a sheet whose generated code is too large: the run is refused with the limit, compiled off the event loop', async () => {
+    // 40 states, each right side a 60-deep chain of powers: every line passes the depth check
+    const lines = Array.from({ length: 40 }, (_, i) => `state x${i} = 1 [1]\nx${i}' = k*(${Array(60).fill(`x${i}`).join('^')})`)
+    const text = `param k = 1 [1/s] in [0, 2]\n${lines.join('\n')}\noutput y = x1`
+    const m = await modeler.post(`${WS}/models`).set(CSRF).send({ title: 'Hostile power chains (synthetic)', text })
+    expect(m.status, JSON.stringify(m.body)).toBe(201)
+    const { r, healthFirst } = await whileInFlight(() => modeler.post(`${WS}/projects/${pid}/runs`).set(CSRF)
+      .send({ modelId: m.body.id, version: 1, estimation: [datasetId] }), threadBusy)
+    expect(r.status).toBe(400)
+    expect(r.body.error!.message).toContain(`more than ${MAX_GENERATED_CHARS} characters`)
+    expect(healthFirst).toBe(true)
+  })
+
+  it(`a CSV with more than ${MAX_COLUMNS} columns is refused naming the limit`, async () => {
+    const n = 200_000
+    const header = ['t', ...Array.from({ length: n }, (_, i) => `c${i}`)].join(',')
+    const row = ['0', ...Array(n).fill('1')].join(',')
+    const { r } = await whileInFlight(() => upload(modeler, pid, `${header}\n${row}\n`, 'wide.csv'))
+    expect(r.status).toBe(400)
+    expect(r.body.error!.message).toMatch(new RegExp(`too many columns: the header has ${n + 1}, the limit is ${MAX_COLUMNS} columns`))
+  })
+
+  it(`more than ${MAX_EXCLUDE_WINDOWS} exclusion windows are refused naming the limit`, async () => {
+    const windows = Array.from({ length: 100_000 }, (_, i) => [i * 0.001, i * 0.001 + 0.0005])
+    const { r } = await whileInFlight(() => modeler.post(`${WS}/datasets/${datasetId}/condition`).set(CSRF).send({ steps: [{ op: 'exclude', windows }] }))
+    expect(r.status).toBe(400)
+    expect(JSON.stringify(r.body.error)).toContain(`at most ${MAX_EXCLUDE_WINDOWS} exclusion windows`)
+  })
+
+  it('exclusion windows within the cap are applied in one sweep', async () => {
+    const windows = Array.from({ length: MAX_EXCLUDE_WINDOWS }, (_, i) => [i + 0.2, i + 0.4]) // between samples: blanks nothing
+    const r = await modeler.post(`${WS}/datasets/${datasetId}/condition`).set(CSRF).send({ steps: [{ op: 'exclude', windows: [...windows, [10, 12]] }] })
+    expect(r.status, JSON.stringify(r.body)).toBe(400) // 1 001 windows
+    const ok = await modeler.post(`${WS}/datasets/${datasetId}/condition`).set(CSRF).send({ steps: [{ op: 'exclude', windows: [...windows.slice(1), [10, 12]] }] })
+    expect(ok.status, JSON.stringify(ok.body)).toBe(201)
+    // samples at t = 10, 11, 12 in both columns
+    expect(ok.body.steps.at(-1).details.blanked).toBe(6)
+  })
+
+  it('resampling to a million samples then an outlier window past samples × window is refused naming the limit', async () => {
+    const { r, healthFirst } = await whileInFlight(() => modeler.post(`${WS}/datasets/${datasetId}/condition`).set(CSRF)
+      .send({ steps: [{ op: 'resample', step: 0.001 }, { op: 'outliers', halfWindow: 500 }] }), threadBusy)
+    expect(r.status).toBe(400)
+    expect(r.body.error!.message).toContain(`exceeds the limit of ${MAX_FILTER_WORK} for samples × window`)
+    expect(healthFirst).toBe(true)
+  })
+
+  it('work within the caps that passes the time limit is stopped with 422 naming the limit', async () => {
+    const limits = pool().o
+    const before = limits.timeLimitMs
+    limits.timeLimitMs = 1000
+    try {
+      // about 2·10⁷ samples × window of Hampel filtering: several seconds of work
+      const { r, healthFirst } = await whileInFlight(() => modeler.post(`${WS}/datasets/${datasetId}/condition`).set(CSRF)
+        .send({ steps: [{ op: 'resample', step: 0.001 }, { op: 'outliers', halfWindow: 4, columns: ['level', 'valve'] }] }), threadBusy)
+      expect(r.status).toBe(422)
+      expect(r.body.error!.message).toMatch(/exceeded the time limit of 1 s .*PEWTER_REQUEST_TIME_LIMIT_SECONDS/)
+      expect(healthFirst).toBe(true)
+    } finally {
+      limits.timeLimitMs = before
+    }
+    // the pool works again afterwards (a new thread replaces the stopped one)
+    const again = await modeler.post(`${WS}/datasets/${datasetId}/condition`).set(CSRF).send({ steps: [{ op: 'trim', from: 0, to: 10 }] })
+    expect(again.status).toBe(201)
+  })
+
+  it('dataset lists return summaries: column names and units, no per-column statistics', async () => {
+    for (const url of [`${WS}/datasets`, `${WS}/projects/${pid}/datasets`]) {
+      const r = await modeler.get(url)
+      expect(r.status).toBe(200)
+      const d = r.body.datasets.find((x: { id: number }) => x.id === datasetId)
+      expect(d.columns).toEqual([{ name: 'level', header: 'level [m]', unit: 'm' }, { name: 'valve', header: 'valve', unit: '' }])
+    }
+    const one = await modeler.get(`${WS}/datasets/${datasetId}`)
+    expect(one.body.columns[0].stats.count).toBe(1000)
+  })
+})
