@@ -33,7 +33,7 @@ describe('stiff fit', () => {
     const ya = Float64Array.from(time, (_, k) => truth.y[k * 2])
     const yc = Float64Array.from(time, (_, k) => truth.y[k * 2 + 1])
     for (const solver of ['stiff', 'auto'] as const) {
-      const res = await runFit(m, { experiments: [{ name: 'e1', time, outputs: { ya, yc } }], set: { k1: 0.1 } }, { solver, rtol: 1e-10 })
+      const res = await runFit(m, { experiments: [{ name: 'e1', time, outputs: { ya, yc }, inputs: {} }], set: { k1: 0.1 } }, { solver, rtol: 1e-10 })
       expect(res.status, solver).toBe('converged')
       expect(Math.abs(res.parameters[0].value - 0.04) / 0.04, solver).toBeLessThan(1e-6)
     }
