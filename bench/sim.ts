@@ -6,11 +6,13 @@
  * stiff ↔ Radau (with the exact Jacobian), auto ↔ LSODA (both switch on stiffness).
  * Prints a table; not a test. Times are the best (minimum) of repeated runs, wall clock, whole call,
  * on both sides: the minimum is the estimate least disturbed by other processes on a shared machine.
+ * Then the stiff path's work–precision table (bench/sim-stiff.ts).
  */
 import { spawnSync } from 'node:child_process'
 import { cpus, loadavg } from 'node:os'
 import { simulate, type SolverName } from '../shared/engine'
 import type { CompiledModel, VecFn } from '../shared/sheet/compiled'
+import { stiffWorkPrecision } from './sim-stiff'
 
 interface Problem {
   name: string
@@ -204,3 +206,5 @@ for (const p of problems) {
 if (ratios.length) {
   console.log(`\nscipy/ours time ratio: min ${Math.min(...ratios).toFixed(1)}×, median ${median(ratios).toFixed(1)}×, max ${Math.max(...ratios).toFixed(1)}× over ${ratios.length} pairs (> 1: Pewter faster)`)
 }
+
+stiffWorkPrecision()

@@ -102,6 +102,5 @@ export class ModelSystem implements OdeSystem {
         ft[i] += acc
       }
     }
-    for (let i = nx; i < this.n; i++) ft[i] = 0
   }
 }

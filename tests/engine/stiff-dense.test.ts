@@ -147,8 +147,9 @@ describe('stiff path: sensitivities', () => {
     const plain = simulate(robertson, base)
     const withS = simulate(robertson, { ...base, sensitivities: { params: [0, 1, 2], initialStates: [] } })
     expect(withS.stats.steps / plain.stats.steps).toBeLessThan(1.5)
-    // the states come out the same to the tolerance
-    for (let i = 0; i < plain.x.length; i++) expect(Math.abs(withS.x[i] - plain.x[i])).toBeLessThan(1e-7 * Math.abs(plain.x[i]) + 1e-13)
+    // the states keep their accuracy against the reference: the largest error is y2's global error
+    // at t = 40 (7.8× the tolerance without sensitivities, 12× with their different step sequence)
+    expect(worst(withS, robRef, 1e-8, 1e-14)).toBeLessThan(20)
   })
 
   it('Robertson ∂y/∂k1 between steps agrees with central differences of restarted runs', () => {

@@ -11,8 +11,8 @@
  *   factor 0.9, growth limit 10 and shrink limit 0.2, and the PI stabilisation β = 0.04 of dopri5
  *   (Sec. IV.2 of Vol. II); Sec. II.10 (dopri5 "stiffness detection") for the stiffness test.
  */
-import { checkLimits, checkStepSize, clipStep, errNorm, firstNonFinite, initialStep, nextStep, NonFiniteSeen, stepEnd, throwNonFinite } from './control'
-import { newCounters, resetCounters, type OdeSolver, type OdeSystem, type SolverLimits, type StepObserver, type Tolerances } from './types'
+import { checkLimits, checkStepSize, clipStep, errNorm, firstNonFinite, initialStep, nextStep, stepEnd, throwNonFinite } from './control'
+import { OneStepSolver } from './one-step'
 
 /** Dormand–Prince 5(4) tableau, Dormand & Prince (1980) Table 2. Rows of A are stages 2..7. */
 export const DP54 = {
@@ -26,8 +26,16 @@ export const DP54 = {
     [9017 / 3168, -355 / 33, 46732 / 5247, 49 / 176, -5103 / 18656],
     [35 / 384, 0, 500 / 1113, 125 / 192, -2187 / 6784, 11 / 84],
   ],
-  /** error weights b - b̂ */
+  /** weights of the order-5 solution (= the last row of a: FSAL) */
+  b: [35 / 384, 0, 500 / 1113, 125 / 192, -2187 / 6784, 11 / 84, 0],
+  /** weights of the embedded order-4 solution */
+  bhat: [5179 / 57600, 0, 7571 / 16695, 393 / 640, -92097 / 339200, 187 / 2100, 1 / 40],
+  /** error weights b − b̂ */
   e: [71 / 57600, 0, -71 / 16695, 71 / 1920, -17253 / 339200, 22 / 525, -1 / 40],
+  /** order of the solution carried on */
+  order: 5,
+  /** order of the embedded solution: the error estimate is O(h^{embeddedOrder+1}) */
+  embeddedOrder: 4,
   /** dense output, Hairer–Nørsett–Wanner I, dopri5 (CONTD5) */
   d: [-12715105075 / 11282082432, 0, 87487479700 / 32700410799, -10690763975 / 1880347072,
     701980252875 / 199316789632, -1453857185 / 822651844, 69997945 / 29380423],
@@ -37,7 +45,8 @@ const SAFE = 0.9
 const FAC_MIN = 0.2 // shrink limit
 const FAC_MAX = 10 // growth limit
 const BETA = 0.04
-const EXPO1 = 0.2 - BETA * 0.75
+/** exponent of err in the PI controller: 1/(p̂+1) − 0.75β (dopri5) */
+const EXPO1 = 1 / (DP54.embeddedOrder + 1) - BETA * 0.75
 /** DP5's stability region reaches about 3.3 on the negative real axis (Hairer et al. I, Sec. II.10) */
 export const DP5_STIFF_BOUND = 3.25
 /** dopri5's stiffness test: STIFF_RUN steps above the bound, CALM_RESET calmer ones in a row reset */
@@ -55,37 +64,25 @@ function popcount(v: number): number {
   return c
 }
 
-export class Rk45 implements OdeSolver {
+export class Rk45 extends OneStepSolver {
   readonly name = 'rk45'
-  readonly counters = newCounters()
-  t = 0
-  h = 0
-  z: Float64Array = new Float64Array(0)
   /** set when the stiffness test of Sec. II.10 fired */
   stiff = false
-  private sys!: OdeSystem
-  private tol!: Tolerances
-  private limits!: SolverLimits
-  private n = 0
   private k: Float64Array[] = []
   private y1: Float64Array = new Float64Array(0)
   private ysti: Float64Array = new Float64Array(0)
   private ytmp: Float64Array = new Float64Array(0)
   private r: Float64Array[] = []
-  private tOld = 0
-  private hLast = 0
   private facOld = 1e-4
   private fsal = false
-  private lastRejected = false
   /** steps above DP5_STIFF_BOUND since the last calm run, and calm steps in a row */
   private stiffCount = 0
   private calmCount = 0
   /** the last STABLE_WINDOW steps, one bit each: h·ρ above STABILITY_LIMITED·bound */
   private recent = 0
   private recentSteps = 0
-  private readonly nonFinite = new NonFiniteSeen()
 
-  private alloc(n: number): void {
+  protected alloc(n: number): void {
     if (this.n === n && this.k.length === 7) return
     this.n = n
     this.k = Array.from({ length: 7 }, () => new Float64Array(n))
@@ -96,25 +93,14 @@ export class Rk45 implements OdeSolver {
     this.ytmp = new Float64Array(n)
   }
 
-  start(sys: OdeSystem, tol: Tolerances, limits: SolverLimits, t: number, z: Float64Array, h: number): void {
-    this.alloc(sys.n)
-    this.sys = sys
-    this.tol = tol
-    this.limits = limits
-    this.t = t
-    this.tOld = t
-    this.z.set(z.subarray(0, sys.n))
-    this.h = h
-    this.hLast = 0
+  protected reset(): void {
     this.facOld = 1e-4
     this.fsal = false
-    this.lastRejected = false
     this.stiff = false
     this.stiffCount = 0
     this.calmCount = 0
     this.recent = 0
     this.recentSteps = 0
-    resetCounters(this.counters)
   }
 
   breakpoint(): void {
@@ -138,7 +124,7 @@ export class Rk45 implements OdeSolver {
     const E = DP54.e
     if (!this.fsal) this.evalK1()
     if (this.h === 0 && limits.fixedStep <= 0) {
-      this.h = initialStep(sys, this.tol, this.t, this.z, k[0], ytmp, k[1], 5, Math.abs(tStop - this.t), counters)
+      this.h = initialStep(sys, this.tol, this.t, this.z, k[0], ytmp, k[1], DP54.order, Math.abs(tStop - this.t), counters)
     }
     for (;;) {
       checkLimits(limits, counters, this.t)
@@ -260,13 +246,6 @@ export class Rk45 implements OdeSolver {
     this.recent = ((this.recent << 1) | (hRho > STABILITY_LIMITED * DP5_STIFF_BOUND ? 1 : 0)) & WINDOW_MASK
     this.recentSteps++
     if (this.recentSteps >= STABLE_WINDOW && popcount(this.recent) >= STABLE_HITS) this.stiff = true
-  }
-
-  advance(tStop: number, obs: StepObserver | null): void {
-    while (this.t < tStop) {
-      this.step(tStop)
-      if (obs !== null) obs(this.tOld, this.t)
-    }
   }
 
   dense(t: number, out: Float64Array): void {

@@ -29,9 +29,9 @@
  * approach of Hindmarsh & Serban, CVODES guide, Sec. 2.6 "forward sensitivity", DQ option); the
  * sensitivity blocks' ∂/∂t comes from a central difference in t (the RODAS code takes a forward one, FX).
  */
-import { checkLimits, checkStepSize, clipStep, errNorm, firstNonFinite, initialStep, nextStep, NonFiniteSeen, stepEnd, throwNonFinite } from './control'
+import { checkLimits, checkStepSize, clipStep, errNorm, firstNonFinite, initialStep, nextStep, stepEnd, throwNonFinite } from './control'
 import { luFactor, luSolve } from './lu'
-import { newCounters, resetCounters, type OdeSolver, type OdeSystem, type SolverLimits, type StepObserver, type Tolerances } from './types'
+import { OneStepSolver } from './one-step'
 
 /** RODAS4 in transformed form: Hairer & Wanner, RODAS code, ROCOE (METH = 1). */
 export const RODAS4 = {
@@ -88,16 +88,8 @@ const RETRY_SHRINK = 0.25
  */
 const COUPLING_STEP = Math.cbrt(Number.EPSILON)
 
-export class Rosenbrock implements OdeSolver {
+export class Rosenbrock extends OneStepSolver {
   readonly name = 'stiff'
-  readonly counters = newCounters()
-  t = 0
-  h = 0
-  z: Float64Array = new Float64Array(0)
-  private sys!: OdeSystem
-  private tol!: Tolerances
-  private limits!: SolverLimits
-  private n = 0
   private nb = 0
   private u: Float64Array[] = []
   private f0: Float64Array = new Float64Array(0)
@@ -113,17 +105,13 @@ export class Rosenbrock implements OdeSolver {
   private zOld: Float64Array = new Float64Array(0)
   private w2: Float64Array = new Float64Array(0)
   private w3: Float64Array = new Float64Array(0)
-  private tOld = 0
-  private hLast = 0
   private haveF0 = false
   private haveJ = false
-  private lastRejected = false
   /** Gustafsson's predictive controller: the last accepted step and its error */
   private hAcc = 0
   private errAcc = 0
-  private readonly nonFinite = new NonFiniteSeen()
 
-  private alloc(n: number, nb: number): void {
+  protected alloc(n: number, nb: number): void {
     if (this.n === n && this.nb === nb) return
     this.n = n
     this.nb = nb
@@ -143,35 +131,10 @@ export class Rosenbrock implements OdeSolver {
     this.piv = new Int32Array(nb)
   }
 
-  start(sys: OdeSystem, tol: Tolerances, limits: SolverLimits, t: number, z: Float64Array, h: number): void {
-    this.attach(sys, tol, limits)
-    this.restartAt(t, z, h)
-  }
-
-  /** continue from (t, z) keeping the counters (used when `auto` switches to this method) */
-  restartAt(t: number, z: Float64Array, h: number): void {
-    this.t = t
-    this.tOld = t
-    this.z.set(z.subarray(0, this.n))
-    this.h = h
-    this.hLast = 0
+  protected reset(): void {
     this.haveF0 = false
     this.haveJ = false
-    this.lastRejected = false
     this.hAcc = 0
-  }
-
-  /** attach after `start` of another method: same system, tolerances and limits */
-  attach(sys: OdeSystem, tol: Tolerances, limits: SolverLimits): void {
-    this.alloc(sys.n, sys.nBlock)
-    this.sys = sys
-    this.tol = tol
-    this.limits = limits
-    resetCounters(this.counters)
-  }
-
-  setLimits(limits: SolverLimits): void {
-    this.limits = limits
   }
 
   breakpoint(): void {
@@ -360,13 +323,6 @@ export class Rosenbrock implements OdeSolver {
     this.t = stepEnd(t, h, tStop, clipped)
     this.hLast = this.t - t
     this.haveJ = false
-  }
-
-  advance(tStop: number, obs: StepObserver | null): void {
-    while (this.t < tStop) {
-      this.step(tStop)
-      if (obs !== null) obs(this.tOld, this.t)
-    }
   }
 
   /** RODAS continuous extension (order 3) on [tOld, t] */

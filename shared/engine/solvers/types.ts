@@ -3,23 +3,25 @@
  *
  * A system has `n` components made of `blocks` blocks of `nBlock` components each: block 0 holds
  * the states, the further blocks forward sensitivities (one block per parameter or initial state).
- * The Jacobian a stiff method uses is the state block's nBlock×nBlock matrix, applied to every block
- * (a block-diagonal approximation of the augmented system's Jacobian: see rosenbrock.ts).
+ * The stiff method factors the state block's nBlock×nBlock matrix once and solves the block
+ * lower-triangular augmented system with it, adding the coupling of each sensitivity block to the
+ * states by differences of f (see rosenbrock.ts).
  */
 export interface OdeSystem {
   n: number
   nBlock: number
   /** dz/dt into dz (length n) */
   f(t: number, z: Float64Array, dz: Float64Array): void
-  /** state-block Jacobian ∂f/∂x (nBlock², row-major) and ∂f/∂t of the whole vector (length n) */
+  /** state-block Jacobian ∂f/∂x (nBlock², row-major) and ∂f/∂t of the state block (ft[0..nBlock)) */
   jac(t: number, z: Float64Array, J: Float64Array, ft: Float64Array): void
 }
 
 /**
  * Error control: component i of block b is measured against
- *   sc = (atol[i] + rtol[i]·max(|z_i|, |z1_i|)) / weight[b·nBlock + i]   (i < nBlock: the state's own scale)
- * i.e. a sensitivity ∂x_i/∂θ times |θ| is measured in the state's units. weight 0 leaves a
- * component out of error control.
+ *   sc = (atol[i] + rtol[i]·max(|z_i|, |z1_i|, w·|z_k|, w·|z1_k|)) / w,   w = weight[k], k = b·nBlock + i
+ * (for the states, b = 0, the last two terms are left out), i.e. a sensitivity ∂x_i/∂θ times |θ| is
+ * measured in the state's units, against the state's size or its own, whichever is larger.
+ * weight 0 leaves a component out of error control.
  */
 export interface Tolerances {
   /** per state (length nBlock) */

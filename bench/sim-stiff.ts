@@ -1,0 +1,177 @@
+/**
+ * Work–precision of the stiff path for `npm run bench:sim` (a benchmark, not a test): Robertson and
+ * VDPOL at rtol 1e-4 … 1e-10, the engine's `stiff` (RODAS4) and `auto` beside scipy's Radau, BDF
+ * and LSODA (solve_ivp, exact Jacobian) on the same problems, output times and tolerances, in the
+ * same run. For each: accepted steps, RHS evaluations, best wall-clock time of repeated calls, and
+ * the error: max over output times and components of |y − ref| / (|ref| + atol).
+ * The references come from the engine's RODAS4 at rtol 1e-13, restarted from t0 for every output
+ * time (so no interpolation enters them); the stiff tests check that method against scipy Radau.
+ * Also the "sensitivities" row: Robertson with ∂/∂(k1, k2, k3) against LSODA without them.
+ */
+import { spawnSync } from 'node:child_process'
+import { simulate, type SolverName, type SimulationRequest } from '../shared/engine'
+import type { CompiledModel, VecFn } from '../shared/sheet/compiled'
+
+interface StiffProblem {
+  name: string
+  model: CompiledModel
+  tOut: number[]
+  /** atol = rtol × atolFactor (both sides) */
+  atolFactor: number
+  py: string
+}
+
+function model(name: string, x0: number[], p: number[], rhs: VecFn, dfdx: VecFn, dfdp: VecFn): CompiledModel {
+  const nx = x0.length
+  const u = { unit: '', scale: 1, offset: 0 }
+  const zero: VecFn = (t, x, pp, uu, o) => { o.fill(0) }
+  return {
+    hash: name, title: name, kind: 'continuous', timeUnit: 's', secondsPerTimeUnit: 1, sampleTime: null,
+    states: x0.map((v, i) => ({ ...u, name: `x${i}`, description: '', initial: v, estimate: false, steady: false, lower: null, upper: null, line: 0 })),
+    params: p.map((v, i) => ({ ...u, name: `p${i}`, description: '', value: v, lower: null, upper: null, fixed: false, line: 0 })),
+    inputs: [], outputs: x0.map((_, i) => ({ ...u, name: `y${i}`, description: '', sigma: null, line: 0 })), delays: [],
+    nx, np: p.length, nu: 0, nd: 0, ny: nx, rhs,
+    outputsFn: (t, x, pp, uu, o) => { for (let i = 0; i < nx; i++) o[i] = x[i] },
+    dfdx, dfdp, dfdu: zero, dfdt: zero,
+    dgdx: (t, x, pp, uu, o) => { o.fill(0); for (let i = 0; i < nx; i++) o[i * nx + i] = 1 },
+    dgdp: zero, dgdu: zero, source: '',
+  }
+}
+
+// Robertson (Hairer & Wanner, Solving ODEs II, Sec. IV.1, eq. (1.4)) to t = 4e10
+const robertson = model('robertson', [1, 0, 0], [0.04, 3e7, 1e4],
+  (t, y, p, u, o) => { o[0] = -p[0] * y[0] + p[2] * y[1] * y[2]; o[1] = p[0] * y[0] - p[2] * y[1] * y[2] - p[1] * y[1] * y[1]; o[2] = p[1] * y[1] * y[1] },
+  (t, y, p, u, o) => { o[0] = -p[0]; o[1] = p[2] * y[2]; o[2] = p[2] * y[1]; o[3] = p[0]; o[4] = -p[2] * y[2] - 2 * p[1] * y[1]; o[5] = -p[2] * y[1]; o[6] = 0; o[7] = 2 * p[1] * y[1]; o[8] = 0 },
+  (t, y, p, u, o) => { o[0] = -y[0]; o[1] = 0; o[2] = y[1] * y[2]; o[3] = y[0]; o[4] = -y[1] * y[1]; o[5] = -y[1] * y[2]; o[6] = 0; o[7] = y[1] * y[1]; o[8] = 0 })
+// VDPOL, ε = 1e-6 (Hairer & Wanner II, Sec. IV.1, eq. (1.5'))
+const eps = 1e-6
+const vdpol = model('vdpol', [2, 0], [],
+  (t, y, p, u, o) => { o[0] = y[1]; o[1] = ((1 - y[0] * y[0]) * y[1] - y[0]) / eps },
+  (t, y, p, u, o) => { o[0] = 0; o[1] = 1; o[2] = (-2 * y[0] * y[1] - 1) / eps; o[3] = (1 - y[0] * y[0]) / eps },
+  (t, y, p, u, o) => { o.fill(0) })
+
+const problems: StiffProblem[] = [
+  { name: 'Robertson (to 4e10)', model: robertson, tOut: Array.from({ length: 16 }, (_, i) => 4e-5 * 10 ** i), atolFactor: 1e-6,
+    py: `def f(t,y): return [-0.04*y[0]+1e4*y[1]*y[2], 0.04*y[0]-1e4*y[1]*y[2]-3e7*y[1]**2, 3e7*y[1]**2]
+def jac(t,y): return [[-0.04,1e4*y[2],1e4*y[1]],[0.04,-1e4*y[2]-6e7*y[1],-1e4*y[1]],[0,6e7*y[1],0]]
+y0=[1,0,0]` },
+  { name: 'VDPOL (eps=1e-6, to 2)', model: vdpol, tOut: Array.from({ length: 20 }, (_, i) => 0.1 * (i + 1)), atolFactor: 1,
+    py: `eps=1e-6
+def f(t,y): return [y[1], ((1-y[0]**2)*y[1]-y[0])/eps]
+def jac(t,y): return [[0,1],[(-2*y[0]*y[1]-1)/eps,(1-y[0]**2)/eps]]
+y0=[2,0]` },
+]
+const RTOLS = [1e-4, 1e-5, 1e-6, 1e-7, 1e-8, 1e-9, 1e-10]
+const PY_METHODS = ['Radau', 'BDF', 'LSODA']
+
+function reference(p: StiffProblem): number[][] {
+  return p.tOut.map((t) => {
+    const r = simulate(p.model, { tOut: Float64Array.of(t), solver: 'stiff', rtol: 1e-13, atol: 1e-13 * p.atolFactor * 1e-3, maxSteps: 5_000_000 })
+    return Array.from(r.x)
+  })
+}
+
+function errorOf(y: number[][], ref: number[][], atol: number): number {
+  let w = 0
+  for (let k = 0; k < ref.length; k++) for (let i = 0; i < ref[k].length; i++) w = Math.max(w, Math.abs(y[k][i] - ref[k][i]) / (Math.abs(ref[k][i]) + atol))
+  return w
+}
+
+function best(run: () => void): number {
+  run()
+  const times: number[] = []
+  const t0 = performance.now()
+  while (times.length < 3 || (performance.now() - t0 < 1500 && times.length < 50)) {
+    const a = performance.now()
+    run()
+    times.push(performance.now() - a)
+  }
+  return Math.min(...times)
+}
+
+interface PyRow { ms: number; nfev: number; njev: number; y: number[][]; ok: boolean }
+
+function scipyRows(): Map<string, PyRow> | string {
+  const jobs = problems.map((p) => ({ name: p.name, code: p.py, t: p.tOut, atolFactor: p.atolFactor }))
+  const script = `
+import json, sys, time
+import numpy as np
+from scipy.integrate import solve_ivp
+jobs = json.loads(sys.stdin.read())
+out = {}
+for job in jobs:
+    ns = {}
+    exec(job['code'], ns)
+    t = job['t']
+    for method in ${JSON.stringify(PY_METHODS)}:
+        for rtol in ${JSON.stringify(RTOLS)}:
+            kw = dict(method=method, rtol=rtol, atol=rtol*job['atolFactor'], t_eval=t, jac=ns['jac'])
+            ts = []
+            sol = None
+            t0 = time.perf_counter()
+            while len(ts) < 3 or (time.perf_counter() - t0 < 1.5 and len(ts) < 20):
+                a = time.perf_counter()
+                sol = solve_ivp(ns['f'], (0, t[-1]), ns['y0'], **kw)
+                ts.append((time.perf_counter() - a) * 1000)
+                if ts[-1] > 5000: break
+            out[job['name'] + '|' + method + '|' + repr(rtol)] = dict(ms=min(ts), nfev=int(sol.nfev), njev=int(sol.njev), ok=bool(sol.success), y=sol.y.T.tolist())
+print(json.dumps(out))
+`
+  const r = spawnSync('python3', ['-c', script], { input: JSON.stringify(jobs), encoding: 'utf8', timeout: 1_800_000, maxBuffer: 1 << 26 })
+  if (r.status !== 0) return `scipy comparison skipped: ${r.error ? r.error.message : (r.stderr || '').trim().split('\n').pop()}`
+  return new Map(Object.entries(JSON.parse(r.stdout) as Record<string, PyRow>))
+}
+
+const pad = (s: string, n: number) => (s.length >= n ? s : s + ' '.repeat(n - s.length))
+const lpad = (s: string, n: number) => (s.length >= n ? s : ' '.repeat(n - s.length) + s)
+
+export function stiffWorkPrecision(): void {
+  console.log('\nWork–precision on the stiff path (error = max |y − ref| / (|ref| + atol) over outputs and components)')
+  const py = scipyRows()
+  if (typeof py === 'string') console.log(`(${py})`)
+  const header = `${pad('problem', 24)} ${pad('method', 7)} ${lpad('rtol', 6)} ${lpad('steps', 7)} ${lpad('RHS', 8)} ${lpad('ms', 9)} ${lpad('error', 9)}`
+  console.log(header)
+  console.log('-'.repeat(header.length))
+  for (const p of problems) {
+    const ref = reference(p)
+    for (const rtol of RTOLS) {
+      const atol = rtol * p.atolFactor
+      for (const solver of ['stiff', 'auto'] as SolverName[]) {
+        const req: SimulationRequest = { tOut: Float64Array.from(p.tOut), solver, rtol, atol, maxSteps: 2_000_000 }
+        const r = simulate(p.model, req)
+        const nx = p.model.nx
+        const y = p.tOut.map((_, k) => Array.from(r.x.subarray(k * nx, (k + 1) * nx)))
+        const ms = best(() => simulate(p.model, req))
+        console.log(`${pad(p.name, 24)} ${pad(solver, 7)} ${lpad(rtol.toExponential(0), 6)} ${lpad(String(r.stats.steps), 7)} ${lpad(String(r.stats.rhsEvals), 8)} ${lpad(ms.toFixed(2), 9)} ${lpad(errorOf(y, ref, atol).toExponential(1), 9)}`)
+      }
+      if (typeof py !== 'string') {
+        for (const m of PY_METHODS) {
+          const s = py.get(`${p.name}|${m}|${pythonRepr(rtol)}`)
+          if (!s) continue
+          const err = s.ok && s.y.length === ref.length ? errorOf(s.y, ref, atol).toExponential(1) : 'failed'
+          console.log(`${pad(p.name, 24)} ${pad(m, 7)} ${lpad(rtol.toExponential(0), 6)} ${lpad('', 7)} ${lpad(String(s.nfev), 8)} ${lpad(s.ms.toFixed(2), 9)} ${lpad(err, 9)}`)
+        }
+      }
+    }
+  }
+  // the aim: Robertson with the three rate sensitivities against LSODA without them, rtol 1e-8
+  const rob = problems[0]
+  const req: SimulationRequest = { tOut: Float64Array.from(rob.tOut), solver: 'stiff', rtol: 1e-8, atol: 1e-14, maxSteps: 2_000_000, sensitivities: { params: [0, 1, 2], initialStates: [] } }
+  const withS = simulate(rob.model, req)
+  const msS = best(() => simulate(rob.model, req))
+  const plain = simulate(rob.model, { ...req, sensitivities: undefined })
+  let line = `\nRobertson, rtol 1e-8, atol 1e-14, with ∂/∂(k1, k2, k3): ${withS.stats.steps} steps (states alone ${plain.stats.steps}, ×${(withS.stats.steps / plain.stats.steps).toFixed(2)}), ${msS.toFixed(2)} ms`
+  if (typeof py !== 'string') {
+    const l = py.get(`${rob.name}|LSODA|${pythonRepr(1e-8)}`)
+    if (l) line += `; scipy LSODA without sensitivities (atol ${1e-8 * rob.atolFactor}): ${l.ms.toFixed(2)} ms, ours/LSODA = ${(msS / l.ms).toFixed(2)}`
+  }
+  console.log(line)
+}
+
+/** Python's repr of a float as used in the result keys (1e-05, 0.0001, 1e-10) */
+function pythonRepr(v: number): string {
+  if (v >= 1e-4) return String(v)
+  const [m, e] = v.toExponential().split('e')
+  const exp = Number(e)
+  return `${m}e-${String(-exp).padStart(2, '0')}`
+}
