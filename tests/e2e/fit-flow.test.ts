@@ -79,6 +79,9 @@ it('goes from a CSV to a judged, exported fit in the browser', { timeout: 600_00
   await page.getByRole('button', { name: 'New fit' }).click()
   await page.getByTestId('free-parameters').getByText('Cv').waitFor()
   await choose(page, 'Weighting', 'noise estimated (ML)')
+  // multiple shooting with the suggested segment count
+  await choose(page, 'Shooting', /^multiple/)
+  await expect(page.getByTestId('segments-hint').textContent()).resolves.toMatch(/suggested \d+ from the record length/)
   await rig.screenshot(page, 'fit-flow-3-run-form')
   await page.getByRole('button', { name: 'Start fit' }).click()
   await page.waitForURL(/\/runs\/\d+$/).catch(async () => { await rig.screenshot(page, 'fit-flow-debug'); throw new Error(`no run page: ${errors.join(' | ')}`) })
@@ -99,6 +102,9 @@ it('goes from a CSV to a judged, exported fit in the browser', { timeout: 600_00
     await rig.screenshot(page, 'fit-flow-failed-results')
     throw new Error(`plots not drawn (${await page.locator('[data-testid="plot"] .main-svg').count()} svg): ${String(e)} ${errors.join(' | ')}`)
   }
+  // segment starts of the multiple-shooting fit: the note and dotted lines on the measured-vs-simulated plots
+  await expect(page.getByTestId('segments-note').textContent()).resolves.toMatch(/Multiple shooting over \d+ segments .*≤ tolerance/)
+  expect(await page.locator('[data-testid="plot"] .shapelayer path').count()).toBeGreaterThan(0)
   await rig.screenshot(page, 'fit-flow-4-results')
 
   const runUrl = page.url()

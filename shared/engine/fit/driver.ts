@@ -19,6 +19,7 @@ import { FitAborted, FitTimeout, type OptimiseResult, type ProgressInfo, type St
 import { buildResult } from './result'
 import { equationErrorEstimate, type EquationErrorEstimate } from './equation-error'
 import type { LandscapeRequest } from '../landscape'
+import type { SegmentRequest } from './multiple-shooting/segments'
 
 export interface FitOptions {
   method?: FitMethod
@@ -45,7 +46,7 @@ export interface FitOptions {
   /** equation-error (one-step-ahead OLS) estimate: 'compare' adds the comparison row, 'start' also starts from it */
   equationError?: 'compare' | 'start'
   /** multiple shooting (multiple-shooting/): segments per experiment or a segment length; absent: single shooting */
-  segments?: { segments?: number; segmentLength?: number }
+  segments?: SegmentRequest
   /** run the planned starts elsewhere (workers); must return one outcome per plan, in any order */
   runStarts?: (plans: StartPlan[]) => Promise<StartOutcome[]>
 }

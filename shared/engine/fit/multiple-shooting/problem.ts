@@ -26,6 +26,13 @@ import type { LsqProblem } from '../lsq'
 import type { FitProblem, PreparedExperiment } from '../problem'
 import { segmentStarts, type SegmentRequest } from './segments'
 
+/** Spreads one evaluation's segments over threads (parallel.ts). */
+export interface SegmentSharing {
+  evaluate(ms: MultipleShootingProblem, w: Float64Array, r: Float64Array, jac: Float64Array | null): boolean
+  /** simulations run on other threads */
+  readonly helperSimulations: number
+}
+
 export interface Segment {
   experiment: number
   /** index of the segment within its experiment */
@@ -65,6 +72,8 @@ export class MultipleShootingProblem implements LsqProblem {
   readonly lambda: Float64Array
   /** scaled defects ĥ at the last evaluation */
   readonly defects: Float64Array
+  /** evaluates the segments on other threads as well (parallel.ts); null: all in this thread */
+  sharing: SegmentSharing | null = null
   private readonly model: CompiledModel
   private readonly pBuf: Float64Array
   private readonly xBuf: Float64Array
@@ -132,7 +141,7 @@ export class MultipleShootingProblem implements LsqProblem {
   }
 
   get simulations(): number {
-    return this.base.simulations
+    return this.base.simulations + (this.sharing?.helperSimulations ?? 0)
   }
 
   /** Number of segments over all experiments. */
@@ -155,66 +164,77 @@ export class MultipleShootingProblem implements LsqProblem {
   }
 
   evaluate(w: Float64Array, r: Float64Array, jac: Float64Array | null): boolean {
+    if (this.sharing) return this.sharing.evaluate(this, w, r, jac)
+    if (jac) jac.fill(0)
+    for (let s = 0; s < this.segments.length; s++) {
+      if (!this.evaluateSegment(s, w, r, jac, this.defects)) return false
+    }
+    return true
+  }
+
+  /**
+   * One segment: its output residual rows, its defect rows (and scaled defects) and, with `jac`, its
+   * entries of the Jacobian (the others are left untouched: the caller zeroes `jac` once).
+   */
+  evaluateSegment(s: number, w: Float64Array, r: Float64Array, jac: Float64Array | null, defects: Float64Array): boolean {
+    const seg = this.segments[s]
     const base = this.base
     const model = this.model
     const nx = model.nx
     const ny = model.ny
     const m = this.m
     const sqrtMu = Math.sqrt(this.mu)
-    if (jac) jac.fill(0)
-    for (const seg of this.segments) {
-      const ex = base.experiments[seg.experiment]
-      const hasX0 = base.fillExperiment(w, seg.experiment, this.pBuf, this.xBuf)
-      let x0: Float64Array | undefined
-      if (seg.index === 0) x0 = hasX0 ? this.xBuf : undefined
-      else {
-        for (let j = 0; j < nx; j++) this.xBuf[j] = w[seg.sCol + j]
-        x0 = this.xBuf
+    const ex = base.experiments[seg.experiment]
+    const hasX0 = base.fillExperiment(w, seg.experiment, this.pBuf, this.xBuf)
+    let x0: Float64Array | undefined
+    if (seg.index === 0) x0 = hasX0 ? this.xBuf : undefined
+    else {
+      for (let j = 0; j < nx; j++) this.xBuf[j] = w[seg.sCol + j]
+      x0 = this.xBuf
+    }
+    const res = base.simulateExperiment(seg.prep, this.pBuf, x0, jac !== null)
+    if (!res) return false
+    const nP = seg.prep.sensParams.length
+    const ns = nP + seg.prep.sensStates.length
+    if (jac && ns > 0 && !res.dy) {
+      base.lastError = 'the simulation returned no sensitivities'
+      return false
+    }
+    // output residuals of the segment's samples
+    const { tIdx, oIdx, y, sqrtW, offset } = ex.obs
+    const yh = res.y
+    for (let i = seg.obs0; i < seg.obs1; i++) {
+      const row = (tIdx[i] - seg.k0) * ny + oIdx[i]
+      r[offset + i] = sqrtW[i] * (yh[row] - y[i])
+      if (!jac) continue
+      const dy = res.dy!
+      for (let q = 0; q < this.nTheta; q++) {
+        const c = this.columnOf(seg, ex, q)
+        if (c >= 0) jac[q * m + offset + i] = sqrtW[i] * dy[row * ns + c]
       }
-      const res = base.simulateExperiment(seg.prep, this.pBuf, x0, jac !== null)
-      if (!res) return false
-      const nP = seg.prep.sensParams.length
-      const ns = nP + seg.prep.sensStates.length
-      if (jac && ns > 0 && !res.dy) {
-        base.lastError = 'the simulation returned no sensitivities'
-        return false
+      if (seg.sCol >= 0) {
+        for (let j = 0; j < nx; j++) jac[(seg.sCol + j) * m + offset + i] = sqrtW[i] * dy[row * ns + nP + j]
       }
-      // output residuals of the segment's samples
-      const { tIdx, oIdx, y, sqrtW, offset } = ex.obs
-      const yh = res.y
-      for (let i = seg.obs0; i < seg.obs1; i++) {
-        const row = (tIdx[i] - seg.k0) * ny + oIdx[i]
-        r[offset + i] = sqrtW[i] * (yh[row] - y[i])
-        if (!jac) continue
-        const dy = res.dy!
-        for (let q = 0; q < this.nTheta; q++) {
-          const c = this.columnOf(seg, ex, q)
-          if (c >= 0) jac[q * m + offset + i] = sqrtW[i] * dy[row * ns + c]
-        }
-        if (seg.sCol >= 0) {
-          for (let j = 0; j < nx; j++) jac[(seg.sCol + j) * m + offset + i] = sqrtW[i] * dy[row * ns + nP + j]
-        }
+    }
+    // continuity defect at the segment's end
+    if (seg.dRow < 0) return true
+    const kEnd = seg.k1 - seg.k0
+    for (let j = 0; j < nx; j++) {
+      const h = (res.x[kEnd * nx + j] - w[seg.nextCol + j]) / this.stateScale[j]
+      const d = seg.dRow + j
+      defects[d] = h
+      r[this.mOut + d] = sqrtMu * h + this.lambda[d] / (2 * sqrtMu)
+      if (!jac) continue
+      const dx = res.dx!
+      const f = sqrtMu / this.stateScale[j]
+      const rowIdx = this.mOut + d
+      const at = (kEnd * nx + j) * ns
+      for (let q = 0; q < this.nTheta; q++) {
+        const c = this.columnOf(seg, ex, q)
+        if (c >= 0) jac[q * m + rowIdx] = f * dx[at + c]
       }
-      // continuity defect at the segment's end
-      if (seg.dRow < 0) continue
-      const kEnd = seg.k1 - seg.k0
-      for (let j = 0; j < nx; j++) {
-        const h = (res.x[kEnd * nx + j] - w[seg.nextCol + j]) / this.stateScale[j]
-        const d = seg.dRow + j
-        this.defects[d] = h
-        r[this.mOut + d] = sqrtMu * h + this.lambda[d] / (2 * sqrtMu)
-        if (!jac) continue
-        const dx = res.dx!
-        const f = sqrtMu / this.stateScale[j]
-        const rowIdx = this.mOut + d
-        const at = (kEnd * nx + j) * ns
-        for (let q = 0; q < this.nTheta; q++) {
-          const c = this.columnOf(seg, ex, q)
-          if (c >= 0) jac[q * m + rowIdx] = f * dx[at + c]
-        }
-        if (seg.sCol >= 0) for (let jj = 0; jj < nx; jj++) jac[(seg.sCol + jj) * m + rowIdx] = f * dx[at + nP + jj]
-        jac[(seg.nextCol + j) * m + rowIdx] = -f
-      }
+      if (seg.sCol >= 0) for (let jj = 0; jj < nx; jj++) jac[(seg.sCol + jj) * m + rowIdx] = f * dx[at + nP + jj]
+      jac[(seg.nextCol + j) * m + rowIdx] = -f
     }
     return true
   }

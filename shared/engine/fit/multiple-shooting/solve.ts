@@ -33,6 +33,7 @@ import { fitFromStart, makeProblem, pickBest, planStarts, resolveTolerances, typ
 import { buildResult } from '../result'
 import { MultipleShootingProblem } from './problem'
 import type { SegmentRequest } from './segments'
+import { SharedSegments } from './parallel'
 
 /** Penalty rounds at most. */
 export const MAX_PENALTY_ROUNDS = 12
@@ -148,9 +149,19 @@ export async function shootFromStart(
   }
 }
 
-export interface MultipleShootingRun {
-  outcomes: StartOutcome[]
-  shooting: ShootingOutcome[]
+/** Runs `shoot` with the segments shared with helper threads when the host offers them (parallel.ts). */
+async function shareWhileShooting<T>(ms: MultipleShootingProblem, req: SegmentRequest, shoot: () => Promise<T>): Promise<T> {
+  if (!req.share || ms.segmentCount < 2) return shoot()
+  const shared = new SharedSegments(ms)
+  const release = req.share(shared.buffer, ms.segmentCount)
+  ms.sharing = shared
+  try {
+    return await shoot()
+  } finally {
+    ms.sharing = null
+    shared.close()
+    release()
+  }
 }
 
 /**
@@ -175,7 +186,7 @@ export async function runMultipleShootingFit(
   for (const plan of plans) {
     if (opts.signal?.aborted) break
     if (deadline !== undefined && Date.now() > deadline && outcomes.length > 0) break
-    const shot = await shootFromStart(ms, plan.theta, opts, deadline, plan.index)
+    const shot = await shareWhileShooting(ms, opts.segments, () => shootFromStart(ms, plan.theta, opts, deadline, plan.index))
     shots.push(shot)
     const polished = await fitFromStart(model, spec, { ...plan, theta: shot.theta }, opts, simulate, deadline)
     const status: StopStatus = shot.status === 'aborted' || polished.status === 'aborted' ? 'aborted'
