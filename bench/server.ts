@@ -1,6 +1,8 @@
 /**
- * `npm run bench:server`: /api/health latency (p50, p99) with the server idle and while two fits run
- * in the embedded worker-thread pool (a benchmark, not a test). Starts a throw-away PostgreSQL unless
+ * `npm run bench:server`: /api/health latency (p50, p99, max) with the server idle, while two fits run
+ * in the embedded worker-thread pool, and while each hostile request (a sheet whose generated code is
+ * too large, a CSV of 200 001 columns, 100 000 exclusion windows, resampling plus a wide outlier window)
+ * is in flight (a benchmark, not a test). Starts a throw-away PostgreSQL unless
  * DATABASE_URL is set; the fits are multi-start fits of the invented demo project (seeded synthetic
  * data of the fictional Tinmoor Works plant).
  */
@@ -16,6 +18,7 @@ import { createContext } from '../server/bootstrap'
 import { seedDemoProject } from '../server/services/demo-project'
 import { datasets, projects, runs } from '../server/db/schema'
 import type { ThreadRunner } from '../server/jobs/thread-runner'
+import { DEMO_PASSWORD } from '../server/db/seed'
 
 const SAMPLES = Number(process.env.BENCH_SAMPLES ?? 400)
 
@@ -30,6 +33,47 @@ async function health(base: string): Promise<number> {
   await r.arrayBuffer()
   if (r.status !== 200) throw new Error(`/api/health answered ${r.status}`)
   return performance.now() - t0
+}
+
+/** The requests that used to freeze the event loop (invented data), each answered with a 4xx naming a limit. */
+async function hostileRequests(base: string) {
+  const headers = { 'Content-Type': 'application/json', 'X-Requested-With': 'pewter' }
+  const signin = await fetch(`${base}/api/auth/signin`, { method: 'POST', headers, body: JSON.stringify({ email: 'modeler@tinmoor.example', password: DEMO_PASSWORD }) })
+  const cookie = (signin.headers.get('set-cookie') ?? '').split(';')[0]
+  const auth = { ...headers, Cookie: cookie }
+  const ws = `${base}/api/workspaces/tinmoor`
+  const json = async (r: Promise<Response>) => { const x = await r; return { status: x.status, body: await x.json() as Record<string, any> } }
+  const post = (url: string, body: unknown) => fetch(url, { method: 'POST', headers: auth, body: JSON.stringify(body) })
+  const project = await json(post(`${ws}/projects`, { name: 'Hostile requests (bench, synthetic)' }))
+  const pid = project.body.id as number
+  const uploadCsv = (text: string, name: string) => {
+    const form = new FormData()
+    form.append('file', new Blob([text], { type: 'text/csv' }), name)
+    return fetch(`${ws}/projects/${pid}/datasets`, { method: 'POST', headers: { 'X-Requested-With': 'pewter', Cookie: cookie }, body: form })
+  }
+  const rows = Array.from({ length: 1000 }, (_, k) => `${k},${Math.sin(k / 10).toFixed(4)},${(k % 7) / 7}`)
+  const ds = await json(uploadCsv(['t [s],level [m],valve', ...rows].join('\n'), 'thousand.csv'))
+  const lines = Array.from({ length: 40 }, (_, i) => `state x${i} = 1 [1]\nx${i}' = k*(${Array(60).fill(`x${i}`).join('^')})`)
+  const model = await json(post(`${ws}/models`, { title: 'Power chains (bench, synthetic)', text: `param k = 1 [1/s] in [0, 2]\n${lines.join('\n')}\noutput y = x1` }))
+  const wide = `${['t', ...Array.from({ length: 200_000 }, (_, i) => `c${i}`)].join(',')}\n${['0', ...Array(200_000).fill('1')].join(',')}\n`
+  // bodies built before the clock starts (this process is also the client)
+  const windows = JSON.stringify({ steps: [{ op: 'exclude', windows: Array.from({ length: 100_000 }, (_, i) => [i, i + 0.5]) }] })
+  const cases: [string, () => Promise<Response>][] = [
+    ['run of a too-large sheet', () => post(`${ws}/projects/${pid}/runs`, { modelId: model.body.id, version: 1, estimation: [ds.body.id] })],
+    ['CSV of 200 001 columns', () => uploadCsv(wide, 'wide.csv')],
+    ['100 000 exclusion windows', () => fetch(`${ws}/datasets/${ds.body.id}/condition`, { method: 'POST', headers: auth, body: windows })],
+    ['resample + outlier window', () => post(`${ws}/datasets/${ds.body.id}/condition`, { steps: [{ op: 'resample', step: 0.001 }, { op: 'outliers', halfWindow: 500 }] })],
+  ]
+  const out: { name: string; ms: number[]; status: number; totalMs: number }[] = []
+  for (const [name, send] of cases) {
+    let done = false
+    const t0 = performance.now()
+    const answer = send().then(async (r) => { await r.arrayBuffer(); done = true; return r.status })
+    const ms: number[] = []
+    while (!done) ms.push(await health(base))
+    out.push({ name, ms, status: await answer, totalMs: performance.now() - t0 })
+  }
+  return out
 }
 
 async function main() {
@@ -96,6 +140,7 @@ async function main() {
     const fitMs = Date.now() - fitStart
     await pool.idle()
     const finals = await context.db.select({ id: runs.id, status: runs.status, started: runs.startedAt, finished: runs.finishedAt }).from(runs).where(eq(runs.projectId, project.id))
+    const hostile = await hostileRequests(base)
     await new Promise<void>((r) => server.close(() => r()))
 
     const f = (v: number) => v.toFixed(2).padStart(8)
@@ -106,6 +151,11 @@ async function main() {
     console.log(`\n"two fits run": sampled while both fits ran (checked every 20 requests${endedEarly ? `; the first fit ended after ${(fitMs / 1000).toFixed(1)} s` : ''})`)
     for (const r of finals.filter((x) => ids.includes(x.id))) {
       console.log(`fit #${r.id}: ${r.status} in ${((r.finished!.getTime() - r.started!.getTime()) / 1000).toFixed(1)} s`)
+    }
+    console.log(`\n/api/health latency (ms) while each hostile request runs (sequential health requests until it answers)`)
+    console.log(`                                   p50       p99       max   samples  answer`)
+    for (const h of hostile) {
+      console.log(`${h.name.padEnd(30)} ${f(quantile(h.ms, 0.5))}  ${f(quantile(h.ms, 0.99))}  ${f(Math.max(...h.ms))}  ${String(h.ms.length).padStart(8)}  ${h.status} in ${(h.totalMs / 1000).toFixed(1)} s`)
     }
   } finally {
     await context.database.close()

@@ -107,9 +107,29 @@ export class RunPool {
    * Runs a named export of thread-task.ts (not a run: no claim, no heartbeat) on one of the pool's
    * threads, e.g. a cost landscape. Queues behind the threads' current work; `signal` terminates it.
    */
-  runHelperTask<T>(name: string, task: unknown, signal?: AbortSignal): Promise<T> {
-    if (this.closed) return Promise.reject(new Error('the worker pool is closed'))
-    return this.piscina.run(task, { name, ...(signal ? { signal } : {}) }) as Promise<T>
+  async runHelperTask<T>(name: string, task: unknown, signal?: AbortSignal): Promise<T> {
+    if (this.closed) throw new Error('the worker pool is closed')
+    // fits go first: such a task takes a thread only when no fit is waiting for one
+    await this.lowSlot(signal)
+    try {
+      if (this.closed) throw new Error('the worker pool is closed')
+      return await (this.piscina.run(task, { name, ...(signal ? { signal } : {}) }) as Promise<T>)
+    } finally {
+      this.release()
+    }
+  }
+
+  private lowWaiters: (() => void)[] = []
+
+  private async lowSlot(signal?: AbortSignal) {
+    while (this.running >= this.o.threads || this.waiters.length > 0) {
+      if (signal?.aborted) throw signal.reason ?? new Error('aborted')
+      await new Promise<void>((r) => {
+        this.lowWaiters.push(r)
+        signal?.addEventListener('abort', () => { this.lowWaiters = this.lowWaiters.filter((w) => w !== r); r() }, { once: true })
+      })
+    }
+    this.running++
   }
 
   /** Executes a run when a thread is free; resolves once the run is final (or was not ours to run). */
@@ -127,7 +147,8 @@ export class RunPool {
 
   private release() {
     this.running--
-    this.waiters.shift()?.()
+    const next = this.waiters.shift() ?? this.lowWaiters.shift()
+    next?.()
   }
 
   private async executeInner(runId: number): Promise<ExecuteOutcome> {

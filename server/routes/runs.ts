@@ -119,7 +119,7 @@ export function runRoutes() {
     const row = await runs.getRunRow(ctx(req).db, req.workspace!.id, intParam(req.params, 'rid'))
     if (row.status !== 'succeeded') throw badRequest(`Run ${row.id} has no result (status ${row.status})`)
     // computed in a worker thread (never on this event loop), time-limited, cached on the run
-    const answer = await runLandscape(ctx(req), row, q.a, q.b, q.n)
+    const answer = await runLandscape(ctx(req), row, q.a, q.b, q.n, req.auth!.userId)
     res.setHeader('X-Pewter-Landscape', answer.cached ? 'cached' : 'computed')
     res.json(answer.landscape)
   })

@@ -10,15 +10,22 @@ import { and, eq, sql } from 'drizzle-orm'
 import type { AppContext } from '../context'
 import { runs } from '../db/schema'
 import { badRequest, HttpError } from '../errors'
+import { errorCodes } from '../../shared/api/errors'
 import { RunPool, threadExecArgv } from '../jobs/pool'
 import type { LandscapeOutcome, LandscapeTask } from '../jobs/thread-task'
 import type { LandscapeResult } from '../../shared/api/fit'
 
 export const LANDSCAPE_TIME_LIMIT_MS = 60_000
-/** at most this many grids are cached per run (each is at most 41 × 41 costs) */
+/** at most this many grids are cached per run (each is at most 41 × 41 costs); the least recently used goes first */
 export const LANDSCAPE_CACHE_MAX = 16
 /** the key under a run's result that holds the cached grids (not part of the fit result) */
 export const LANDSCAPE_CACHE_FIELD = 'landscapes'
+/** the cache keys from least to most recently used */
+export const LANDSCAPE_ORDER_FIELD = 'landscapesUsed'
+/** landscapes one user may have computing at once (more answer 429) */
+export const LANDSCAPE_PER_USER = 2
+
+const computing = new Map<number, number>()
 
 export const landscapeKey = (a: string, b: string, n: number) => `${a}|${b}|${n}`
 
@@ -57,10 +64,34 @@ export interface LandscapeAnswer { landscape: LandscapeResult; cached: boolean; 
  * row when present, else computed in a worker thread and stored. Input problems → 400; the time limit
  * → 503 with a message naming it.
  */
-export async function runLandscape(context: AppContext, row: RunRow, a: string, b: string, n: number, limitMs = LANDSCAPE_TIME_LIMIT_MS): Promise<LandscapeAnswer> {
+export async function runLandscape(context: AppContext, row: RunRow, a: string, b: string, n: number, userId: number, limitMs = LANDSCAPE_TIME_LIMIT_MS): Promise<LandscapeAnswer> {
   const key = landscapeKey(a, b, n)
-  const cache = ((row.result as Record<string, unknown> | null)?.[LANDSCAPE_CACHE_FIELD] ?? {}) as Record<string, LandscapeResult>
-  if (cache[key]) return { landscape: cache[key], cached: true, on: null }
+  const result = row.result as Record<string, unknown> | null
+  const cache = (result?.[LANDSCAPE_CACHE_FIELD] ?? {}) as Record<string, LandscapeResult>
+  const order = ((result?.[LANDSCAPE_ORDER_FIELD] ?? Object.keys(cache)) as string[]).filter((k) => k in cache)
+  if (cache[key]) {
+    await storeLandscapes(context, row.id, cache, touch(order, key)).catch(() => {})
+    return { landscape: cache[key], cached: true, on: null }
+  }
+  const mine = computing.get(userId) ?? 0
+  if (mine >= LANDSCAPE_PER_USER) {
+    throw new HttpError(429, errorCodes.rateLimited, `You already have ${mine} landscapes computing (at most ${LANDSCAPE_PER_USER} at once per user); wait for them to finish.`)
+  }
+  computing.set(userId, mine + 1)
+  try {
+    return await computeLandscape(context, row, a, b, n, cache, order, limitMs)
+  } finally {
+    const left = (computing.get(userId) ?? 1) - 1
+    if (left > 0) computing.set(userId, left)
+    else computing.delete(userId)
+  }
+}
+
+/** `order` with `key` moved (or added) to the most recent end */
+const touch = (order: string[], key: string) => [...order.filter((k) => k !== key), key]
+
+async function computeLandscape(context: AppContext, row: RunRow, a: string, b: string, n: number, cache: Record<string, LandscapeResult>, order: string[], limitMs: number): Promise<LandscapeAnswer> {
+  const key = landscapeKey(a, b, n)
 
   const pool = poolOf(context)
   const task: LandscapeTask = { runId: row.id, databaseUrl: context.config.databaseUrl, a, b, n }
@@ -80,21 +111,24 @@ export async function runLandscape(context: AppContext, row: RunRow, a: string, 
     if (outcome.input) throw badRequest(outcome.message)
     throw new Error(`The landscape of run ${row.id} could not be computed: ${outcome.message}`)
   }
-  if (Object.keys(cache).length < LANDSCAPE_CACHE_MAX) await storeLandscape(context, row.id, key, outcome.landscape).catch(() => {})
+  // least recently used out when full
+  let used = touch(order, key)
+  const kept: Record<string, LandscapeResult> = { ...cache, [key]: outcome.landscape }
+  while (used.length > LANDSCAPE_CACHE_MAX) delete kept[used.shift()!]
+  await storeLandscapes(context, row.id, kept, used).catch(() => {})
   return { landscape: outcome.landscape, cached: false, on: pool ? 'job-pool' : 'local-thread' }
 }
 
-/** Adds one grid to the run's cache; only touches a succeeded run's result, never replaces other keys. */
-async function storeLandscape(context: AppContext, runId: number, key: string, landscape: LandscapeResult) {
-  const field = LANDSCAPE_CACHE_FIELD
+/** Writes the run's grid cache and its use order; only touches a succeeded run's result. */
+async function storeLandscapes(context: AppContext, runId: number, cache: Record<string, LandscapeResult>, order: string[]) {
   await context.db.update(runs).set({
-    result: sql`jsonb_set(${runs.result}, ${`{${field}}`}::text[], coalesce(${runs.result} -> ${field}, '{}'::jsonb) || jsonb_build_object(${key}::text, ${JSON.stringify(landscape)}::jsonb))`,
+    result: sql`${runs.result} || jsonb_build_object(${LANDSCAPE_CACHE_FIELD}::text, ${JSON.stringify(cache)}::jsonb, ${LANDSCAPE_ORDER_FIELD}::text, ${JSON.stringify(order)}::jsonb)`,
   }).where(and(eq(runs.id, runId), eq(runs.status, 'succeeded'), sql`${runs.result} is not null`))
 }
 
 /** A run's result as the API shows it: without the landscape cache. */
 export function withoutLandscapeCache<T extends { result: Record<string, unknown> | null }>(run: T): T {
-  if (!run.result || !(LANDSCAPE_CACHE_FIELD in run.result)) return run
-  const { [LANDSCAPE_CACHE_FIELD]: _cache, ...result } = run.result
+  if (!run.result || !(LANDSCAPE_CACHE_FIELD in run.result || LANDSCAPE_ORDER_FIELD in run.result)) return run
+  const { [LANDSCAPE_CACHE_FIELD]: _cache, [LANDSCAPE_ORDER_FIELD]: _order, ...result } = run.result
   return { ...run, result }
 }

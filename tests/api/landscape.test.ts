@@ -10,7 +10,9 @@ import request from 'supertest'
 import { eq } from 'drizzle-orm'
 import { CSRF, demo, makeTestApp, signedIn, type Agent, type TestApp } from '../helpers/app'
 import { bufferVesselCsv } from '../../server/services/demo-project'
-import { closeLocalLandscapePool, LANDSCAPE_CACHE_FIELD, landscapeKey, runLandscape } from '../../server/services/landscape'
+import { closeLocalLandscapePool, LANDSCAPE_CACHE_FIELD, LANDSCAPE_CACHE_MAX, LANDSCAPE_ORDER_FIELD, LANDSCAPE_PER_USER, landscapeKey, runLandscape } from '../../server/services/landscape'
+import type { ThreadRunner } from '../../server/jobs/thread-runner'
+import { waitFor } from '../helpers/jobs'
 import { computeLandscape } from '../../server/services/fit-execution'
 import { HttpError } from '../../server/errors'
 import { runs } from '../../server/db/schema'
@@ -99,7 +101,7 @@ describe('landscape off the event loop', () => {
   it('without a job pool (queue mode) computes on a local thread, equal to the in-process computation', async () => {
     const noPool = { ...t.context, services: {} }
     const row = await rowOf(runId)
-    const answer = await runLandscape(noPool, row, 'tau', 'UA', 6)
+    const answer = await runLandscape(noPool, row, 'tau', 'UA', 6, 0)
     expect(answer.on).toBe('local-thread')
     expect(answer.cached).toBe(false)
     const direct = await computeLandscape(t.context.db, row, 'tau', 'UA', 6)
@@ -109,11 +111,56 @@ describe('landscape off the event loop', () => {
   it('stops a landscape that exceeds its time limit with a clear 503', async () => {
     const noPool = { ...t.context, services: {} }
     const row = await rowOf(runId)
-    const err = await runLandscape(noPool, row, 'UA', 'tau', 9, 1).then(() => null, (e: unknown) => e)
+    const err = await runLandscape(noPool, row, 'UA', 'tau', 9, 0, 1).then(() => null, (e: unknown) => e)
     expect(err).toBeInstanceOf(HttpError)
     expect((err as HttpError).status).toBe(503)
     expect((err as HttpError).message).toMatch(/exceeded the time limit of 1 ms .*was stopped/)
     const cache = ((await rowOf(runId)).result as Record<string, any>)[LANDSCAPE_CACHE_FIELD]
     expect(cache[landscapeKey('UA', 'tau', 9)]).toBeUndefined()
   }, 60_000)
+
+  it(`a user gets 429 past ${LANDSCAPE_PER_USER} landscapes computing at once; another user is not held back`, async () => {
+    const viewer = await signedIn(t.app, demo.viewer)
+    const grids = [7, 8, 9, 10].map((n) => viewer.get(`${WS}/runs/${runId}/landscape?a=tau&b=UA&n=${n}`).then((r) => r))
+    const answers = await Promise.all(grids)
+    const limited = answers.filter((r) => r.status === 429)
+    expect(limited.length).toBe(4 - LANDSCAPE_PER_USER)
+    expect(limited[0].body.error.message).toContain(`at most ${LANDSCAPE_PER_USER} at once per user`)
+    expect(answers.filter((r) => r.status === 200).length).toBe(LANDSCAPE_PER_USER)
+    const other = await modeler.get(`${WS}/runs/${runId}/landscape?a=tau&b=UA&n=11`)
+    expect(other.status).toBe(200)
+  }, 120_000)
+
+  it(`keeps the ${LANDSCAPE_CACHE_MAX} most recently used grids (least recently used out)`, async () => {
+    const grid = (n: number) => modeler.get(`${WS}/runs/${runId}/landscape?a=UA&b=tau&n=${n}`)
+    // touch the n = 5 grid cached by the first test, then fill the cache past its size with small grids
+    expect((await grid(5)).headers['x-pewter-landscape']).toBe('cached')
+    for (let n = 6; n < 6 + LANDSCAPE_CACHE_MAX - 1; n++) {
+      expect((await grid(n)).status).toBe(200)
+      if (n === 6) expect((await grid(5)).headers['x-pewter-landscape']).toBe('cached') // 5 stays recent
+    }
+    const result = (await rowOf(runId)).result as Record<string, any>
+    const keys = Object.keys(result[LANDSCAPE_CACHE_FIELD])
+    expect(keys).toHaveLength(LANDSCAPE_CACHE_MAX)
+    expect(result[LANDSCAPE_ORDER_FIELD]).toHaveLength(LANDSCAPE_CACHE_MAX)
+    expect(keys).toContain(landscapeKey('UA', 'tau', 5))
+    // the grid least recently used (the 41 × 41 of the first test) was dropped, and is computed again
+    expect(keys).not.toContain(landscapeKey('UA', 'tau', 41))
+    const again = await modeler.get(`${WS}/runs/${runId}/landscape?a=UA&b=tau&n=41`)
+    expect(again.headers['x-pewter-landscape']).toBe('computed')
+    const shown = await modeler.get(`${WS}/runs/${runId}`)
+    expect(shown.body.result[LANDSCAPE_ORDER_FIELD]).toBeUndefined()
+  }, 240_000)
+
+  it('a fit waiting for a thread goes before a landscape waiting for one', async () => {
+    const pool = (t.context.services.jobs as ThreadRunner).pool
+    const order: string[] = []
+    // occupy every thread with landscapes, then queue one more landscape and one fit
+    const busy = Array.from({ length: pool.size }, (_, i) => pool.runHelperTask('ping', null).then(() => order.push(`busy${i}`)))
+    await waitFor('every thread taken', async () => pool.busy >= pool.size)
+    const late = pool.runHelperTask('ping', null).then(() => order.push('landscape'))
+    const fit = pool.execute(999_999).then(() => order.push('fit')) // no such run: it takes a slot, claims nothing
+    await Promise.all([...busy, late, fit])
+    expect(order.indexOf('fit')).toBeLessThan(order.indexOf('landscape'))
+  }, 120_000)
 })
