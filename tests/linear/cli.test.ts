@@ -45,15 +45,18 @@ describe('pewter linearize', () => {
   it('applies a fit result file and propagates its covariance', async () => {
     // a synthetic fit result (no real fit): only the fields the hand-over reads are meaningful
     const fit = {
-      status: 'converged', reason: 'synthetic', sse: 1, iterations: 1, simulations: 1, elapsedMs: 1,
-      parameters: [{ name: 'a', experiment: null, unit: 'm^2', value: 0.0011, start: 0.001, stdError: 0.00002, ci95: [null, null], lower: 1e-5, upper: 0.1, atBound: null, logTransformed: true }],
+      status: 'converged', convergedBy: 'gradient', reasonStart: null, reason: 'synthetic', sse: 1, iterations: 1, simulations: 1, elapsedMs: 1,
+      parameters: [{ name: 'a', experiment: null, unit: 'm^2', value: 0.0011, start: 0.001, stdError: 0.00002, determined: true, ci95: [null, null], lower: 1e-5, upper: 0.1, atBound: null, logTransformed: true }],
       initialStates: [], outputs: [], correlation: { names: ['a'], matrix: [[1]] }, warnings: [],
       method: 'lm', weighting: 'sheet', nObservations: 10, nEstimated: 1, dof: 9, s2: 1, tQuantile: 2.26, aic: null, bic: null,
-      costHistory: [], starts: [], bestStart: 0, tolerances: { rtol: 1e-6, atol: 1e-9, ftol: 1e-8, xtol: 1e-8, gtol: 1e-8 }, landscape: null, equationError: null, cautions: [],
+      costHistory: [], starts: [], bestStart: 0, tolerances: { rtol: 1e-6, atol: 1e-9, ftol: 1e-8, xtol: 1e-8, gtol: 1e-8 }, landscape: null, equationError: null, cautions: [], notes: [],
+      identifiability: { cutoff: 1e-6, relativeSingularValues: [1], rank: 1, undetermined: [], combinations: [], advice: null },
+      validationStart: 'sheet', validationInitialStates: [],
     }
     const f = join(dir, 'fit.json')
     writeFileSync(f, JSON.stringify(fit))
     const r = await capture(linearize, [sheet, '--fit', f, '--json', '--frequencies', '0'])
+    expect(r.stderr).toBe('')
     expect(r.code).toBe(0)
     const a = JSON.parse(r.stdout)
     expect(a.parameters.find((p: { name: string }) => p.name === 'a').value).toBe(0.0011)
