@@ -10,6 +10,8 @@ import { BUFFER_TRUTH, bufferVesselCsv, seedDemoProject } from '../../server/ser
 import { RESULT_CAUTION } from '../../shared/api/runs'
 import { fitResult } from '../../shared/api/fit'
 import { bufferTemplate, newProject, upload, waitForRun, WS } from './runs-helpers'
+import { eq } from 'drizzle-orm'
+import { models } from '../../server/db/schema'
 
 let t: TestApp
 let modeler: Agent
@@ -240,7 +242,15 @@ describe('results hand-on', () => {
   })
 
   it('publishes a new model version with the estimates; its note links the run', async () => {
+    // a shipped template is read-only: publishing onto it is refused with the way out named
+    const refused = await admin.post(`${WS}/runs/${finished.id}/publish`).set(CSRF).send({ note: 'calibrated on B2' })
+    expect(refused.status).toBe(409)
+    expect(refused.body.error.message).toMatch(/read-only: fork it/)
+    // the same model as a workspace's own (no longer marked as a template) takes the new version
+    const [{ template }] = await t.context.db.select({ template: models.template }).from(models).where(eq(models.id, tv.modelId))
+    await t.context.db.update(models).set({ template: null }).where(eq(models.id, tv.modelId))
     const r = await admin.post(`${WS}/runs/${finished.id}/publish`).set(CSRF).send({ note: 'calibrated on B2' })
+    await t.context.db.update(models).set({ template }).where(eq(models.id, tv.modelId))
     expect(r.status).toBe(201)
     expect(r.body.number).toBe(tv.number + 1)
     expect(r.body.fromRunId).toBe(finished.id)
