@@ -8,6 +8,7 @@ import { loadTemplates, readTemplates, templatesFolder } from '../../server/serv
 import { checkSheet } from '../../server/services/sheet-check'
 import { blankSheet } from '../../src/composables/blankSheet'
 import { CSRF, demo, makeTestApp, signedIn, type TestApp } from '../helpers/app'
+import { signUpVerified } from '../helpers/signup'
 import { drainSheet, drainSheetWithError, lagSheet } from './library-sheets'
 
 let t: TestApp
@@ -101,10 +102,9 @@ describe('templates from models/', () => {
 
 describe('templates in every workspace, and the example project', () => {
   it('gives a new workspace the shipped templates, read-only and forkable', async () => {
-    const agent = (await import('supertest')).default.agent(t.app)
-    const r = await agent.post('/api/auth/signup').set(CSRF).send({ email: 'first.steps@example.org', password: 'long-enough-1', name: 'First Steps' })
-    expect(r.status).toBe(201)
-    const ws = r.body.workspaces[0].slug
+    // sign-up by the mailed confirmation link; the account and its workspace are made when it is followed
+    const { agent, me } = await signUpVerified(t, { email: 'first.steps@example.org', password: 'long-enough-tinmoor-1', name: 'First Steps' })
+    const ws = me.workspaces[0].slug
     const list = (await agent.get(`/api/workspaces/${ws}/models`).query({ tag: 'template', pageSize: 100 })).body.items
     expect(list.map((m: { template: string }) => m.template).sort()).toEqual(readTemplates().map((x) => x.file).sort())
     const buffer = list.find((m: { template: string }) => m.template === 'heated-buffer-vessel.sheet')

@@ -18,6 +18,8 @@ import { memberships, users, workspaces } from '../../server/db/schema'
 
 /**
  * Who gets in:
+ * - health: everyone, whatever they send: answered before sessions and tokens are read, so it answers
+ *   while the database (which holds both) is away
  * - public: everyone (a revoked token is still refused: a bad bearer header is always 401)
  * - public-browser: everyone but API tokens (accepting an invitation)
  * - user: any signed-in account, by session or token
@@ -26,10 +28,10 @@ import { memberships, users, workspaces } from '../../server/db/schema'
  *   role) has that capability; non-members get the workspace's 404
  * - member-session: any member, by session only (creating API tokens)
  */
-type Access = 'public' | 'public-browser' | 'user' | 'session' | 'read' | 'write' | 'approve' | 'administer' | 'member-session'
+type Access = 'health' | 'public' | 'public-browser' | 'user' | 'session' | 'read' | 'write' | 'approve' | 'administer' | 'member-session'
 
 const MATRIX: Record<string, Access> = {
-  'GET /api/health': 'public',
+  'GET /api/health': 'health',
   'POST /api/auth/signup': 'public',
   'GET /api/auth/verify-email/:token': 'public',
   'POST /api/auth/verify-email/:token': 'public',
@@ -127,6 +129,7 @@ const capability: Record<'read' | 'write' | 'approve' | 'administer', (r: Role) 
 
 /** What a caller should meet on a route of this access class. */
 function expected(access: Access, c: Caller): Outcome {
+  if (access === 'health') return 'allowed'
   if (c.kind === 'revoked-token') return 401
   if (access === 'public') return 'allowed'
   if (access === 'public-browser') return c.kind === 'token' ? 401 : 'allowed'
