@@ -26,7 +26,7 @@ describe('browser: the client shell', () => {
     await rig.signIn(page, demo.viewer)
     await page.waitForURL(/\/w\/tinmoor/)
     await page.goto(`${rig.baseUrl}/no/such/page`)
-    await expect.poll(() => page.getByText(/not found|404/i).count()).toBeGreaterThan(0)
+    await expect.poll(() => page.getByText(/not found|404/i).count(), { timeout: 20_000 }).toBeGreaterThan(0)
     await page.close()
   })
 })

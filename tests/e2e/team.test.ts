@@ -61,7 +61,8 @@ describe('browser: team administration and mail', () => {
     await rig.signIn(page, demo.admin)
     await page.waitForURL(/\/w\/tinmoor\//)
     await page.goto(`${rig.baseUrl}/w/tinmoor/team`)
-    await expect.poll(() => page.locator('[data-test="members"]').getByText(demo.modeler).count()).toBeGreaterThan(0)
+    // the machine is shared: give the page's chunks time to arrive
+    await expect.poll(() => page.locator('[data-test="members"]').getByText(demo.modeler).count(), { timeout: 20_000 }).toBeGreaterThan(0)
     await page.locator('input[name="invite-email"]').fill('browser.hire@example.org')
     await page.getByRole('button', { name: 'Send invitation' }).click()
     await expect.poll(() => page.locator('[data-test="invitations"]').getByText('browser.hire@example.org').count()).toBeGreaterThan(0)
