@@ -29,6 +29,7 @@ export function modelRoutes() {
   })
   router.patch('/:id', requireCapability('write'), async (req, res) => {
     const id = intParam(req.params, 'id')
+    await library.assertNotTemplate(ctx(req).db, actor(req), id)
     res.json(await library.updateModel(ctx(req).db, actor(req), id, parse(updateModelBody, req.body)))
   })
   router.put('/:id/maintainers', requireCapability('write'), async (req, res) => {
@@ -61,6 +62,7 @@ export function modelRoutes() {
   })
   router.post('/:id/versions', requireCapability('write'), async (req, res) => {
     const id = intParam(req.params, 'id')
+    await library.assertNotTemplate(ctx(req).db, actor(req), id)
     res.status(201).json(await library.publishVersion(ctx(req).db, actor(req), id, parse(publishBody, req.body)))
   })
   router.post('/:id/versions/:n/approve', requireCapability('approve'), async (req, res) => {
@@ -70,6 +72,7 @@ export function modelRoutes() {
 
   router.put('/:id/draft', requireCapability('write'), async (req, res) => {
     const id = intParam(req.params, 'id')
+    await library.assertNotTemplate(ctx(req).db, actor(req), id)
     res.json(await library.saveDraft(ctx(req).db, actor(req), id, parse(saveDraftBody, req.body)))
   })
   router.delete('/:id/draft', requireCapability('write'), async (req, res) => {

@@ -102,9 +102,14 @@ async function isMaintainer(db: Conn, modelId: number, userId: number): Promise<
   return r.length > 0
 }
 
+/** A shipped template is not edited in the library (editor, draft, details): it is forked. */
+export async function assertNotTemplate(db: Db, actor: Actor, modelId: number): Promise<void> {
+  const m = await getModelRow(db, actor.workspaceId, modelId)
+  if (m.template) throw conflict(`"${m.title}" is a template shipped with Pewter and is read-only: fork it (New model → A template) to make a model of your own.`)
+}
+
 /** Publishing and editing a model: a modeler who maintains it, or an admin. */
 async function assertMaintainer(db: Conn, actor: Actor, m: ModelRow) {
-  if (m.template) throw conflict(`"${m.title}" is a template shipped with Pewter and is read-only: fork it (New model → A template) to make a model of your own.`)
   if (actor.role === 'admin') return
   if (!can.write(actor.role)) throw forbidden(`Your role (${actor.role}) does not allow this: it needs the modeler or admin role.`)
   if (!(await isMaintainer(db, m.id, actor.userId))) {

@@ -29,16 +29,16 @@ async function pageAt(viewport: { width: number; height: number }): Promise<Page
 const sideways = (page: Page) => page.evaluate(() => document.documentElement.scrollWidth - window.innerWidth)
 
 /** The outermost elements reaching past the right edge (for the failure message). */
-const offenders = (page: Page) => page.evaluate(() => {
+const offenders = (page: Page) => page.evaluate(`(() => {
   const w = window.innerWidth
-  const out: string[] = []
+  const out = []
   for (const el of Array.from(document.querySelectorAll('body *'))) {
     const r = el.getBoundingClientRect()
-    const parent = el.parentElement?.getBoundingClientRect()
-    if (r.right > w + 1 && (!parent || parent.right <= w + 1)) out.push(`${el.tagName.toLowerCase()}.${String(el.className).split(' ').slice(0, 2).join('.')} right=${Math.round(r.right)}`)
+    const parent = el.parentElement ? el.parentElement.getBoundingClientRect() : null
+    if (r.right > w + 1 && (!parent || parent.right <= w + 1)) out.push(el.tagName.toLowerCase() + '.' + String(el.className).split(' ').slice(0, 2).join('.') + ' right=' + Math.round(r.right))
   }
   return out.slice(0, 8).join('; ')
-})
+})()`)
 
 async function signInOn(page: Page, email: string) {
   await page.goto(`${rig.baseUrl}/signin`)
