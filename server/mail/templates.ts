@@ -50,11 +50,11 @@ export function accountExistsMail(o: { to: string; signInLink: string; resetLink
   ], { href: o.resetLink, label: 'Reset the password' })
 }
 
-export function fitSettledMail(o: { to: string; runId: number; status: string; project: string; model: string; error?: string | null; link: string }): MailMessage {
+export function fitSettledMail(o: { to: string; runId: number; status: string; outcome?: string | null; project: string; model: string; error?: string | null; link: string }): MailMessage {
   const done = o.status === 'succeeded'
   return compose(o.to, done ? `Your fit #${o.runId} finished` : `Your fit #${o.runId} failed`, [
     done
-      ? `The fit #${o.runId} of ${o.model} in project "${o.project}" finished.`
+      ? `The fit #${o.runId} of ${o.model} in project "${o.project}" finished${o.outcome ? `; the optimiser's outcome: ${o.outcome}` : ''}.`
       : `The fit #${o.runId} of ${o.model} in project "${o.project}" failed${o.error ? `: ${o.error}` : '.'}`,
     ...(done ? ['A fitted model holds only within the range of the data it was fitted to; verify it before using it for control, protection or safety decisions.'] : []),
     'You get these messages because "e-mail me when my fits end" is on in your settings.',

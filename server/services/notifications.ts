@@ -8,6 +8,7 @@ import type { Mailer } from '../mail/mailer'
 import { modelMaintainers, models, projects, runs, users, workspaces } from '../db/schema'
 import { fitSettledMail, modelForkedMail } from '../mail/templates'
 import { createMailer } from '../mail/mailer'
+import { describeOutcome } from '../../shared/api/fit'
 
 export interface NotifyEnv { db: Db; mailer: Mailer; publicUrl: string }
 
@@ -16,7 +17,7 @@ const link = (env: NotifyEnv, path: string) => `${env.publicUrl.replace(/\/$/, '
 /** After a run is final: mails its creator when it succeeded or failed (not when cancelled). Returns whether a mail went out. */
 export async function notifyRunSettled(env: NotifyEnv, runId: number): Promise<boolean> {
   const [row] = await env.db
-    .select({ status: runs.status, error: runs.error, projectId: runs.projectId, project: projects.name, model: models.title, ws: workspaces.slug, email: users.email, notify: users.notifyOnFit })
+    .select({ status: runs.status, outcome: runs.outcome, convergedBy: runs.convergedBy, error: runs.error, projectId: runs.projectId, project: projects.name, model: models.title, ws: workspaces.slug, email: users.email, notify: users.notifyOnFit })
     .from(runs)
     .innerJoin(projects, eq(projects.id, runs.projectId))
     .innerJoin(models, eq(models.id, runs.modelId))
@@ -25,7 +26,7 @@ export async function notifyRunSettled(env: NotifyEnv, runId: number): Promise<b
     .where(eq(runs.id, runId)).limit(1)
   if (!row || !row.notify || (row.status !== 'succeeded' && row.status !== 'failed')) return false
   return env.mailer.send(fitSettledMail({
-    to: row.email, runId, status: row.status, project: row.project, model: row.model, error: row.error,
+    to: row.email, runId, status: row.status, outcome: row.outcome ? describeOutcome(row.outcome, row.convergedBy) : null, project: row.project, model: row.model, error: row.error,
     link: link(env, `/w/${row.ws}/runs/${runId}`),
   }))
 }

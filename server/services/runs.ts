@@ -21,7 +21,7 @@ import { columnsOf } from './datasets'
 import { autoMatch, checkMapping, checkMappingNames, getVersionRow, signalsOf } from './bindings'
 import { getProjectRow } from './projects'
 import { ENGINE_VERSION } from './fit-execution'
-import { publishVersion, type Actor } from './models'
+import { assertNotTemplate, publishVersion, type Actor } from './models'
 import { workspacePartTexts } from './part-library'
 import { toDeclared } from '../../shared/sheet/compiled'
 
@@ -311,6 +311,8 @@ function formatValue(v: number): string {
 export async function publishFromRun(db: Db, actor: Actor, runId: number, note: string | undefined) {
   const row = await getRunRow(db, actor.workspaceId, runId)
   const result = finishedResult(row)
+  // a shipped template stays read-only: its estimates go to a fork
+  await assertNotTemplate(db, actor, row.modelId)
   const [latest] = await db.select({ number: modelVersions.number }).from(modelVersions).where(eq(modelVersions.modelId, row.modelId)).orderBy(desc(modelVersions.number)).limit(1)
   const [v] = await db.select({ text: modelVersions.text }).from(modelVersions).where(and(eq(modelVersions.modelId, row.modelId), eq(modelVersions.number, row.modelVersion))).limit(1)
   if (!v || !latest) throw notFound('Model version')

@@ -209,6 +209,8 @@ describe('work notifications', () => {
     const done = await waitForMail(t.context.db, demo.modeler, { after, subject: new RegExp(`fit #${ok} finished`) })
     expect(done.text).toContain(`http://pewter.test/w/tinmoor/runs/${ok}`)
     expect(done.text).toMatch(/verify it before using it for control/)
+    // the optimiser's outcome in its words, apart from the lifecycle ("finished")
+    expect(done.text).toMatch(/the optimiser's outcome: converged \(cost-change test\)/)
 
     const bad = await insertRun(t.context.db, fx, { steps: 3, stepMs: 5, failAt: 2 })
     await jobs.enqueue(bad)

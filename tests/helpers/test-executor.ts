@@ -44,5 +44,5 @@ export async function executeRun(db: Db, runId: number, opts: ExecuteOptions = {
       return
     }
   }
-  await db.update(runs).set({ status: 'succeeded', finishedAt: sql`now()`, result: { sumOfSquares: sum, workerId: opts.workerId ?? null } }).where(eq(runs.id, runId))
+  await db.update(runs).set({ status: 'succeeded', outcome: 'converged', convergedBy: 'cost-change', finishedAt: sql`now()`, result: { sumOfSquares: sum, workerId: opts.workerId ?? null } }).where(eq(runs.id, runId))
 }
