@@ -13,6 +13,7 @@ const w = (ws: string) => `/api/workspaces/${encodeURIComponent(ws)}`
 export const listProjects = (ws: string) => api.get<{ projects: ProjectDto[] }>(`${w(ws)}/projects`).then((r) => r.projects)
 export const getProject = (ws: string, pid: number) => api.get<ProjectDto>(`${w(ws)}/projects/${pid}`)
 export const createProject = (ws: string, body: { name: string; description: string }) => api.post<ProjectDto>(`${w(ws)}/projects`, body, { silent: [400] })
+export const deleteProject = (ws: string, pid: number) => api.delete(`${w(ws)}/projects/${pid}`)
 /** "Try it on example data": a project with a template, invented traces and a first fit (queued). */
 export const startExampleProject = (ws: string) => api.post(`${w(ws)}/projects/example`, {}, { schema: exampleProjectReply })
 
@@ -24,6 +25,7 @@ export const getDatasetData = (ws: string, did: number, maxPoints = 5000) => api
 export const markDataset = (ws: string, did: number, purpose: DatasetPurpose | null) => api.patch<DatasetDto>(`${w(ws)}/datasets/${did}`, { purpose })
 export const conditionDataset = (ws: string, did: number, body: { name?: string; steps: ConditioningStep[] }) =>
   api.post<DatasetDto>(`${w(ws)}/datasets/${did}/condition`, body)
+export const deleteDataset = (ws: string, did: number) => api.delete(`${w(ws)}/datasets/${did}`)
 export const originalUrl = (ws: string, did: number) => `${w(ws)}/datasets/${did}/original`
 
 /** Upload a CSV (multipart field `file`); a refused file answers 400 naming row and column, shown by the caller. */
@@ -48,6 +50,7 @@ export const listRuns = (ws: string, pid?: number) =>
 export const getRun = (ws: string, rid: number) => api.get<RunDto>(`${w(ws)}/runs/${rid}`)
 export const startRun = (ws: string, pid: number, body: Partial<CreateRunBody>) => api.post<RunDto>(`${w(ws)}/projects/${pid}/runs`, body)
 export const cancelRun = (ws: string, rid: number) => api.post<RunDto>(`${w(ws)}/runs/${rid}/cancel`)
+export const deleteRun = (ws: string, rid: number) => api.delete(`${w(ws)}/runs/${rid}`)
 export const rerun = (ws: string, rid: number) => api.post<RunDto>(`${w(ws)}/runs/${rid}/rerun`)
 export const runEventsUrl = (ws: string, rid: number) => `${w(ws)}/runs/${rid}/events`
 export const exportUrl = (ws: string, rid: number, format: 'csv' | 'json') => `${w(ws)}/runs/${rid}/export?format=${format}`

@@ -26,7 +26,7 @@ async function pageAt(viewport: { width: number; height: number }): Promise<Page
 }
 
 /** Widest content minus the viewport: > 0 means the page scrolls sideways. */
-const sideways = (page: Page) => page.evaluate(() => document.documentElement.scrollWidth - window.innerWidth)
+const sideways = async (page: Page) => Number(await page.evaluate('document.documentElement.scrollWidth - window.innerWidth'))
 
 /** The outermost elements reaching past the right edge (for the failure message). */
 const offenders = (page: Page) => page.evaluate(`(() => {
