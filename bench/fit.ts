@@ -11,9 +11,6 @@
  *     predator–prey record from the sheet start 30 % off, and the open-loop unstable plant's closed-loop
  *     record; cost, time and simulations (a multiple-shooting simulation is one segment's).
  *     `npm run bench:fit -- shooting` prints this part alone.
- *  5. The segments of one multiple-shooting fit over threads (a longer predator–prey record, 2 000
- *     samples × 2 outputs, 40 segments): one thread against the fit's thread plus 1 helper thread
- *     sharing each evaluation's segments (server/jobs/segment-threads.ts); the speed-up.
  */
 import { spawnSync } from 'node:child_process'
 import { compileModel } from '../shared/sheet'
@@ -23,35 +20,6 @@ import { BOXBOD, MISRA1A, nistSheet, type NistProblem } from '../tests/fit/fixtu
 import { gaussian } from '../tests/fit/fixtures/synthetic'
 import { parseCsv } from '../shared/data/csv'
 import { LV_SHEET, lotkaVolterraSpec, UNSTABLE_SHEET, unstableSpec } from '../tests/fit/fixtures/shooting'
-import { SegmentThreads } from '../server/jobs/segment-threads'
-
-async function segmentThreads(helpers: number): Promise<string[][]> {
-  const model = compileModel(LV_SHEET)
-  const spec = lotkaVolterraSpec(5, 2000, 0.05)
-  const req = { segments: 40 }
-  const threads = new SegmentThreads(helpers)
-  await threads.warmUp()
-  const rows: string[][] = [['threads', 'SSE', 'ms (best of 3)', 'segment simulations', 'segments taken by helpers']]
-  let base = NaN
-  for (const share of [false, true]) {
-    const times: number[] = []
-    let sse = NaN
-    let sims = 0
-    const before = threads.served
-    for (let k = 0; k < 3; k++) {
-      const r = await runFit(model, spec, { segments: share ? { ...req, share: threads.share({ sheet: LV_SHEET, spec, options: {}, segments: req }) } : req })
-      times.push(r.elapsedMs)
-      sse = r.sse ?? NaN
-      sims = r.multipleShooting?.simulations ?? 0
-    }
-    await threads.idle()
-    const best = Math.min(...times)
-    if (!share) base = best
-    rows.push([share ? `1 + ${helpers} helper${helpers > 1 ? 's' : ''}` : '1', g(sse, 10), `${g(best)}${share ? ` (speed-up ${g(base / best, 3)}×)` : ''}`, String(sims), share ? String(threads.served - before) : '—'])
-  }
-  await threads.close()
-  return rows
-}
 
 async function shooting(): Promise<string[][]> {
   const rows: string[][] = [['case', 'method', 'SSE', 'ms', 'iterations', 'simulations', 'segment sims', 'continuity defect']]
@@ -227,8 +195,6 @@ async function main(): Promise<void> {
   if (process.argv.includes('shooting')) {
     console.log('single against multiple shooting only (`npm run bench:fit -- shooting`):')
     console.log(pad(await shooting()))
-    console.log('\nsegments of one multiple-shooting fit over threads (predator–prey, 2 000 samples, 40 segments):')
-    console.log(pad(await segmentThreads(1)))
     return
   }
   console.log('Pewter fit benchmark (prints figures; not a test). Machine: 2 shared cores; NIST times are the best of 15 (Pewter) and 5 (scipy) runs, medians in brackets.\n')
@@ -250,8 +216,6 @@ async function main(): Promise<void> {
   await scaling()
   console.log('\nsingle against multiple shooting from the sheet start (best of 3 runs; simulations count whole-record and segment simulations alike, segment sims are those of the shooting phase before the single-shooting polish):')
   console.log(pad(await shooting()))
-  console.log('\nsegments of one multiple-shooting fit over threads (predator–prey, 2 000 samples, 40 segments):')
-  console.log(pad(await segmentThreads(1)))
 }
 
 main().catch((e) => {

@@ -11,16 +11,14 @@ import { parseCsv, CsvError } from '../../shared/data/csv'
 import { experimentFromTable } from '../../shared/data/experiment'
 import { describeOutcome, type FitResult, type EstimateRow } from '../../shared/api/fit'
 import { ArgError, folderLibrary, splitOption } from './args'
-import { SegmentThreads } from '../jobs/segment-threads'
 
 const USAGE = `usage: pewter fit <sheet> <data.csv>… [--validate v.csv] [--method lm|nelder-mead] [--starts N]
   [--weighting sheet|equal|normalized|ml] [--set name=value …] [--fix a,b] [--free c,d] [--bounds c=lo:hi]
   [--local k] [--t0 t] [--rtol r] [--atol a] [--seed n] [--profile name] [--landscape a,b[,n]]
   [--equation-error compare|start] [--time-budget ms] [--solver auto|rk45|odex|stiff] [--max-iterations n] [--library DIR]
-  [--validation-start sheet|estimate] [--segments N | --segment-length T] [--threads N] [--json]
+  [--validation-start sheet|estimate] [--segments N | --segment-length T] [--json]
   --segments N, --segment-length T: multiple shooting, each record cut into N segments (or segments of
-  about T in the sheet's time unit), then a single-shooting polish; --threads N spreads each
-  evaluation's segments over N threads (default 1)`
+  about T in the sheet's time unit), then a single-shooting polish`
 
 interface Args {
   sheet: string
@@ -35,7 +33,6 @@ interface Args {
   local: string[]
   t0?: number
   opts: FitOptions
-  threads: number
   weighting: ProblemSpec['weighting']
   library: ResolvePart | null
 }
@@ -52,7 +49,7 @@ function list(v: string): string[] {
 
 export function parseArgs(argv: string[]): Args {
   const pos: string[] = []
-  const a: Args = { sheet: '', data: [], validate: [], json: false, set: [], fix: [], free: [], bounds: [], local: [], opts: {}, weighting: undefined, library: null, threads: 1 }
+  const a: Args = { sheet: '', data: [], validate: [], json: false, set: [], fix: [], free: [], bounds: [], local: [], opts: {}, weighting: undefined, library: null }
   for (let i = 0; i < argv.length; i++) {
     const arg = argv[i]
     if (!arg.startsWith('--')) {
@@ -154,12 +151,6 @@ export function parseArgs(argv: string[]): Args {
         a.opts.segments = { segmentLength: t }
         break
       }
-      case '--threads': {
-        const n = number(flag, value())
-        if (!Number.isInteger(n) || n < 1 || n > 64) throw new ArgError('--threads: a whole number from 1 to 64')
-        a.threads = n
-        break
-      }
       case '--time-budget': a.opts.timeBudgetMs = number(flag, value()); break
       case '--max-iterations': a.opts.maxIterations = number(flag, value()); break
       case '--validation-start': {
@@ -257,13 +248,7 @@ export async function run(argv: string[]): Promise<number> {
     throw e
   }
   let result: FitResult
-  const helpers = args.threads > 1 && args.opts.segments ? new SegmentThreads(args.threads - 1) : null
   try {
-    if (helpers && args.opts.segments) {
-      const { rtol, atol, solver, maxSteps } = args.opts
-      const segments = { segments: args.opts.segments.segments, segmentLength: args.opts.segments.segmentLength }
-      args.opts.segments = { ...segments, share: helpers.share({ sheet: texts.get(args.sheet)!, spec, options: { rtol, atol, solver, maxSteps }, segments }) }
-    }
     result = await runFit(model, spec, args.opts)
   } catch (e) {
     if (e instanceof FitInputError) {
@@ -271,8 +256,6 @@ export async function run(argv: string[]): Promise<number> {
       return e.kind === 'argument' ? 2 : 1
     }
     throw e
-  } finally {
-    await helpers?.close()
   }
   result.warnings = [...cliWarnings, ...result.warnings]
   if (args.json) process.stdout.write(JSON.stringify(result) + '\n')

@@ -7,8 +7,6 @@
  * - default export: executes one run; the parent sends `{ abort: reason }` on the task's MessagePort
  *   to cancel it cooperatively. Its multi-start plans are shared with helper threads (fan-out.ts).
  * - `helper`: lends this thread to another run's multi-start fit, fitting plans until none is left.
- * - `serveSegmentsTask`: a multiple-shooting helper (segment-threads.ts): builds the fit's segmented
- *   problem and takes segments on the shared block until the fit closes it; returns how many it took.
  * - `landscape`: the cost over a grid of two estimated quantities of a finished run (results page).
  */
 import { threadId, type MessagePort } from 'node:worker_threads'
@@ -21,12 +19,7 @@ import { runs } from '../db/schema'
 import { eq } from 'drizzle-orm'
 import { computeLandscape, RunInputError } from '../services/fit-execution'
 import type { LandscapeResult } from '../../shared/api/fit'
-import { makeProblem, type StartPlan } from '../../shared/engine/fit/driver'
-import { compileModel } from '../../shared/sheet'
-import { simulate } from '../../shared/engine/simulate'
-import { MultipleShootingProblem } from '../../shared/engine/fit/multiple-shooting/problem'
-import { serveSegments } from '../../shared/engine/fit/multiple-shooting/parallel'
-import type { SegmentSetup } from './segment-threads'
+import type { StartPlan } from '../../shared/engine/fit/driver'
 
 export interface RunTask {
   runId: number
@@ -126,13 +119,6 @@ export async function landscape(task: LandscapeTask): Promise<LandscapeOutcome> 
     const message = e instanceof Error ? e.message : String(e)
     return { ok: false, input: e instanceof RunInputError || /landscape/.test(message), message }
   }
-}
-
-export function serveSegmentsTask(m: { setup: SegmentSetup; buffer: SharedArrayBuffer }): number {
-  const model = compileModel(m.setup.sheet)
-  const base = makeProblem(model, m.setup.spec, simulate, m.setup.options)
-  const ms = new MultipleShootingProblem(base, m.setup.segments, m.setup.spec.bounds)
-  return serveSegments(ms, m.buffer)
 }
 
 /** Warm-up: boots the thread (module loading) and reports its id; held briefly so parallel pings land on distinct threads. */
