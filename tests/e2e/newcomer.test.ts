@@ -10,6 +10,7 @@ import { afterAll, beforeAll, describe, expect, it } from 'vitest'
 import type { Page } from 'playwright-core'
 import { startBrowserRig, type BrowserRig } from '../helpers/browser'
 import { demo } from '../helpers/app'
+import { capturedMail, mailTo } from '../helpers/signup'
 
 let rig: BrowserRig
 beforeAll(async () => { rig = await startBrowserRig('e2e_newcomer') })
@@ -75,7 +76,14 @@ describe('browser: first steps', () => {
     await page.getByLabel('Name').fill('Nia Newcomer')
     await page.getByLabel('E-mail').fill('nia.newcomer@example.org')
     await page.getByLabel('Password').fill('long-enough-password-1')
+    const after = capturedMail(rig.context).length
     await page.getByRole('button', { name: 'Create account' }).click()
+    // sign-up by the mailed link, with the password chosen at sign-up
+    await poll(() => page.locator('[data-test="signup-sent"]').count()).toBeGreaterThan(0)
+    const mail = await mailTo(rig.context, 'nia.newcomer@example.org', /Confirm your e-mail/, after)
+    await page.goto(/http\S+\/verify-email\/\S+/.exec(mail.text)![0])
+    await page.getByLabel('Password').fill('long-enough-password-1')
+    await page.getByRole('button', { name: 'Confirm and create the account' }).click()
     await page.waitForURL(/\/w\/[^/]+\/library/)
     // the shipped templates are in the new workspace's library
     await poll(() => page.getByText('Heated buffer vessel').count()).toBeGreaterThan(0)
