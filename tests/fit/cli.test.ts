@@ -115,7 +115,6 @@ describe('pewter fit', () => {
       [['misra.sheet'], /give a sheet file and at least one data file/],
       [['lv.sheet', 'lv.csv', '--segments', '2', '--segment-length', '1'], /give --segments or --segment-length, not both/],
       [['lv.sheet', 'lv.csv', '--segments', '0'], /--segments: a whole number from 1 to 10000/],
-      [['lv.sheet', 'lv.csv', '--segments', '4', '--threads', '0'], /--threads: a whole number from 1 to 64/],
       [['lv.sheet', 'lv.csv', '--segments', '40'], /lv.csv: 60 samples allow at most 30 segments/],
     ]
     const viaProcess = await pewter(cases[1][0])
