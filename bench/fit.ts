@@ -7,7 +7,7 @@
  *     feed input given on every row; prints time(100 k)/time(10 k) per fit and per simulation (goal ≤ 10),
  *     and the CSV parsing time of the same sheets of data.
  *  `npm run bench:fit -- --scaling` runs part 3 only.
- *  4. Single against multiple shooting (seeded synthetic data, tests/fit/fixtures/shooting.ts): the
+ *  4. Single against multiple shooting (seeded synthetic data, fixtures/fit/shooting.ts): the
  *     predator–prey record from the sheet start 30 % off, and the open-loop unstable plant's closed-loop
  *     record; cost, time and simulations (a multiple-shooting simulation is one segment's).
  *     `npm run bench:fit -- shooting` prints this part alone.
@@ -16,10 +16,10 @@ import { spawnSync } from 'node:child_process'
 import { compileModel } from '../shared/sheet'
 import { simulate } from '../shared/engine/simulate'
 import { runFit, type FitOptions, type ProblemSpec } from '../shared/engine/fit'
-import { BOXBOD, MISRA1A, nistSheet, type NistProblem } from '../tests/fit/fixtures/nist'
-import { gaussian } from '../tests/fit/fixtures/synthetic'
+import { BOXBOD, MISRA1A, nistSheet, type NistProblem } from '../fixtures/fit/nist'
+import { gaussian } from '../fixtures/fit/synthetic'
 import { parseCsv } from '../shared/data/csv'
-import { LV_SHEET, lotkaVolterraSpec, UNSTABLE_SHEET, unstableSpec } from '../tests/fit/fixtures/shooting'
+import { LV_SHEET, lotkaVolterraSpec, UNSTABLE_SHEET, unstableSpec } from '../fixtures/fit/shooting'
 
 async function shooting(): Promise<string[][]> {
   const rows: string[][] = [['case', 'method', 'SSE', 'ms', 'iterations', 'simulations', 'segment sims', 'continuity defect']]

@@ -2,22 +2,15 @@ import type { RequestHandler } from 'express'
 import { ctx } from '../context'
 import { forbidden, notFound, unauthenticated } from '../errors'
 import { findMembership } from '../services/workspaces'
+import { resolveApiToken } from '../services/api-tokens'
 import { can, roleRank, type Role } from '../../shared/api/auth'
 
-/** Optional bearer-token resolvers (API tokens) register here; the session cookie is the default. */
-export type TokenResolver = (req: Parameters<RequestHandler>[0], token: string) => Promise<NonNullable<Parameters<RequestHandler>[0]['auth']> | null>
-const tokenResolvers: TokenResolver[] = []
-export const registerTokenResolver = (r: TokenResolver) => { tokenResolvers.push(r) }
-
-/** Sets req.auth from a bearer token or the session. */
+/** Sets req.auth from a bearer token (an API token) or else the session cookie. */
 export const resolveAuth: RequestHandler = async (req, _res, next) => {
   const header = req.headers.authorization
   if (header?.startsWith('Bearer ')) {
-    const token = header.slice(7).trim()
-    for (const r of tokenResolvers) {
-      const auth = await r(req, token)
-      if (auth) { req.auth = auth; return next() }
-    }
+    const auth = await resolveApiToken(ctx(req).db, header.slice(7).trim())
+    if (auth) { req.auth = auth; return next() }
     return next(unauthenticated('The API token is invalid or revoked.'))
   }
   if (req.session?.userId) req.auth = { userId: req.session.userId, via: 'session' }

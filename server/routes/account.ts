@@ -1,13 +1,12 @@
 import { Router } from 'express'
 import { authAttemptLimiter } from '../middleware/rate-limit'
-import { eq } from 'drizzle-orm'
 import { ctx } from '../context'
 import { requireUser } from '../middleware/auth'
 import { parse } from '../middleware/validate'
 import { requestPasswordReset, resetPassword } from '../services/password-reset'
 import { audit } from '../services/audit'
 import { assertUncommonPassword } from '../auth/passwords'
-import { users } from '../db/schema'
+import { getSettings, updateSettings } from '../services/account-settings'
 import { passwordResetBody, passwordResetRequestBody, settingsBody } from '../../shared/api/team'
 
 /** /api/auth/password-reset… and /api/auth/settings (mounted beside the sign-in routes). */
@@ -31,13 +30,10 @@ export function accountRoutes(limitPerWindow: number) {
     res.json({ message: 'Your password has been changed and your API tokens revoked. Sign in with the new password.' })
   })
   router.get('/settings', requireUser, async (req, res) => {
-    const [u] = await ctx(req).db.select({ notifyOnFit: users.notifyOnFit }).from(users).where(eq(users.id, req.auth!.userId))
-    res.json(u)
+    res.json(await getSettings(ctx(req).db, req.auth!.userId))
   })
   router.put('/settings', requireUser, async (req, res) => {
-    const body = parse(settingsBody, req.body)
-    const [u] = await ctx(req).db.update(users).set({ notifyOnFit: body.notifyOnFit }).where(eq(users.id, req.auth!.userId)).returning({ notifyOnFit: users.notifyOnFit })
-    res.json(u)
+    res.json(await updateSettings(ctx(req).db, req.auth!.userId, parse(settingsBody, req.body)))
   })
   return router
 }

@@ -2,7 +2,7 @@ import { Router } from 'express'
 import { ctx } from '../context'
 import { requireSession } from '../middleware/auth'
 import { intParam } from '../middleware/validate'
-import { listOwnMail, readOwnMail } from '../services/mailbox'
+import { ownMailbox, readOwnMail } from '../services/mailbox'
 
 /**
  * /api/mailbox — the signed-in user's own captured local mail (development and demo installs; with a
@@ -11,8 +11,7 @@ import { listOwnMail, readOwnMail } from '../services/mailbox'
 export function mailboxRoutes() {
   const router = Router()
   router.get('/', requireSession, async (req, res) => {
-    const { config, services } = ctx(req)
-    res.json({ messages: await listOwnMail(ctx(req).db, req.auth!.userId), capturing: !config.smtpUrl || services.fakeSmtp === true || process.env.PEWTER_FAKE_SMTP === '1' })
+    res.json(await ownMailbox(ctx(req), req.auth!.userId))
   })
   router.get('/:mid', requireSession, async (req, res) => {
     res.json(await readOwnMail(ctx(req).db, req.auth!.userId, intParam(req.params, 'mid')))

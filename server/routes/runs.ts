@@ -17,7 +17,8 @@ import { exportCsv, exportJson } from '../services/reports'
 import { sheetCompiler } from '../services/request-work'
 import { deleteRun } from '../services/deletes'
 import { runLandscape, withoutLandscapeCache } from '../services/landscape'
-import { createRunBody, landscapeQuery, publishFromRunBody, saveParameterSetBody, terminalStatuses, type RunStatus } from '../../shared/api/runs'
+import { followRun } from '../services/run-progress'
+import { createRunBody, landscapeQuery, publishFromRunBody, saveParameterSetBody } from '../../shared/api/runs'
 
 const jobs = (req: Request) => ctx(req).services.jobs as JobRunner | undefined
 
@@ -36,9 +37,6 @@ export function projectRunRoutes() {
   return router
 }
 
-const SSE_POLL_MS = 250
-const SSE_KEEPALIVE_MS = 15_000
-
 export function runRoutes() {
   const router = Router({ mergeParams: true })
   router.get('/', requireCapability('read'), async (req, res) => {
@@ -49,12 +47,11 @@ export function runRoutes() {
     res.json(withoutLandscapeCache(await runs.getRun(ctx(req).db, req.workspace!.id, intParam(req.params, 'rid'))))
   })
 
-  /** Live progress: polls the run row (so it works whichever process runs the fit) and ends with the run. */
+  /** Live progress as server-sent events (services/run-progress follows the run row). */
   router.get('/:rid/events', requireCapability('read'), async (req, res) => {
     const rid = intParam(req.params, 'rid')
-    const db = ctx(req).db
-    const wsId = req.workspace!.id
-    const first = await runs.getRunState(db, wsId, rid)
+    const { db } = ctx(req)
+    const first = await runs.getRunState(db, req.workspace!.id, rid)
     if (!first) throw notFound('Run')
     res.status(200)
     res.setHeader('Content-Type', 'text/event-stream; charset=utf-8')
@@ -63,30 +60,14 @@ export function runRoutes() {
     res.setHeader('X-Accel-Buffering', 'no')
     res.flushHeaders()
     res.write('retry: 2000\n\n')
-    let last = ''
-    let closed = false
-    let busy = false
-    let sinceWrite = Date.now()
-    const send = (event: string, data: unknown) => {
-      res.write(`event: ${event}\ndata: ${JSON.stringify(data)}\n\n`)
-      sinceWrite = Date.now()
-    }
-    const stop = () => { closed = true; clearInterval(timer) }
-    const tick = async (state: Awaited<ReturnType<typeof runs.getRunState>>) => {
-      if (closed) return
-      if (!state) { send('end', { status: 'missing' }); stop(); res.end(); return }
-      const key = JSON.stringify(state)
-      if (key !== last) { last = key; send('progress', state) }
-      if (terminalStatuses.includes(state.status as RunStatus)) { send('end', { status: state.status, error: state.error }); stop(); res.end(); return }
-      if (Date.now() - sinceWrite > SSE_KEEPALIVE_MS) { res.write(': keep-alive\n\n'); sinceWrite = Date.now() }
-    }
-    const timer = setInterval(() => {
-      if (busy || closed) return
-      busy = true
-      runs.getRunState(db, wsId, rid).then(tick).catch(() => { stop(); res.end() }).finally(() => { busy = false })
-    }, SSE_POLL_MS)
+    const send = (event: string, data: unknown) => res.write(`event: ${event}\ndata: ${JSON.stringify(data)}\n\n`)
+    const stop = followRun(db, req.workspace!.id, rid, first, {
+      progress: (state) => send('progress', state),
+      end: (info) => { send('end', info); res.end() },
+      keepAlive: () => res.write(': keep-alive\n\n'),
+      failed: () => res.end(),
+    })
     req.on('close', stop)
-    await tick(first)
   })
 
   router.delete('/:rid', requireCapability('write'), async (req, res) => {

@@ -10,7 +10,6 @@ import { forbidden, notFound } from '../errors'
 import { roleRank, type Role } from '../../shared/api/auth'
 import type { ApiTokenDto, CreatedTokenReply, CreateTokenBody } from '../../shared/api/team'
 import { hashSecret, newSecret } from './secrets'
-import type { TokenResolver } from '../middleware/auth'
 
 export const TOKEN_PREFIX = 'pwt'
 
@@ -53,10 +52,11 @@ export async function revokeToken(db: Db, workspaceId: number, tokenId: number, 
   return r[0]
 }
 
-/** Bearer-token authentication (registered with registerTokenResolver at start). */
-export const apiTokenResolver: TokenResolver = async (req, token) => {
+/** Who a bearer token speaks for (the auth middleware's bearer branch), or null for an unknown or revoked one. */
+export interface TokenCaller { userId: number; via: 'token'; tokenId: number; tokenWorkspaceId: number; tokenRole: Role }
+
+export async function resolveApiToken(db: Db, token: string): Promise<TokenCaller | null> {
   if (!token.startsWith(`${TOKEN_PREFIX}_`)) return null
-  const { db } = req.app.locals.ctx as { db: Db }
   const [row] = await db.select({ id: apiTokens.id, userId: apiTokens.userId, workspaceId: apiTokens.workspaceId, role: apiTokens.role, lastUsedAt: apiTokens.lastUsedAt })
     .from(apiTokens).where(and(eq(apiTokens.tokenHash, hashSecret(token)), isNull(apiTokens.revokedAt))).limit(1)
   if (!row) return null

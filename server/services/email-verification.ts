@@ -14,10 +14,9 @@ import { hashPassword, verifyPassword } from '../auth/passwords'
 import { conflict, HttpError, notFound } from '../errors'
 import { errorCodes } from '../../shared/api/errors'
 import type { SignupBody, VerificationPreview } from '../../shared/api/auth'
-import { hashSecret, newSecret } from './secrets'
+import { hashSecret, newSecret, tokenGone } from './secrets'
 import { appLink, mailerOf } from './mail-service'
 import { accountExistsMail, verifyEmailMail } from '../mail/templates'
-import { tokenGone } from './invitations'
 import { createWorkspace } from './workspaces'
 
 export const VERIFICATION_HOURS = 24

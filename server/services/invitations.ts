@@ -10,15 +10,13 @@ import { conflict, HttpError, notFound } from '../errors'
 import { errorCodes } from '../../shared/api/errors'
 import type { Role } from '../../shared/api/auth'
 import type { InvitationDto, InvitationPreview, InviteBody } from '../../shared/api/team'
-import { hashSecret, newSecret } from './secrets'
+import { hashSecret, newSecret, tokenGone } from './secrets'
 import { appLink, mailerOf } from './mail-service'
 import { invitationMail } from '../mail/templates'
 import { assertUncommonPassword, hashPassword } from '../auth/passwords'
 import { retirePendingSignups } from './email-verification'
 
 export const INVITATION_DAYS = 7
-
-export const tokenGone = (what: string) => new HttpError(410, errorCodes.gone, `This ${what} link has already been used or has expired. Ask for a new one.`)
 
 export async function listPendingInvitations(db: Db, workspaceId: number): Promise<InvitationDto[]> {
   const rows = await db

@@ -19,7 +19,15 @@ async function ownAddress(db: Db, userId: number): Promise<string | null> {
   return u ? u.email.toLowerCase() : null
 }
 
-export async function listOwnMail(db: Db, userId: number, limit = 200): Promise<MailDto[]> {
+/**
+ * The mailbox page's reply: the user's messages and whether this server captures mail at all (no real
+ * relay, or `npm start`'s local fake SMTP server in front of one).
+ */
+export async function ownMailbox(context: { db: Db; config: { smtpUrl: string | null } }, userId: number): Promise<{ messages: MailDto[]; capturing: boolean }> {
+  return { messages: await listOwnMail(context.db, userId), capturing: !context.config.smtpUrl || process.env.PEWTER_FAKE_SMTP === '1' }
+}
+
+async function listOwnMail(db: Db, userId: number, limit = 200): Promise<MailDto[]> {
   const email = await ownAddress(db, userId)
   if (!email) return []
   const rows = await db.select().from(mailbox).where(arrayContains(mailbox.recipients, [email])).orderBy(desc(mailbox.id)).limit(limit)

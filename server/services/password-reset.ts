@@ -9,10 +9,9 @@ import type { AppContext } from '../context'
 import { apiTokens, passwordResets, users } from '../db/schema'
 import { hashPassword } from '../auth/passwords'
 import { notFound } from '../errors'
-import { hashSecret, newSecret } from './secrets'
+import { hashSecret, newSecret, tokenGone } from './secrets'
 import { appLink, mailerOf } from './mail-service'
 import { passwordResetMail } from '../mail/templates'
-import { tokenGone } from './invitations'
 
 export const RESET_MINUTES = 60
 

@@ -2,24 +2,16 @@
  * Attaches the services of the jobs and mail layers to an app context (called by createContext):
  * `ctx.services.mailer` (nodemailer over SMTP), `ctx.services.jobs` (the JobRunner chosen by
  * PEWTER_JOBS), `ctx.services.requests` (the request pool: CPU-heavy work of requests off the event
- * loop), and API-token bearer authentication. Closing the database closes them first.
+ * loop). Closing the database closes them first.
  */
 import type { AppContext } from '../context'
 import { createMailer, type Mailer } from '../mail/mailer'
 import { createJobRunner } from '../jobs'
 import type { JobRunner } from '../jobs/types'
-import { registerTokenResolver } from '../middleware/auth'
-import { apiTokenResolver } from './api-tokens'
 import { notifyRunSettled } from './notifications'
 import { RequestPool } from '../jobs/request-pool'
 
-let resolverRegistered = false
-
 export async function attachServices(context: AppContext) {
-  if (!resolverRegistered) {
-    registerTokenResolver(apiTokenResolver)
-    resolverRegistered = true
-  }
   const mailer: Mailer = createMailer(context.config)
   context.services.mailer = mailer
   const jobs: JobRunner = await createJobRunner(context, {
@@ -36,6 +28,3 @@ export async function attachServices(context: AppContext) {
     await closeDatabase()
   }
 }
-
-export const jobsOf = (context: AppContext) => context.services.jobs as JobRunner
-export const mailerOfContext = (context: AppContext) => context.services.mailer as Mailer

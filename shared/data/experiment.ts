@@ -6,8 +6,7 @@
  * are taken in the declared unit. Time: seconds from the table → the sheet's time unit.
  */
 import type { CompiledModel, UnitMap } from '../sheet/compiled'
-import type { ExperimentData } from '../engine/fit/problem'
-import type { InputTrace } from '../engine/simulate-contract'
+import type { ExperimentData, InputTrace } from './traces'
 import { CsvError, type CsvTable } from './csv'
 import { unitConversion } from './units'
 

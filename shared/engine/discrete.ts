@@ -10,7 +10,7 @@ import { AbortedError, NonFiniteDerivativeError, SimulationRequestError, StepLim
 import type { InputSet } from './inputs'
 import type { ModelSystem } from './system'
 import { now, type SolverLimits } from './solvers/types'
-import { writeOut, type Workspace } from './simulate'
+import { writeOut, type Workspace } from './simulation-workspace'
 
 export function simulateDiscrete(
   model: CompiledModel, sys: ModelSystem, inputs: InputSet, z0: Float64Array, t0: number,
@@ -26,7 +26,7 @@ export function simulateDiscrete(
   const spt = model.secondsPerTimeUnit
   const p = sys.p
   const { u, du, J, Fp, Fu } = sys
-  let z: Float64Array = ws.zd
+  let z: Float64Array = ws.zScratch
   z.set(z0)
   let zn: Float64Array = new Float64Array(n)
   const tOut = res.t

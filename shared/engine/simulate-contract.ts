@@ -5,11 +5,9 @@
  */
 export type SolverName = 'auto' | 'rk45' | 'odex' | 'stiff'
 
-/** A measured input signal: sample times (strictly increasing) and values. */
-export interface InputTrace {
-  t: Float64Array
-  v: Float64Array
-}
+import type { InputTrace } from '../data/traces'
+
+export type { InputTrace }
 
 export interface SimulationRequest {
   /** start time (default 0) */

@@ -16,9 +16,10 @@ import type { CompiledModel } from '../sheet/compiled'
 import type { SimulationRequest, SimulationResult, SolverName } from './simulate-contract'
 import { AbortedError, SimulationRequestError, StepLimitError, StepSizeTooSmallError, adviceFor, fmt, type RunContext } from './errors'
 import { InputSet } from './inputs'
-import { ModelSystem, type SensSpec } from './system'
+import type { SensSpec } from './system'
 import { solveSteady, steadyIndices } from './steady'
 import { simulateDiscrete } from './discrete'
+import { workspace, writeOut, type Workspace } from './simulation-workspace'
 import { AutoSolver } from './solvers/auto'
 import { OdexSolver } from './solvers/odex'
 import { Rk45 } from './solvers/rk45'
@@ -27,66 +28,6 @@ import { now, type OdeSolver, type SolverLimits, type Tolerances } from './solve
 
 export const DEFAULT_RTOL = 1e-6
 export const DEFAULT_MAX_STEPS = 100_000
-
-interface Workspace {
-  sys: ModelSystem
-  solvers: Partial<Record<SolverName, OdeSolver>>
-  tol: Tolerances
-  z0: Float64Array
-  zd: Float64Array
-  uo: Float64Array
-  duo: Float64Array
-  yo: Float64Array
-  gx: Float64Array
-  gp: Float64Array
-  gu: Float64Array
-  fa: Float64Array
-  fb: Float64Array
-  umod: Float64Array
-  /** input slopes left and right of a breakpoint */
-  sl: Float64Array
-  sr: Float64Array
-  /** the states' names, for error messages */
-  stateNames: string[]
-}
-
-const cache = new WeakMap<CompiledModel, Map<string, Workspace>>()
-
-function workspace(model: CompiledModel, sens: SensSpec[]): Workspace {
-  let m = cache.get(model)
-  if (!m) {
-    m = new Map()
-    cache.set(model, m)
-  }
-  const key = sens.map((s) => `${s.param}:${s.state}`).join(',')
-  let ws = m.get(key)
-  if (!ws) {
-    const sys = new ModelSystem(model, sens)
-    const nuu = model.nu + model.nd
-    ws = {
-      sys,
-      solvers: {},
-      tol: { rtol: new Float64Array(model.nx), atol: new Float64Array(model.nx), weight: new Float64Array(sys.n) },
-      z0: new Float64Array(sys.n),
-      zd: new Float64Array(sys.n),
-      uo: new Float64Array(Math.max(1, nuu)),
-      duo: new Float64Array(Math.max(1, nuu)),
-      yo: new Float64Array(Math.max(1, model.ny)),
-      gx: new Float64Array(Math.max(1, model.ny * model.nx)),
-      gp: new Float64Array(Math.max(1, model.ny * model.np)),
-      gu: new Float64Array(Math.max(1, model.ny * nuu)),
-      fa: new Float64Array(model.nx),
-      fb: new Float64Array(model.nx),
-      umod: new Float64Array(Math.max(1, nuu)),
-      sl: new Float64Array(Math.max(1, nuu)),
-      sr: new Float64Array(Math.max(1, nuu)),
-      stateNames: model.states.map((s) => s.name),
-    }
-    if (m.size > 16) m.clear()
-    m.set(key, ws)
-  }
-  return ws
-}
 
 function solverFor(ws: Workspace, name: SolverName): OdeSolver {
   let s = ws.solvers[name]
@@ -144,7 +85,7 @@ export function simulate(model: CompiledModel, req: SimulationRequest): Simulati
   if (req.signal?.aborted) throw new AbortedError(t0)
   const sens = sensLayout(model, req)
   const ws = workspace(model, sens)
-  const { sys, tol, z0 } = ws
+  const { sys, tol, zStart: z0 } = ws
   const nx = model.nx
   const ns = sens.length
   const tOut = req.tOut
@@ -165,9 +106,9 @@ export function simulate(model: CompiledModel, req: SimulationRequest): Simulati
   for (let j = 0; j < ns; j++) if (sens[j].state >= 0) z0[(j + 1) * nx + sens[j].state] = 1
   const steady = steadyIndices(model)
   if (steady.length > 0) {
-    inputs.evalAt(t0, ws.uo, ws.duo)
+    inputs.evalAt(t0, ws.uAt, ws.duAt)
     for (let j = 0; j < ns; j++) if (sens[j].state >= 0 && model.states[sens[j].state].steady) z0[(j + 1) * nx + sens[j].state] = 0
-    solveSteady(model, t0, z0, p, ws.uo, steady, ns > 0 ? sens : null, ns > 0 ? z0.subarray(nx) : null, ws.duo)
+    solveSteady(model, t0, z0, p, ws.uAt, steady, ns > 0 ? sens : null, ns > 0 ? z0.subarray(nx) : null, ws.duAt)
   }
   const x0 = Float64Array.from(z0.subarray(0, nx))
 
@@ -224,7 +165,7 @@ export function simulate(model: CompiledModel, req: SimulationRequest): Simulati
   if (ran) {
     solver.start(sys, tol, limits, t0, z0, 0)
     const bps = inputs.breakpoints(t0, tEnd)
-    const zd = ws.zd
+    const zd = ws.zScratch
     const obs = (_a: number, b: number): void => {
       while (iOut < nt && tOut[iOut] <= b) {
         const tq = tOut[iOut]
@@ -251,20 +192,20 @@ export function simulate(model: CompiledModel, req: SimulationRequest): Simulati
         // cancellation between input segments too (the solvers check it at every step)
         if (limits.signal !== null && limits.signal.aborted) throw new AbortedError(a)
         const b = k < bps.length ? bps[k] : tEnd
-        if (k > 0 && checkJumps) inputs.eval(a, ws.uo) // left limit at the breakpoint
-        if (k > 0 && tauSlope) inputs.slope(ws.sl)
+        if (k > 0 && checkJumps) inputs.eval(a, ws.uAt) // left limit at the breakpoint
+        if (k > 0 && tauSlope) inputs.slope(ws.slopeLeft)
         inputs.setSegment(0.5 * (a + b))
         if (k > 0 && (checkJumps || tauSlope)) {
           let jump = false
           if (checkJumps) {
-            inputs.eval(a, ws.duo)
-            for (let i = 0; i < nSlots; i++) if (ws.uo[i] !== ws.duo[i]) jump = true
+            inputs.eval(a, ws.duAt)
+            for (let i = 0; i < nSlots; i++) if (ws.uAt[i] !== ws.duAt[i]) jump = true
           }
           if (tauSlope && !jump) {
-            inputs.slope(ws.sr)
+            inputs.slope(ws.slopeRight)
             for (let j = 0; j < ns && !jump; j++) {
               const slots = sens[j].delaySlots
-              for (let q = 0; q < slots.length; q++) if (ws.sl[slots[q]] !== ws.sr[slots[q]]) jump = true
+              for (let q = 0; q < slots.length; q++) if (ws.slopeLeft[slots[q]] !== ws.slopeRight[slots[q]]) jump = true
             }
           }
           if (jump) {
@@ -310,18 +251,18 @@ function withAdvice(e: unknown, solver: OdeSolver, limits: SolverLimits, tol: To
  * discontinuities with a parameter-dependent switching time; e.g. Rozenvasser 1967, Galán, Feehery &
  * Barton, Appl. Numer. Math. 31 (1999) 17–47, eq. (14) with a state-independent switching function).
  * f⁺ uses only the delayed slot's new value, so jumps of other inputs at the same time do not count.
- * ws.uo holds the left-limit input values on entry.
+ * ws.uAt holds the left-limit input values on entry.
  */
 function tauJumps(model: CompiledModel, ws: Workspace, inputs: InputSet, z: Float64Array, t: number): void {
   const nx = model.nx
   const sens = ws.sys.sens
-  const uMinus = ws.uo
-  const uPlus = ws.duo
+  const uMinus = ws.uAt
+  const uPlus = ws.duAt
   inputs.eval(t, uPlus)
   const p = ws.sys.p
   const spt = model.secondsPerTimeUnit
-  const fA = ws.fa
-  const fB = ws.fb
+  const fA = ws.fLeft
+  const fB = ws.fRight
   let ready = false
   for (let j = 0; j < sens.length; j++) {
     const slots = sens[j].delaySlots
@@ -332,42 +273,10 @@ function tauJumps(model: CompiledModel, ws: Workspace, inputs: InputSet, z: Floa
       model.rhs(t, z, p, uMinus, fA)
       ready = true
     }
-    ws.umod.set(uMinus)
-    for (const slot of slots) if (inputs.isHoldTrace(slot)) ws.umod[slot] = uPlus[slot]
-    model.rhs(t, z, p, ws.umod, fB)
+    ws.uRight.set(uMinus)
+    for (const slot of slots) if (inputs.isHoldTrace(slot)) ws.uRight[slot] = uPlus[slot]
+    model.rhs(t, z, p, ws.uRight, fB)
     const off = (j + 1) * nx
     for (let i = 0; i < nx; i++) z[off + i] += (fA[i] - fB[i]) / spt
   }
 }
-
-/** outputs and sensitivities at output index k from the state vector z = [x, s_1, …] */
-export function writeOut(model: CompiledModel, ws: Workspace, inputs: InputSet, z: Float64Array, k: number, t: number, res: SimulationResult): void {
-  const { nx, ny, np } = model
-  const nuu = model.nu + model.nd
-  const { uo, duo, yo, gx, gp, gu } = ws
-  const sens = ws.sys.sens
-  const ns = sens.length
-  const p = ws.sys.p
-  inputs.evalAt(t, uo, ns > 0 ? duo : null)
-  model.outputsFn(t, z, p, uo, yo)
-  for (let i = 0; i < nx; i++) res.x[k * nx + i] = z[i]
-  for (let i = 0; i < ny; i++) res.y[k * ny + i] = yo[i]
-  if (ns === 0 || res.dy === null || res.dx === null) return
-  model.dgdx(t, z, p, uo, gx)
-  model.dgdp(t, z, p, uo, gp)
-  if (nuu > 0) model.dgdu(t, z, p, uo, gu)
-  const spt = model.secondsPerTimeUnit
-  for (let j = 0; j < ns; j++) {
-    const sj = sens[j]
-    const off = (j + 1) * nx
-    for (let i = 0; i < nx; i++) res.dx[(k * nx + i) * ns + j] = z[off + i]
-    for (let i = 0; i < ny; i++) {
-      let acc = sj.param >= 0 ? gp[i * np + sj.param] : 0
-      for (let q = 0; q < nx; q++) acc += gx[i * nx + q] * z[off + q]
-      for (const slot of sj.delaySlots) acc -= (gu[i * nuu + slot] * duo[slot]) / spt
-      res.dy[(k * ny + i) * ns + j] = acc
-    }
-  }
-}
-
-export type { Workspace }

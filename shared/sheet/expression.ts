@@ -7,7 +7,7 @@ import { parse } from '../mathjs-lite'
 import type { MathNode } from 'mathjs'
 import { type Cols, type Expr, type FnName, type CmpOp, FUNCTIONS, constValue, fold } from './ast'
 import type { DiagnosticList } from './diagnostics'
-import { didYouMean } from './suggest'
+import { didYouMean } from '../did-you-mean'
 import { expandSmooth, isSmoothName, SMOOTH_FUNCTIONS, smoothSignature } from './smooth'
 
 export const MAX_EXPRESSION_LENGTH = 4000

@@ -13,6 +13,7 @@ import { ElMessage } from 'element-plus'
 import { createRouter, createWebHistory, type RouteLocationNormalized, type RouteLocationRaw } from 'vue-router'
 import { useSessionStore, type Permission } from '@/stores/useSessionStore'
 import { safeRedirect } from './redirect'
+import { homeLocation } from './home'
 
 declare module 'vue-router' {
   interface RouteMeta {
@@ -178,13 +179,6 @@ function notFound(to: RouteLocationNormalized): RouteLocationRaw {
     query: to.query,
     hash: to.hash,
   }
-}
-
-/** Where a signed-in user lands: their current (or first) workspace's library. */
-export function homeLocation(): RouteLocationRaw {
-  const session = useSessionStore()
-  const ws = session.homeWorkspace
-  return ws ? { name: 'library', params: { ws: ws.slug } } : { name: 'home' }
 }
 
 router.beforeEach(async (to, from) => {

@@ -5,9 +5,9 @@ import { mkdtemp, rm, writeFile } from 'node:fs/promises'
 import { tmpdir } from 'node:os'
 import { join } from 'node:path'
 import { fitResult } from '../../shared/api/fit'
-import { MISRA1A, BOXBOD, nistCsv, nistSheet, sameDigits } from './fixtures/nist'
+import { MISRA1A, BOXBOD, nistCsv, nistSheet, sameDigits } from '../../fixtures/fit/nist'
 import { run } from '../../server/cli/fit'
-import { LV_SHEET, lotkaVolterraSpec } from './fixtures/shooting'
+import { LV_SHEET, lotkaVolterraSpec } from '../../fixtures/fit/shooting'
 
 let dir = ''
 // the command line as users run it: the ahead-of-time bundle (rebuilt first when a source is newer)

@@ -10,8 +10,8 @@ import { simulate } from '../../shared/engine/simulate'
 import { runFit, type ProblemSpec } from '../../shared/engine/fit'
 import { fitResult } from '../../shared/api/fit'
 import { productText, sumText } from '../../shared/engine/stats/identifiability'
-import { gaussian } from './fixtures/synthetic'
-import { MISRA1A, nistSheet } from './fixtures/nist'
+import { gaussian } from '../../fixtures/fit/synthetic'
+import { MISRA1A, nistSheet } from '../../fixtures/fit/nist'
 
 const PRODUCT_SHEET = `model "Decay with a product of two rates (synthetic)"
 time [s]

@@ -1,5 +1,5 @@
 /**
- * Multiple shooting on seeded synthetic data (tests/fit/fixtures/shooting.ts says where each case comes
+ * Multiple shooting on seeded synthetic data (fixtures/fit/shooting.ts says where each case comes
  * from): it reaches the optimum a multi-start single-shooting search finds where single shooting from
  * the same start does not, fits an open-loop unstable plant from its closed-loop record, reports the
  * continuity defect, and keeps bounds.
@@ -10,8 +10,8 @@ import { simulate } from '../../shared/engine/simulate'
 import { runFit, FitProblem, FitInputError, MultipleShootingProblem, segmentStarts, suggestSegments } from '../../shared/engine/fit'
 import { outputStateMap } from '../../shared/engine/fit/multiple-shooting/problem'
 import { fitResult } from '../../shared/api/fit'
-import { LV_SHEET, LV_TRUTH, lotkaVolterraSpec, UNSTABLE_SHEET, UNSTABLE_TRUTH, unstableSpec } from './fixtures/shooting'
-import { TANK_SHEET } from './fixtures/synthetic'
+import { LV_SHEET, LV_TRUTH, lotkaVolterraSpec, UNSTABLE_SHEET, UNSTABLE_TRUTH, unstableSpec } from '../../fixtures/fit/shooting'
+import { TANK_SHEET } from '../../fixtures/fit/synthetic'
 
 const lv = compileModel(LV_SHEET)
 const plant = compileModel(UNSTABLE_SHEET)

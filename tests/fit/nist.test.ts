@@ -9,7 +9,7 @@ import { compileModel } from '../../shared/sheet'
 import { runFit, levenbergMarquardt } from '../../shared/engine/fit'
 import { linearisedCovariance } from '../../shared/engine/stats/covariance'
 import { fitResult } from '../../shared/api/fit'
-import { BOXBOD, MISRA1A, nistSheet, sameDigits, type NistProblem } from './fixtures/nist'
+import { BOXBOD, MISRA1A, nistSheet, sameDigits, type NistProblem } from '../../fixtures/fit/nist'
 
 function spec(p: NistProblem) {
   return { experiments: [{ name: p.name, time: Float64Array.from(p.x), outputs: { yobs: Float64Array.from(p.y) }, inputs: {} }] }

@@ -8,7 +8,7 @@
 import { describe, expect, it } from 'vitest'
 import { compileModel } from '../../shared/sheet'
 import { runFit } from '../../shared/engine/fit'
-import { DISCRETE_SHEET, discreteData } from './fixtures/synthetic'
+import { DISCRETE_SHEET, discreteData } from '../../fixtures/fit/synthetic'
 
 describe('discrete first-order system: PEM vs OLS over 20 seeds', () => {
   it('the PEM mean of a lies within 3 standard errors of 0.9, the OLS mean more than 3 away', async () => {

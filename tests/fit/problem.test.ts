@@ -4,8 +4,8 @@ import { compileModel } from '../../shared/sheet'
 import { simulate } from '../../shared/engine/simulate'
 import { runFit, planStarts, fitFromStart, pickBest, FitInputError, type ProblemSpec } from '../../shared/engine/fit'
 import { fitResult } from '../../shared/api/fit'
-import { TANK_SHEET, gaussian, DISCRETE_SHEET, discreteData } from './fixtures/synthetic'
-import { MISRA1A, BOXBOD, nistSheet, sameDigits } from './fixtures/nist'
+import { TANK_SHEET, gaussian, DISCRETE_SHEET, discreteData } from '../../fixtures/fit/synthetic'
+import { MISRA1A, BOXBOD, nistSheet, sameDigits } from '../../fixtures/fit/nist'
 
 const tank = compileModel(TANK_SHEET)
 

@@ -4,8 +4,7 @@
 import { derivative as mjDerivative } from 'mathjs'
 import { describe, expect, it } from 'vitest'
 import { compileModel, type CompiledModel } from '../../shared/sheet/index'
-import { KITCHEN_SINK } from './compile.test'
-import { analytic, centralDifferences, defaultPoint, maxRelDiff, rng, templates, type Point } from './helpers'
+import { analytic, centralDifferences, defaultPoint, KITCHEN_SINK, maxRelDiff, rng, templates, type Point } from './helpers'
 
 function checkAll(c: CompiledModel, pt: Point, tol = 1e-6) {
   const groups = ['x', 'p', 'u', 't'] as const

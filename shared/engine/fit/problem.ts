@@ -22,29 +22,16 @@
  *   multiresponse data with unknown diagonal covariance).
  */
 import type { CompiledModel } from '../../sheet/compiled'
-import type { InputTrace, SimulationRequest, SimulationResult, SolverName } from '../simulate-contract'
-import { editDistance } from '../../sheet/suggest'
+import type { SimulationRequest, SimulationResult, SolverName } from '../simulate-contract'
+import type { ExperimentData, InputTrace } from '../../data/traces'
+import { editDistance } from '../../did-you-mean'
 import { FitInputError } from './errors'
 import { FitAborted, FitTimeout, type LsqProblem } from './lsq'
 import type { FitWeighting } from '../../api/fit'
 
 export type Simulate = (model: CompiledModel, req: SimulationRequest) => SimulationResult
 
-export interface ExperimentData {
-  name: string
-  /** file name or dataset name, for error messages */
-  source?: string
-  /** sample times in the sheet's time unit, strictly increasing */
-  time: Float64Array
-  /** measured outputs by output name, internal units, NaN where the cell was empty */
-  outputs: Record<string, Float64Array>
-  /** input traces by input name (internal units, time in the sheet's unit) */
-  inputs: Record<string, InputTrace>
-  /** start of the simulation (sheet time unit); default 0, the dataset's time origin */
-  t0?: number
-  /** 1-based data row of each sample, for messages (default: index + 2, after a header row) */
-  rows?: Int32Array
-}
+export type { ExperimentData }
 
 export interface ProblemSpec {
   experiments: ExperimentData[]

@@ -7,8 +7,8 @@
  * profile does not cross before a bound the interval end is that bound.
  */
 import type { FitProblem } from './problem'
-import type { FitOptions } from './driver'
-import { resolveTolerances } from './driver'
+import type { FitOptions } from './options'
+import { resolveTolerances } from './options'
 import { levenbergMarquardt } from './lm'
 import { sumSquares, type LsqProblem } from './lsq'
 

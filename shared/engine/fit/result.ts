@@ -22,7 +22,7 @@ import type {
   EstimateRow, FitResult, Identifiability, FitWeighting, OutputRow, ResidualDiagnostics, EquationErrorRow, LandscapeResult, StartRow,
 } from '../../api/fit'
 import { FitProblem, type PreparedExperiment, type ProblemSpec, type Simulate } from './problem'
-import { makeProblem, resolveTolerances, type FitOptions, type StartOutcome } from './driver'
+import { makeProblem, resolveTolerances, type FitOptions, type StartOutcome } from './options'
 import { BoxTransform } from './transform'
 import { sumSquares } from './lsq'
 import { linearisedCovariance } from '../stats/covariance'

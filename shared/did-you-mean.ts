@@ -1,3 +1,4 @@
+/** Spelling help for error messages (an unknown name → "did you mean …?"), used by the sheet language and the fit's column matching. */
 /** Edit distance (Levenshtein 1966, "Binary codes capable of correcting deletions, insertions and reversals"). */
 export function editDistance(a: string, b: string): number {
   if (a === b) return 0
