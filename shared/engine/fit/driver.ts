@@ -20,6 +20,7 @@ import { buildResult } from './result'
 import { equationErrorEstimate, type EquationErrorEstimate } from './equation-error'
 import type { LandscapeRequest } from '../landscape'
 import type { SegmentRequest } from './multiple-shooting/segments'
+import type { SegmentEvaluatorFactory } from './multiple-shooting/evaluator'
 
 export interface FitOptions {
   method?: FitMethod
@@ -47,6 +48,8 @@ export interface FitOptions {
   equationError?: 'compare' | 'start'
   /** multiple shooting (multiple-shooting/): segments per experiment or a segment length; absent: single shooting */
   segments?: SegmentRequest
+  /** multiple shooting: the host's helpers for the segments of each evaluation (multiple-shooting/evaluator.ts) */
+  segmentEvaluator?: SegmentEvaluatorFactory
   /** run the planned starts elsewhere (workers); must return one outcome per plan, in any order */
   runStarts?: (plans: StartPlan[]) => Promise<StartOutcome[]>
 }
