@@ -11,14 +11,16 @@ import { parseCsv, CsvError } from '../../shared/data/csv'
 import { experimentFromTable } from '../../shared/data/experiment'
 import { describeOutcome, type FitResult, type EstimateRow } from '../../shared/api/fit'
 import { ArgError, folderLibrary, splitOption } from './args'
+import { segmentHelpers, segmentThreadsOption } from '../jobs/segment-threads'
 
 const USAGE = `usage: pewter fit <sheet> <data.csv>… [--validate v.csv] [--method lm|nelder-mead] [--starts N]
   [--weighting sheet|equal|normalized|ml] [--set name=value …] [--fix a,b] [--free c,d] [--bounds c=lo:hi]
   [--local k] [--t0 t] [--rtol r] [--atol a] [--seed n] [--profile name] [--landscape a,b[,n]]
   [--equation-error compare|start] [--time-budget ms] [--solver auto|rk45|odex|stiff] [--max-iterations n] [--library DIR]
-  [--validation-start sheet|estimate] [--segments N | --segment-length T] [--json]
+  [--validation-start sheet|estimate] [--segments N | --segment-length T] [--threads N] [--json]
   --segments N, --segment-length T: multiple shooting, each record cut into N segments (or segments of
-  about T in the sheet's time unit), then a single-shooting polish`
+  about T in the sheet's time unit), then a single-shooting polish; --threads N: threads evaluating the
+  segments, the fit's own included (default min(segments, cores − 1); 1 = the fit's thread alone)`
 
 interface Args {
   sheet: string
@@ -35,6 +37,8 @@ interface Args {
   opts: FitOptions
   weighting: ProblemSpec['weighting']
   library: ResolvePart | null
+  /** threads for the segments of multiple shooting; null: the default */
+  threads: number | null
 }
 
 function number(flag: string, v: string): number {
@@ -49,7 +53,7 @@ function list(v: string): string[] {
 
 export function parseArgs(argv: string[]): Args {
   const pos: string[] = []
-  const a: Args = { sheet: '', data: [], validate: [], json: false, set: [], fix: [], free: [], bounds: [], local: [], opts: {}, weighting: undefined, library: null }
+  const a: Args = { sheet: '', data: [], validate: [], json: false, set: [], fix: [], free: [], bounds: [], local: [], opts: {}, weighting: undefined, library: null, threads: null }
   for (let i = 0; i < argv.length; i++) {
     const arg = argv[i]
     if (!arg.startsWith('--')) {
@@ -151,6 +155,14 @@ export function parseArgs(argv: string[]): Args {
         a.opts.segments = { segmentLength: t }
         break
       }
+      case '--threads': {
+        try {
+          a.threads = segmentThreadsOption(value(), '--threads')
+        } catch (e) {
+          throw new ArgError(e instanceof Error ? e.message : String(e))
+        }
+        break
+      }
       case '--time-budget': a.opts.timeBudgetMs = number(flag, value()); break
       case '--max-iterations': a.opts.maxIterations = number(flag, value()); break
       case '--validation-start': {
@@ -200,8 +212,16 @@ export async function run(argv: string[]): Promise<number> {
     }
     throw e
   }
+  // the part texts the sheet used, for the segment helper threads (they compile the sheet themselves)
+  const parts: Record<string, string> = {}
+  const library = args.library
+  const resolvePart: ResolvePart | null = library && ((h, v) => {
+    const t = library(h, v)
+    if (t !== null) parts[`${h}@${v}`] = t
+    return t
+  })
   try {
-    model = compileModel(texts.get(args.sheet)!, { resolvePart: args.library })
+    model = compileModel(texts.get(args.sheet)!, { resolvePart })
   } catch (e) {
     if (e instanceof SheetError) {
       const errs = e.diagnostics.filter((d) => d.severity === 'error')
@@ -248,6 +268,11 @@ export async function run(argv: string[]): Promise<number> {
     throw e
   }
   let result: FitResult
+  const segments = args.opts.segments
+  if (segments) {
+    const { rtol, atol, solver, maxSteps } = args.opts
+    args.opts.segmentEvaluator = segmentHelpers().factory({ sheet: texts.get(args.sheet)!, parts, spec, options: { rtol, atol, solver, maxSteps }, segments }, args.threads)
+  }
   try {
     result = await runFit(model, spec, args.opts)
   } catch (e) {
@@ -256,6 +281,8 @@ export async function run(argv: string[]): Promise<number> {
       return e.kind === 'argument' ? 2 : 1
     }
     throw e
+  } finally {
+    if (segments) await segmentHelpers().close()
   }
   result.warnings = [...cliWarnings, ...result.warnings]
   if (args.json) process.stdout.write(JSON.stringify(result) + '\n')

@@ -5,8 +5,7 @@
  * Used by the embedded runner (web process) and by `npm run worker` (pg-boss consumer).
  */
 import { MessageChannel, type MessagePort } from 'node:worker_threads'
-import { createRequire } from 'node:module'
-import { pathToFileURL } from 'node:url'
+import { threadExecArgv } from './thread-argv'
 import { hostname } from 'node:os'
 import { randomBytes } from 'node:crypto'
 import { Piscina } from 'piscina'
@@ -52,12 +51,7 @@ interface Active {
 
 export const newWorkerId = (kind: string) => `${kind}@${hostname()}:${process.pid}:${randomBytes(3).toString('hex')}`
 
-/** tsx's loader for the worker threads (already present when the process itself runs under tsx) */
-export function threadExecArgv(): string[] {
-  if (process.execArgv.some((a) => a.includes('tsx'))) return process.execArgv
-  const loader = pathToFileURL(createRequire(import.meta.url).resolve('tsx')).href
-  return ['--import', loader]
-}
+export { threadExecArgv } from './thread-argv'
 
 export class RunPool {
   readonly workerId: string

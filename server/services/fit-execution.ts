@@ -16,7 +16,8 @@ import { readFileSync } from 'node:fs'
 import { and, eq, inArray, sql } from 'drizzle-orm'
 import type { Db } from '../db/client'
 import { datasets, modelVersions, runs } from '../db/schema'
-import { workspaceParts } from './part-library'
+import { workspaceParts, workspacePartTexts } from './part-library'
+import { segmentHelpers, segmentThreadsOption } from '../jobs/segment-threads'
 import { compileModel, type CompiledModel } from '../../shared/sheet'
 import { alsoAbortedWhen } from '../jobs/abort-flag'
 import { toDeclared, toInternal } from '../../shared/sheet/compiled'
@@ -28,7 +29,7 @@ import { BoxTransform } from '../../shared/engine/fit/transform'
 import { costLandscape } from '../../shared/engine/landscape'
 import { describeOutcome, type FitResult, type LandscapeResult } from '../../shared/api/fit'
 import type { ColumnMapping, ColumnMeta } from '../../shared/api/datasets'
-import type { OutputTrace, RunProgress, RunSettings } from '../../shared/api/runs'
+import type { LiveSegmentLine, OutputTrace, RunProgress, RunSettings } from '../../shared/api/runs'
 import { conversionFor } from './bindings'
 import { columnsOf, type StoredData } from './datasets'
 
@@ -220,6 +221,7 @@ export async function computeLandscape(db: Db, run: typeof runs.$inferSelect, a:
 }
 
 const PROGRESS_INTERVAL_MS = 250
+const SEGMENT_LINES_INTERVAL_MS = 500
 const CANCEL_POLL_MS = 200
 
 /**
@@ -262,6 +264,8 @@ export async function executeRun(db: Db, runId: number, opts: ExecuteOptions = {
   let best = Infinity
   let lastWrite = 0
   let pending: RunProgress | null = null
+  let lines: { segmentLines: LiveSegmentLine[]; segmentIteration: number } | Record<string, never> = {}
+  let linesAt = 0
   let writing: Promise<unknown> = Promise.resolve()
   const writeProgress = (p: RunProgress) => {
     writing = writing.then(() => db.update(runs).set({ progress: p }).where(and(eq(runs.id, runId), eq(runs.status, 'running')))).catch(() => undefined)
@@ -280,7 +284,7 @@ export async function executeRun(db: Db, runId: number, opts: ExecuteOptions = {
   }
 
   try {
-    const { model, est, val } = await loadRunInputs(db, row)
+    const { model, est, val, versionText } = await loadRunInputs(db, row)
     const spec = problemSpec(model, settings, est, val)
     // built once without the abort signal: its names pick the landscape, then it simulates the traces
     const probe = makeProblem(model, spec, simulate, fitOptions(settings))
@@ -295,11 +299,22 @@ export async function executeRun(db: Db, runId: number, opts: ExecuteOptions = {
         const start = info.start ?? 0
         const fraction = Math.min(0.97, (start + 1 - Math.exp(-(info.iteration + 1) / 12)) / settings.starts)
         const how = options.segments ? `multiple shooting over ${options.segments.segments} segments, ` : ''
-        pending = progress(info.iteration, info.cost, start, `${how}start ${start + 1} of ${settings.starts}, iteration ${info.iteration}`, fraction)
         const now = Date.now()
+        // the segments' own lines while multiple shooting runs, at most twice a second
+        if (info.segmentLines && now - linesAt >= SEGMENT_LINES_INTERVAL_MS) {
+          linesAt = now
+          lines = { segmentLines: info.segmentLines(), segmentIteration: info.iteration }
+        }
+        pending = { ...progress(info.iteration, info.cost, start, `${how}start ${start + 1} of ${settings.starts}, iteration ${info.iteration}`, fraction), ...lines }
         if (now - lastWrite >= PROGRESS_INTERVAL_MS) { lastWrite = now; writeProgress(pending); pending = null }
       },
     })
+    if (options.segments) {
+      const { rtol, atol, solver, maxSteps } = options
+      const threads = segmentThreadsOption(process.env.PEWTER_SEGMENT_THREADS, 'PEWTER_SEGMENT_THREADS')
+      const parts = await workspacePartTexts(db, row.workspaceId, versionText)
+      options.segmentEvaluator = segmentHelpers().factory({ sheet: versionText, parts, spec, options: { rtol, atol, solver, maxSteps }, segments: options.segments }, threads)
+    }
     const result = await runFit(model, spec, options, simulate)
     if (pending) writeProgress(pending)
     if (cancelled || controller.signal.aborted || result.status === 'aborted') {

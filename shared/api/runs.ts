@@ -101,6 +101,21 @@ export const provenance = z.object({
 })
 export type Provenance = z.infer<typeof provenance>
 
+/**
+ * While a multiple-shooting fit runs: one output of one estimation record, measured, and each
+ * segment's own simulated line at the current iterate (time in seconds, values in the declared unit;
+ * thinned to a few hundred points).
+ */
+export const liveSegmentLine = z.object({
+  experiment: z.string(),
+  output: z.string(),
+  unit: z.string(),
+  t: z.array(z.number()),
+  measured: z.array(z.number().nullable()),
+  segments: z.array(z.object({ t: z.array(z.number()), y: z.array(z.number().nullable()) })),
+})
+export type LiveSegmentLine = z.infer<typeof liveSegmentLine>
+
 export const runProgress = z.object({
   /** iteration of the current start */
   iteration: z.number(),
@@ -113,6 +128,9 @@ export const runProgress = z.object({
   starts: z.number(),
   message: z.string(),
   updatedAt: z.string(),
+  /** multiple shooting: the segments' lines at iteration `segmentIteration` (refreshed at most twice a second) */
+  segmentLines: z.array(liveSegmentLine).optional(),
+  segmentIteration: z.number().optional(),
 })
 export type RunProgress = z.infer<typeof runProgress>
 

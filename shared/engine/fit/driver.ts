@@ -17,6 +17,7 @@ import { buildResult } from './result'
 import { equationErrorEstimate, type EquationErrorEstimate } from './equation-error'
 import type { LandscapeRequest } from '../landscape'
 import type { SegmentRequest } from './multiple-shooting/segments'
+import type { SegmentEvaluatorFactory } from './multiple-shooting/evaluator'
 
 export type { FitOptions, StartPlan, StartOutcome, ResolvedTolerances } from './options'
 export { resolveTolerances, makeProblem } from './options'
