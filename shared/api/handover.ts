@@ -59,7 +59,7 @@ export type PoleRow = z.infer<typeof poleRow>
 
 export const operatingPointReply = z.object({
   status: z.enum(['unique', 'several', 'none']),
-  solutions: z.array(z.object({ x: z.array(num), stable: z.boolean().nullable(), residual: num, method: z.enum(['newton', 'continuation']) })),
+  solutions: z.array(z.object({ x: z.array(num), stable: z.boolean().nullable(), residual: num, method: z.enum(['newton', 'continuation', 'input-continuation']) })),
   starts: z.number().int(),
   messages: z.array(z.string()),
 })

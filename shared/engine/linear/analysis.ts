@@ -51,7 +51,8 @@ interface Point {
 function pointFor(model: CompiledModel, p: Float64Array, u: Float64Array, at: 'steady' | number, guess: Float64Array | undefined, maxStarts: number): Point {
   const slots = inputSlots(model, u)
   if (at === 'steady') {
-    const op = findOperatingPoints(model, { p, u: slots, guess, maxStarts })
+    const from = inputSlots(model, Float64Array.from(model.inputs, (s) => s.value))
+    const op = findOperatingPoints(model, { p, u: slots, guess, maxStarts, from })
     if (op.status === 'none') throw new AnalysisInputError(op.messages.join('; '))
     const x = op.solutions[0].x
     const lin = linearize(model, 0, x, p, slots)
