@@ -19,6 +19,7 @@ import { tokenRoutes } from './tokens'
 import { mailboxRoutes } from './mailbox'
 import { modelRoutes } from './models'
 import { checkRoutes } from './check'
+import { partRoutes } from './parts'
 
 export function apiRouter(context: AppContext) {
   const api = Router()
@@ -40,6 +41,7 @@ export function apiRouter(context: AppContext) {
   ws.use('/audit', auditRoutes())
   ws.use('/tokens', tokenRoutes())
   ws.use('/models', modelRoutes())
+  ws.use('/parts', partRoutes())
   api.use('/workspaces/:ws', ws)
   return api
 }

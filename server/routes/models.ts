@@ -8,6 +8,8 @@ import { intParam, parse } from '../middleware/validate'
 import * as library from '../services/models'
 import { notifyEnvOf, notifyForked } from '../services/notifications'
 import { exportVersion, linearizeVersion } from '../services/handover'
+import { acceptPartUpdates, partUpdates } from '../services/part-updates'
+import { acceptPartUpdatesBody } from '../../shared/api/parts'
 import { exportBody, handoverBody } from '../../shared/api/handover'
 import {
   createModelBody, diffQuery, forkBody, listModelsQuery, publishBody, saveDraftBody, setMaintainersBody, updateModelBody,
@@ -87,6 +89,15 @@ export function modelRoutes() {
     await notifyForked(notifyEnvOf(ctx(req)), { sourceModelId: id, forkModelId: fork.id, forkedBy: req.auth!.userId })
       .catch((err) => console.error(`[pewter] fork notification failed: ${err instanceof Error ? err.message : err}`))
     res.status(201).json(fork)
+  })
+  // parts with newer approved versions: the offer (flattened diff) and accepting it into the caller's draft
+  router.get('/:id/part-updates', requireCapability('read'), async (req, res) => {
+    res.json(await partUpdates(ctx(req).db, actor(req), intParam(req.params, 'id')))
+  })
+  router.post('/:id/part-updates', requireCapability('write'), async (req, res) => {
+    const id = intParam(req.params, 'id')
+    await library.assertNotTemplate(ctx(req).db, actor(req), id)
+    res.json(await acceptPartUpdates(ctx(req).db, actor(req), id, parse(acceptPartUpdatesBody, req.body)))
   })
   router.get('/:id/diff', requireCapability('read'), async (req, res) => {
     const id = intParam(req.params, 'id')

@@ -64,7 +64,7 @@ function toVersionMeta(v: VersionRow, p: Map<number, PersonDto>): VersionMetaDto
   }
 }
 
-function storedSummary(v: VersionRow): SheetSummary {
+export function storedSummary(v: VersionRow): SheetSummary {
   const r = sheetSummary.safeParse(v.summary)
   return r.success ? r.data : emptySheetSummary()
 }
@@ -87,7 +87,7 @@ async function latestNumber(db: Conn, modelId: number): Promise<number> {
   return r.n
 }
 
-async function versionRow(db: Conn, modelId: number, number: number | 'latest'): Promise<VersionRow> {
+export async function versionRow(db: Conn, modelId: number, number: number | 'latest'): Promise<VersionRow> {
   const q = db.select().from(modelVersions)
   const [v] = number === 'latest'
     ? await q.where(eq(modelVersions.modelId, modelId)).orderBy(desc(modelVersions.number)).limit(1)

@@ -13,7 +13,7 @@ export type VersionStatus = z.infer<typeof versionStatus>
 /** Largest sheet text accepted (characters). */
 export const MAX_SHEET_CHARS = 200_000
 
-const sheetText = z.string().max(MAX_SHEET_CHARS, `a sheet may have at most ${MAX_SHEET_CHARS} characters`)
+export const sheetText = z.string().max(MAX_SHEET_CHARS, `a sheet may have at most ${MAX_SHEET_CHARS} characters`)
 const tag = z.string().trim().toLowerCase().min(1, 'a tag may not be empty').max(40, 'a tag has at most 40 characters')
   .regex(/^[a-z0-9][a-z0-9 _-]*$/, 'a tag uses letters, digits, spaces, - and _')
 
