@@ -101,6 +101,10 @@ export const provenance = z.object({
 })
 export type Provenance = z.infer<typeof provenance>
 
+/** One estimated quantity while the fit runs (per-record quantities carry the record in brackets). */
+export const progressEstimate = z.object({ name: z.string(), unit: z.string(), value: z.number() })
+export type ProgressEstimate = z.infer<typeof progressEstimate>
+
 export const runProgress = z.object({
   /** iteration of the current start */
   iteration: z.number(),
@@ -113,6 +117,8 @@ export const runProgress = z.object({
   starts: z.number(),
   message: z.string(),
   updatedAt: z.string(),
+  /** the estimates at the best cost so far, in declared units (absent on rows written before they were reported) */
+  estimates: z.array(progressEstimate).optional(),
 })
 export type RunProgress = z.infer<typeof runProgress>
 
