@@ -228,6 +228,7 @@ export class RunPool {
     port1.on('message', (m: ThreadMessage) => {
       if (m.type === 'next') fan.next(port1)
       else if (m.type === 'outcome') fan.outcome(port1, m.outcome, m.threadId)
+      else if (m.type === 'progress') fan.progress(m.info)
     })
     const task: HelperTask = { runId, databaseUrl: this.o.databaseUrl, deadline: fan.deadline, port: port2, abortFlag: a.flag }
     this.piscina.run(task, { name: 'helper', transferList: [port2], signal: a.hard.signal })
@@ -237,7 +238,7 @@ export class RunPool {
 
   private async writeStartsProgress(runId: number, done: number, total: number, best: number | null, fan: FanOut) {
     await this.o.db.update(runs).set({
-      progress: sql`jsonb_build_object('iteration', 0, 'cost', ${best}::float8, 'costHistory', coalesce(${runs.progress}->'costHistory', '[]'::jsonb), 'fraction', ${Math.min(0.97, done / total)}::float8, 'start', ${done}::int, 'starts', ${total}::int, 'message', ${`${done} of ${total} starts done (${fan.helpers + 1} threads)`}::text, 'updatedAt', ${new Date().toISOString()}::text)`,
+      progress: sql`jsonb_build_object('iteration', 0, 'cost', ${best}::float8, 'costHistory', coalesce(${runs.progress}->'costHistory', '[]'::jsonb), 'estimates', coalesce(${runs.progress}->'estimates', '[]'::jsonb), 'fraction', ${Math.min(0.97, done / total)}::float8, 'start', ${done}::int, 'starts', ${total}::int, 'message', ${`${done} of ${total} starts done (${fan.helpers + 1} threads)`}::text, 'updatedAt', ${new Date().toISOString()}::text)`,
     }).where(and(eq(runs.id, runId), eq(runs.status, 'running'))).catch(() => {})
   }
 

@@ -23,13 +23,14 @@ import { alsoAbortedWhen } from '../jobs/abort-flag'
 import { toDeclared, toInternal } from '../../shared/sheet/compiled'
 import { simulate } from '../../shared/engine'
 import { makeProblem, type FitOptions } from '../../shared/engine/fit/driver'
+import { declaredEstimates } from '../../shared/engine/fit/result'
 import { runFit } from '../../shared/engine/fit'
 import type { ExperimentData, FitProblem, ProblemSpec } from '../../shared/engine/fit/problem'
 import { BoxTransform } from '../../shared/engine/fit/transform'
 import { costLandscape } from '../../shared/engine/landscape'
 import { describeOutcome, type FitResult, type LandscapeResult } from '../../shared/api/fit'
 import type { ColumnMapping, ColumnMeta } from '../../shared/api/datasets'
-import type { LiveSegmentLine, OutputTrace, RunProgress, RunSettings } from '../../shared/api/runs'
+import type { LiveSegmentLine, OutputTrace, ProgressEstimate, RunProgress, RunSettings } from '../../shared/api/runs'
 import { conversionFor } from './bindings'
 import { columnsOf, type StoredData } from './datasets'
 
@@ -270,8 +271,9 @@ export async function executeRun(db: Db, runId: number, opts: ExecuteOptions = {
   const writeProgress = (p: RunProgress) => {
     writing = writing.then(() => db.update(runs).set({ progress: p }).where(and(eq(runs.id, runId), eq(runs.status, 'running')))).catch(() => undefined)
   }
+  let estimates: ProgressEstimate[] = []
   const progress = (iteration: number, cost: number | null, start: number, message: string, fraction: number): RunProgress => ({
-    iteration, cost, costHistory: thin(history, 500), fraction, start, starts: settings.starts, message, updatedAt: new Date().toISOString(),
+    iteration, cost, costHistory: thin(history, 500), fraction, start, starts: settings.starts, message, updatedAt: new Date().toISOString(), estimates,
   })
   writeProgress(progress(0, null, 0, 'preparing the fit', 0.01))
 
@@ -294,6 +296,7 @@ export async function executeRun(db: Db, runId: number, opts: ExecuteOptions = {
       landscape,
       ...(opts.runStarts ? { runStarts: opts.runStarts } : {}),
       onProgress: (info) => {
+        if (info.cost <= best && info.parameters.length === probe.n) estimates = declaredEstimates(model, probe, info.parameters)
         if (info.cost < best) best = info.cost
         history.push(best)
         const start = info.start ?? 0
@@ -316,7 +319,22 @@ export async function executeRun(db: Db, runId: number, opts: ExecuteOptions = {
       options.segmentEvaluator = segmentHelpers().factory({ sheet: versionText, parts, spec, options: { rtol, atol, solver, maxSteps }, segments: options.segments }, threads)
     }
     const result = await runFit(model, spec, options, simulate)
+    const tracesOf = (r: FitResult): OutputTrace[] => {
+      try { return simulateTraces(model, probe, r, est, val, settings.mapping) } catch { return [] }
+    }
     if (pending) writeProgress(pending)
+    if (result.stoppedEarly) {
+      // cancelled after some starts finished: their best is kept on the cancelled run, with its traces
+      const { finishedStarts, plannedStarts } = result.stoppedEarly
+      const traces = tracesOf(result)
+      const why = cancelled ? 'Cancelled by request' : 'Stopped'
+      return await finish('cancelled', {
+        outcome: result.status, convergedBy: result.convergedBy,
+        result: { ...result, traces } as unknown as Record<string, unknown>,
+        error: `${why} after ${finishedStarts} of ${plannedStarts} starts: the result shown is the best of the finished starts.`,
+        progress: progress(result.iterations, result.sse, finishedStarts, 'stopped, best finished start kept', 1),
+      })
+    }
     if (cancelled || controller.signal.aborted || result.status === 'aborted') {
       return await finish('cancelled', { error: cancelled ? 'Cancelled by request.' : 'Stopped: the fit was aborted.', progress: progress(0, best === Infinity ? null : best, 0, 'cancelled', 0) })
     }
@@ -325,8 +343,7 @@ export async function executeRun(db: Db, runId: number, opts: ExecuteOptions = {
       const where = result.reasonStart !== null && settings.starts > 1 ? ` (start ${result.reasonStart})` : ''
       return await finish('failed', { ...outcome, error: `The fit failed${where}: ${result.reason}`, result: { ...result, traces: [] } as unknown as Record<string, unknown> })
     }
-    let traces: OutputTrace[] = []
-    try { traces = simulateTraces(model, probe, result, est, val, settings.mapping) } catch { traces = [] }
+    const traces = tracesOf(result)
     const lastHistory = result.costHistory.length ? result.costHistory : history
     return await finish('succeeded', {
       ...outcome,

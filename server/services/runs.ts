@@ -200,7 +200,7 @@ function summaryOf(r: RunRow, modelTitle: string, projectName: string): RunSumma
     id: r.id, projectId: r.projectId, projectName, modelId: r.modelId, modelTitle, modelVersion: r.modelVersion,
     name: s.name || `Run ${r.id}`, status: r.status as RunStatus, progress: (r.progress as RunProgress | null) ?? null,
     error: r.error, cancelRequested: r.cancelRequested, createdAt: iso(r.createdAt)!, startedAt: iso(r.startedAt), finishedAt: iso(r.finishedAt),
-    createdBy: r.createdBy, sse: r.status === 'succeeded' ? result?.sse ?? null : null,
+    createdBy: r.createdBy, sse: r.status === 'succeeded' || r.status === 'cancelled' ? result?.sse ?? null : null,
     outcome: (r.outcome as FitStatus | null) ?? null, convergedBy: (r.convergedBy as ConvergenceTest | null) ?? null,
   }
 }

@@ -219,5 +219,7 @@ export const fitResult = z.object({
   cautions: z.array(z.string()),
   /** present when the fit used multiple shooting */
   multipleShooting: multipleShootingInfo.optional(),
+  /** present when the fit was stopped by request after some starts finished: the result is their best */
+  stoppedEarly: z.object({ finishedStarts: z.number().int(), plannedStarts: z.number().int() }).optional(),
 })
 export type FitResult = z.infer<typeof fitResult>

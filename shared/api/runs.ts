@@ -115,6 +115,9 @@ export const liveSegmentLine = z.object({
   segments: z.array(z.object({ t: z.array(z.number()), y: z.array(z.number().nullable()) })),
 })
 export type LiveSegmentLine = z.infer<typeof liveSegmentLine>
+/** One estimated quantity while the fit runs (per-record quantities carry the record in brackets). */
+export const progressEstimate = z.object({ name: z.string(), unit: z.string(), value: z.number() })
+export type ProgressEstimate = z.infer<typeof progressEstimate>
 
 export const runProgress = z.object({
   /** iteration of the current start */
@@ -131,6 +134,8 @@ export const runProgress = z.object({
   /** multiple shooting: the segments' lines at iteration `segmentIteration` (refreshed at most twice a second) */
   segmentLines: z.array(liveSegmentLine).optional(),
   segmentIteration: z.number().optional(),
+  /** the estimates at the best cost so far, in declared units (absent on rows written before they were reported) */
+  estimates: z.array(progressEstimate).optional(),
 })
 export type RunProgress = z.infer<typeof runProgress>
 

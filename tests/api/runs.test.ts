@@ -195,18 +195,26 @@ describe('a fit from upload to result', () => {
 })
 
 describe('cancel', () => {
-  it('stops a running fit within a second', async () => {
+  /** Polls the run until `ready` holds for it while it runs. */
+  async function whileRunning(rid: number, ready: (s: Record<string, any>) => boolean) {
+    for (;;) {
+      const s = (await modeler.get(`${WS}/runs/${rid}`)).body
+      if (s.status === 'running' && ready(s)) return s
+      expect(['queued', 'running']).toContain(s.status)
+      await new Promise((res) => setTimeout(res, 50))
+    }
+  }
+
+  it('stops a running fit within a second; before any start finished nothing is kept', async () => {
     // many starts on the same data keep the fit busy for many seconds
     const r = await modeler.post(`${WS}/projects/${pid}/runs`).set(CSRF).send({ ...baseRun(), starts: 40, weighting: 'sheet' })
     expect(r.status).toBe(201)
     const rid = r.body.id
-    for (;;) {
-      const s = (await modeler.get(`${WS}/runs/${rid}`)).body
-      // under way: an iteration reported, or (multi-start fits fanned out over threads) a start done
-      if (s.status === 'running' && (s.progress?.iteration >= 1 || s.progress?.start >= 1)) break
-      expect(['queued', 'running']).toContain(s.status)
-      await new Promise((res) => setTimeout(res, 50))
-    }
+    // under way in the first start: an iteration reported, with the live estimates of the free parameters
+    const live = await whileRunning(rid, (s) => s.progress?.iteration >= 1)
+    // the sheet's free parameters and its estimated initial state (per estimation record)
+    expect(live.progress.estimates.map((e: { name: string }) => e.name).sort()).toEqual(['Cv', 'T[est]', 'UA', 'tau'])
+    for (const e of live.progress.estimates) expect(Number.isFinite(e.value)).toBe(true)
     const c = await modeler.post(`${WS}/runs/${rid}/cancel`).set(CSRF)
     const asked = Date.now()
     expect(c.status).toBe(200)
@@ -214,9 +222,43 @@ describe('cancel', () => {
     const took = Date.now() - asked
     expect(end.status).toBe('cancelled')
     expect(took).toBeLessThan(1000)
-    expect(end.result).toBeNull()
+    if (end.result === null) expect(end.error).toBe('Cancelled by request.')
+    else expect(end.result.stoppedEarly.finishedStarts).toBeGreaterThanOrEqual(1) // a start finished meanwhile
     const again = await modeler.post(`${WS}/runs/${rid}/cancel`).set(CSRF)
     expect(again.status).toBe(409)
+  })
+
+  it('keeps the best of the finished starts when a multi-start fit is cancelled', async () => {
+    const r = await modeler.post(`${WS}/projects/${pid}/runs`).set(CSRF).send({ ...baseRun(), starts: 40, weighting: 'sheet' })
+    const rid = r.body.id
+    await whileRunning(rid, (s) => s.progress?.start >= 2)
+    expect((await modeler.post(`${WS}/runs/${rid}/cancel`).set(CSRF)).status).toBe(200)
+    const end = await waitForRun(modeler, rid, 20_000)
+    expect(end.status).toBe('cancelled')
+    expect(end.error).toMatch(/after \d+ of 40 starts: the result shown is the best of the finished starts/)
+    const result = fitResult.parse(Object.fromEntries(Object.entries(end.result).filter(([k]) => k !== 'traces')))
+    expect(result.stoppedEarly!.finishedStarts).toBeGreaterThanOrEqual(2)
+    expect(result.stoppedEarly!.plannedStarts).toBe(40)
+    expect(result.warnings.some((w) => w.startsWith('stopped by request after'))).toBe(true)
+    // the kept estimate is the lowest cost among the finished starts
+    const costs = result.starts.map((s) => s.sse).filter((c): c is number => c !== null)
+    expect(result.sse).toBeCloseTo(Math.min(...costs), 9)
+    expect(end.outcome).toBe(result.status)
+    expect(end.result.traces.length).toBeGreaterThan(0)
+    expect(end.sse).toBeCloseTo(result.sse!, 9)
+  })
+
+  it('reports live progress and estimates for a Nelder–Mead fit', async () => {
+    const r = await modeler.post(`${WS}/projects/${pid}/runs`).set(CSRF).send({ ...baseRun(), method: 'nelder-mead', starts: 40, weighting: 'sheet' })
+    const rid = r.body.id
+    const live = await whileRunning(rid, (s) => (s.progress?.costHistory?.length ?? 0) >= 3 && (s.progress?.estimates?.length ?? 0) > 0)
+    // the curve is the best cost so far: it never rises
+    const h = live.progress.costHistory as number[]
+    for (let i = 1; i < h.length; i++) expect(h[i]).toBeLessThanOrEqual(h[i - 1])
+    // the sheet's free parameters and its estimated initial state (per estimation record)
+    expect(live.progress.estimates.map((e: { name: string }) => e.name).sort()).toEqual(['Cv', 'T[est]', 'UA', 'tau'])
+    expect((await modeler.post(`${WS}/runs/${rid}/cancel`).set(CSRF)).status).toBe(200)
+    expect((await waitForRun(modeler, rid, 20_000)).status).toBe('cancelled')
   })
 
   it('cancels a queued run before it starts', async () => {

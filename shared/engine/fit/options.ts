@@ -43,8 +43,11 @@ export interface FitOptions {
   segments?: SegmentRequest
   /** multiple shooting: the host's helpers for the segments of each evaluation (multiple-shooting/evaluator.ts) */
   segmentEvaluator?: SegmentEvaluatorFactory
-  /** run the planned starts elsewhere (workers); must return one outcome per plan, in any order */
-  runStarts?: (plans: StartPlan[]) => Promise<StartOutcome[]>
+  /**
+   * run the planned starts elsewhere (workers); must return one outcome per plan, in any order (after a
+   * cancel: the outcomes of the starts that finished); `onProgress` receives every start's iterations
+   */
+  runStarts?: (plans: StartPlan[], onProgress?: (info: ProgressInfo) => void) => Promise<StartOutcome[]>
 }
 
 export interface StartPlan {

@@ -69,6 +69,14 @@ export function unitOf(model: CompiledModel, prob: FitProblem, q: number): UnitM
   return qq.kind === 'param' ? model.params[qq.index] : model.states[qq.index]
 }
 
+/** The estimated quantities at `theta` in their declared units (the live estimates of a running fit). */
+export function declaredEstimates(model: CompiledModel, prob: FitProblem, theta: ArrayLike<number>): { name: string; unit: string; value: number }[] {
+  return prob.names.map((name, q) => {
+    const u = unitOf(model, prob, q)
+    return { name, unit: u.unit, value: toDeclared(u, theta[q]) }
+  })
+}
+
 export async function buildResult(a: BuildArgs): Promise<FitResult> {
   const { model, spec, opts, simulate, best } = a
   const tol = resolveTolerances(opts)
