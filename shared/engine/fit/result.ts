@@ -207,7 +207,7 @@ export async function buildResult(a: BuildArgs): Promise<FitResult> {
     const means = localMeans(prob, theta)
     const estimateStarts = spec.validationStart === 'estimate'
     if (prob.validation.length > 0 && prob.quantities.some((q) => q.experiment !== null && q.kind === 'param')) {
-      warnings.push('validation: local parameters take the mean of their per-experiment estimates')
+      warnings.push('validation: per-record parameters take the mean of their estimates on the fit records')
     }
     if (prob.validation.length > 0 && !estimateStarts && prob.quantities.some((q) => q.kind === 'state')) {
       warnings.push("validation: the estimated initial states take their sheet values on validation records; ask for initial states estimated on each record (parameters frozen) when a record starts elsewhere")
