@@ -12,15 +12,17 @@ import { experimentFromTable } from '../../shared/data/experiment'
 import { describeOutcome, type FitResult, type EstimateRow } from '../../shared/api/fit'
 import { ArgError, folderLibrary, splitOption } from './args'
 import { segmentHelpers, segmentThreadsOption } from '../jobs/segment-threads'
+import { formatP, residualVerdicts } from '../../shared/api/residual-checks'
 
 const USAGE = `usage: pewter fit <sheet> <data.csv>… [--validate v.csv] [--method lm|nelder-mead] [--starts N]
   [--weighting sheet|equal|normalized|ml] [--set name=value …] [--fix a,b] [--free c,d] [--bounds c=lo:hi]
-  [--local k] [--t0 t] [--rtol r] [--atol a] [--seed n] [--profile name] [--landscape a,b[,n]]
+  [--per-record k] [--t0 t] [--rtol r] [--atol a] [--seed n] [--profile name] [--landscape a,b[,n]]
   [--equation-error compare|start] [--time-budget ms] [--solver auto|rk45|odex|stiff] [--max-iterations n] [--library DIR]
   [--validation-start sheet|estimate] [--segments N | --segment-length T] [--threads N] [--json]
   --segments N, --segment-length T: multiple shooting, each record cut into N segments (or segments of
   about T in the sheet's time unit), then a single-shooting polish; --threads N: threads evaluating the
-  segments, the fit's own included (default min(segments, cores − 1); 1 = the fit's thread alone)`
+  segments, the fit's own included (default min(segments, cores − 1); 1 = the fit's thread alone)
+  --per-record k: estimate parameter k once per record (data file) instead of once for all (--local is the older name)`
 
 interface Args {
   sheet: string
@@ -102,6 +104,7 @@ export function parseArgs(argv: string[]): Args {
       }
       case '--fix': a.fix.push(...list(value())); break
       case '--free': a.free.push(...list(value())); break
+      case '--per-record':
       case '--local': a.local.push(...list(value())); break
       case '--bounds': {
         for (const item of list(value())) {
@@ -309,7 +312,7 @@ function pad(rows: string[][]): string {
 function estimateTable(rows: EstimateRow[], title: string): string {
   if (rows.length === 0) return ''
   const body = rows.map((p) => [
-    p.experiment === null ? p.name : `${p.name} (exp ${p.experiment + 1})`, g(p.value, 8), p.unit || '-', g(p.stdError, 4),
+    p.experiment === null ? p.name : `${p.name} (per-record, record ${p.experiment + 1})`, g(p.value, 8), p.unit || '-', g(p.stdError, 4),
     `[${g(p.ci95[0])}, ${g(p.ci95[1])}]`, `[${g(p.lower)}, ${g(p.upper)}]`,
     p.atBound ? `at ${p.atBound} bound` : !p.determined ? `not determined by these data${p.profileCi95 ? `; profile [${g(p.profileCi95[0])}, ${g(p.profileCi95[1])}]` : ''}` : p.profileCi95 ? `profile [${g(p.profileCi95[0])}, ${g(p.profileCi95[1])}]` : '',
   ])
@@ -327,10 +330,18 @@ export function formatTable(r: FitResult): string {
   s += estimateTable(r.parameters, 'parameters')
   s += estimateTable(r.initialStates, 'initial states')
   if (r.outputs.length > 0) {
-    s += '\noutputs\n' + pad([['output', 'experiment', 'set', 'N', 'NRMSE', 'RMSE', 'R²', 'Ljung–Box p'], ...r.outputs.map((o) => [
+    s += '\noutputs\n' + pad([['output', 'record', 'set', 'N', 'NRMSE', 'RMSE', 'R²', 'Ljung–Box p'], ...r.outputs.map((o) => [
       o.name, o.experimentName, o.validation ? 'validation' : 'fit', String(o.n), g(o.nrmse, 4), g(o.rmse, 4), g(o.r2, 6),
       o.residuals ? g(o.residuals.ljungBox.pValue, 3) : '—',
     ])])
+  }
+  const checked = r.outputs.filter((o) => o.residuals)
+  if (checked.length > 0) {
+    s += '\nresidual checks (5 % level)\n'
+    for (const o of checked) {
+      s += `  ${o.name} on ${o.experimentName} (${o.validation ? 'validation' : 'fit'})\n`
+      s += pad(residualVerdicts(o.residuals!).map((v) => [`    ${v.passed ? 'pass' : 'FAIL'}`, v.check, `p ${formatP(v.pValue)}`, v.statistic]))
+    }
   }
   if (r.equationError) {
     s += `\nequation-error (OLS) comparison: ${r.equationError.parameters.map((p) => `${p.name} = ${g(p.value)} ± ${g(p.stdError, 3)}`).join(', ')}; output-error SSE there ${g(r.equationError.sse)}\n`

@@ -28,6 +28,7 @@ import { runFit } from '../../shared/engine/fit'
 import type { ExperimentData, FitProblem, ProblemSpec } from '../../shared/engine/fit/problem'
 import { BoxTransform } from '../../shared/engine/fit/transform'
 import { costLandscape } from '../../shared/engine/landscape'
+import { covarianceFrom, outputBandHalfWidth } from '../../shared/engine/stats/output-band'
 import { describeOutcome, type FitResult, type LandscapeResult } from '../../shared/api/fit'
 import type { ColumnMapping, ColumnMeta } from '../../shared/api/datasets'
 import type { LiveSegmentLine, OutputTrace, ProgressEstimate, RunProgress, RunSettings } from '../../shared/api/runs'
@@ -158,11 +159,13 @@ export async function loadRunInputs(db: Db, run: typeof runs.$inferSelect) {
   return { settings, model, est: settings.estimation.map(get), val: settings.validation.map(get), versionText: version.text }
 }
 
-/** Measured against simulated outputs at the estimate, for every experiment (declared units, seconds). */
+/** Measured against simulated outputs at the estimate, for every experiment (declared units, seconds), with the covariance band. */
 export function simulateTraces(model: CompiledModel, prob: FitProblem, result: FitResult, est: LoadedDataset[], val: LoadedDataset[], mapping: ColumnMapping): OutputTrace[] {
   const best = result.starts.find((s) => s.index === result.bestStart)
   const theta = best && best.value.every((v) => v !== null) ? (best.value as number[]) : null
   if (!theta || theta.length !== prob.n) return []
+  const cov = internalCovariance(model, prob, result)
+  const tq = result.tQuantile ?? NaN
   const traces: OutputTrace[] = []
   const p = new Float64Array(model.np)
   const x0 = new Float64Array(model.nx)
@@ -175,7 +178,20 @@ export function simulateTraces(model: CompiledModel, prob: FitProblem, result: F
       const k = model.states.findIndex((st) => st.name === v.name)
       if (k >= 0) x0[k] = toInternal(model.states[k], v.value)
     }
-    const res = prob.simulateExperiment(ex, p, hasX0 || started.length > 0 ? x0 : undefined, false)
+    const withBand = cov !== null && Number.isFinite(tq)
+    let res = prob.simulateExperiment(ex, p, hasX0 || started.length > 0 ? x0 : undefined, withBand)
+    if (!res && withBand) res = prob.simulateExperiment(ex, p, hasX0 || started.length > 0 ? x0 : undefined, false)
+    let half: Float64Array | null = null
+    if (res?.dy && cov) {
+      const ns = ex.sensParams.length + ex.sensStates.length
+      // sensitivity column c → estimated quantity q; on a validation record only the shared parameters count
+      const cols = new Int32Array(ns).fill(-1)
+      prob.quantities.forEach((q, qi) => {
+        const c = ex.sensCol[qi]
+        if (c >= 0 && (!validation || (q.kind === 'param' && q.experiment === null))) cols[c] = qi
+      })
+      half = outputBandHalfWidth(res.dy, ex.tOut.length * model.ny, ns, cols, cov, prob.n, tq)
+    }
     model.outputs.forEach((o, j) => {
       const col = mapping.outputs[o.name]
       const meas = ex.data.outputs[o.name]
@@ -184,17 +200,41 @@ export function simulateTraces(model: CompiledModel, prob: FitProblem, result: F
       const t = new Array<number>(n)
       const measured = new Array<number | null>(n)
       const simulated = new Array<number | null>(n)
+      const band = half ? new Array<number | null>(n) : null
       for (let k = 0; k < n; k++) {
         t[k] = ex.tOut[k] * model.secondsPerTimeUnit
         const m = meas[ex.timeIndex[k]]
         measured[k] = Number.isFinite(m) ? toDeclared(o, m) : null
         const s = res ? res.y[k * model.ny + j] : NaN
         simulated[k] = Number.isFinite(s) ? toDeclared(o, s) : null
+        if (band && half) {
+          const h = half[k * model.ny + j] / Math.abs(o.scale)
+          band[k] = Number.isFinite(h) ? h : null
+        }
       }
-      traces.push({ experiment: idx, datasetId: ds.id, datasetName: ds.name, validation, output: o.name, column: col, unit: o.unit, t, measured, simulated })
+      traces.push({ experiment: idx, datasetId: ds.id, datasetName: ds.name, validation, output: o.name, column: col, unit: o.unit, t, measured, simulated, ...(band ? { band } : {}) })
     })
   })
   return traces
+}
+
+/**
+ * The linearised covariance of the estimated quantities in internal units, from the result's standard
+ * errors and correlations; quantities held at a bound contribute nothing. Null when a quantity is not
+ * determined by the data (its variance is unbounded) or the result has no covariance.
+ */
+function internalCovariance(model: CompiledModel, prob: FitProblem, result: FitResult): Float64Array | null {
+  const byKey = new Map([...result.parameters.map((r) => [`p|${r.name}|${r.experiment}`, r] as const), ...result.initialStates.map((r) => [`s|${r.name}|${r.experiment}`, r] as const)])
+  const rows = prob.quantities.map((q) => byKey.get(`${q.kind === 'param' ? 'p' : 's'}|${q.name}|${q.experiment}`))
+  if (rows.some((r) => !r || !r.determined)) return null
+  const se = rows.map((r, q) => {
+    if (!r || r.atBound) return 0
+    const qq = prob.quantities[q]
+    const u = qq.kind === 'param' ? model.params[qq.index] : model.states[qq.index]
+    return r.stdError === null ? NaN : r.stdError * Math.abs(u.scale)
+  })
+  if (result.correlation.names.length !== prob.n) return null
+  return covarianceFrom(se, result.correlation.matrix)
 }
 
 /** The cost over a grid of two estimated quantities, the others at the estimate (results page, on request). */

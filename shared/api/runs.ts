@@ -139,7 +139,6 @@ export const runProgress = z.object({
 })
 export type RunProgress = z.infer<typeof runProgress>
 
-/** Measured against simulated output for one experiment (time in seconds, values in the column's unit). */
 /** Measured against simulated output for one experiment (time in seconds, values in the sheet's declared unit). */
 export const outputTrace = z.object({
   experiment: z.number(),
@@ -152,6 +151,11 @@ export const outputTrace = z.object({
   t: z.array(z.number()),
   measured: z.array(z.number().nullable()),
   simulated: z.array(z.number().nullable()),
+  /**
+   * half-width of the 95 % band of the simulated output from the parameter covariance (first-order
+   * propagation through the output sensitivities); absent when the covariance is not available
+   */
+  band: z.array(z.number().nullable()).optional(),
 })
 export type OutputTrace = z.infer<typeof outputTrace>
 

@@ -83,6 +83,22 @@ describe('a fit from upload to result', () => {
     const tl = traces.find((x) => x.output === 'level' && !x.validation)!
     expect(tl.unit).toBe('m')
     expect(Math.abs(tl.measured[10]! - tl.simulated[10]!)).toBeLessThan(0.03)
+    // the covariance band of the simulated output: present, positive, and narrow next to the 0.5 cm noise
+    // the data were made with (the estimates are well determined by 1000 samples)
+    const band = (tl as unknown as { band: (number | null)[] }).band
+    expect(band).toHaveLength(tl.simulated.length)
+    expect(band.every((h) => h !== null && h >= 0)).toBe(true)
+    expect(Math.max(...(band as number[]))).toBeGreaterThan(0)
+    expect(Math.max(...(band as number[]))).toBeLessThan(0.005)
+    // residual checks: lags in the sheet's time unit, cumulative periodogram, normality, independence per input
+    expect(level.residuals!.timeUnit).toBe('s')
+    expect(level.residuals!.sampleStep).toBeGreaterThan(0)
+    const cp = level.residuals!.periodogram!
+    expect(cp.cumulative[cp.cumulative.length - 1]).toBeCloseTo(1, 12)
+    expect(cp.band).toBeCloseTo(1.36 / Math.sqrt(cp.q), 12)
+    expect(cp.frequency[cp.frequency.length - 1]).toBeLessThanOrEqual(0.5 / level.residuals!.sampleStep! + 1e-12)
+    expect(level.residuals!.normality!.test).toBe('jarque-bera')
+    expect(level.residuals!.independence!.map((i) => i.input).sort()).toEqual(['P_h', 'T_feed', 'opening', 'q_in'])
     expect(result.landscape?.cost.length).toBeGreaterThan(5)
     expect(run.caution).toBe(RESULT_CAUTION)
     expect(run.progress.fraction).toBe(1)

@@ -80,12 +80,19 @@ describe('pewter fit', () => {
     expect(res.elapsedMs).toBeGreaterThan(0)
   })
 
-  it('two experiments, a local parameter, a validation file and the readable table', async () => {
-    const r = await pewterHere(['boxbod.sheet', 'boxbod.csv', 'boxbod.csv', '--local', 'b2', '--validate', 'boxbod.csv', '--rtol', '1e-10'])
+  it('two records, a per-record parameter, a validation file and the readable table', async () => {
+    const r = await pewterHere(['boxbod.sheet', 'boxbod.csv', 'boxbod.csv', '--per-record', 'b2', '--validate', 'boxbod.csv', '--rtol', '1e-10'])
     expect(r.code).toBe(0)
     expect(r.stdout).toMatch(/^fit converged/)
-    expect(r.stdout).toMatch(/b2 \(exp 1\)/)
-    expect(r.stdout).toMatch(/b2 \(exp 2\)/)
+    expect(r.stdout).toMatch(/b2 \(per-record, record 1\)/)
+    expect(r.stdout).toMatch(/b2 \(per-record, record 2\)/)
+    // the verdict table of the residual checks
+    expect(r.stdout).toMatch(/residual checks \(5 % level\)/)
+    expect(r.stdout).toMatch(/(pass|FAIL)\s+Normality: Jarque–Bera\s+p /)
+    // the older option name still works
+    const old = await pewterHere(['boxbod.sheet', 'boxbod.csv', 'boxbod.csv', '--local', 'b2', '--rtol', '1e-10', '--json'])
+    expect(old.code).toBe(0)
+    expect(fitResult.parse(JSON.parse(old.stdout)).parameters.filter((p) => p.name === 'b2')).toHaveLength(2)
     expect(r.stdout).toMatch(/validation/)
     expect(r.stdout).toMatch(/note: .*control or for any safety-related decision/)
   })
