@@ -7,8 +7,9 @@
  *   delay for delayed reads); the solver lands on each breakpoint and keeps its step size.
  * - Outputs come at exactly the requested times from the method's dense output.
  * - Steady initial states are solved first (steady.ts); discrete sheets iterate (discrete.ts).
- * - Sensitivity error control: ∂x_i/∂θ_j · |θ_j| (|θ_j| = 1 when θ_j = 0) is measured like state i;
- *   `errorControl: false` leaves sensitivities out of it.
+ * - Sensitivity error control: ∂x_i/∂θ_j · |θ_j| (|θ_j| = 1 when θ_j = 0) is measured like state i
+ *   by the explicit methods; the stiff method measures the states only unless `errorControl: true`;
+ *   `errorControl: false` leaves sensitivities out of every method's error control.
  * - Work buffers are cached per model and sensitivity layout: repeated calls (a fit) do not allocate
  *   beyond the result arrays.
  */
@@ -121,7 +122,10 @@ export function simulate(model: CompiledModel, req: SimulationRequest): Simulati
     if (!(a > 0)) throw new SimulationRequestError(`atol for state '${model.states[i].name}' must be > 0, got ${a}`)
     tol.atol[i] = a
   }
+  // errorControl: true → sensitivities in every method's error norm; false → in none; not given →
+  // in the explicit methods' (rk45, odex) but not the stiff method's (rosenbrock.ts, error control)
   const sensCtl = req.sensitivities?.errorControl !== false
+  tol.stiffSensitivities = req.sensitivities?.errorControl === true
   for (let i = 0; i < nx; i++) tol.weight[i] = 1
   for (let j = 0; j < ns; j++) {
     const th = sens[j].param >= 0 ? p[sens[j].param] : x0[sens[j].state]
@@ -240,7 +244,10 @@ function withAdvice(e: unknown, solver: OdeSolver, limits: SolverLimits, tol: To
   let rtol = Infinity
   for (let i = 0; i < tol.rtol.length; i++) rtol = Math.min(rtol, tol.rtol[i])
   const auto = solver instanceof AutoSolver ? solver : null
-  const ctx: RunContext = { solver: solver.name, switched: auto !== null && auto.switched, rtol, maxSteps: limits.maxSteps, sensitivities: sens }
+  const switched = auto !== null && auto.switched
+  // the stiff method measures the sensitivities only when asked to (errorControl: true)
+  const measured = sens && (solver.name === 'stiff' || switched ? tol.stiffSensitivities === true : true)
+  const ctx: RunContext = { solver: solver.name, switched, rtol, maxSteps: limits.maxSteps, sensitivities: measured }
   const t = e.t ?? tSeg
   return e instanceof StepLimitError ? new StepLimitError(e.maxSteps, t, adviceFor('step_limit', ctx)) : new StepSizeTooSmallError(t, e.h, adviceFor('step_too_small', ctx))
 }

@@ -5,7 +5,8 @@
  * each needed `let` once per call.
  */
 import { type CmpOp, type Expr, type FnName, fold, mul, num, walk, isNum } from './ast'
-import { diff, type Var } from './derivative'
+import { diff, type PointVar } from './derivative'
+import { couplingFunction } from './coupling-codegen'
 import type { ParsedModel } from './model'
 import { SheetError, type Span } from './diagnostics'
 
@@ -17,7 +18,7 @@ import { SheetError, type Span } from './diagnostics'
 export const MAX_GENERATED_CHARS = 1_000_000
 
 /** Counts the generated characters; throws a SheetError at `span` once the total passes the limit. */
-class SizeBudget {
+export class SizeBudget {
   used = 0
   add(text: string, span: Span | undefined): string {
     this.used += text.length
@@ -39,6 +40,7 @@ export interface GeneratedFunctions {
   dgdx: Fn
   dgdp: Fn
   dgdu: Fn
+  d2f: Fn
 }
 type Fn = (t: number, x: Float64Array, p: Float64Array, u: Float64Array, out: Float64Array) => void
 
@@ -87,16 +89,21 @@ export const JS_DIALECT: Dialect = {
   cmp: (op) => CMP[op],
   decl: (name, value) => `const ${name}=${value};`,
   open: (name) => `function ${name}(t,x,p,u,out){`,
-  zero: () => 'out.fill(0);',
+  // a plain loop: TypedArray#fill costs more than the stores themselves on the small arrays here
+  zero: (n) => (n > 0 ? `for(let k=0;k<${n};k++)out[k]=0;` : ''),
   lookup: (i, d, arg) => `${d ? 'lkd' : 'lkv'}(X${i},Y${i},${arg})`,
   spt: 'SPT',
   unused: () => '',
 }
 
 export class Emitter {
+  /** subtrees held in named temporaries: emitted as their name */
+  hoisted: Map<Expr, string> | null = null
   constructor(private readonly m: ParsedModel, private readonly d: Dialect = JS_DIALECT) {}
   emit(e: Expr): string {
     const d = this.d
+    const h = this.hoisted?.get(e)
+    if (h !== undefined) return h
     switch (e.k) {
       case 'num': return d.lit(e.v)
       case 'x': return `x[${e.i}]`
@@ -129,7 +136,7 @@ function isSimple(e: Expr): boolean {
 }
 
 type Key = string
-const keyOf = (v: Var): Key => (v.k === 't' ? 't' : `${v.k}${v.i}`)
+const keyOf = (v: PointVar): Key => (v.k === 't' ? 't' : `${v.k}${v.i}`)
 
 /** the variables (states, params, input slots, t) an expression depends on, through its lets */
 function directVars(e: Expr, lets: Set<number>): Set<Key> {
@@ -147,8 +154,11 @@ function directVars(e: Expr, lets: Set<number>): Set<Key> {
 export const GENERATED = ['rhs', 'outputs', 'dfdx', 'dfdp', 'dfdu', 'dfdt', 'dgdx', 'dgdp', 'dgdu'] as const
 export type GeneratedName = (typeof GENERATED)[number]
 
-/** The nine model functions as source text of the dialect. */
-export function generateFunctions(m: ParsedModel, dialect: Dialect = JS_DIALECT): Record<GeneratedName, string> {
+/**
+ * The nine model functions as source text of the dialect; with `coupling` also `d2f`, the
+ * sensitivities' coupling term (coupling-codegen.ts; the compiled model only, not the exports).
+ */
+export function generateFunctions(m: ParsedModel, dialect: Dialect = JS_DIALECT, coupling = false): Record<GeneratedName, string> & { d2f?: string } {
   const nu = m.inputs.length + m.delays.length
   const em = new Emitter(m, dialect)
   const budget = new SizeBudget()
@@ -199,7 +209,7 @@ export function generateFunctions(m: ParsedModel, dialect: Dialect = JS_DIALECT)
     return lines.join('\n')
   }
 
-  const jacFn = (name: string, exprs: Expr[], infos: { vars: Set<Key>; lets: Set<number> }[], vars: Var[], spans: Span[]) => {
+  const jacFn = (name: string, exprs: Expr[], infos: { vars: Set<Key>; lets: Set<number> }[], vars: PointVar[], spans: Span[]) => {
     const ncol = vars.length
     const order = neededLets(infos)
     const lines: string[] = []
@@ -234,10 +244,10 @@ export function generateFunctions(m: ParsedModel, dialect: Dialect = JS_DIALECT)
 
   const fSpans = m.equations.map((q) => q.span)
   const gSpans = m.outputs.map((o) => o.span)
-  const xs: Var[] = m.states.map((_, i) => ({ k: 'x', i }))
-  const ps: Var[] = m.params.map((_, i) => ({ k: 'p', i }))
-  const us: Var[] = Array.from({ length: nu }, (_, i) => ({ k: 'u', i }))
-  const ts: Var[] = [{ k: 't' }]
+  const xs: PointVar[] = m.states.map((_, i) => ({ k: 'x', i }))
+  const ps: PointVar[] = m.params.map((_, i) => ({ k: 'p', i }))
+  const us: PointVar[] = Array.from({ length: nu }, (_, i) => ({ k: 'u', i }))
+  const ts: PointVar[] = [{ k: 't' }]
 
   return {
     rhs: valueFn('rhs', f, fInfo, fSpans),
@@ -249,11 +259,12 @@ export function generateFunctions(m: ParsedModel, dialect: Dialect = JS_DIALECT)
     dgdx: jacFn('dgdx', g, gInfo, xs, gSpans),
     dgdp: jacFn('dgdp', g, gInfo, ps, gSpans),
     dgdu: jacFn('dgdu', g, gInfo, us, gSpans),
+    ...(coupling ? { d2f: couplingFunction({ m, em, dialect, budget, f, fSpans, letExpr, order: neededLets(fInfo), letLines }) } : {}),
   }
 }
 
 export function generateSource(m: ParsedModel): string {
-  const fns = generateFunctions(m, JS_DIALECT)
+  const fns = generateFunctions(m, JS_DIALECT, true)
   const parts: string[] = [
     "'use strict';",
     `const SPT=${lit(m.secondsPerTimeUnit)};`,
@@ -262,7 +273,8 @@ export function generateSource(m: ParsedModel): string {
     'function lkd(X,Y,v){const n=X.length;if(v!==v)return v;if(v<=X[0]||v>=X[n-1])return 0;let lo=0,hi=n-1;while(hi-lo>1){const k=(lo+hi)>>1;if(X[k]<=v)lo=k;else hi=k;}return (Y[lo+1]-Y[lo])/(X[lo+1]-X[lo]);}',
     ...m.lookups.map((_, i) => `const X${i}=TX[${i}],Y${i}=TY[${i}];`),
     ...GENERATED.map((n) => fns[n]),
-    'return {rhs,outputsFn:outputs,dfdx,dfdp,dfdu,dfdt,dgdx,dgdp,dgdu};',
+    fns.d2f!,
+    'return {rhs,outputsFn:outputs,dfdx,dfdp,dfdu,dfdt,dgdx,dgdp,dgdu,d2f};',
   ]
   return parts.join('\n')
 }

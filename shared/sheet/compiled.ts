@@ -113,6 +113,13 @@ export interface CompiledModel {
   dgdp: VecFn
   /** ∂g/∂u, ny*(nu+nd) */
   dgdu: VecFn
+  /**
+   * The sensitivities' coupling term, nx values: the second directional derivative
+   * D_v D_w f with w = (s, q, r) in (x, p, u) and v = (v_x, τ, ν) in (x, t, u), called with packed
+   * arrays X = [x, s, v_x, τ] (3nx + 1), P = [p, q] (2np), U = [u, r, ν] (3(nu+nd))
+   * (coupling-codegen.ts).
+   */
+  d2f: VecFn
   /** the generated JavaScript source, for inspection */
   source: string
 }
