@@ -60,7 +60,7 @@ function serve(): void {
         port.postMessage({ type: 'rows', key: m.key, id: m.batch.id, rows: null, message: e instanceof Error ? e.message : String(e) } satisfies FromHelper)
         return
       }
-      const transfer: ArrayBuffer[] = [rows.rows.buffer as ArrayBuffer, rows.r.buffer as ArrayBuffer, rows.defects.buffer as ArrayBuffer]
+      const transfer: ArrayBuffer[] = [rows.r.buffer as ArrayBuffer, rows.defects.buffer as ArrayBuffer]
       if (rows.jac) transfer.push(rows.jac.buffer as ArrayBuffer)
       port.postMessage({ type: 'rows', key: m.key, id: m.batch.id, rows } satisfies FromHelper, transfer)
     } else if (m.type === 'drop') {

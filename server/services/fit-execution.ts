@@ -389,7 +389,8 @@ export async function executeRun(db: Db, runId: number, opts: ExecuteOptions = {
       ...outcome,
       result: { ...result, traces } as unknown as Record<string, unknown>,
       error: null,
-      progress: { ...progress(result.iterations, result.sse, settings.starts - 1, `finished, ${describeOutcome(result.status, result.convergedBy)}: ${result.reason}`, 1), costHistory: thin(lastHistory, 500) },
+      // a multiple-shooting run keeps the segments' lines of its last shooting iteration
+      progress: { ...progress(result.iterations, result.sse, settings.starts - 1, `finished, ${describeOutcome(result.status, result.convergedBy)}: ${result.reason}`, 1), costHistory: thin(lastHistory, 500), ...lines },
     })
   } catch (e) {
     if (cancelled || controller.signal.aborted) return await finish('cancelled', { error: cancelled ? 'Cancelled by request.' : 'Stopped: the fit was aborted.' })

@@ -117,6 +117,21 @@ describe('a fit from upload to result', () => {
     expect(ms.segments).toBe(6)
     expect(ms.continuous).toBe(true)
     expect(ms.experiments[0].boundaries).toHaveLength(5)
+    // the segments' own lines, as the run page drew them while shooting: each output of the record,
+    // measured and six segment lines in the sheet's units and seconds
+    const lines = run.progress.segmentLines as { output: string; unit: string; t: number[]; measured: (number | null)[]; segments: { t: number[]; y: (number | null)[] }[] }[]
+    expect(lines.map((l) => l.output).sort()).toEqual(['level', 'temp'])
+    const level = lines.find((l) => l.output === 'level')!
+    expect(level.unit).toBe('m')
+    expect(level.segments).toHaveLength(6)
+    expect(level.segments.reduce((a, s) => a + s.t.length, 0)).toBe(level.t.length)
+    expect(level.t.length).toBeLessThanOrEqual(400 + 12)
+    expect(typeof run.progress.segmentIteration).toBe('number')
+    const traces = run.result.traces as { output: string; validation: boolean; t: number[]; measured: (number | null)[] }[]
+    const tl = traces.find((x) => x.output === 'level' && !x.validation)!
+    const k = tl.t.indexOf(level.t[1])
+    expect(k).toBeGreaterThan(0)
+    expect(level.measured[1]).toBeCloseTo(tl.measured[k]!, 12)
     const byName = Object.fromEntries(result.parameters.map((p) => [p.name, p]))
     for (const [name, truth] of [['Cv', BUFFER_TRUTH.Cv], ['UA', BUFFER_TRUTH.UA], ['tau', BUFFER_TRUTH.tau]] as const) {
       expect(Math.abs(byName[name].value - truth), name).toBeLessThan(4 * byName[name].stdError!)

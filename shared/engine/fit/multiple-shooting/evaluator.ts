@@ -52,7 +52,11 @@ export interface SegmentBatch {
   segments: Int32Array
 }
 
-/** A block's rows, helper → fit thread (the arrays are transferable). */
+/**
+ * A block's rows, helper → fit thread (the arrays are transferable). Rows and Jacobian columns are
+ * implicit: segment by segment (the batch's order), its output rows then its defect rows; per row the
+ * columns a segment can touch (the parameters, its own initial state, its successor's).
+ */
 export interface SegmentRows {
   id: number
   ok: boolean
@@ -61,12 +65,10 @@ export interface SegmentRows {
   /** the fit's time budget ran out or the helper was stopped inside a simulation */
   interrupted: 'aborted' | 'time-budget' | null
   simulations: number
-  /** residual row indices of the block (output rows, then defect rows, segment by segment) */
-  rows: Int32Array
   r: Float64Array
   /** scaled defect per row (NaN on output rows) */
   defects: Float64Array
-  /** with the Jacobian: rows.length × n, row after row */
+  /** with the Jacobian: each row's entries in its segment's columns */
   jac: Float64Array | null
 }
 
@@ -94,16 +96,46 @@ export function shapeOf(ms: MultipleShootingProblem): SegmentShape {
 }
 
 /** Rows a segment writes: its output rows and its defect rows. */
-function rowCount(ms: MultipleShootingProblem, s: number): number {
-  const seg = ms.segments[s]
-  return seg.obs1 - seg.obs0 + (seg.dRow >= 0 ? ms.base.model.nx : 0)
-}
-
 function forEachRow(ms: MultipleShootingProblem, s: number, f: (row: number) => void): void {
   const seg = ms.segments[s]
   const offset = ms.base.experiments[seg.experiment].obs.offset
   for (let i = seg.obs0; i < seg.obs1; i++) f(offset + i)
   if (seg.dRow >= 0) for (let j = 0; j < ms.base.model.nx; j++) f(ms.mOut + seg.dRow + j)
+}
+
+/** Columns of w a segment's rows can depend on: θ, its own initial state, its successor's initial state. */
+function columnsOf(ms: MultipleShootingProblem, s: number): Int32Array {
+  const seg = ms.segments[s]
+  const nx = ms.base.model.nx
+  const cols: number[] = []
+  for (let q = 0; q < ms.nTheta; q++) cols.push(q)
+  if (seg.sCol >= 0) for (let j = 0; j < nx; j++) cols.push(seg.sCol + j)
+  if (seg.nextCol >= 0) for (let j = 0; j < nx; j++) cols.push(seg.nextCol + j)
+  return Int32Array.from(cols)
+}
+
+/** Sizes of a block's reply: rows, and Jacobian entries. */
+function blockSize(ms: MultipleShootingProblem, cols: Int32Array[], segments: Int32Array): { rows: number; entries: number } {
+  let rows = 0
+  let entries = 0
+  for (const s of segments) {
+    const seg = ms.segments[s]
+    const k = seg.obs1 - seg.obs0 + (seg.dRow >= 0 ? ms.base.model.nx : 0)
+    rows += k
+    entries += k * cols[s].length
+  }
+  return { rows, entries }
+}
+
+/** Each segment's columns, computed once per problem. */
+const columnCache = new WeakMap<MultipleShootingProblem, Int32Array[]>()
+function segmentColumns(ms: MultipleShootingProblem): Int32Array[] {
+  let c = columnCache.get(ms)
+  if (!c) {
+    c = ms.segments.map((_, s) => columnsOf(ms, s))
+    columnCache.set(ms, c)
+  }
+  return c
 }
 
 /**
@@ -114,34 +146,33 @@ export class SegmentServer {
   private readonly r: Float64Array
   private readonly jac: Float64Array
   private readonly defects: Float64Array
+  private readonly cols: Int32Array[]
 
   constructor(readonly ms: MultipleShootingProblem) {
     this.r = new Float64Array(ms.m)
     this.jac = new Float64Array(ms.m * ms.n)
     this.defects = new Float64Array(ms.nDefects)
+    this.cols = segmentColumns(ms)
   }
 
   serve(b: SegmentBatch): SegmentRows {
     const ms = this.ms
+    const m = ms.m
     ms.mu = b.mu
     ms.lambda.set(b.lambda)
     ms.stateScale.set(b.stateScale)
     ms.base.lastError = null
     const sims0 = ms.base.simulations
-    let nRows = 0
-    for (const s of b.segments) nRows += rowCount(ms, s)
-    const rows = new Int32Array(nRows)
-    let at = 0
-    for (const s of b.segments) forEachRow(ms, s, (row) => { rows[at++] = row })
+    const size = blockSize(ms, this.cols, b.segments)
     const jac = b.withJac ? this.jac : null
     const reply = (ok: boolean, interrupted: SegmentRows['interrupted']): SegmentRows => ({
       id: b.id, ok, error: ok ? null : ms.base.lastError, interrupted, simulations: ms.base.simulations - sims0,
-      rows, r: new Float64Array(nRows), defects: new Float64Array(nRows), jac: null,
+      r: new Float64Array(ok ? size.rows : 0), defects: new Float64Array(ok ? size.rows : 0), jac: null,
     })
     let ok = true
     try {
       for (const s of b.segments) {
-        if (jac) clearRows(jac, ms, s)
+        if (jac) { const cols = this.cols[s]; forEachRow(ms, s, (row) => { for (const c of cols) jac[c * m + row] = 0 }) }
         if (!ms.evaluateSegment(s, b.w, this.r, jac, this.defects)) { ok = false; break }
       }
     } catch (e) {
@@ -152,24 +183,21 @@ export class SegmentServer {
     }
     const out = reply(ok, null)
     if (!ok) return out
-    const n = ms.n
-    const m = ms.m
-    out.jac = jac ? new Float64Array(nRows * n) : null
-    for (let k = 0; k < nRows; k++) {
-      const row = rows[k]
-      out.r[k] = this.r[row]
-      out.defects[k] = row >= ms.mOut ? this.defects[row - ms.mOut] : NaN
-      if (out.jac) for (let c = 0; c < n; c++) out.jac[k * n + c] = jac![c * m + row]
+    const oj = jac ? new Float64Array(size.entries) : null
+    out.jac = oj
+    let k = 0
+    let e = 0
+    for (const s of b.segments) {
+      const cols = this.cols[s]
+      forEachRow(ms, s, (row) => {
+        out.r[k] = this.r[row]
+        out.defects[k] = row >= ms.mOut ? this.defects[row - ms.mOut] : NaN
+        k++
+        if (oj) for (const c of cols) oj[e++] = jac![c * m + row]
+      })
     }
     return out
   }
-}
-
-/** Zeroes a segment's rows of a column-major Jacobian (the segment writes only its nonzero entries). */
-function clearRows(jac: Float64Array, ms: MultipleShootingProblem, s: number): void {
-  const m = ms.m
-  const n = ms.n
-  forEachRow(ms, s, (row) => { for (let c = 0; c < n; c++) jac[c * m + row] = 0 })
 }
 
 /** Contiguous blocks of segments with about equal sample counts, one per lane (some may be empty). */
@@ -190,15 +218,20 @@ export function splitSegments(ms: MultipleShootingProblem, lanes: number): Int32
   return blocks
 }
 
-/** Copies a helper's rows into the fit thread's residual, Jacobian (column-major) and defects. */
-export function mergeRows(ms: MultipleShootingProblem, rows: SegmentRows, r: Float64Array, jac: Float64Array | null): void {
-  const n = ms.n
+/** Copies a helper's rows of the block `segments` into the fit thread's residual, Jacobian (column-major) and defects. */
+export function mergeRows(ms: MultipleShootingProblem, segments: Int32Array, rows: SegmentRows, r: Float64Array, jac: Float64Array | null): void {
   const m = ms.m
-  for (let k = 0; k < rows.rows.length; k++) {
-    const row = rows.rows[k]
-    r[row] = rows.r[k]
-    if (row >= ms.mOut) ms.defects[row - ms.mOut] = rows.defects[k]
-    if (jac && rows.jac) for (let c = 0; c < n; c++) jac[c * m + row] = rows.jac[k * n + c]
+  const all = segmentColumns(ms)
+  let k = 0
+  let e = 0
+  for (const s of segments) {
+    const cols = all[s]
+    forEachRow(ms, s, (row) => {
+      r[row] = rows.r[k]
+      if (row >= ms.mOut) ms.defects[row - ms.mOut] = rows.defects[k]
+      k++
+      if (jac && rows.jac) for (const c of cols) jac[c * m + row] = rows.jac[e++]
+    })
   }
 }
 

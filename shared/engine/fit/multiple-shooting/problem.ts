@@ -183,8 +183,10 @@ export class MultipleShootingProblem implements LsqProblem {
     const blocks = splitSegments(this, helpers + 1)
     // a helper that is lost (its thread ended) rejects: its block is then evaluated here
     const replies: Promise<SegmentRows | Int32Array>[] = []
+    const sent: Int32Array[] = []
     for (let l = 1; l <= helpers; l++) {
       if (!blocks[l].length) continue
+      sent.push(blocks[l])
       replies.push(ev.evaluate(l - 1, {
         id, w: Float64Array.from(w), mu: this.mu, lambda: Float64Array.from(this.lambda), stateScale: Float64Array.from(this.stateScale),
         withJac: jac !== null, segments: blocks[l],
@@ -201,7 +203,8 @@ export class MultipleShootingProblem implements LsqProblem {
     const got = await Promise.all(replies)
     if (thrown) throw thrown
     let interrupted: SegmentRows['interrupted'] = null
-    for (const rows of got) {
+    for (let b = 0; b < got.length; b++) {
+      const rows = got[b]
       if (rows instanceof Int32Array) {
         for (const s of rows) if (ok && !(ok = this.evaluateSegment(s, w, r, jac, this.defects))) break
         continue
@@ -211,7 +214,7 @@ export class MultipleShootingProblem implements LsqProblem {
       else if (!rows.ok) {
         if (ok) this.base.lastError = rows.error
         ok = false
-      } else mergeRows(this, rows, r, jac)
+      } else mergeRows(this, sent[b], rows, r, jac)
     }
     if (interrupted === 'aborted') throw new FitAborted()
     if (interrupted === 'time-budget') throw new FitTimeout()
