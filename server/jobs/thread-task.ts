@@ -128,4 +128,4 @@ export async function ping(): Promise<number> {
   return threadId
 }
 // the request pool's tasks (request-pool.ts) load through this same entry
-export { compileSheet, upload, condition } from './request-tasks'
+export { compileSheet, upload, condition, handover } from './request-tasks'

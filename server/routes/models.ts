@@ -41,11 +41,11 @@ export function modelRoutes() {
   // hand-over: linear analysis and exports of a version (POST: bodies carry options; nothing is stored)
   router.post('/:id/versions/:n/linearize', requireCapability('read'), async (req, res) => {
     const body = parse(handoverBody, req.body)
-    res.json(await linearizeVersion(ctx(req).db, actor(req), intParam(req.params, 'id'), intParam(req.params, 'n'), body))
+    res.json(await linearizeVersion(ctx(req), actor(req), intParam(req.params, 'id'), intParam(req.params, 'n'), body))
   })
   router.post('/:id/versions/:n/export', requireCapability('read'), async (req, res) => {
     const body = parse(exportBody, req.body)
-    const file = await exportVersion(ctx(req).db, actor(req), intParam(req.params, 'id'), intParam(req.params, 'n'), body)
+    const file = await exportVersion(ctx(req), actor(req), intParam(req.params, 'id'), intParam(req.params, 'n'), body)
     res.setHeader('Content-Type', file.contentType)
     res.setHeader('Content-Disposition', `attachment; filename="${file.fileName}"`)
     res.send(typeof file.data === 'string' ? file.data : Buffer.from(file.data))
