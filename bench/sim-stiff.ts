@@ -35,6 +35,7 @@ function model(name: string, x0: number[], p: number[], rhs: VecFn, dfdx: VecFn,
     dfdx, dfdp, dfdu: zero, dfdt: zero,
     dgdx: (t, x, pp, uu, o) => { o.fill(0); for (let i = 0; i < nx; i++) o[i * nx + i] = 1 },
     dgdp: zero, dgdu: zero, source: '',
+    modes: [], events: [], nm: 0, ne: 0, modeValues: new Float64Array(0), eventFns: null,
   }
 }
 

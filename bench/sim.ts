@@ -41,6 +41,7 @@ function model(name: string, states: number[], params: number[], rhs: VecFn, dfd
     dfdx, dfdp: dfdp ?? zero, dfdu: zero, dfdt: zero,
     dgdx: (t, x, p, uu, o) => { o.fill(0); for (let i = 0; i < nx; i++) o[i * nx + i] = 1 },
     dgdp: zero, dgdu: zero, source: '',
+    modes: [], events: [], nm: 0, ne: 0, modeValues: new Float64Array(0), eventFns: null,
   }
 }
 

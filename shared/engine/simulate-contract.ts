@@ -61,4 +61,6 @@ export interface SimulationResult {
   x0: Float64Array
   stats: SimulationStats
   warnings: string[]
+  /** sheets with events: every event that fired, in time order (time, event index, its line) */
+  events?: { t: number; event: number; line: number }[]
 }

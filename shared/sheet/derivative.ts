@@ -22,7 +22,7 @@ export interface DiffContext {
 
 export function diff(e: Expr, v: Var, ctx: DiffContext): Expr {
   switch (e.k) {
-    case 'num': case 'c': case 'tmp': return ZERO
+    case 'num': case 'c': case 'tmp': case 'm': return ZERO
     case 'x': case 'p': case 'u': return v.k === e.k && v.i === e.i ? ONE : ZERO
     case 'delay': return v.k === 'u' && v.i === e.slot ? ONE : ZERO
     case 't': return v.k === 't' ? num(ctx.secondsPerTimeUnit) : ZERO

@@ -103,6 +103,7 @@ export function makeModel(spec: TestModelSpec): CompiledModel {
     dgdp: spec.dgdp ?? (spec.outputsFn && np ? fdJac(outputsFn, ny, 'p', np) : zeros(ny * np)),
     dgdu: spec.dgdu ?? (spec.outputsFn && nu + nd ? fdJac(outputsFn, ny, 'u', nu + nd) : zeros(ny * (nu + nd))),
     source: '// hand-built test model',
+    modes: [], events: [], nm: 0, ne: 0, modeValues: new Float64Array(0), eventFns: null,
   }
 }
 
