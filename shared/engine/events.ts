@@ -53,6 +53,8 @@ export interface SimulationEvent {
   /** the event's index in the sheet and its line */
   event: number
   line: number
+  /** event-time sensitivities dτ/dθ in the run's sensitivity order (null without sensitivities) */
+  dt: Float64Array | null
 }
 
 export class EventMonitor {
@@ -219,13 +221,26 @@ export class EventMonitor {
       for (let k = 1; k < ne; k++) if (Math.abs(hTmp[k]) < Math.abs(hTmp[best])) best = k
       fired[best] = 1
     }
-    for (let k = 0; k < ne; k++) {
-      if (!fired[k]) continue
-      this.jump(k, te, z)
-      this.chatter(k, te)
-      this.log.push({ t: te, event: k, line: model.events[k].line })
+    // a condition left at zero by an event that now moves to its far side fires at the same time
+    // (a switch without hysteresis: the chattering check ends the run if this never settles)
+    for (;;) {
+      for (let k = 0; k < ne; k++) {
+        if (!fired[k]) continue
+        this.jump(k, te, z)
+        this.chatter(k, te)
+        this.log.push({ t: te, event: k, line: model.events[k].line, dt: this.sys.ns > 0 ? this.dtau.slice(0, this.sys.ns) : null })
+      }
+      this.rearm(te, z)
+      let again = false
+      for (let k = 0; k < ne; k++) {
+        const d = depart[k]
+        const dir = model.events[k].direction
+        const go = !fired[k] && d !== 0 && (dir === 'either' || (dir === 'down' ? d < 0 : d > 0))
+        fired[k] = go ? 1 : 0
+        if (go) again = true
+      }
+      if (!again) return
     }
-    this.rearm(te, z)
   }
 
   /** the assignments of event k at t with the sensitivities' jumps (z in place) */
