@@ -46,6 +46,7 @@ function model(name: string, states: number[], params: number[], rhs: VecFn, dfd
     dgdx: (t, x, p, uu, o) => { o.fill(0); for (let i = 0; i < nx; i++) o[i * nx + i] = 1 },
     dgdp: zero, dgdu: zero, source: '',
     d2f: d2f ?? (() => { throw new Error(`${name}: this benchmark problem has no coupling term (it is not run with sensitivities)`) }),
+    modes: [], events: [], nm: 0, ne: 0, modeValues: new Float64Array(0), eventFns: null,
   }
 }
 

@@ -25,10 +25,14 @@ import { AutoSolver } from './solvers/auto'
 import { OdexSolver } from './solvers/odex'
 import { Rk45 } from './solvers/rk45'
 import { Rosenbrock } from './solvers/rosenbrock'
+import { EventMonitor, resetModes } from './events'
 import { now, type OdeSolver, type SolverLimits, type Tolerances } from './solvers/types'
 
 export const DEFAULT_RTOL = 1e-6
 export const DEFAULT_MAX_STEPS = 100_000
+
+/** thrown from the step observer to end a solver's advance at an event (one object, never allocated again) */
+const EVENT_STOP = Object.freeze({ eventStop: true })
 
 function solverFor(ws: Workspace, name: SolverName): OdeSolver {
   let s = ws.solvers[name]
@@ -87,6 +91,8 @@ export function simulate(model: CompiledModel, req: SimulationRequest): Simulati
   const sens = sensLayout(model, req)
   const ws = workspace(model, sens)
   const { sys, tol, zStart: z0 } = ws
+  // every run starts in the sheet's modes (the steady solve too)
+  resetModes(model)
   const nx = model.nx
   const ns = sens.length
   const tOut = req.tOut
@@ -170,15 +176,40 @@ export function simulate(model: CompiledModel, req: SimulationRequest): Simulati
     solver.start(sys, tol, limits, t0, z0, 0)
     const bps = inputs.breakpoints(t0, tEnd)
     const zd = ws.zScratch
-    const obs = (_a: number, b: number): void => {
-      while (iOut < nt && tOut[iOut] <= b) {
+    /** outputs up to `limit` (inclusive or not) from the last step */
+    const flush = (limit: number, inclusive: boolean): void => {
+      while (iOut < nt && (inclusive ? tOut[iOut] <= limit : tOut[iOut] < limit)) {
         const tq = tOut[iOut]
-        if (tq === b) writeOut(model, ws, inputs, solver.z, iOut, tq, res)
+        if (tq === solver.t) writeOut(model, ws, inputs, solver.z, iOut, tq, res)
         else {
           solver.dense(tq, zd)
           writeOut(model, ws, inputs, zd, iOut, tq, res)
         }
         iOut++
+      }
+    }
+    const obs = (_a: number, b: number): void => flush(b, true)
+    const mon = ws.events
+    /** steps to b; the first event in a step ends it there (events.ts) and the solver restarts after it */
+    let te = 0, hNext = 0
+    const obsEvents = (ta: number, tb: number): void => {
+      const ev = mon!
+      te = ev.locate(solver, ta, tb)
+      if (te === Infinity) { flush(tb, true); return }
+      flush(te, false)
+      solver.dense(te, ws.zEvent)
+      hNext = solver.h
+      ev.fire(te, ws.zEvent)
+      throw EVENT_STOP
+    }
+    const advanceEvents = (b: number): void => {
+      while (solver.t < b) {
+        try {
+          solver.advance(b, obsEvents)
+        } catch (e) {
+          if (e !== EVENT_STOP) throw e
+          solver.restartAt(te, ws.zEvent, hNext)
+        }
       }
     }
     const tauHold = sens.some((s) => s.delaySlots.some((slot) => inputs.isHoldTrace(slot)))
@@ -199,6 +230,7 @@ export function simulate(model: CompiledModel, req: SimulationRequest): Simulati
         if (k > 0 && checkJumps) inputs.eval(a, ws.uAt) // left limit at the breakpoint
         if (k > 0 && tauSlope) inputs.slope(ws.slopeLeft)
         inputs.setSegment(0.5 * (a + b))
+        if (k === 0 && mon !== null) mon.begin(inputs, t0, tEnd, solver.z)
         if (k > 0 && (checkJumps || tauSlope)) {
           let jump = false
           if (checkJumps) {
@@ -217,11 +249,18 @@ export function simulate(model: CompiledModel, req: SimulationRequest): Simulati
             solver.breakpoint()
           }
         }
-        solver.advance(b, obs)
+        if (mon === null) solver.advance(b, obs)
+        else advanceEvents(b)
         a = b
       }
     } catch (e) {
+      resetModes(model)
       throw withAdvice(e, solver, limits, tol, ns > 0 && sensCtl, a)
+    }
+    if (mon !== null) {
+      res.events = mon.log
+      res.warnings.push(...mon.warnings)
+      resetModes(model)
     }
     const c = solver.counters
     res.stats.steps = c.steps

@@ -48,7 +48,7 @@ export function diff(e: Expr, v: Var, ctx: DiffContext): Expr {
 
 function diffNode(e: Expr, v: Var, ctx: DiffContext): Expr {
   switch (e.k) {
-    case 'num': case 'c': return ZERO
+    case 'num': case 'c': case 'm': return ZERO
     case 'tmp': return ctx.tmpDerivative ? ctx.tmpDerivative(e.i) : ZERO
     case 'x': case 'p': case 'u':
       if (v.k === 'dir') return v[e.k][e.i] ?? ZERO

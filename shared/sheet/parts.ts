@@ -260,7 +260,7 @@ function rewritePart(
   const P = part.name
   const kinds = new Map<string, { kind: string; unit: UnitInfo | null }>()
   const add = (list: { name: string; unit: UnitInfo | null }[], kind: string) => list.forEach((d) => kinds.set(d.name, { kind, unit: d.unit }))
-  add(m.states, 'state'); add(m.params, 'param'); add(m.consts, 'const'); add(m.inputs, 'input'); add(m.lookups, 'lookup'); add(m.lets, 'let')
+  add(m.states, 'state'); add(m.params, 'param'); add(m.consts, 'const'); add(m.inputs, 'input'); add(m.lookups, 'lookup'); add(m.lets, 'let'); add(m.modes, 'mode')
   const bases = new Set<string>()
   for (const k of kinds.keys()) bases.add(k.replace(/\[\d+\]$/, ''))
   const outputNames = new Set(m.outputs.map((o) => o.name))

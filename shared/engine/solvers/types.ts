@@ -81,6 +81,11 @@ export interface OdeSolver {
    * refresh whatever derivative is carried over (no fresh start-up).
    */
   breakpoint(): void
+  /**
+   * Continue from (t, z) after the state jumped there (an event cut the last step): counters and the
+   * method in use are kept, nothing is carried over from the last step but the step size h to try.
+   */
+  restartAt(t: number, z: Float64Array, h: number): void
   /** one accepted step, never beyond tStop (lands exactly on it when it is reached) */
   step(tStop: number): void
   /** integrate to exactly tStop, calling obs after each accepted step */

@@ -151,6 +151,7 @@ export function makeModel(spec: TestModelSpec): CompiledModel {
     dgdu: spec.dgdu ?? (spec.outputsFn && nu + nd ? fdJac(outputsFn, ny, 'u', nu + nd) : zeros(ny * (nu + nd))),
     d2f: spec.d2f ?? fdCoupling(nx, np, nu + nd, dfdx, dfdp, dfdu),
     source: '// hand-built test model',
+    modes: [], events: [], nm: 0, ne: 0, modeValues: new Float64Array(0), eventFns: null,
   }
 }
 

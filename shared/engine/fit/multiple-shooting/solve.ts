@@ -164,6 +164,10 @@ export async function runMultipleShootingFit(
   if (model.kind !== 'continuous') {
     throw new FitInputError('multiple shooting is for continuous-time sheets; a discrete-time sheet restarts every sample already', { kind: 'argument' })
   }
+  if (model.nm > 0) {
+    // a segment starts from free states but would start in the sheet's initial modes, not the ones the run is in there
+    throw new FitInputError(`multiple shooting cannot carry the sheet's modes (${model.modes.map((m) => m.name).join(', ')}) to the segment starts: fit this sheet by single shooting (leave out the segments)`, { kind: 'argument' })
+  }
   const deadline = opts.timeBudgetMs !== undefined ? Date.now() + opts.timeBudgetMs : undefined
   const tol = resolveTolerances(opts)
   const probe = makeProblem(model, spec, simulate, opts)
