@@ -76,6 +76,7 @@ const MATRIX: Record<string, Access> = {
   'POST /api/workspaces/:ws/projects/:pid/bindings/match': 'read',
   'POST /api/workspaces/:ws/projects/:pid/bindings': 'write',
   'PUT /api/workspaces/:ws/projects/:pid/bindings/:bid': 'write',
+  'DELETE /api/workspaces/:ws/projects/:pid/bindings/:bid': 'write',
   'POST /api/workspaces/:ws/projects/:pid/runs': 'write',
   'GET /api/workspaces/:ws/projects/:pid/runs': 'read',
   'GET /api/workspaces/:ws/projects/:pid/parameter-sets': 'read',
