@@ -154,6 +154,11 @@ async function resolveRun(db: Db, workspaceId: number, projectId: number, body: 
 
 export async function createRun(db: Db, jobs: JobRunner | undefined, workspaceId: number, projectId: number, userId: number, body: CreateRunBody, rerunOf: number | null = null, compile: SheetCompiler = compileHere): Promise<RunDto> {
   await getProjectRow(db, workspaceId, projectId)
+  if (rerunOf === null && body.rerunOf !== undefined) {
+    const [of] = await db.select({ id: runs.id }).from(runs).where(and(eq(runs.id, body.rerunOf), eq(runs.projectId, projectId))).limit(1)
+    if (!of) throw badRequest(`No run ${body.rerunOf} in this project to repeat`, [{ path: 'body.rerunOf', message: `no run ${body.rerunOf} in this project` }])
+    rerunOf = of.id
+  }
   const { settings, provenance } = await resolveRun(db, workspaceId, projectId, body, rerunOf, compile)
   const [row] = await db.insert(runs).values({
     workspaceId, projectId, modelId: body.modelId, modelVersion: body.version, bindingId: settings.bindingId,
