@@ -20,6 +20,7 @@ import { mailboxRoutes } from './mailbox'
 import { modelRoutes } from './models'
 import { checkRoutes } from './check'
 import { partRoutes } from './parts'
+import { reviewRoutes } from './reviews'
 
 export function apiRouter(context: AppContext) {
   const api = Router()
@@ -42,6 +43,7 @@ export function apiRouter(context: AppContext) {
   ws.use('/tokens', tokenRoutes())
   ws.use('/models', modelRoutes())
   ws.use('/parts', partRoutes())
+  ws.use('/reviews', reviewRoutes())
   api.use('/workspaces/:ws', ws)
   return api
 }

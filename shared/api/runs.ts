@@ -62,6 +62,8 @@ export const createRunBody = z.object({
   seed: z.number().int().min(0).max(2 ** 31 - 1).optional(),
   /** validation records start from the sheet's initial state, or from initial states estimated on each (parameters frozen) */
   validationStart: z.enum(['sheet', 'estimate']).optional(),
+  /** the run this one repeats, when started from its "run again" form (a run of the same project) */
+  rerunOf: z.coerce.number().int().positive().optional(),
 })
 export type CreateRunBody = z.infer<typeof createRunBody>
 

@@ -1,7 +1,7 @@
 /** Calls of the project, dataset, binding and run routes; every shape comes from shared/api. */
 import { exampleProjectReply, type ProjectDto } from '@shared/api/projects'
 import type {
-  BindingDto, ColumnMapping, ConditioningStep, DatasetDataDto, DatasetDto, DatasetPurpose, DatasetSummaryDto, MappingCheck,
+  BindingDto, BindingFollow, UpdateBindingBody, ColumnMapping, ConditioningStep, DatasetDataDto, DatasetDto, DatasetPurpose, DatasetSummaryDto, MappingCheck,
 } from '@shared/api/datasets'
 import type { CreateRunBody, LandscapeDto, ParameterSetDto, RunDto, RunSummaryDto } from '@shared/api/runs'
 import type { VersionDto } from '@shared/api/models'
@@ -41,8 +41,11 @@ export function uploadDataset(ws: string, pid: number, file: File, fields: { nam
 export const listBindings = (ws: string, pid: number) => api.get<{ bindings: BindingDto[] }>(`${w(ws)}/projects/${pid}/bindings`).then((r) => r.bindings)
 export const matchMapping = (ws: string, pid: number, body: { modelId: number; version: number; datasetId: number; mapping?: ColumnMapping }) =>
   api.post<{ mapping: ColumnMapping; checks: MappingCheck[] }>(`${w(ws)}/projects/${pid}/bindings/match`, body)
-export const createBinding = (ws: string, pid: number, body: { modelId: number; version: number; datasetId: number; name?: string; mapping?: ColumnMapping }) =>
+export const createBinding = (ws: string, pid: number, body: { modelId: number; version: number; follow?: BindingFollow; datasetId: number; name?: string; mapping?: ColumnMapping }) =>
   api.post<BindingDto>(`${w(ws)}/projects/${pid}/bindings`, body)
+export const updateBinding = (ws: string, pid: number, bid: number, body: UpdateBindingBody) =>
+  api.put<BindingDto>(`${w(ws)}/projects/${pid}/bindings/${bid}`, body)
+export const deleteBinding = (ws: string, pid: number, bid: number) => api.delete(`${w(ws)}/projects/${pid}/bindings/${bid}`)
 
 // runs
 export const listRuns = (ws: string, pid?: number) =>
@@ -51,7 +54,6 @@ export const getRun = (ws: string, rid: number) => api.get<RunDto>(`${w(ws)}/run
 export const startRun = (ws: string, pid: number, body: Partial<CreateRunBody>) => api.post<RunDto>(`${w(ws)}/projects/${pid}/runs`, body)
 export const cancelRun = (ws: string, rid: number) => api.post<RunDto>(`${w(ws)}/runs/${rid}/cancel`)
 export const deleteRun = (ws: string, rid: number) => api.delete(`${w(ws)}/runs/${rid}`)
-export const rerun = (ws: string, rid: number) => api.post<RunDto>(`${w(ws)}/runs/${rid}/rerun`)
 export const runEventsUrl = (ws: string, rid: number) => `${w(ws)}/runs/${rid}/events`
 export const exportUrl = (ws: string, rid: number, format: 'csv' | 'json') => `${w(ws)}/runs/${rid}/export?format=${format}`
 export const getLandscape = (ws: string, rid: number, a: string, b: string, n = 21) => api.get<LandscapeDto>(`${w(ws)}/runs/${rid}/landscape`, { query: { a, b, n } })
