@@ -5,7 +5,7 @@
 import { z } from 'zod'
 import { nameProblem, visibleText } from './text'
 import { columnMapping } from './datasets'
-import { convergenceTest, fitMethod, fitStatus, fitWeighting, landscapeResult } from './fit'
+import { convergenceTest, fitMethod, fitResult, fitStatus, fitWeighting, landscapeResult } from './fit'
 
 /**
  * The run's lifecycle. 'succeeded' means the fit ran to its end and stored a result ("finished" on the
@@ -202,6 +202,13 @@ export const runDto = runSummaryDto.extend({
   caution: z.string(),
 })
 export type RunDto = z.infer<typeof runDto>
+
+/**
+ * A stored run result as the results pages read it: the fit JSON plus the traces the server simulated
+ * (absent on results stored without them). Unknown keys (caches) are kept.
+ */
+export const storedRunResult = fitResult.extend({ traces: z.array(outputTrace).default([]) }).loose()
+export type StoredRunResult = z.infer<typeof storedRunResult>
 
 export const saveParameterSetBody = z.object({ name: visibleText('the parameter set name', 200) })
 export const publishFromRunBody = z.object({ note: z.string().trim().max(2000).optional() })
