@@ -13,7 +13,7 @@ import type { ExportBody, HandoverBody, LinearAnalysis } from '../../shared/api/
 import { AnalysisInputError, analyzeModel, covarianceFromFit, resolveValues, type ValueSources } from '../../shared/engine/linear'
 import { buildExport, exportMeta, type ExportFile } from '../../shared/export'
 import { getVersion, type Actor } from './models'
-import { getRunRow } from './runs'
+import { assertFit, getRunRow } from './runs'
 
 interface Prepared {
   parsed: ParsedModel
@@ -43,6 +43,7 @@ async function prepare(db: Db, actor: Actor, modelId: number, number: number, bo
     const run = await getRunRow(db, actor.workspaceId, src.runId)
     if (run.modelId !== modelId) throw badRequest(`Run ${run.id} fitted another model (model ${run.modelId}); its estimates do not apply to this one`)
     if (run.status !== 'succeeded' || !run.result) throw conflict(`Run ${run.id} has no result (status ${run.status})`)
+    assertFit(run)
     fit = run.result as unknown as FitResult
     if (run.modelVersion !== number) warnings.push(`run ${run.id} fitted version ${run.modelVersion}; its estimates are applied to version ${number} by parameter name`)
     sources.fit = { result: fit, label: `fit run #${run.id} (version ${run.modelVersion})` }
