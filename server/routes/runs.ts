@@ -1,6 +1,6 @@
 /**
  * Fit runs (thin: parse, authorize, call the services).
- *   under /projects/:pid: POST runs, GET runs, GET parameter-sets
+ *   under /projects/:pid: POST runs, POST evaluations (a calibrated model on new records, nothing free), GET runs, GET parameter-sets
  *   under /runs: GET /, GET /:rid, DELETE /:rid, GET /:rid/events (server-sent events), POST /:rid/cancel,
  *     POST /:rid/rerun, GET /:rid/export?format=csv|json, GET /:rid/landscape?a=&b=&n=,
  *     POST /:rid/parameter-sets {name}, POST /:rid/publish {note?}
@@ -18,7 +18,7 @@ import { sheetCompiler } from '../services/request-work'
 import { deleteRun } from '../services/deletes'
 import { runLandscape, withoutLandscapeCache } from '../services/landscape'
 import { followRun } from '../services/run-progress'
-import { createRunBody, landscapeQuery, publishFromRunBody, saveParameterSetBody } from '../../shared/api/runs'
+import { createEvaluationBody, createRunBody, landscapeQuery, publishFromRunBody, saveParameterSetBody } from '../../shared/api/runs'
 
 const jobs = (req: Request) => ctx(req).services.jobs as JobRunner | undefined
 
@@ -27,6 +27,10 @@ export function projectRunRoutes() {
   router.post('/runs', requireCapability('write'), async (req, res) => {
     const body = parse(createRunBody, req.body)
     res.status(201).json(await runs.createRun(ctx(req).db, jobs(req), req.workspace!.id, intParam(req.params, 'pid'), req.auth!.userId, body, null, sheetCompiler(ctx(req))))
+  })
+  router.post('/evaluations', requireCapability('write'), async (req, res) => {
+    const body = parse(createEvaluationBody, req.body)
+    res.status(201).json(await runs.createEvaluation(ctx(req).db, jobs(req), req.workspace!.id, intParam(req.params, 'pid'), req.auth!.userId, body, null, sheetCompiler(ctx(req))))
   })
   router.get('/runs', requireCapability('read'), async (req, res) => {
     res.json({ runs: await runs.listRuns(ctx(req).db, req.workspace!.id, { projectId: intParam(req.params, 'pid') }) })

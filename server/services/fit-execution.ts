@@ -25,9 +25,11 @@ import { simulate } from '../../shared/engine'
 import { makeProblem, type FitOptions } from '../../shared/engine/fit/driver'
 import { declaredEstimates } from '../../shared/engine/fit/result'
 import { runFit } from '../../shared/engine/fit'
-import type { ExperimentData, FitProblem, ProblemSpec } from '../../shared/engine/fit/problem'
+import type { ExperimentData, FitProblem, PreparedExperiment, ProblemSpec } from '../../shared/engine/fit/problem'
 import { BoxTransform } from '../../shared/engine/fit/transform'
 import { costLandscape } from '../../shared/engine/landscape'
+import { evaluateModel, type EvaluationSpec } from '../../shared/engine/fit/evaluate'
+import type { EvaluationResult } from '../../shared/api/evaluation'
 import { covarianceFrom, outputBandHalfWidth } from '../../shared/engine/stats/output-band'
 import { describeOutcome, type FitResult, type LandscapeResult } from '../../shared/api/fit'
 import type { ColumnMapping, ColumnMeta } from '../../shared/api/datasets'
@@ -192,30 +194,38 @@ export function simulateTraces(model: CompiledModel, prob: FitProblem, result: F
       })
       half = outputBandHalfWidth(res.dy, ex.tOut.length * model.ny, ns, cols, cov, prob.n, tq)
     }
-    model.outputs.forEach((o, j) => {
-      const col = mapping.outputs[o.name]
-      const meas = ex.data.outputs[o.name]
-      if (!col || !meas) return
-      const n = ex.tOut.length
-      const t = new Array<number>(n)
-      const measured = new Array<number | null>(n)
-      const simulated = new Array<number | null>(n)
-      const band = half ? new Array<number | null>(n) : null
-      for (let k = 0; k < n; k++) {
-        t[k] = ex.tOut[k] * model.secondsPerTimeUnit
-        const m = meas[ex.timeIndex[k]]
-        measured[k] = Number.isFinite(m) ? toDeclared(o, m) : null
-        const s = res ? res.y[k * model.ny + j] : NaN
-        simulated[k] = Number.isFinite(s) ? toDeclared(o, s) : null
-        if (band && half) {
-          const h = half[k * model.ny + j] / Math.abs(o.scale)
-          band[k] = Number.isFinite(h) ? h : null
-        }
-      }
-      traces.push({ experiment: idx, datasetId: ds.id, datasetName: ds.name, validation, output: o.name, column: col, unit: o.unit, t, measured, simulated, ...(band ? { band } : {}) })
-    })
+    traces.push(...tracesOf(model, ex, res?.y ?? null, half, ds, idx, validation, mapping))
   })
   return traces
+}
+
+/** One record's measured and simulated outputs (and band half-widths) as plot traces: declared units, seconds. */
+export function tracesOf(model: CompiledModel, ex: PreparedExperiment, y: Float64Array | null, half: Float64Array | null,
+  ds: LoadedDataset, idx: number, validation: boolean, mapping: ColumnMapping): OutputTrace[] {
+  const out: OutputTrace[] = []
+  model.outputs.forEach((o, j) => {
+    const col = mapping.outputs[o.name]
+    const meas = ex.data.outputs[o.name]
+    if (!col || !meas) return
+    const n = ex.tOut.length
+    const t = new Array<number>(n)
+    const measured = new Array<number | null>(n)
+    const simulated = new Array<number | null>(n)
+    const band = half ? new Array<number | null>(n) : null
+    for (let k = 0; k < n; k++) {
+      t[k] = ex.tOut[k] * model.secondsPerTimeUnit
+      const m = meas[ex.timeIndex[k]]
+      measured[k] = Number.isFinite(m) ? toDeclared(o, m) : null
+      const s = y ? y[k * model.ny + j] : NaN
+      simulated[k] = Number.isFinite(s) ? toDeclared(o, s) : null
+      if (band && half) {
+        const h = half[k * model.ny + j] / Math.abs(o.scale)
+        band[k] = Number.isFinite(h) ? h : null
+      }
+    }
+    out.push({ experiment: idx, datasetId: ds.id, datasetName: ds.name, validation, output: o.name, column: col, unit: o.unit, t, measured, simulated, ...(band ? { band } : {}) })
+  })
+  return out
 }
 
 /**
@@ -259,6 +269,28 @@ export async function computeLandscape(db: Db, run: typeof runs.$inferSelect, a:
     const qq = prob.quantities[q]
     return toDeclared(qq.kind === 'param' ? model.params[qq.index] : model.states[qq.index], v)
   })
+}
+
+/**
+ * An evaluation run: the model version with the stored parameter values simulated on each record,
+ * nothing free (shared/engine/fit/evaluate.ts), with the plot traces.
+ */
+async function runEvaluation(db: Db, row: typeof runs.$inferSelect, signal: AbortSignal): Promise<EvaluationResult & { traces: OutputTrace[] }> {
+  const settings = row.settings as RunSettings
+  const { model, est } = await loadRunInputs(db, row)
+  const source = settings.valuesFrom?.kind === 'run' ? 'run' as const : 'parameter-set' as const
+  const set: EvaluationSpec['set'] = {}
+  for (const [name, v] of Object.entries(settings.values ?? {})) {
+    const q = model.params.find((x) => x.name === name)
+    if (!q) throw new RunInputError(`parameter '${name}' of the ${settings.valuesFrom?.kind === 'run' ? 'source run' : 'parameter set'} is not in the sheet`)
+    set[name] = { value: toInternal(q, v), source }
+  }
+  const ev = await evaluateModel(model, {
+    records: est.map((d) => experimentFrom(model, d, settings.mapping)), set, start: settings.validationStart ?? 'sheet',
+  }, fitOptions(settings, { signal }), simulate)
+  const traces: OutputTrace[] = []
+  ev.prob.experiments.forEach((ex, e) => traces.push(...tracesOf(model, ex, ev.simulated[e], null, est[e], e, true, settings.mapping)))
+  return { ...ev.result, traces }
 }
 
 const PROGRESS_INTERVAL_MS = 250
@@ -326,6 +358,15 @@ export async function executeRun(db: Db, runId: number, opts: ExecuteOptions = {
   }
 
   try {
+    if (settings.kind === 'evaluation') {
+      writeProgress(progress(0, null, 0, 'simulating the records', 0.2))
+      const result = await runEvaluation(db, row, controller.signal)
+      if (cancelled || controller.signal.aborted) return await finish('cancelled', { error: cancelled ? 'Cancelled by request.' : 'Stopped: the evaluation was aborted.' })
+      return await finish('succeeded', {
+        result: result as unknown as Record<string, unknown>, error: null,
+        progress: progress(0, null, 0, `finished: ${result.outputs.length} output${result.outputs.length === 1 ? '' : 's'} evaluated`, 1),
+      })
+    }
     const { model, est, val, versionText } = await loadRunInputs(db, row)
     const spec = problemSpec(model, settings, est, val)
     // built once without the abort signal: its names pick the landscape, then it simulates the traces

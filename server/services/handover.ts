@@ -16,7 +16,7 @@ import type { ExportBody, HandoverBody, LinearAnalysis } from '../../shared/api/
 import { AnalysisInputError, analyzeModel, covarianceFromFit, resolveValues, type ValueSources } from '../../shared/engine/linear'
 import { buildExport, exportMeta, type ExportFile } from '../../shared/export'
 import { getVersion, type Actor } from './models'
-import { getRunRow } from './runs'
+import { assertFit, getRunRow } from './runs'
 import { requestPoolOf } from './request-work'
 import { withoutLandscapeCache } from './landscape'
 
@@ -50,6 +50,7 @@ async function load(db: Db, actor: Actor, modelId: number, number: number, body:
     const run = await getRunRow(db, actor.workspaceId, src.runId)
     if (run.modelId !== modelId) throw badRequest(`Run ${run.id} fitted another model (model ${run.modelId}); its estimates do not apply to this one`)
     if (run.status !== 'succeeded' || !run.result) throw conflict(`Run ${run.id} has no result (status ${run.status})`)
+    assertFit(run)
     // the traces and the cached landscapes are not needed: only the estimates and their covariance cross to the thread
     const { traces: _traces, ...result } = withoutLandscapeCache({ result: run.result as Record<string, unknown> }).result!
     fit = result as unknown as FitResult

@@ -14,6 +14,7 @@ import { errorCodes } from '../../shared/api/errors'
 import { RunPool, threadExecArgv } from '../jobs/pool'
 import type { LandscapeOutcome, LandscapeTask } from '../jobs/thread-task'
 import type { LandscapeResult } from '../../shared/api/fit'
+import { assertFit } from './runs'
 
 export const LANDSCAPE_TIME_LIMIT_MS = 60_000
 /** at most this many grids are cached per run (each is at most 41 × 41 costs); the least recently used goes first */
@@ -65,6 +66,7 @@ export interface LandscapeAnswer { landscape: LandscapeResult; cached: boolean; 
  * → 503 with a message naming it.
  */
 export async function runLandscape(context: AppContext, row: RunRow, a: string, b: string, n: number, userId: number, limitMs = LANDSCAPE_TIME_LIMIT_MS): Promise<LandscapeAnswer> {
+  assertFit(row)
   const key = landscapeKey(a, b, n)
   const result = row.result as Record<string, unknown> | null
   const cache = (result?.[LANDSCAPE_CACHE_FIELD] ?? {}) as Record<string, LandscapeResult>

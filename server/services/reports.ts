@@ -3,7 +3,9 @@
  * each section headed by a comment line) and JSON (settings, provenance and the whole result). Both
  * carry the result caution.
  */
-import { describeOutcome, type FitResult } from '../../shared/api/fit'
+import { describeOutcome, type FitResult, type OutputRow } from '../../shared/api/fit'
+import type { EvaluationResult } from '../../shared/api/evaluation'
+import { residualVerdicts } from '../../shared/api/residual-checks'
 import { RESULT_CAUTION, type RunDto } from '../../shared/api/runs'
 import { conflict } from '../errors'
 
@@ -32,8 +34,34 @@ export function exportJson(run: RunDto) {
   }
 }
 
+/** The residual checks of every output as CSV rows (one per check). */
+function checkRows(outputs: OutputRow[]): string[] {
+  const rows = outputs.flatMap((o) => (o.residuals ? residualVerdicts(o.residuals) : []).map((v) => line([o.name, o.experimentName, v.check, v.statistic, v.pValue, v.passed ? 'pass' : 'fail'])))
+  return rows.length ? ['', '# residual checks (5 % level)', line(['output', 'record', 'check', 'statistic', 'p_value', 'verdict']), ...rows] : []
+}
+
+function evaluationCsv(run: RunDto, r: EvaluationResult): string {
+  const out: string[] = []
+  out.push(`# ${RESULT_CAUTION}`)
+  out.push(`# Pewter evaluation run ${run.id} "${run.name}": model "${run.modelTitle}" version ${run.modelVersion}, project "${run.projectName}"; values from ${run.settings.valuesFrom?.name ?? 'the model version'}; records started from ${r.start === 'estimated' ? 'initial states estimated on each record (parameters frozen)' : "the sheet's initial state"}`)
+  out.push(`# engine ${run.provenance.engineVersion}; sheet sha256 ${run.provenance.sheetHash}`)
+  for (const d of run.provenance.datasets) out.push(`# dataset ${d.id} "${d.name}" (${d.role}) sha256 ${d.contentHash}`)
+  out.push('')
+  out.push('# parameter values simulated with')
+  out.push(line(['name', 'unit', 'value', 'source']))
+  for (const p of r.parameters) out.push(line([p.name, p.unit, p.value, p.source]))
+  out.push('')
+  out.push('# figures per output and record')
+  out.push(line(['output', 'record', 'n', 'nrmse', 'rmse', 'r2']))
+  for (const o of r.outputs) out.push(line([o.name, o.experimentName, o.n, o.nrmse, o.rmse, o.r2]))
+  out.push(...checkRows(r.outputs))
+  if (r.warnings.length) out.push('', '# warnings', 'warning', ...r.warnings.map((w) => line([w])))
+  return out.join('\r\n') + '\r\n'
+}
+
 export function exportCsv(run: RunDto): string {
   if (run.status !== 'succeeded' || !run.result) throw conflict(`Run ${run.id} has no result to export (status ${run.status})`)
+  if ((run.result as { kind?: string }).kind === 'evaluation') return evaluationCsv(run, run.result as unknown as EvaluationResult)
   const r = run.result as unknown as FitResult
   const out: string[] = []
   out.push(`# ${RESULT_CAUTION}`)
@@ -50,9 +78,10 @@ export function exportCsv(run: RunDto): string {
   for (const p of r.parameters) out.push(est('parameter', p))
   for (const s of r.initialStates) out.push(est('initial_state', s))
   out.push('')
-  out.push('# fit per output and experiment')
-  out.push(line(['output', 'experiment', 'data', 'n', 'nrmse', 'rmse', 'r2', 'ljung_box_q', 'ljung_box_p']))
+  out.push('# fit per output and record')
+  out.push(line(['output', 'record', 'data', 'n', 'nrmse', 'rmse', 'r2', 'ljung_box_q', 'ljung_box_p']))
   for (const o of r.outputs) out.push(line([o.name, o.experimentName, o.validation ? 'validation' : 'estimation', o.n, o.nrmse, o.rmse, o.r2, o.residuals?.ljungBox.q, o.residuals?.ljungBox.pValue]))
+  out.push(...checkRows(r.outputs))
   if (r.validationStart) {
     out.push('')
     out.push(`# validation started from ${r.validationStart === 'estimated' ? 'initial states estimated on each record (parameters frozen)' : "the sheet's initial state"}`)

@@ -13,7 +13,7 @@ import { compileHere, type SheetCompiler } from './request-work'
 import type { SheetMeta } from '../jobs/request-tasks'
 import type { ConvergenceTest, FitResult, FitStatus } from '../../shared/api/fit'
 import {
-  RESULT_CAUTION, type CreateRunBody, type FreeSpec, type ParameterSetDto, type Provenance, type RunDto,
+  RESULT_CAUTION, type CreateEvaluationBody, type CreateRunBody, type FreeSpec, type ParameterSetDto, type Provenance, type RunDto,
   type RunProgress, type RunSettings, type RunStatus, type RunSummaryDto,
 } from '../../shared/api/runs'
 import type { ColumnMapping } from '../../shared/api/datasets'
@@ -75,7 +75,7 @@ function sha256(text: string) {
 }
 
 /** Checks the body against the project, model version and datasets; returns the settings and provenance. */
-async function resolveRun(db: Db, workspaceId: number, projectId: number, body: CreateRunBody, rerunOf: number | null, compile: SheetCompiler) {
+async function resolveRun(db: Db, workspaceId: number, projectId: number, body: CreateRunBody, rerunOf: number | null, compile: SheetCompiler, evaluation = false) {
   const { v } = await getVersionRow(db, workspaceId, body.modelId, body.version)
   // compiled off the event loop (request pool), with a time limit; the parts' texts travel with it
   const model = await compile(v.text, 'The model version', await workspacePartTexts(db, workspaceId, v.text))
@@ -84,7 +84,7 @@ async function resolveRun(db: Db, workspaceId: number, projectId: number, body: 
     .from(datasets).where(and(eq(datasets.projectId, projectId), inArray(datasets.id, ids)))
   const byId = new Map(rows.map((r) => [r.id, r]))
   const missing = ids.filter((id) => !byId.has(id))
-  if (missing.length) throw badRequest(`No dataset ${missing.join(', ')} in this project`, missing.map((id) => ({ path: body.estimation.includes(id) ? 'body.estimation' : 'body.validation', message: `no dataset ${id} in this project` })))
+  if (missing.length) throw badRequest(`No dataset ${missing.join(', ')} in this project`, missing.map((id) => ({ path: evaluation ? 'body.datasets' : body.estimation.includes(id) ? 'body.estimation' : 'body.validation', message: `no dataset ${id} in this project` })))
   const overlap = body.validation.filter((id) => body.estimation.includes(id))
   if (overlap.length) throw badRequest(`Dataset ${overlap.join(', ')} is chosen for both estimation and validation; validation data must not be used by the fit`, [{ path: 'body.validation', message: 'overlaps the estimation datasets' }])
 
@@ -119,7 +119,7 @@ async function resolveRun(db: Db, workspaceId: number, projectId: number, body: 
   const states = resolveFree(model, body.initialStates, 'initialStates')
   const details = [...free.details, ...states.details]
   if (details.length) throw badRequest(details.map((d) => `${d.path}: ${d.message}`).join('; '), details)
-  if (!free.out.length && !states.out.length) throw badRequest('Nothing to estimate: choose at least one free parameter or initial state', [{ path: 'body.free', message: 'empty' }])
+  if (!evaluation && !free.out.length && !states.out.length) throw badRequest('Nothing to estimate: choose at least one free parameter or initial state', [{ path: 'body.free', message: 'empty' }])
 
   const seed = body.seed ?? randomInt(1, 2 ** 31 - 1)
   const settings: RunSettings = {
@@ -144,12 +144,12 @@ async function resolveRun(db: Db, workspaceId: number, projectId: number, body: 
     modelVersion: body.version,
     modelVersionId: v.id,
     sheetHash: sha256(v.text),
-    datasets: ids.map((id) => ({ id, name: byId.get(id)!.name, contentHash: byId.get(id)!.contentHash, role: body.estimation.includes(id) ? 'estimation' as const : 'validation' as const })),
+    datasets: ids.map((id) => ({ id, name: byId.get(id)!.name, contentHash: byId.get(id)!.contentHash, role: evaluation ? 'evaluation' as const : body.estimation.includes(id) ? 'estimation' as const : 'validation' as const })),
     engineVersion: ENGINE_VERSION,
     seed,
     createdAt: new Date().toISOString(),
   }
-  return { settings, provenance }
+  return { settings, provenance, model }
 }
 
 export async function createRun(db: Db, jobs: JobRunner | undefined, workspaceId: number, projectId: number, userId: number, body: CreateRunBody, rerunOf: number | null = null, compile: SheetCompiler = compileHere): Promise<RunDto> {
@@ -160,15 +160,86 @@ export async function createRun(db: Db, jobs: JobRunner | undefined, workspaceId
     rerunOf = of.id
   }
   const { settings, provenance } = await resolveRun(db, workspaceId, projectId, body, rerunOf, compile)
+  return insertRun(db, jobs, { workspaceId, projectId, userId, modelId: body.modelId, version: body.version }, settings, provenance)
+}
+
+async function insertRun(db: Db, jobs: JobRunner | undefined, at: { workspaceId: number; projectId: number; userId: number; modelId: number; version: number }, settings: RunSettings, provenance: Provenance): Promise<RunDto> {
   const [row] = await db.insert(runs).values({
-    workspaceId, projectId, modelId: body.modelId, modelVersion: body.version, bindingId: settings.bindingId,
-    status: 'queued', settings, provenance, createdBy: userId,
+    workspaceId: at.workspaceId, projectId: at.projectId, modelId: at.modelId, modelVersion: at.version, bindingId: settings.bindingId,
+    status: 'queued', settings, provenance, createdBy: at.userId,
   }).returning()
   if (!settings.name) {
-    await db.update(runs).set({ settings: { ...settings, name: `Run ${row.id}` } }).where(eq(runs.id, row.id))
+    await db.update(runs).set({ settings: { ...settings, name: `${settings.kind === 'evaluation' ? 'Evaluation' : 'Run'} ${row.id}` } }).where(eq(runs.id, row.id))
   }
   if (jobs) await jobs.enqueue(row.id)
-  return getRun(db, workspaceId, row.id)
+  return getRun(db, at.workspaceId, row.id)
+}
+
+/**
+ * An evaluation run: the model version simulated on the chosen records with nothing free, its values
+ * replaced by a saved parameter set's or a finished fit's estimates (shared ones as they are; a
+ * per-record estimate by the mean over its records). The values are stored on the run, so it can be
+ * run again after the set or the source run is gone.
+ */
+export async function createEvaluation(db: Db, jobs: JobRunner | undefined, workspaceId: number, projectId: number, userId: number,
+  body: CreateEvaluationBody, rerunOf: number | null = null, compile: SheetCompiler = compileHere, stored?: Pick<RunSettings, 'values' | 'valuesFrom'>): Promise<RunDto> {
+  await getProjectRow(db, workspaceId, projectId)
+  const runBody: CreateRunBody = {
+    modelId: body.modelId, version: body.version, ...(body.name ? { name: body.name } : {}), ...(body.bindingId ? { bindingId: body.bindingId } : {}),
+    estimation: body.datasets, validation: [], ...(body.mapping ? { mapping: body.mapping } : {}), free: [], initialStates: [],
+    method: 'lm', starts: 1, weighting: 'sheet', tolerances: {}, seed: 1,
+  }
+  const { settings, provenance, model } = await resolveRun(db, workspaceId, projectId, runBody, rerunOf, compile, true)
+  const picked = stored ?? await evaluationValues(db, workspaceId, body, model)
+  return insertRun(db, jobs, { workspaceId, projectId, userId, modelId: body.modelId, version: body.version },
+    { ...settings, kind: 'evaluation', values: picked.values, valuesFrom: picked.valuesFrom, validationStart: body.start }, provenance)
+}
+
+type ValueRow = { name: string; value: number; unit: string; experiment: number | null }
+
+/** The parameter values of a parameter set or a finished fit of the same model, checked against the sheet. */
+async function evaluationValues(db: Db, workspaceId: number, body: CreateEvaluationBody, model: SheetMeta): Promise<Pick<RunSettings, 'values' | 'valuesFrom'>> {
+  let rows: ValueRow[]
+  let valuesFrom: NonNullable<RunSettings['valuesFrom']>
+  let field: string
+  if (body.parameterSetId) {
+    field = 'body.parameterSetId'
+    const [ps] = await db.select({ ps: parameterSets }).from(parameterSets).innerJoin(projects, eq(projects.id, parameterSets.projectId))
+      .where(and(eq(parameterSets.id, body.parameterSetId), eq(projects.workspaceId, workspaceId))).limit(1)
+    if (!ps) throw notFound('Parameter set')
+    if (ps.ps.modelId !== body.modelId) throw badRequest(`Parameter set '${ps.ps.name}' belongs to another model`, [{ path: field, message: 'belongs to another model' }])
+    rows = Object.entries(ps.ps.values as ParameterSetDto['values']).flatMap(([key, v]) => {
+      if (key.includes('(0)')) return []
+      const m = /^(.+?)(?:\[(\d+)\])?$/.exec(key)!
+      return [{ name: m[1], value: v.value, unit: v.unit, experiment: m[2] === undefined ? null : Number(m[2]) }]
+    })
+    valuesFrom = { kind: 'parameter-set', id: ps.ps.id, name: ps.ps.name }
+  } else if (body.sourceRunId) {
+    field = 'body.sourceRunId'
+    const src = await getRunRow(db, workspaceId, body.sourceRunId)
+    if (src.modelId !== body.modelId) throw badRequest(`Run ${src.id} fitted another model`, [{ path: field, message: 'fitted another model' }])
+    if ((src.settings as RunSettings).kind === 'evaluation') throw badRequest(`Run ${src.id} is an evaluation; take the estimates of a fit`, [{ path: field, message: 'is an evaluation, not a fit' }])
+    rows = finishedResult(src).parameters.map((p) => ({ name: p.name, value: p.value, unit: p.unit, experiment: p.experiment }))
+    valuesFrom = { kind: 'run', id: src.id, name: (src.settings as RunSettings).name || `Run ${src.id}` }
+  } else {
+    return { values: {}, valuesFrom: { kind: 'version', id: null, name: `version ${body.version}` } }
+  }
+  const groups = new Map<string, { unit: string; values: number[] }>()
+  for (const r of rows) {
+    const g = groups.get(r.name) ?? { unit: r.unit, values: [] }
+    g.values.push(r.value)
+    groups.set(r.name, g)
+  }
+  const values: Record<string, number> = {}
+  const problems: { path: string; message: string }[] = []
+  for (const [name, g] of groups) {
+    const q = model.params.find((x) => x.name === name)
+    if (!q) { problems.push({ path: field, message: `'${name}' is not a parameter of version ${body.version}` }); continue }
+    if (q.unit !== g.unit) { problems.push({ path: field, message: `'${name}' is in ${g.unit || '1'} there but in ${q.unit || '1'} in the sheet` }); continue }
+    values[name] = g.values.reduce((a, b) => a + b, 0) / g.values.length
+  }
+  if (problems.length) throw badRequest(`The ${valuesFrom.kind === 'run' ? 'run' : 'parameter set'} does not fit this model version: ${problems.map((p) => p.message).join('; ')}`, problems)
+  return { values, valuesFrom }
 }
 
 /** "Run again": the same model version, datasets, settings and seed. */
@@ -177,6 +248,13 @@ export async function rerun(db: Db, jobs: JobRunner | undefined, workspaceId: nu
   const s = row.settings as RunSettings
   // a binding deleted since keeps nothing from the run: the run's own mapping is used
   const [bound] = s.bindingId ? await db.select({ id: bindings.id }).from(bindings).where(eq(bindings.id, s.bindingId)).limit(1) : []
+  await assertSameData(db, row)
+  if (s.kind === 'evaluation') {
+    return createEvaluation(db, jobs, workspaceId, row.projectId, userId, {
+      modelId: row.modelId, version: row.modelVersion, name: `${s.name || `Evaluation ${row.id}`} (again)`,
+      ...(s.bindingId ? { bindingId: s.bindingId } : {}), datasets: s.estimation, mapping: s.mapping, start: s.validationStart ?? 'sheet',
+    }, row.id, compile, { values: s.values, valuesFrom: s.valuesFrom })
+  }
   const body: CreateRunBody = {
     modelId: row.modelId, version: row.modelVersion, name: `${s.name || `Run ${row.id}`} (again)`,
     ...(bound ? { bindingId: bound.id } : {}),
@@ -185,14 +263,22 @@ export async function rerun(db: Db, jobs: JobRunner | undefined, workspaceId: nu
     ...(s.segments !== undefined ? { segments: s.segments } : {}),
     tolerances: s.tolerances, seed: s.seed, validationStart: s.validationStart ?? 'sheet',
   }
-  // the datasets must still be the same content
+  return createRun(db, jobs, workspaceId, row.projectId, userId, body, row.id, compile)
+}
+
+/** Estimates exist only on fits: an evaluation has nothing to save, publish, hand over or map. */
+export function assertFit(row: RunRow) {
+  if ((row.settings as RunSettings).kind === 'evaluation') throw conflict(`Run ${row.id} is an evaluation: it estimated nothing (its values came from ${(row.settings as RunSettings).valuesFrom?.name ?? 'the model version'})`)
+}
+
+/** The datasets of a run must still hold the same content to run it again. */
+async function assertSameData(db: Db, row: RunRow) {
   const prov = row.provenance as Provenance
   const now = await db.select({ id: datasets.id, contentHash: datasets.contentHash }).from(datasets).where(inArray(datasets.id, prov.datasets.map((d) => d.id)))
   for (const d of prov.datasets) {
     const cur = now.find((x) => x.id === d.id)
     if (!cur || cur.contentHash !== d.contentHash) throw conflict(`Dataset '${d.name}' (${d.id}) is gone or changed since run ${row.id}; it cannot be reproduced`)
   }
-  return createRun(db, jobs, workspaceId, row.projectId, userId, body, row.id, compile)
 }
 
 export async function getRunRow(db: Db, workspaceId: number, runId: number): Promise<RunRow> {
@@ -201,15 +287,28 @@ export async function getRunRow(db: Db, workspaceId: number, runId: number): Pro
   return r
 }
 
+/** Figures on the records a fit never saw (validation records; every record of an evaluation). */
+export function unseenFigures(outputs: { validation: boolean; rmse: number | null; nrmse: number | null }[] | undefined) {
+  const rows = (outputs ?? []).filter((o) => o.validation)
+  const nrmse = rows.map((o) => o.nrmse).filter((v): v is number => v !== null && Number.isFinite(v))
+  return {
+    validationRmse: rows.length === 1 ? rows[0].rmse : null,
+    validationNrmse: nrmse.length ? nrmse.reduce((a, b) => a + b, 0) / nrmse.length : null,
+  }
+}
+
 function summaryOf(r: RunRow, modelTitle: string, projectName: string): RunSummaryDto {
   const s = r.settings as RunSettings
-  const result = r.result as { sse?: number | null } | null
+  const result = r.result as { sse?: number | null; outputs?: { validation: boolean; rmse: number | null; nrmse: number | null }[]; validationRmse?: number | null; validationNrmse?: number | null } | null
+  const unseen = result && 'validationNrmse' in result ? { validationRmse: result.validationRmse ?? null, validationNrmse: result.validationNrmse ?? null } : unseenFigures(result?.outputs)
   return {
     id: r.id, projectId: r.projectId, projectName, modelId: r.modelId, modelTitle, modelVersion: r.modelVersion,
     name: s.name || `Run ${r.id}`, status: r.status as RunStatus, progress: (r.progress as RunProgress | null) ?? null,
     error: r.error, cancelRequested: r.cancelRequested, createdAt: iso(r.createdAt)!, startedAt: iso(r.startedAt), finishedAt: iso(r.finishedAt),
     createdBy: r.createdBy, sse: r.status === 'succeeded' || r.status === 'cancelled' ? result?.sse ?? null : null,
     outcome: (r.outcome as FitStatus | null) ?? null, convergedBy: (r.convergedBy as ConvergenceTest | null) ?? null,
+    kind: s.kind ?? 'fit',
+    ...(r.status === 'succeeded' ? unseen : { validationRmse: null, validationNrmse: null }),
   }
 }
 
@@ -251,12 +350,14 @@ export async function listRuns(db: Db, workspaceId: number, filter: { projectId?
       createdAt: runs.createdAt, startedAt: runs.startedAt, finishedAt: runs.finishedAt, createdBy: runs.createdBy,
       outcome: runs.outcome, convergedBy: runs.convergedBy,
       sse: sql<number | null>`(${runs.result} ->> 'sse')::float8`,
+      validationRmse: sql<number | null>`(select case when count(*) = 1 then max((o ->> 'rmse')::float8) end from jsonb_array_elements(case when jsonb_typeof(${runs.result} -> 'outputs') = 'array' then ${runs.result} -> 'outputs' else '[]'::jsonb end) o where (o ->> 'validation')::boolean)`,
+      validationNrmse: sql<number | null>`(select avg((o ->> 'nrmse')::float8) from jsonb_array_elements(case when jsonb_typeof(${runs.result} -> 'outputs') = 'array' then ${runs.result} -> 'outputs' else '[]'::jsonb end) o where (o ->> 'validation')::boolean and o ->> 'nrmse' is not null)`,
     },
     title: models.title, project: projects.name,
   }).from(runs)
     .innerJoin(models, eq(models.id, runs.modelId)).innerJoin(projects, eq(projects.id, runs.projectId))
     .where(and(...conds)).orderBy(desc(runs.createdAt), desc(runs.id)).limit(500)
-  return rows.map(({ r, title, project }) => summaryOf({ ...r, result: { sse: r.sse } } as unknown as RunRow, title, project))
+  return rows.map(({ r, title, project }) => summaryOf({ ...r, result: { sse: r.sse, validationRmse: r.validationRmse, validationNrmse: r.validationNrmse } } as unknown as RunRow, title, project))
 }
 
 export async function cancelRun(db: Db, jobs: JobRunner | undefined, workspaceId: number, runId: number) {
@@ -274,6 +375,7 @@ export async function cancelRun(db: Db, jobs: JobRunner | undefined, workspaceId
 
 function finishedResult(row: RunRow): FitResult {
   if (row.status !== 'succeeded' || !row.result) throw conflict(`Run ${row.id} has no result (status ${row.status})`)
+  assertFit(row)
   return row.result as unknown as FitResult
 }
 

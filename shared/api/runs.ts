@@ -67,6 +67,29 @@ export const createRunBody = z.object({
 })
 export type CreateRunBody = z.infer<typeof createRunBody>
 
+/** A fit estimates free quantities; an evaluation simulates a calibrated model on records with nothing free. */
+export const runKind = z.enum(['fit', 'evaluation'])
+export type RunKind = z.infer<typeof runKind>
+
+/**
+ * Evaluate a calibrated model on new records: the model version's values, overridden by a saved
+ * parameter set or by a finished fit run's estimates (at most one of the two).
+ */
+export const createEvaluationBody = z.object({
+  modelId: z.coerce.number().int().positive(),
+  version: z.coerce.number().int().positive(),
+  name: z.string().trim().max(200).optional()
+    .superRefine((s, ctx) => { const p = s ? nameProblem(s) : null; if (p) ctx.addIssue({ code: 'custom', message: `the evaluation name ${p}` }) }),
+  bindingId: z.coerce.number().int().positive().optional(),
+  datasets: z.array(z.coerce.number().int().positive()).min(1, 'choose at least one record to evaluate on').max(20),
+  mapping: columnMapping.optional(),
+  parameterSetId: z.coerce.number().int().positive().optional(),
+  sourceRunId: z.coerce.number().int().positive().optional(),
+  /** records start from the sheet's initial state, or from initial states estimated on each (parameters frozen) */
+  start: z.enum(['sheet', 'estimate']).default('sheet'),
+}).refine((b) => !(b.parameterSetId && b.sourceRunId), { message: 'give a parameter set or a source run, not both', path: ['sourceRunId'] })
+export type CreateEvaluationBody = z.infer<typeof createEvaluationBody>
+
 /** What a run row stores as its settings: every choice resolved, so the run can be reproduced. */
 export const runSettings = z.object({
   name: z.string(),
@@ -87,6 +110,11 @@ export const runSettings = z.object({
   rerunOf: z.number().nullable(),
   /** absent on runs stored before the option existed (then 'sheet') */
   validationStart: z.enum(['sheet', 'estimate']).optional(),
+  /** absent on fits stored before evaluations existed (then 'fit') */
+  kind: runKind.optional(),
+  /** evaluation: the parameter values (declared units) that replace the sheet's, and where they came from */
+  values: z.record(z.string(), z.number()).optional(),
+  valuesFrom: z.object({ kind: z.enum(['version', 'parameter-set', 'run']), id: z.number().nullable(), name: z.string() }).optional(),
 })
 export type RunSettings = z.infer<typeof runSettings>
 
@@ -96,7 +124,7 @@ export const provenance = z.object({
   modelVersionId: z.number(),
   /** sha-256 of the sheet text */
   sheetHash: z.string(),
-  datasets: z.array(z.object({ id: z.number(), name: z.string(), contentHash: z.string(), role: z.enum(['estimation', 'validation']) })),
+  datasets: z.array(z.object({ id: z.number(), name: z.string(), contentHash: z.string(), role: z.enum(['estimation', 'validation', 'evaluation']) })),
   engineVersion: z.string(),
   seed: z.number(),
   createdAt: z.string(),
@@ -189,8 +217,17 @@ export const runSummaryDto = z.object({
   startedAt: z.string().nullable(),
   finishedAt: z.string().nullable(),
   createdBy: z.number().nullable(),
-  /** weighted cost at the estimate, when finished */
+  /** weighted cost at the estimate, when finished (null for an evaluation) */
   sse: z.number().nullable(),
+  kind: runKind,
+  /**
+   * RMSE on the records the fit never saw (validation records of a fit, every record of an evaluation),
+   * when there is exactly one such output; else the root mean square over those outputs' normalised RMSE is
+   * not comparable, so the list shows `validationNrmse`
+   */
+  validationRmse: z.number().nullable(),
+  /** mean normalised RMSE over the outputs on unseen records (comparable across outputs of different units) */
+  validationNrmse: z.number().nullable(),
 })
 export type RunSummaryDto = z.infer<typeof runSummaryDto>
 

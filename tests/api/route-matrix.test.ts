@@ -78,6 +78,7 @@ const MATRIX: Record<string, Access> = {
   'PUT /api/workspaces/:ws/projects/:pid/bindings/:bid': 'write',
   'DELETE /api/workspaces/:ws/projects/:pid/bindings/:bid': 'write',
   'POST /api/workspaces/:ws/projects/:pid/runs': 'write',
+  'POST /api/workspaces/:ws/projects/:pid/evaluations': 'write',
   'GET /api/workspaces/:ws/projects/:pid/runs': 'read',
   'GET /api/workspaces/:ws/projects/:pid/parameter-sets': 'read',
   'GET /api/workspaces/:ws/datasets': 'read',

@@ -44,6 +44,8 @@ export interface ProblemSpec {
   bounds?: Record<string, [number, number]>
   /** free parameters estimated once per experiment */
   local?: string[]
+  /** evaluation only: nothing is estimated, the problem just simulates the records (no "nothing to estimate" error) */
+  nothingFree?: boolean
   weighting?: FitWeighting
   /** overrides every experiment's t0 */
   t0?: number
@@ -224,7 +226,7 @@ export class FitProblem implements LsqProblem {
         quantities.push({ kind: 'state', name: q.name, index: i, experiment: e, lower: q.lower!, upper: q.upper!, start: q.initial })
       }
     })
-    if (quantities.length === 0) throw new FitInputError('nothing to estimate: every parameter is fixed and no initial state is estimated (free one with --free name)')
+    if (quantities.length === 0 && !spec.nothingFree) throw new FitInputError('nothing to estimate: every parameter is fixed and no initial state is estimated (free one with --free name)')
     this.quantities = quantities
     this.n = quantities.length
     this.lower = Float64Array.from(quantities, (q) => q.lower)

@@ -312,7 +312,7 @@ function localMeans(prob: FitProblem, theta: Float64Array): Map<number, number> 
   return new Map([...groups].map(([k, v]) => [k, v.reduce((s, x) => s + x, 0) / v.length]))
 }
 
-function outputRows(model: CompiledModel, ex: PreparedExperiment, yh: Float64Array, e: number, validation: boolean, ml: boolean): OutputRow[] {
+export function outputRows(model: CompiledModel, ex: PreparedExperiment, yh: Float64Array, e: number, validation: boolean, ml: boolean): OutputRow[] {
   const ny = model.ny
   const rows: OutputRow[] = []
   for (const j of ex.measuredOutputs) {

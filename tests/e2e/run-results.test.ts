@@ -1,0 +1,78 @@
+/**
+ * Browser: the results of a finished run in Pewter's own look. The demo project's first fit (invented
+ * plant, seeded synthetic data) is run, then its page shows each output inside its covariance band,
+ * the verdict table of the residual checks with p-values, the cumulative periodogram, and the
+ * correlation plots only on request, with lags in the sheet's time unit. Screenshots at 1440 and 390 px
+ * go to test-artifacts/. Needs dist/ (`npx vite build`).
+ */
+import { afterAll, beforeAll, describe, expect, it } from 'vitest'
+import type { Page } from 'playwright-core'
+import { startBrowserRig, type BrowserRig } from '../helpers/browser'
+import { demo } from '../helpers/app'
+import { seedDemoProject } from '../../server/services/demo-project'
+
+let rig: BrowserRig
+let runId: number
+beforeAll(async () => {
+  rig = await startBrowserRig('e2e_results')
+  await seedDemoProject(rig.context.db)
+  const r = await rig.context.database.pool.query("select id from runs where status = 'succeeded' order by id limit 1")
+  runId = r.rows[0].id as number
+}, 300_000)
+afterAll(async () => { await rig?.close() })
+
+const poll = <T>(fn: () => Promise<T> | T) => expect.poll(fn, { timeout: 60_000, interval: 200 })
+/** elements reaching past the right edge of the window (empty: no sideways scroll) */
+const overflowing = (page: Page) => page.evaluate(`(() => {
+  if (document.documentElement.scrollWidth <= window.innerWidth) return []
+  return [...document.querySelectorAll('body *')].filter((el) => el.getBoundingClientRect().right > window.innerWidth + 1)
+    .slice(0, 8).map((el) => el.tagName.toLowerCase() + '.' + [...el.classList].join('.') + ' (' + Math.round(el.getBoundingClientRect().right) + ' px)')
+})()`) as Promise<string[]>
+
+describe('browser: run results', () => {
+  it('draws the band, the verdict table and the periodogram; correlations on demand', async () => {
+    const page = await rig.newPage()
+    const errors: string[] = []
+    page.on('pageerror', (e) => errors.push(e.message))
+    await page.setViewportSize({ width: 1440, height: 900 })
+    await rig.signIn(page, demo.modeler)
+    await page.waitForURL(/\/w\/tinmoor\//)
+    await page.goto(`${rig.baseUrl}/w/tinmoor/runs/${runId}`)
+    await page.getByTestId('parameter-table').waitFor()
+    await expect(page.getByTestId('band-note').textContent()).resolves.toMatch(/shaded band .* covariance/)
+    // four output panels (level and temp on the estimation and validation records), each with a filled band
+    await poll(() => page.locator('[aria-label="Measured and simulated outputs"] .main-svg').count()).toBeGreaterThanOrEqual(4)
+    await poll(() => page.locator('[aria-label="Measured and simulated outputs"] path.js-fill').count()).toBeGreaterThanOrEqual(4)
+    // one verdict table per output and record: whiteness (periodogram, Ljung–Box), the four inputs, normality
+    const tables = page.getByTestId('verdict-table')
+    await expect(tables.count()).resolves.toBe(4)
+    const first = tables.first()
+    await expect(first.locator('tbody tr').count()).resolves.toBe(2 + 4 + 1)
+    const text = await first.textContent()
+    expect(text).toMatch(/cumulative periodogram/)
+    expect(text).toMatch(/Independence from input q_in/)
+    expect(text).toMatch(/Jarque–Bera/)
+    expect(text).toMatch(/lags up to \d+(\.\d+)? s/) // lags in the sheet's time unit, not samples
+    await expect(first.locator('tbody tr').first().locator('td').nth(1).textContent()).resolves.toMatch(/^(< 0\.001|[01]\.\d{3})$/)
+    await poll(() => page.locator('[aria-label="cumulative periodogram"] .js-plotly-plot').count()).toBe(4)
+    // correlations are collapsed until asked for
+    await expect(page.getByTestId('correlation-plots').count()).resolves.toBe(0)
+    await page.getByTestId('toggle-correlations').first().click()
+    await page.getByTestId('correlation-plots').waitFor()
+    await poll(() => page.locator('[aria-label="residual autocorrelation"] .js-plotly-plot').count()).toBe(1)
+    await expect(page.locator('[aria-label="residual autocorrelation"] .xtitle').textContent()).resolves.toBe('lag [s]')
+    await rig.screenshot(page, 'run-results-1440')
+    expect(await overflowing(page)).toEqual([])
+
+    await page.setViewportSize({ width: 390, height: 844 })
+    await page.waitForTimeout(400)
+    expect(await overflowing(page)).toEqual([])
+    await rig.screenshot(page, 'run-results-390')
+
+    // the printable report carries the verdict tables too
+    await page.setViewportSize({ width: 1440, height: 900 })
+    await page.goto(`${rig.baseUrl}/w/tinmoor/runs/${runId}/report`)
+    await poll(() => page.getByTestId('verdict-table').count()).toBe(4)
+    expect(errors).toEqual([])
+  }, 240_000)
+})
