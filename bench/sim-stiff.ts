@@ -6,15 +6,16 @@
  * the error: max over output times and components of |y − ref| / (|ref| + atol).
  * The references come from the engine's RODAS4 at rtol 1e-13, restarted from t0 for every output
  * time (so no interpolation enters them); the stiff tests check that method against scipy Radau.
- * Also the "sensitivities" row: Robertson with ∂/∂(k1, k2, k3) against LSODA without them.
+ * Then the cost of sensitivities on the stiff path and auto's switch (bench/sim-sens.ts).
  */
 import { spawnSync } from 'node:child_process'
 import { readFileSync } from 'node:fs'
 import { simulate, type SolverName, type SimulationRequest } from '../shared/engine'
 import { compileModel } from '../shared/sheet'
 import type { CompiledModel } from '../shared/sheet/compiled'
+import { autoSwitch, sensitivityCost } from './sim-sens'
 
-interface StiffProblem {
+export interface StiffProblem {
   name: string
   model: CompiledModel
   tOut: number[]
@@ -29,7 +30,7 @@ const sheet = (name: string): CompiledModel => compileModel(readFileSync(new URL
 const robertson = sheet('robertson')
 const vdpol = sheet('vdpol')
 
-const problems: StiffProblem[] = [
+export const problems: StiffProblem[] = [
   { name: 'Robertson (to 4e10)', model: robertson, tOut: Array.from({ length: 16 }, (_, i) => 4e-5 * 10 ** i), atolFactor: 1e-6,
     py: `def f(t,y): return [-0.04*y[0]+1e4*y[1]*y[2], 0.04*y[0]-1e4*y[1]*y[2]-3e7*y[1]**2, 3e7*y[1]**2]
 def jac(t,y): return [[-0.04,1e4*y[2],1e4*y[1]],[0.04,-1e4*y[2]-6e7*y[1],-1e4*y[1]],[0,6e7*y[1],0]]
@@ -56,7 +57,7 @@ function errorOf(y: number[][], ref: number[][], atol: number): number {
   return w
 }
 
-function best(run: () => void): number {
+export function best(run: () => void): number {
   run()
   const times: number[] = []
   const t0 = performance.now()
@@ -68,10 +69,11 @@ function best(run: () => void): number {
   return Math.min(...times)
 }
 
-interface PyRow { ms: number; nfev: number; njev: number; y: number[][]; ok: boolean }
+export interface PyRow { ms: number; nfev: number; njev: number; y: number[][]; ok: boolean }
 
-function scipyRows(): Map<string, PyRow> | string {
-  const jobs = problems.map((p) => ({ name: p.name, code: p.py, t: p.tOut, atolFactor: p.atolFactor }))
+/** scipy's solve_ivp on the problems, keyed `problem|method|repr(rtol)`, or why it was skipped */
+export function scipyRows(methods: string[] = PY_METHODS, rtols: number[] = RTOLS, which: StiffProblem[] = problems): Map<string, PyRow> | string {
+  const jobs = which.map((p) => ({ name: p.name, code: p.py, t: p.tOut, atolFactor: p.atolFactor }))
   const script = `
 import json, sys, time
 import numpy as np
@@ -82,8 +84,8 @@ for job in jobs:
     ns = {}
     exec(job['code'], ns)
     t = job['t']
-    for method in ${JSON.stringify(PY_METHODS)}:
-        for rtol in ${JSON.stringify(RTOLS)}:
+    for method in ${JSON.stringify(methods)}:
+        for rtol in ${JSON.stringify(rtols)}:
             kw = dict(method=method, rtol=rtol, atol=rtol*job['atolFactor'], t_eval=t, jac=ns['jac'])
             ts = []
             sol = None
@@ -133,22 +135,12 @@ export function stiffWorkPrecision(): void {
       }
     }
   }
-  // the aim: Robertson with the three rate sensitivities against LSODA without them, rtol 1e-8
-  const rob = problems[0]
-  const req: SimulationRequest = { tOut: Float64Array.from(rob.tOut), solver: 'stiff', rtol: 1e-8, atol: 1e-14, maxSteps: 2_000_000, sensitivities: { params: [0, 1, 2], initialStates: [] } }
-  const withS = simulate(rob.model, req)
-  const msS = best(() => simulate(rob.model, req))
-  const plain = simulate(rob.model, { ...req, sensitivities: undefined })
-  let line = `\nRobertson, rtol 1e-8, atol 1e-14, with ∂/∂(k1, k2, k3): ${withS.stats.steps} steps (states alone ${plain.stats.steps}, ×${(withS.stats.steps / plain.stats.steps).toFixed(2)}), ${msS.toFixed(2)} ms`
-  if (typeof py !== 'string') {
-    const l = py.get(`${rob.name}|LSODA|${pythonRepr(1e-8)}`)
-    if (l) line += `; scipy LSODA without sensitivities (atol ${1e-8 * rob.atolFactor}): ${l.ms.toFixed(2)} ms, ours/LSODA = ${(msS / l.ms).toFixed(2)}`
-  }
-  console.log(line)
+  sensitivityCost(py)
+  autoSwitch()
 }
 
 /** Python's repr of a float as used in the result keys (1e-05, 0.0001, 1e-10) */
-function pythonRepr(v: number): string {
+export function pythonRepr(v: number): string {
   if (v >= 1e-4) return String(v)
   const [m, e] = v.toExponential().split('e')
   const exp = Number(e)

@@ -6,13 +6,15 @@
  * stiff ↔ Radau (with the exact Jacobian), auto ↔ LSODA (both switch on stiffness).
  * Prints a table; not a test. Times are the best (minimum) of repeated runs, wall clock, whole call,
  * on both sides: the minimum is the estimate least disturbed by other processes on a shared machine.
- * Then the stiff path's work–precision table (bench/sim-stiff.ts).
+ * Then the stiff path's work–precision table (bench/sim-stiff.ts) and the cost of sensitivities and
+ * auto's switch on it (bench/sim-sens.ts; `npm run bench:sim -- sens` runs that part alone).
  */
 import { spawnSync } from 'node:child_process'
 import { cpus, loadavg } from 'node:os'
 import { simulate, type SolverName } from '../shared/engine'
 import type { CompiledModel, VecFn } from '../shared/sheet/compiled'
 import { stiffWorkPrecision } from './sim-stiff'
+import { sensitivityBench } from './sim-sens'
 
 interface Problem {
   name: string
@@ -184,6 +186,10 @@ function lpad(s: string, n: number): string {
   return s.length >= n ? s : ' '.repeat(n - s.length) + s
 }
 
+if (process.argv.includes('sens')) {
+  sensitivityBench()
+  process.exit(0)
+}
 console.log('Pewter simulation benchmark (wall clock per call, best of repeated runs)')
 console.log(`node ${process.version}; ${NOUT} output times per run; atol = rtol × factor per problem; load average ${loadavg().map((v) => v.toFixed(1)).join(' ')} on ${cpus().length} CPUs\n`)
 const sp = scipyTimes()

@@ -189,3 +189,35 @@ describe('stiff path: sensitivities with the exact coupling', () => {
     expect(full.stats.steps / simulate(robertson, runs[0].base).stats.steps).toBeLessThanOrEqual(1.5)
   })
 })
+
+describe('auto: the switch at tight tolerances', () => {
+  const switchTime = (method: string): number => Number(/switched to stiff at t = ([-+0-9.e]+)/.exec(method)?.[1] ?? NaN)
+
+  it('Robertson at rtol 1e-10 and 1e-12 (atol 1e-14): switches before t = 0.1, within 1.1× the steps of the stiff method alone', () => {
+    // before the rtol-scaled stability test the switch came at t = 2.57 (rtol 1e-10) after 2 701
+    // explicit steps; the solution's fast transient ends near t = 1e-3 (Hairer & Wanner II, Sec. IV.1)
+    const tOut = Float64Array.from({ length: 8 }, (_, i) => 4e-5 * 10 ** i)
+    for (const rtol of [1e-10, 1e-12]) {
+      const base = { tOut, rtol, atol: 1e-14, maxSteps: 1e6 }
+      const auto = simulate(robertson, { ...base, solver: 'auto' })
+      const stiff = simulate(robertson, { ...base, solver: 'stiff' })
+      expect(auto.stats.switched, `rtol ${rtol}`).toBe(true)
+      expect(switchTime(auto.stats.method), `rtol ${rtol}`).toBeLessThan(0.1)
+      expect(auto.stats.steps, `rtol ${rtol}`).toBeLessThanOrEqual(1.1 * stiff.stats.steps)
+    }
+  })
+
+  it('non-stiff problems do not switch at rtol 1e-3 … 1e-12: Arenstorf (one period), a harmonic oscillator, exponential decay', () => {
+    // Arenstorf orbit: Hairer, Nørsett & Wanner I, Sec. II.0, period 17.0652165601579625588917206249
+    const osc = compileModel(`model "oscillator"\ntime [s]\nstate x = 1\nstate v = 0\nx' = v\nv' = -6.25 * x - 0.75 * v\noutput y = x\n`)
+    const decay = compileModel(`model "decay"\ntime [s]\nstate x = 1\nx' = -x\noutput y = x\n`)
+    const runs: [CompiledModel, number][] = [[arenstorf, 17.0652165601579625588917206249], [osc, 20], [decay, 10]]
+    for (const [m, T] of runs) {
+      for (const rtol of [1e-3, 1e-6, 1e-9, 1e-12]) {
+        const r = simulate(m, { tOut: Float64Array.of(T), solver: 'auto', rtol, atol: rtol, maxSteps: 1e6 })
+        expect(r.stats.switched, `${m.title}, rtol ${rtol}`).toBe(false)
+      }
+    }
+  })
+})
+

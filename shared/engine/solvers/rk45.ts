@@ -52,8 +52,12 @@ export const DP5_STIFF_BOUND = 3.25
 /** dopri5's stiffness test: STIFF_RUN steps above the bound, CALM_RESET calmer ones in a row reset */
 const STIFF_RUN = 15
 const CALM_RESET = 6
-/** stability-limited test: h·ρ above this fraction of the bound on STABLE_HITS of STABLE_WINDOW steps */
+/**
+ * stability-limited test: h·ρ above this fraction of the bound on STABLE_HITS of STABLE_WINDOW steps,
+ * at rtol ≥ STABLE_RTOL; below it the fraction shrinks like rtol^{1/5} (see `stiffnessTest`)
+ */
 const STABILITY_LIMITED = 0.6
+const STABLE_RTOL = 1e-6
 const STABLE_WINDOW = 30
 const STABLE_HITS = 25
 const WINDOW_MASK = (1 << STABLE_WINDOW) - 1
@@ -81,6 +85,8 @@ export class Rk45 extends OneStepSolver {
   /** the last STABLE_WINDOW steps, one bit each: h·ρ above STABILITY_LIMITED·bound */
   private recent = 0
   private recentSteps = 0
+  /** h·ρ above this counts as held by stability (test 2 of `stiffnessTest`) */
+  private stableBound = STABILITY_LIMITED * DP5_STIFF_BOUND
 
   protected alloc(n: number): void {
     if (this.n === n && this.k.length === 7) return
@@ -101,6 +107,9 @@ export class Rk45 extends OneStepSolver {
     this.calmCount = 0
     this.recent = 0
     this.recentSteps = 0
+    let rtol = Infinity
+    for (let i = 0; i < this.tol.rtol.length; i++) rtol = Math.min(rtol, this.tol.rtol[i])
+    this.stableBound = STABILITY_LIMITED * DP5_STIFF_BOUND * Math.min(1, Math.pow(rtol / STABLE_RTOL, 1 / (DP54.order)))
   }
 
   breakpoint(): void {
@@ -220,6 +229,13 @@ export class Rk45 extends OneStepSolver {
    *    tolerances the controller settles at h·ρ ≈ 2.5–3.2, below test 1's bound, for thousands of
    *    steps; accuracy-limited steps of non-stiff problems stay far below (measured on the
    *    benchmark problems at rtol 1e-3 … 1e-10: at most 10 of 30 steps above 2).
+   *    An accuracy-limited step of an order-5 method scales like rtol^{1/5} (local error ∝ h⁵;
+   *    Hairer, Nørsett & Wanner I, Sec. II.4, the step-size formula), so h·ρ of a non-stiff problem
+   *    shrinks with it while a stability-held h·ρ does not (Robertson at rtol 1e-10, atol 1e-14:
+   *    h·ρ ≈ 1.0–1.1 for thousands of steps). Below rtol 1e-6 the threshold is scaled by
+   *    (rtol/1e-6)^{1/5}: measured on Arenstorf, Lotka–Volterra, the damped oscillator and
+   *    exponential decay at rtol 1e-3 … 1e-12 (atol = rtol and rtol·1e-3), at most 6 of any 30 steps
+   *    pass it; Robertson at rtol 1e-10 switches after 112 explicit steps instead of 2 701.
    */
   private stiffnessTest(h: number): void {
     const nb = this.sys.nBlock
@@ -243,7 +259,7 @@ export class Rk45 extends OneStepSolver {
       this.calmCount++
       if (this.calmCount >= CALM_RESET) this.stiffCount = 0
     }
-    this.recent = ((this.recent << 1) | (hRho > STABILITY_LIMITED * DP5_STIFF_BOUND ? 1 : 0)) & WINDOW_MASK
+    this.recent = ((this.recent << 1) | (hRho > this.stableBound ? 1 : 0)) & WINDOW_MASK
     this.recentSteps++
     if (this.recentSteps >= STABLE_WINDOW && popcount(this.recent) >= STABLE_HITS) this.stiff = true
   }

@@ -71,7 +71,7 @@ export const RODAS4 = {
     [0.7496443313967647e+1, -0.1024680431464352e+2, -0.3399990352819905e+2, 0.1170890893206160e+2],
     [0.8083246795921522e+1, -0.7981132988064893e+1, -0.3152159432874371e+2, 0.1631930543123136e+2, -0.6058818238834054e+1],
   ],
-  /** y₁ = y₀ + Σ m_i u_i (stiffly accurate: the last row of a, plus u_6) */
+  /** y₁ = y₀ + Σ m_i u_i (stiffly accurate: the last row of a, plus u_6; the step uses that form) */
   m: [0.1221224509226641e+1, 0.6019134481288629e+1, 0.1253708332932087e+2, -0.6878860361058950, 1, 1],
   /** y₁ − ŷ₁ = Σ e_i u_i = u_6 */
   e: [0, 0, 0, 0, 0, 1],
@@ -203,11 +203,13 @@ export class Rosenbrock extends OneStepSolver {
         if (st === 0) {
           ui.set(this.f0)
         } else {
+          // the stage argument z + Σ_j a_ij u_j, one stage vector at a time (contiguous loops)
           const a = RODAS4.a[st]
-          for (let i = 0; i < n; i++) {
-            let acc = z[i]
-            for (let j = 0; j < st; j++) acc += a[j] * u[j][i]
-            ytmp[i] = acc
+          for (let i = 0; i < n; i++) ytmp[i] = z[i]
+          for (let j = 0; j < st; j++) {
+            const aj = a[j]
+            const uj = u[j]
+            for (let i = 0; i < n; i++) ytmp[i] += aj * uj[i]
           }
           const ts = t + RODAS4.alpha[st] * h
           sys.f(ts, ytmp, ui)
@@ -219,10 +221,10 @@ export class Rosenbrock extends OneStepSolver {
             break
           }
           const c = RODAS4.c[st]
-          for (let i = 0; i < n; i++) {
-            let acc = 0
-            for (let j = 0; j < st; j++) acc += c[j] * u[j][i]
-            ui[i] += acc / h
+          for (let j = 0; j < st; j++) {
+            const cj = c[j] / h
+            const uj = u[j]
+            for (let i = 0; i < n; i++) ui[i] += cj * uj[i]
           }
         }
         const gh = RODAS4.gammaSum[st] * h
@@ -236,13 +238,10 @@ export class Rosenbrock extends OneStepSolver {
       }
       let err = Infinity
       if (ok) {
+        // stiffly accurate: y₁ = (stage 6's argument, still in ytmp) + u₆, i.e. y₀ + Σ m_i u_i
         const z1 = this.z1
         const u6 = u[s - 1]
-        for (let i = 0; i < n; i++) {
-          let acc = z[i]
-          for (let j = 0; j < s; j++) acc += RODAS4.m[j] * u[j][i]
-          z1[i] = acc
-        }
+        for (let i = 0; i < n; i++) z1[i] = ytmp[i] + u6[i]
         err = limits.fixedStep > 0 ? 0 : errNorm(this.tol, nb, this.normSize(), u6, z, z1)
         if (!Number.isFinite(err) || firstNonFinite(z1, n) >= 0) ok = false
       }
@@ -290,14 +289,17 @@ export class Rosenbrock extends OneStepSolver {
     const { n, u, w2, w3 } = this
     const { d2, d3 } = RODAS4
     for (let i = 0; i < n; i++) {
-      let a = 0
-      let b = 0
-      for (let j = 0; j < 5; j++) {
-        a += d2[j] * u[j][i]
-        b += d3[j] * u[j][i]
+      w2[i] = 0
+      w3[i] = 0
+    }
+    for (let j = 0; j < 5; j++) {
+      const uj = u[j]
+      const a = d2[j]
+      const b = d3[j]
+      for (let i = 0; i < n; i++) {
+        w2[i] += a * uj[i]
+        w3[i] += b * uj[i]
       }
-      w2[i] = a
-      w3[i] = b
     }
     this.counters.steps++
     this.nonFinite.at = -1
