@@ -6,6 +6,7 @@ import type {
 import type { CreateRunBody, LandscapeDto, ParameterSetDto, RunDto, RunSummaryDto } from '@shared/api/runs'
 import type { VersionDto } from '@shared/api/models'
 import { api, request } from './client'
+import { uploadLimits, type UploadLimits } from '@shared/api/datasets'
 
 const w = (ws: string) => `/api/workspaces/${encodeURIComponent(ws)}`
 
@@ -36,6 +37,9 @@ export function uploadDataset(ws: string, pid: number, file: File, fields: { nam
   form.append('file', file)
   return request<DatasetDto>(`${w(ws)}/projects/${pid}/datasets`, { method: 'POST', body: form, silent: [400, 413] })
 }
+
+/** What an upload may hold (file size, rows, columns), stated and checked in the upload form. */
+export const getUploadLimits = (ws: string) => api.get<UploadLimits>(`${w(ws)}/datasets/limits`, { schema: uploadLimits })
 
 // bindings
 export const listBindings = (ws: string, pid: number) => api.get<{ bindings: BindingDto[] }>(`${w(ws)}/projects/${pid}/bindings`).then((r) => r.bindings)
