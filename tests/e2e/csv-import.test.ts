@@ -57,11 +57,11 @@ it('states the limit, previews a dropped file and saves it; lists every problem 
   expect(posts).toHaveLength(0)
 
   // drag-and-drop: the file is previewed, not saved
-  const dt = await page.evaluateHandle((text) => {
+  const dt = await page.evaluateHandle(`(() => {
     const d = new DataTransfer()
-    d.items.add(new File([text], 'tank-t4.csv', { type: 'text/csv' }))
+    d.items.add(new File([${JSON.stringify(EXPORT)}], 'tank-t4.csv', { type: 'text/csv' }))
     return d
-  }, EXPORT)
+  })()`)
   await page.getByTestId('upload-drop').locator('.el-upload-dragger').dispatchEvent('drop', { dataTransfer: dt })
   await page.getByTestId('upload-preview').waitFor()
   const detected = await page.getByTestId('upload-detected').textContent()
