@@ -2,7 +2,7 @@
  * Datasets and bindings (thin: parse, authorize, call the services).
  *   under /projects/:pid: POST datasets (multipart field `file`), GET datasets, GET/POST bindings,
  *     POST bindings/match, PUT and DELETE bindings/:bid
- *   under /datasets: GET /, GET /:did, PATCH /:did, DELETE /:did, GET /:did/data, GET /:did/original, POST /:did/condition
+ *   under /datasets: GET /, GET /limits, GET /:did, PATCH /:did, DELETE /:did, GET /:did/data, GET /:did/original, POST /:did/condition
  */
 import { Router } from 'express'
 import multer from 'multer'
@@ -12,11 +12,12 @@ import { requireCapability } from '../middleware/auth'
 import { intParam, parse } from '../middleware/validate'
 import * as datasets from '../services/datasets'
 import * as bindings from '../services/bindings'
-import { tooManyWindows, conditionBody, createBindingBody, datasetPurpose, matchBody, updateBindingBody, updateDatasetBody } from '../../shared/api/datasets'
+import { uploadLimits, tooManyWindows, conditionBody, createBindingBody, datasetPurpose, matchBody, updateBindingBody, updateDatasetBody } from '../../shared/api/datasets'
 import { z } from 'zod'
 import { conditionOffLoop, uploadOffLoop } from '../services/request-work'
 import { uploadError } from '../services/upload-checks'
 import { deleteDataset } from '../services/deletes'
+import { MAX_COLUMNS } from '../../shared/data/csv'
 
 const uploadFields = z.object({
   name: z.string().trim().max(200).optional(),
@@ -74,6 +75,9 @@ export function datasetRoutes() {
   router.get('/', requireCapability('read'), async (req, res) => {
     const pid = typeof req.query.projectId === 'string' && req.query.projectId ? intParam(req.query, 'projectId') : undefined
     res.json({ datasets: await datasets.listDatasets(ctx(req).db, req.workspace!.id, pid) })
+  })
+  router.get('/limits', requireCapability('read'), (req, res) => {
+    res.json(uploadLimits.parse({ uploadBytes: ctx(req).config.uploadLimitBytes, rows: maxRows(ctx(req).services), columns: MAX_COLUMNS }))
   })
   router.get('/:did', requireCapability('read'), async (req, res) => {
     res.json(await datasets.getDataset(ctx(req).db, req.workspace!.id, intParam(req.params, 'did')))

@@ -27,11 +27,18 @@ export interface ReadTable {
 
 export interface CsvProblem { row?: number; column?: string; message: string }
 
-/** A refused upload: 400 with the file, row and column in the message and in `details`. */
+/**
+ * A refused upload: 400 with the file, row and column of the first problem in the message and every
+ * problem found (the first 50, in file order) in `details`; the message counts the others.
+ */
 export class UploadCsvError extends HttpError {
-  constructor(filename: string, problem: CsvProblem) {
-    const where = [problem.row !== undefined ? `row ${problem.row}` : null, problem.column !== undefined ? `column '${problem.column}'` : null].filter(Boolean).join(', ')
-    super(400, errorCodes.validation, `${filename}${where ? `, ${where}` : ''}: ${problem.message}`, [problem])
+  constructor(filename: string, problem: CsvProblem | CsvProblem[], total?: number) {
+    const list = Array.isArray(problem) ? problem : [problem]
+    const first = list[0]
+    const all = total ?? list.length
+    const where = [first.row !== undefined ? `row ${first.row}` : null, first.column !== undefined ? `column '${first.column}'` : null].filter(Boolean).join(', ')
+    const more = all > 1 ? ` (and ${all - 1} more problem${all > 2 ? 's' : ''}${all > list.length ? `; the first ${list.length} are listed` : ''})` : ''
+    super(400, errorCodes.validation, `${filename}${where ? `, ${where}` : ''}: ${first.message}${more}`, list)
     this.name = 'UploadCsvError'
   }
 }
@@ -43,26 +50,28 @@ export function readTraceCsv(text: string, opts: { filename: string; lineOffset?
   const off = opts.lineOffset ?? 0
   let table: ReturnType<typeof parseCsv>
   try {
-    table = parseCsv(text, { file: filename, maxRows: opts.maxRows, strict: true })
+    table = parseCsv(text, { file: filename, maxRows: opts.maxRows, strict: true, rowOffset: off })
   } catch (e) {
     if (e instanceof SharedCsvError) {
-      throw new UploadCsvError(filename, { ...(e.row !== null ? { row: e.row + off } : {}), ...(e.column !== null ? { column: e.column } : {}), message: e.detail })
+      throw new UploadCsvError(filename, e.issues.map((i) => ({ ...(i.row !== null ? { row: i.row } : {}), ...(i.column !== null ? { column: i.column } : {}), message: i.message })), e.total)
     }
     throw e
   }
+  const unitProblems: CsvProblem[] = []
   for (const c of table.columns) {
     if (!c.unit) continue
     const u = parseUnit(c.unit)
-    if (!u.ok) throw new UploadCsvError(filename, { row: 1 + off, column: c.name, message: `unit '${c.unit}': ${u.message}` })
+    if (!u.ok) unitProblems.push({ row: 1 + off, column: c.name, message: `unit '${c.unit}': ${u.message}` })
   }
+  if (unitProblems.length) throw new UploadCsvError(filename, unitProblems)
   const warnings: DatasetWarning[] = []
-  if (table.decimalComma) warnings.push({ message: `read with '${table.delimiter === '\t' ? 'tab' : table.delimiter}' as the delimiter and ',' as the decimal separator` })
+  if (table.decimalComma) warnings.push({ message: `read with '${table.delimiter === '\t' ? 'tab' : table.delimiter}' as the delimiter and ',' as the decimal separator${table.delimiter === ',' ? ' (in quoted cells)' : ''}` })
   if (table.time.iso) warnings.push({ column: table.time.name, message: 'ISO-8601 timestamps turned into seconds from the first sample' })
   return {
     time: Array.from(table.time.values),
     timeMeta: { header: header(table.time.name, table.time.iso ? '' : table.time.unit), unit: table.time.iso ? 's' : table.time.unit || 's', format: table.time.iso ? 'iso8601' : 'numeric' },
     columns: table.columns.map((c) => ({ name: c.name, header: header(c.name, c.unit), unit: c.unit, values: Array.from(c.values, (v) => (Number.isNaN(v) ? null : v)) })),
-    rows: Array.from(table.rows, (r) => r + off),
+    rows: Array.from(table.rows),
     warnings,
   }
 }

@@ -5,14 +5,9 @@
  */
 import { badRequest, HttpError } from '../errors'
 import { errorCodes } from '../../shared/api/errors'
+import { splitNotes, type SplitNotes } from '../../shared/data/csv-notes'
 
-export interface DecodedUpload {
-  /** the CSV text without the leading comment lines */
-  text: string
-  notes: string[]
-  /** lines removed before the header (so row numbers can be reported against the file) */
-  skippedLines: number
-}
+export type DecodedUpload = SplitNotes
 
 /** Position (1-based line, column) of a byte offset, counting lines by \n. */
 function positionOf(bytes: Uint8Array, offset: number): { line: number; column: number } {
@@ -67,15 +62,7 @@ export function decodeUpload(bytes: Uint8Array, filename: string): DecodedUpload
   }
   let text = new TextDecoder('utf-8').decode(bytes)
   if (text.charCodeAt(0) === 0xfeff) text = text.slice(1)
-  const lines = text.split(/\r\n|\n|\r/)
-  const notes: string[] = []
-  let skipped = 0
-  while (skipped < lines.length && (lines[skipped].startsWith('#') || (lines[skipped].trim() === '' && notes.length > 0 && skipped < lines.length - 1 && lines[skipped + 1].startsWith('#')))) {
-    const l = lines[skipped]
-    if (l.startsWith('#')) notes.push(l.replace(/^#+\s?/, '').trimEnd())
-    skipped++
-  }
-  const rest = lines.slice(skipped).join('\n')
+  const { text: rest, notes, skippedLines: skipped } = splitNotes(text)
   if (rest.trim() === '') throw badRequest(`${filename}: the file has no header row and no data`)
   return { text: rest, notes, skippedLines: skipped }
 }

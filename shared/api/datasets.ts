@@ -220,3 +220,14 @@ export const matchBody = z.object({
   datasetId: z.coerce.number().int().positive(),
   mapping: columnMapping.optional(),
 })
+
+/** What an upload may hold, stated in the upload form and checked there before a file is sent. */
+export const uploadLimits = z.object({
+  /** largest file, bytes (PEWTER_UPLOAD_LIMIT_BYTES) */
+  uploadBytes: z.number().int().positive(),
+  /** most data rows */
+  rows: z.number().int().positive(),
+  /** most columns, the time column included */
+  columns: z.number().int().positive(),
+})
+export type UploadLimits = z.infer<typeof uploadLimits>

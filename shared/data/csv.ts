@@ -6,10 +6,12 @@
  * - Time: the column named `t` or `time` (any case), else the first column. Numbers are seconds unless
  *   the header gives a unit (`t [min]`); ISO-8601 timestamps (2026-03-01T08:00:00Z, also with a space
  *   instead of T, without seconds or zone — read as UTC) become seconds from the first sample.
- * - Delimiter: `,`, `;` or tab, from the header line; a decimal comma is recognised when the delimiter
- *   is not a comma and numeric cells look like `1,25`.
- * - Empty cells and `NaN` are missing values (NaN); they are skipped by the fit.
- * - Rows are counted as in the file, the header being row 1. Errors say row and column.
+ * - Delimiter: `,`, `;` or tab, from the header line; a decimal comma is recognised when numeric cells
+ *   look like `1,25` — unquoted when the delimiter is not a comma, quoted (`"1,25"`) when it is.
+ * - A delimiter ending every line (or the header only, or the data rows only) adds no column.
+ * - Empty cells, `NaN`, `NA`, `n/a` and `-` are missing values (NaN); the fit skips them.
+ * - Rows are counted as in the file, the header being row 1. Errors say row and column; the problems
+ *   of the rows and cells are all collected (the first MAX_REPORTED are kept) and reported together.
  */
 import { CsvRecords } from './csv-records'
 import { timeScaleSeconds } from './units'
@@ -39,24 +41,40 @@ export interface CsvIssue {
   message: string
 }
 
+/** Problems of one file kept for a reply (the count of all is reported beside them). */
+export const MAX_REPORTED = 50
+
+/** A refused file: its first problem as message, row and column; every kept problem in `issues`. */
 export class CsvError extends Error implements CsvIssue {
   readonly row: number | null
   readonly column: string | null
   readonly detail: string
-  constructor(issue: CsvIssue, file?: string) {
-    const where = [file, issue.row != null ? `row ${issue.row}` : null, issue.column != null ? `column '${issue.column}'` : null]
+  /** the file's problems, in file order (at most MAX_REPORTED) */
+  readonly issues: CsvIssue[]
+  /** how many problems the file has in all */
+  readonly total: number
+  constructor(issue: CsvIssue | CsvIssue[], file?: string, total?: number) {
+    const list = Array.isArray(issue) ? issue : [issue]
+    const first = list[0]
+    const where = [file, first.row != null ? `row ${first.row}` : null, first.column != null ? `column '${first.column}'` : null]
       .filter(Boolean).join(', ')
-    super(where ? `${where}: ${issue.message}` : issue.message)
+    const all = total ?? list.length
+    const more = all > 1 ? ` (and ${all - 1} more problem${all > 2 ? 's' : ''})` : ''
+    super(`${where ? `${where}: ${first.message}` : first.message}${more}`)
     this.name = 'CsvError'
-    this.row = issue.row
-    this.column = issue.column
-    this.detail = issue.message
+    this.row = first.row
+    this.column = first.column
+    this.detail = first.message
+    this.issues = list
+    this.total = all
   }
 }
 
 export interface CsvOptions {
   /** used in messages */
   file?: string
+  /** lines before the text (comment lines removed by the caller): added to every row number */
+  rowOffset?: number
   /** default 2 000 000 data rows */
   maxRows?: number
   /** default MAX_COLUMNS, time column included */
@@ -97,6 +115,20 @@ function isoSeconds(s: string): number {
   return ms / 1000
 }
 
+/** Cells read as a missing value (case-insensitive, after trimming). */
+const MISSING = new Set(['', 'nan', 'na', 'n/a', '-'])
+
+/** Whether numeric cells of the first rows are written with a decimal comma (`1,25`). */
+function hasDecimalComma(nRows: number, nCol: number, cellOf: (k: number, c: number) => string): boolean {
+  for (let k = 0; k < nRows; k++) {
+    for (let c = 0; c < nCol; c++) {
+      const s = cellOf(k, c).trim()
+      if (s.includes(',') && NUMBER_COMMA.test(s)) return true
+    }
+  }
+  return false
+}
+
 function detectDelimiter(headerLine: string): string {
   const counts: [string, number][] = [';', '\t', ','].map((d) => [d, headerLine.split(d).length - 1])
   counts.sort((a, b) => b[1] - a[1])
@@ -104,8 +136,16 @@ function detectDelimiter(headerLine: string): string {
 }
 
 export function parseCsv(text: string, opts: CsvOptions = {}): CsvTable {
+  const off = opts.rowOffset ?? 0
   const fail = (row: number | null, column: string | null, message: string): never => {
-    throw new CsvError({ row, column, message }, opts.file)
+    throw new CsvError([...problems, { row: row === null ? null : row + off, column, message }], opts.file, total + 1)
+  }
+  // problems of rows and cells: collected, the file refused at the end with all of them
+  const problems: CsvIssue[] = []
+  let total = 0
+  const report = (row: number | null, column: string | null, message: string) => {
+    total++
+    if (problems.length < MAX_REPORTED) problems.push({ row: row === null ? null : row + off, column, message })
   }
   const body = text.charCodeAt(0) === 0xfeff ? text.slice(1) : text
   if (body.trim() === '') fail(null, null, 'the file is empty')
@@ -116,19 +156,21 @@ export function parseCsv(text: string, opts: CsvOptions = {}): CsvTable {
   const headerOnly = new CsvRecords(firstLine, delimiter).cells(0)
   if (headerOnly.length > maxColumns) fail(1, null, `too many columns: the header has ${headerOnly.length}, the limit is ${maxColumns} columns`)
   const records = new CsvRecords(body, delimiter)
-  // header
-  const headerCells = records.count > 0 ? records.cells(0) : []
+  // header (a delimiter ending the header line adds no column)
+  let headerCells = records.count > 0 ? records.cells(0) : []
+  if (headerCells.length > 1 && headerCells[headerCells.length - 1].trim() === '') headerCells = headerCells.slice(0, -1)
   if (headerCells.length === 0 || headerCells.every((c) => c.trim() === '')) fail(1, null, 'the header row is empty')
   const headers = headerCells.map(parseHeader)
   const seen = new Map<string, number>()
   headers.forEach((h, i) => {
-    if (h.name === '') fail(1, `#${i + 1}`, `column ${i + 1} has no name in the header row`)
+    if (h.name === '') return report(1, `#${i + 1}`, `column ${i + 1} has no name in the header row`)
     const key = h.name.toLowerCase()
-    if (seen.has(key)) fail(1, h.name, `duplicate column name (columns ${seen.get(key)! + 1} and ${i + 1})`)
+    if (seen.has(key)) return report(1, h.name, `duplicate column name (columns ${seen.get(key)! + 1} and ${i + 1})`)
     seen.set(key, i)
   })
+  if (total > 0) throw new CsvError(problems, opts.file, total)
   const nCol = headers.length
-  // data records (blank lines skipped, rows counted as in the file)
+  // data records (blank lines skipped, rows counted as in the file; a trailing delimiter adds no field)
   const maxRows = opts.maxRows ?? 2_000_000
   // record index of each data row (the file's row number is record index + 1)
   let recIdx = new Int32Array(Math.max(0, records.count - 1))
@@ -136,7 +178,10 @@ export function parseCsv(text: string, opts: CsvOptions = {}): CsvTable {
   for (let r = 1; r < records.count; r++) {
     if (records.isBlank(r)) continue
     const w = records.width(r)
-    if (w !== nCol) fail(r + 1, null, `the row has ${w} field(s), the header has ${nCol}`)
+    if (w !== nCol && !(w === nCol + 1 && records.cell(r, nCol).trim() === '')) {
+      report(r + 1, null, `the row has ${w} field(s), the header has ${nCol}`)
+      continue
+    }
     recIdx[nData++] = r
     if (nData > maxRows) fail(r + 1, null, `too many rows: the limit is ${maxRows} data rows`)
   }
@@ -149,22 +194,11 @@ export function parseCsv(text: string, opts: CsvOptions = {}): CsvTable {
   if (!named) tCol = 0
   const firstTime = cellOf(0, tCol).trim()
   const iso = ISO.test(firstTime)
-  // decimal comma: only when the delimiter is not a comma
-  let decimalComma = false
-  if (delimiter !== ',') {
-    outer: for (let k = 0; k < Math.min(50, nData); k++) {
-      for (let c = 0; c < nCol; c++) {
-        const s = cellOf(k, c).trim()
-        if (s.includes(',') && NUMBER_COMMA.test(s)) {
-          decimalComma = true
-          break outer
-        }
-      }
-    }
-  }
+  // decimal comma: unquoted cells like 1,25 when the delimiter is not a comma, quoted "1,25" when it is
+  const decimalComma = hasDecimalComma(Math.min(50, nData), nCol, cellOf)
   const num = (s: string): number => {
     const t = s.trim()
-    if (t === '' || t.toLowerCase() === 'nan' || t.toLowerCase() === 'na') return NaN
+    if (MISSING.has(t.toLowerCase())) return NaN
     const u = decimalComma ? t.replace(',', '.') : t
     if (!NUMBER.test(u)) return Number.POSITIVE_INFINITY // marker: not a number
     return Number(u)
@@ -173,7 +207,7 @@ export function parseCsv(text: string, opts: CsvOptions = {}): CsvTable {
     if (!named) {
       fail(recIdx[0] + 1, headers[0].name, `no time column: name one column 't' or 'time' or put the time first (found '${firstTime}', not a number or an ISO-8601 time)`)
     }
-    fail(recIdx[0] + 1, headers[tCol].name, `the time '${firstTime}' is not a number or an ISO-8601 time`)
+    if (total === 0) fail(recIdx[0] + 1, headers[tCol].name, `the time '${firstTime}' is not a number or an ISO-8601 time`)
   }
   const tHeader = headers[tCol]
   let tScale = 1
@@ -186,26 +220,31 @@ export function parseCsv(text: string, opts: CsvOptions = {}): CsvTable {
   const n = nData
   const time = new Float64Array(n)
   const rows = new Int32Array(n)
-  let origin = 0
+  let origin = Number.NaN
+  // the last readable time, for the order checks
+  let lastT = Number.NaN
+  let lastRow = 0
   for (let k = 0; k < n; k++) {
     const row = recIdx[k] + 1
-    rows[k] = row
+    rows[k] = row + off
     const s = cellOf(k, tCol).trim()
     let v: number
     if (iso) {
       v = isoSeconds(s)
-      if (!Number.isFinite(v)) fail(row, tHeader.name, `'${s}' is not an ISO-8601 time like the first sample's`)
-      if (k === 0) origin = v
+      if (!Number.isFinite(v)) { report(row, tHeader.name, `'${s}' is not an ISO-8601 time like the first sample's`); time[k] = NaN; continue }
+      if (Number.isNaN(origin)) origin = v
       v -= origin
     } else {
       v = num(s)
-      if (Number.isNaN(v)) fail(row, tHeader.name, 'the time cell is empty')
-      if (!Number.isFinite(v)) fail(row, tHeader.name, `'${s}' is not a number`)
+      if (Number.isNaN(v)) { report(row, tHeader.name, 'the time cell is empty (a missing time)'); time[k] = NaN; continue }
+      if (!Number.isFinite(v)) { report(row, tHeader.name, `'${s}' is not a number`); time[k] = NaN; continue }
       v *= tScale
     }
-    if (k > 0 && v === time[k - 1]) fail(row, tHeader.name, `duplicate time ${s} (same as row ${rows[k - 1]})`)
-    if (k > 0 && v < time[k - 1]) fail(row, tHeader.name, `time is not increasing (${s} after the previous row's value)`)
+    if (v === lastT) report(row, tHeader.name, `duplicate time ${s} (same as row ${lastRow + off})`)
+    else if (v < lastT) report(row, tHeader.name, `time is not increasing (${s} after row ${lastRow + off}'s value)`)
     time[k] = v
+    lastT = v
+    lastRow = row
   }
   // value columns
   const columns: CsvColumn[] = []
@@ -219,17 +258,23 @@ export function parseCsv(text: string, opts: CsvOptions = {}): CsvTable {
       const s = cellOf(k, c)
       const v = num(s)
       if (v === Number.POSITIVE_INFINITY) {
-        issue = { row: rows[k], column: h.name, message: `'${s.trim()}' is not a number` }
-        values.fill(NaN)
-        break
+        const here = { row: rows[k], column: h.name, message: `'${s.trim()}' is not a number` }
+        if (opts.strict !== false) report(rows[k] - off, here.column, here.message)
+        issue ??= here
+        values[k] = NaN
+        continue
       }
       values[k] = v
       if (!Number.isNaN(v)) count++
     }
-    if (!issue && count === 0) issue = { row: null, column: h.name, message: 'the column has no numeric value (every cell is empty or NaN)' }
-    if (issue && opts.strict !== false) fail(issue.row, issue.column, issue.message)
+    if (issue) values.fill(NaN)
+    if (!issue && count === 0) {
+      issue = { row: null, column: h.name, message: 'the column has no numeric value (every cell is empty or a missing-value mark)' }
+      if (opts.strict !== false) report(issue.row, issue.column, issue.message)
+    }
     columns.push({ name: h.name, unit: h.unit, values, issue })
   }
+  if (total > 0) throw new CsvError(problems, opts.file, total)
   if (columns.length === 0) fail(1, null, 'the file has a time column but no data columns')
   // gap warnings
   const warnings: string[] = []
@@ -284,12 +329,64 @@ function kthSmallest(a: Float64Array, k: number): number {
   return a[k]
 }
 
+/** What an import preview shows before a file is saved. */
+export interface CsvPreview {
+  delimiter: string
+  decimal: '.' | ','
+  /** header names and units (a trailing delimiter's empty column left out) */
+  columns: { name: string; unit: string }[]
+  /** the column read as time, null when the header has none usable */
+  timeColumn: string | null
+  /** the first data rows as written (cells as text) */
+  firstRows: string[][]
+  /** data rows (blank lines not counted) */
+  rowCount: number
+  /** the file's problems as parseCsv reports them (first MAX_REPORTED), and how many in all */
+  problems: CsvIssue[]
+  total: number
+  warnings: string[]
+}
+
+/** Header, units, first rows, separator and decimal of a file, with all its problems (no exception). */
+export function inspectCsv(text: string, opts: CsvOptions & { rows?: number } = {}): CsvPreview {
+  const body = text.charCodeAt(0) === 0xfeff ? text.slice(1) : text
+  const firstLine = body.slice(0, Math.max(0, body.search(/\r?\n/)) || body.length)
+  const delimiter = detectDelimiter(firstLine)
+  const parsed = tryParseCsv(text, opts)
+  const records = new CsvRecords(body.length > 1_000_000 ? body.slice(0, 1_000_000) : body, delimiter)
+  let header = records.count > 0 ? records.cells(0) : []
+  if (header.length > 1 && header[header.length - 1].trim() === '') header = header.slice(0, -1)
+  const columns = header.slice(0, MAX_COLUMNS).map(parseHeader)
+  const nCol = columns.length
+  const data: number[] = []
+  let rowCount = 0
+  for (let r = 1; r < records.count; r++) {
+    if (records.isBlank(r)) continue
+    rowCount++
+    if (data.length < Math.max(50, opts.rows ?? 10)) data.push(r)
+  }
+  const cellsOf = (r: number) => {
+    const c = records.cells(r)
+    return c.length === nCol + 1 && c[nCol].trim() === '' ? c.slice(0, nCol) : c
+  }
+  const timeColumn = parsed.ok ? parsed.table.time.name
+    : columns.find((h) => h.name.toLowerCase() === 't' || h.name.toLowerCase() === 'time')?.name ?? columns[0]?.name ?? null
+  const decimalComma = parsed.ok ? parsed.table.decimalComma : hasDecimalComma(data.length, nCol, (k, c) => records.cell(data[k], c) ?? '')
+  return {
+    delimiter, decimal: decimalComma ? ',' : '.', columns, timeColumn,
+    firstRows: data.slice(0, opts.rows ?? 10).map(cellsOf),
+    rowCount: parsed.ok ? parsed.table.rows.length : rowCount,
+    problems: parsed.ok ? [] : parsed.errors, total: parsed.ok ? 0 : parsed.total,
+    warnings: parsed.ok ? parsed.table.warnings : [],
+  }
+}
+
 /** parseCsv without throwing: the table or the issue. */
-export function tryParseCsv(text: string, opts: CsvOptions = {}): { ok: true; table: CsvTable } | { ok: false; error: CsvIssue } {
+export function tryParseCsv(text: string, opts: CsvOptions = {}): { ok: true; table: CsvTable } | { ok: false; error: CsvIssue; errors: CsvIssue[]; total: number } {
   try {
     return { ok: true, table: parseCsv(text, opts) }
   } catch (e) {
-    if (e instanceof CsvError) return { ok: false, error: { row: e.row, column: e.column, message: e.detail } }
+    if (e instanceof CsvError) return { ok: false, error: { row: e.row, column: e.column, message: e.detail }, errors: e.issues, total: e.total }
     throw e
   }
 }

@@ -12,6 +12,7 @@ import {
 import { landscapeDto, parameterSetDto, runDto, runSummaryDto, type CreateRunBody } from '@shared/api/runs'
 import { versionDto } from '@shared/api/models'
 import { api, request } from './client'
+import { uploadLimits, type UploadLimits } from '@shared/api/datasets'
 
 const w = (ws: string) => `/api/workspaces/${encodeURIComponent(ws)}`
 const quiet404 = { silent: [404] } as const
@@ -47,6 +48,9 @@ export function uploadDataset(ws: string, pid: number, file: File, fields: { nam
   form.append('file', file)
   return request(`${w(ws)}/projects/${pid}/datasets`, { method: 'POST', body: form, schema: datasetDto, silent: [400, 413] })
 }
+
+/** What an upload may hold (file size, rows, columns), stated and checked in the upload form. */
+export const getUploadLimits = (ws: string) => api.get<UploadLimits>(`${w(ws)}/datasets/limits`, { schema: uploadLimits })
 
 // bindings
 export const listBindings = (ws: string, pid: number) =>

@@ -140,6 +140,40 @@ describe('bad uploads are refused with what and where', () => {
     expect(r.body.error.message).toBe("bad.csv, row 5, column 'y': 'x' is not a number")
   })
 
+  it('reports every problem of a file at once (first 50), each with row and column, counting the comment lines', async () => {
+    const rows = ['# invented example with many faults', 't,level [m],temp [degC]', '0,1,20', '1,x,21', '1,2,22', '3,4', '4,5,warm']
+    for (let k = 5; k < 80; k++) rows.push(`${k},bad,${k}`)
+    const before = (await modeler.get(`${WS}/projects/${pid}/datasets`)).body.datasets.length
+    const r = await upload(modeler, pid, rows.join('\n'), 'faults.csv')
+    expect(r.status).toBe(400)
+    expect(r.body.error.code).toBe('validation_failed')
+    const details = r.body.error.details as { row?: number; column?: string; message: string }[]
+    expect(details).toHaveLength(50)
+    expect(details.slice(0, 4)).toEqual([
+      { row: 6, message: 'the row has 2 field(s), the header has 3' },
+      { row: 5, column: 't', message: 'duplicate time 1 (same as row 4)' },
+      { row: 4, column: 'level', message: "'x' is not a number" },
+      { row: 8, column: 'level', message: "'bad' is not a number" },
+    ])
+    // 1 ragged row, 1 duplicate time, 1 + 75 bad levels, 1 bad temperature: 79 in all
+    expect(r.body.error.message).toBe('faults.csv, row 6: the row has 2 field(s), the header has 3 (and 78 more problems; the first 50 are listed)')
+    expect((await modeler.get(`${WS}/projects/${pid}/datasets`)).body.datasets.length).toBe(before)
+  })
+
+  it('reads trailing delimiters, quoted decimal commas, and n/a or - as missing values', async () => {
+    const r = await upload(modeler, pid, 't [s],level [m],flow [m3/h],\n0,"1,25",n/a,\n1,"1,5",-,\n2,"1,75","0,5",\n', 'export.csv')
+    expect(r.status).toBe(201)
+    expect(r.body.columns.map((c: { name: string }) => c.name)).toEqual(['level', 'flow'])
+    expect(r.body.preview).toEqual([[0, 1.25, null], [1, 1.5, null], [2, 1.75, 0.5]])
+    expect(r.body.warnings.some((w: { message: string }) => /',' as the decimal separator \(in quoted cells\)/.test(w.message))).toBe(true)
+  })
+
+  it('states the upload limits for the form', async () => {
+    const r = await viewer.get(`${WS}/datasets/limits`)
+    expect(r.status).toBe(200)
+    expect(r.body).toEqual({ uploadBytes: 64 * 1024, rows: 1000, columns: 1000 })
+  })
+
   it('refuses too many rows, naming the limit and the row', async () => {
     const rows = ['t,y']
     for (let k = 0; k < 1005; k++) rows.push(`${k},${k % 7}`)

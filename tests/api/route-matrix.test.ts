@@ -82,6 +82,7 @@ const MATRIX: Record<string, Access> = {
   'GET /api/workspaces/:ws/projects/:pid/runs': 'read',
   'GET /api/workspaces/:ws/projects/:pid/parameter-sets': 'read',
   'GET /api/workspaces/:ws/datasets': 'read',
+  'GET /api/workspaces/:ws/datasets/limits': 'read',
   'GET /api/workspaces/:ws/datasets/:did': 'read',
   'PATCH /api/workspaces/:ws/datasets/:did': 'write',
   'GET /api/workspaces/:ws/datasets/:did/data': 'read',

@@ -37,9 +37,10 @@ async function choose(page: Page, label: string, option: string | RegExp) {
 }
 
 async function uploadFile(page: Page, file: string, purpose: 'estimation' | 'validation') {
-  await page.getByTestId('upload-file').setInputFiles(file)
+  await page.getByTestId('upload-drop').locator('input[type=file]').setInputFiles(file)
+  await page.getByTestId('upload-preview').waitFor()
   await choose(page, 'Use as', purpose)
-  await page.getByRole('button', { name: 'Upload', exact: true }).click()
+  await page.getByTestId('upload-save').click()
   await page.getByTestId('datasets-table').getByText(path.basename(file, '.csv')).waitFor()
 }
 
@@ -63,9 +64,9 @@ it('goes from a CSV to a judged, exported fit in the browser', { timeout: 600_00
   // a bad file is refused with the row and column named
   const bad = path.join(path.dirname(files.est), 'bad.csv')
   writeFileSync(bad, 't,level\n0,1\n1,oops\n')
-  await page.getByTestId('upload-file').setInputFiles(bad)
-  await page.getByRole('button', { name: 'Upload', exact: true }).click()
-  await expect(page.getByTestId('upload-error').textContent()).resolves.toMatch(/row 3, column 'level': 'oops' is not a number/)
+  await page.getByTestId('upload-drop').locator('input[type=file]').setInputFiles(bad)
+  await expect(page.getByTestId('preview-problems').textContent()).resolves.toMatch(/row 3, column level: 'oops' is not a number/)
+  expect(await page.getByTestId('upload-save').isDisabled()).toBe(true)
 
   await page.getByRole('tab', { name: /Bindings/ }).click()
   await page.getByRole('button', { name: 'New binding' }).click()
