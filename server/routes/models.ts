@@ -8,6 +8,7 @@ import { intParam, parse } from '../middleware/validate'
 import * as library from '../services/models'
 import { notifyEnvOf, notifyForked } from '../services/notifications'
 import { exportVersion, linearizeVersion } from '../services/handover'
+import { listModelParameterSets } from '../services/runs'
 import { exportBody, handoverBody } from '../../shared/api/handover'
 import {
   createModelBody, diffQuery, forkBody, listModelsQuery, publishBody, saveDraftBody, setMaintainersBody, updateModelBody,
@@ -35,6 +36,9 @@ export function modelRoutes() {
   router.put('/:id/maintainers', requireCapability('write'), async (req, res) => {
     const id = intParam(req.params, 'id')
     res.json(await library.setMaintainers(ctx(req).db, actor(req), id, parse(setMaintainersBody, req.body)))
+  })
+  router.get('/:id/parameter-sets', requireCapability('read'), async (req, res) => {
+    res.json({ parameterSets: await listModelParameterSets(ctx(req).db, req.workspace!.id, intParam(req.params, 'id')) })
   })
   // hand-over: linear analysis and exports of a version (POST: bodies carry options; nothing is stored)
   router.post('/:id/versions/:n/linearize', requireCapability('read'), async (req, res) => {
