@@ -5,6 +5,7 @@ import type {
 } from '@shared/api/datasets'
 import type { CreateRunBody, LandscapeDto, ParameterSetDto, RunDto, RunSummaryDto } from '@shared/api/runs'
 import type { VersionDto } from '@shared/api/models'
+import { downloadFrom } from './download'
 import { api, request } from './client'
 
 const w = (ws: string) => `/api/workspaces/${encodeURIComponent(ws)}`
@@ -54,8 +55,8 @@ export const deleteRun = (ws: string, rid: number) => api.delete(`${w(ws)}/runs/
 export const rerun = (ws: string, rid: number) => api.post<RunDto>(`${w(ws)}/runs/${rid}/rerun`)
 export const runEventsUrl = (ws: string, rid: number) => `${w(ws)}/runs/${rid}/events`
 export const exportUrl = (ws: string, rid: number, format: 'csv' | 'json') => `${w(ws)}/runs/${rid}/export?format=${format}`
-/** the fitted version's sheet with the estimates written into its param lines (a download) */
-export const calibratedSheetUrl = (ws: string, rid: number) => `${w(ws)}/runs/${rid}/sheet`
+/** Saves the fitted version's sheet with the estimates written into its param lines; returns the file name. */
+export const downloadCalibratedSheet = (ws: string, rid: number) => downloadFrom(`${w(ws)}/runs/${rid}/sheet`, {}, `run-${rid}.sheet`)
 export const getLandscape = (ws: string, rid: number, a: string, b: string, n = 21) => api.get<LandscapeDto>(`${w(ws)}/runs/${rid}/landscape`, { query: { a, b, n } })
 export const saveParameterSet = (ws: string, rid: number, name: string) => api.post<ParameterSetDto>(`${w(ws)}/runs/${rid}/parameter-sets`, { name })
 export const listParameterSets = (ws: string, pid: number) => api.get<{ parameterSets: ParameterSetDto[] }>(`${w(ws)}/projects/${pid}/parameter-sets`).then((r) => r.parameterSets)
