@@ -92,6 +92,8 @@ describe('browser: handing a run on', () => {
     })()`) as { found: string[]; legends: number }
     expect(overlaps.legends).toBeGreaterThan(0)
     expect(overlaps.found).toEqual([])
+    // the cross-correlation panels name their inputs in a caption instead of a legend
+    await expect(page.getByTestId('ccf-key').first().textContent()).resolves.toMatch(/bars: ■ \S+/)
     await rig.screenshot(page, 'run-report-residuals')
 
     // a new fit starts from the saved set
