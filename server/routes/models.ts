@@ -11,6 +11,7 @@ import { requestChanges, requestReview } from '../services/reviews'
 import { exportVersion, linearizeVersion } from '../services/handover'
 import { acceptPartUpdates, partUpdates } from '../services/part-updates'
 import { acceptPartUpdatesBody } from '../../shared/api/parts'
+import { listModelParameterSets } from '../services/runs'
 import { exportBody, handoverBody } from '../../shared/api/handover'
 import {
   createModelBody, diffQuery, forkBody, listModelsQuery, publishBody, requestChangesBody, reviewCommentBody, saveDraftBody, setMaintainersBody, updateModelBody,
@@ -41,6 +42,9 @@ export function modelRoutes() {
   router.put('/:id/maintainers', requireCapability('write'), async (req, res) => {
     const id = intParam(req.params, 'id')
     res.json(await library.setMaintainers(ctx(req).db, actor(req), id, parse(setMaintainersBody, req.body)))
+  })
+  router.get('/:id/parameter-sets', requireCapability('read'), async (req, res) => {
+    res.json({ parameterSets: await listModelParameterSets(ctx(req).db, req.workspace!.id, intParam(req.params, 'id')) })
   })
   // hand-over: linear analysis and exports of a version (POST: bodies carry options; nothing is stored)
   router.post('/:id/versions/:n/linearize', requireCapability('read'), async (req, res) => {

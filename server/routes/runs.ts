@@ -2,7 +2,7 @@
  * Fit runs (thin: parse, authorize, call the services).
  *   under /projects/:pid: POST runs, POST evaluations (a calibrated model on new records, nothing free), GET runs, GET parameter-sets
  *   under /runs: GET /, GET /:rid, DELETE /:rid, GET /:rid/events (server-sent events), POST /:rid/cancel,
- *     POST /:rid/rerun, GET /:rid/export?format=csv|json, GET /:rid/landscape?a=&b=&n=,
+ *     POST /:rid/rerun, GET /:rid/export?format=csv|json, GET /:rid/sheet (the calibrated sheet), GET /:rid/landscape?a=&b=&n=,
  *     POST /:rid/parameter-sets {name}, POST /:rid/publish {note?}
  */
 import { Router, type Request } from 'express'
@@ -94,10 +94,17 @@ export function runRoutes() {
       res.setHeader('Content-Disposition', `attachment; filename="pewter-run-${rid}.csv"`)
       res.send(text)
     } else {
-      const body = exportJson(run)
+      const body = exportJson(run, await runs.fittedSheet(ctx(req).db, req.workspace!.id, rid))
       res.setHeader('Content-Disposition', `attachment; filename="pewter-run-${rid}.json"`)
       res.json(body)
     }
+  })
+  router.get('/:rid/sheet', requireCapability('read'), async (req, res) => {
+    const file = await runs.calibratedSheet(ctx(req).db, req.workspace!.id, intParam(req.params, 'rid'))
+    res.setHeader('Content-Type', 'text/plain; charset=utf-8')
+    res.setHeader('Content-Disposition', `attachment; filename="${file.fileName}"`)
+    res.setHeader('X-Pewter-Estimates-Written', file.changed.join(','))
+    res.send(file.text)
   })
   router.get('/:rid/landscape', requireCapability('read'), async (req, res) => {
     const q = parse(landscapeQuery, req.query, 'query')

@@ -1,12 +1,14 @@
 /**
- * Exports of a finished run: CSV (parameter table, fit figures per output and experiment, provenance,
- * each section headed by a comment line) and JSON (settings, provenance and the whole result). Both
- * carry the result caution.
+ * Exports of a finished run: CSV (parameter table, fit figures per output and experiment, correlation
+ * of the estimates, the measured and simulated time series with residuals, provenance; each section
+ * headed by a comment line) and JSON (settings, provenance, the sheet text of the fitted version and the
+ * whole result). Both carry the result caution. The calibrated sheet: the fitted version's text with the
+ * shared estimates written into its param lines.
  */
 import { describeOutcome, type FitResult, type OutputRow } from '../../shared/api/fit'
 import type { EvaluationResult } from '../../shared/api/evaluation'
 import { residualVerdicts } from '../../shared/api/residual-checks'
-import { RESULT_CAUTION, type RunDto } from '../../shared/api/runs'
+import { RESULT_CAUTION, type OutputTrace, type RunDto } from '../../shared/api/runs'
 import { conflict } from '../errors'
 
 /** RFC 4180 field: quoted when it holds a comma, quote, or line break. */
@@ -17,11 +19,19 @@ function field(v: unknown): string {
 }
 const line = (cells: unknown[]) => cells.map(field).join(',')
 
-export function exportJson(run: RunDto) {
+/** The fitted version's sheet, for the JSON export. */
+export interface FittedSheet {
+  modelId: number
+  version: number
+  text: string
+}
+
+export function exportJson(run: RunDto, sheet: FittedSheet) {
   if (run.status !== 'succeeded' || !run.result) throw conflict(`Run ${run.id} has no result to export (status ${run.status})`)
   const { traces, ...fit } = run.result as Record<string, unknown>
   return {
     caution: RESULT_CAUTION,
+    sheet: { modelId: sheet.modelId, version: sheet.version, sha256: run.provenance.sheetHash, text: sheet.text },
     run: {
       id: run.id, name: run.name, project: run.projectName, model: run.modelTitle, modelVersion: run.modelVersion, status: run.status,
       outcome: run.outcome ?? fit.status ?? null, outcomeText: describeOutcome(String(run.outcome ?? fit.status ?? ''), run.convergedBy ?? (fit.convergedBy as string | null | undefined)),
@@ -88,6 +98,27 @@ export function exportCsv(run: RunDto): string {
     if (r.validationInitialStates?.length) {
       out.push(line(['experiment', 'state', 'unit', 'initial_value']))
       for (const v of r.validationInitialStates) out.push(line([v.experiment, v.name, v.unit, v.value]))
+    }
+  }
+  const c = r.correlation
+  if (c.names.length) {
+    out.push('')
+    out.push('# correlation of the estimates')
+    out.push(line(['', ...c.names]))
+    c.matrix.forEach((row, i) => out.push(line([c.names[i], ...row])))
+  }
+  const traces = ((run.result as { traces?: OutputTrace[] }).traces ?? [])
+  if (traces.length) {
+    out.push('')
+    out.push('# time series: measured and simulated outputs (simulated with the estimates), residual = measured - simulated; t in seconds')
+    out.push(line(['dataset', 'data', 'output', 'unit', 't_s', 'measured', 'simulated', 'residual']))
+    for (const tr of traces) {
+      const data = tr.validation ? 'validation' : 'estimation'
+      for (let k = 0; k < tr.t.length; k++) {
+        const m = tr.measured[k]
+        const y = tr.simulated[k]
+        out.push(line([tr.datasetName, data, tr.output, tr.unit, tr.t[k], m, y, m === null || y === null ? null : m - y]))
+      }
     }
   }
   const sections: [string, string, string[]][] = [

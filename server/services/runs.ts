@@ -21,7 +21,7 @@ import { columnsOf } from './datasets'
 import { autoMatch, checkMapping, checkMappingNames, getVersionRow, signalsOf } from './bindings'
 import { getProjectRow } from './projects'
 import { ENGINE_VERSION } from './fit-execution'
-import { assertNotTemplate, publishVersion, type Actor } from './models'
+import { assertNotTemplate, getModelRow, publishVersion, type Actor } from './models'
 import { workspacePartTexts } from './part-library'
 import { toDeclared } from '../../shared/sheet/compiled'
 
@@ -393,6 +393,43 @@ export async function listParameterSets(db: Db, workspaceId: number, projectId: 
   await getProjectRow(db, workspaceId, projectId)
   const rows = await db.select().from(parameterSets).where(eq(parameterSets.projectId, projectId)).orderBy(desc(parameterSets.createdAt))
   return rows.map((ps) => ({ id: ps.id, projectId: ps.projectId, runId: ps.runId, modelId: ps.modelId, name: ps.name, values: ps.values as ParameterSetDto['values'], createdAt: iso(ps.createdAt)! }))
+}
+
+/** Parameter sets saved from runs of one model, across the workspace's projects (newest first). */
+export async function listModelParameterSets(db: Db, workspaceId: number, modelId: number): Promise<ParameterSetDto[]> {
+  await getModelRow(db, workspaceId, modelId)
+  const rows = await db.select({ ps: parameterSets }).from(parameterSets).innerJoin(projects, eq(projects.id, parameterSets.projectId))
+    .where(and(eq(parameterSets.modelId, modelId), eq(projects.workspaceId, workspaceId))).orderBy(desc(parameterSets.createdAt))
+  return rows.map(({ ps }) => ({ id: ps.id, projectId: ps.projectId, runId: ps.runId, modelId: ps.modelId, name: ps.name, values: ps.values as ParameterSetDto['values'], createdAt: iso(ps.createdAt)! }))
+}
+
+/** The text of the model version a run fitted. */
+export async function fittedSheet(db: Db, workspaceId: number, runId: number): Promise<{ modelId: number; version: number; title: string; text: string }> {
+  const row = await getRunRow(db, workspaceId, runId)
+  const [v] = await db.select({ text: modelVersions.text, title: models.title }).from(modelVersions).innerJoin(models, eq(models.id, modelVersions.modelId))
+    .where(and(eq(modelVersions.modelId, row.modelId), eq(modelVersions.number, row.modelVersion))).limit(1)
+  if (!v) throw notFound('Model version')
+  return { modelId: row.modelId, version: row.modelVersion, title: v.title, text: v.text }
+}
+
+/**
+ * The calibrated sheet of a finished run, to download: the fitted version's text with the shared
+ * estimates written into its param lines, headed by comment lines naming the run and the caution.
+ */
+export async function calibratedSheet(db: Db, workspaceId: number, runId: number): Promise<{ fileName: string; text: string; changed: string[] }> {
+  const row = await getRunRow(db, workspaceId, runId)
+  const result = finishedResult(row)
+  const sheet = await fittedSheet(db, workspaceId, runId)
+  const { text, changed } = sheetWithEstimates(sheet.text, result)
+  const local = result.parameters.filter((p) => p.experiment !== null).map((p) => p.name)
+  const head = [
+    `# Calibrated sheet: "${sheet.title}" version ${sheet.version} with the estimates of Pewter fit run #${row.id}`,
+    `# written into the param lines: ${changed.length ? changed.join(', ') : 'none'} (8 significant digits; the full values stay on the run)`,
+    ...(local.length ? [`# per-record estimates are not written here: ${[...new Set(local)].join(', ')}`] : []),
+    `# ${RESULT_CAUTION}`,
+  ]
+  const slug = sheet.title.toLowerCase().replace(/[^a-z0-9]+/g, '-').replace(/^-|-$/g, '') || 'model'
+  return { fileName: `${slug}-v${sheet.version}-run${row.id}.sheet`, text: `${head.join('\n')}\n${text}`, changed }
 }
 
 /**

@@ -11,6 +11,7 @@ import {
 } from '@shared/api/datasets'
 import { landscapeDto, parameterSetDto, runDto, runSummaryDto, type CreateRunBody } from '@shared/api/runs'
 import { versionDto } from '@shared/api/models'
+import { downloadFrom } from './download'
 import { api, request } from './client'
 import { uploadLimits, type UploadLimits } from '@shared/api/datasets'
 
@@ -73,6 +74,8 @@ export const cancelRun = (ws: string, rid: number) => api.post(`${w(ws)}/runs/${
 export const deleteRun = (ws: string, rid: number) => api.delete(`${w(ws)}/runs/${rid}`)
 export const runEventsUrl = (ws: string, rid: number) => `${w(ws)}/runs/${rid}/events`
 export const exportUrl = (ws: string, rid: number, format: 'csv' | 'json') => `${w(ws)}/runs/${rid}/export?format=${format}`
+/** Saves the fitted version's sheet with the estimates written into its param lines; returns the file name. */
+export const downloadCalibratedSheet = (ws: string, rid: number) => downloadFrom(`${w(ws)}/runs/${rid}/sheet`, {}, `run-${rid}.sheet`)
 export const getLandscape = (ws: string, rid: number, a: string, b: string, n = 21) =>
   api.get(`${w(ws)}/runs/${rid}/landscape`, { query: { a, b, n }, schema: landscapeDto })
 export const saveParameterSet = (ws: string, rid: number, name: string) => api.post(`${w(ws)}/runs/${rid}/parameter-sets`, { name }, { schema: parameterSetDto })
@@ -80,3 +83,5 @@ export const listParameterSets = (ws: string, pid: number) =>
   api.get(`${w(ws)}/projects/${pid}/parameter-sets`, { schema: z.object({ parameterSets: z.array(parameterSetDto) }) }).then((r) => r.parameterSets)
 export const publishFromRun = (ws: string, rid: number, note: string) =>
   api.post(`${w(ws)}/runs/${rid}/publish`, { note }, { schema: versionDto.extend({ changed: z.array(z.string()) }) })
+export const listModelParameterSets = (ws: string, modelId: number) =>
+  api.get(`${w(ws)}/models/${modelId}/parameter-sets`, { schema: z.object({ parameterSets: z.array(parameterSetDto) }) }).then((r) => r.parameterSets)

@@ -1,6 +1,7 @@
 /** Hand-over calls: linear analysis and exports of a model version (shapes from shared/api/handover.ts). */
 import { linearAnalysis, type ExportBody, type LinearAnalysis } from '@shared/api/handover'
-import { api, ApiError } from './client'
+import { api } from './client'
+import { downloadFrom } from './download'
 
 const base = (ws: string, modelId: number, n: number) => `/api/workspaces/${encodeURIComponent(ws)}/models/${modelId}/versions/${n}`
 
@@ -12,25 +13,6 @@ export function linearize(ws: string, modelId: number, n: number, body: Handover
 }
 
 /** Fetches an export and hands it to the browser as a download. */
-export async function downloadExport(ws: string, modelId: number, n: number, body: HandoverRequest & { format: ExportBody['format'] }): Promise<string> {
-  const r = await fetch(`${base(ws, modelId, n)}/export`, {
-    method: 'POST',
-    credentials: 'same-origin',
-    headers: { 'Content-Type': 'application/json', 'X-Requested-With': 'pewter' },
-    body: JSON.stringify(body),
-  })
-  if (!r.ok) {
-    const j = (await r.json().catch(() => null)) as { error?: { code: string; message: string; details?: unknown } } | null
-    throw new ApiError(r.status, j?.error?.code ?? 'http_error', j?.error?.message ?? `The export failed (HTTP ${r.status}).`, j?.error?.details)
-  }
-  const name = /filename="([^"]+)"/.exec(r.headers.get('Content-Disposition') ?? '')?.[1] ?? `export-${body.format}`
-  const url = URL.createObjectURL(await r.blob())
-  const a = document.createElement('a')
-  a.href = url
-  a.download = name
-  document.body.appendChild(a)
-  a.click()
-  a.remove()
-  setTimeout(() => URL.revokeObjectURL(url), 10_000)
-  return name
+export function downloadExport(ws: string, modelId: number, n: number, body: HandoverRequest & { format: ExportBody['format'] }): Promise<string> {
+  return downloadFrom(`${base(ws, modelId, n)}/export`, { method: 'POST', headers: { 'Content-Type': 'application/json' }, body: JSON.stringify(body) }, `export-${body.format}`)
 }

@@ -48,15 +48,16 @@ function documentTheme(): PlotTheme {
   return cached
 }
 
-/** The base layout every chart starts from (fonts, frame, grid, legend below). */
+/** The base layout every chart starts from (fonts, frame, grid, legend above the plotting area). */
 export function baseLayout(t: PlotTheme, height: number): Record<string, unknown> {
   return {
     height,
-    margin: { l: 64, r: 16, t: 28, b: 64 },
+    margin: { l: 64, r: 16, t: 36, b: 56 },
     font: { family: t.font, size: 12, color: t.text },
     paper_bgcolor: t.paper,
     plot_bgcolor: t.background,
-    legend: { orientation: 'h', x: 0, y: -0.18, yanchor: 'top' },
+    // a horizontal legend in the top margin, above the plotting area: never over the data or the x-axis title
+    legend: { orientation: 'h', x: 0, xanchor: 'left', y: 1.02, yanchor: 'bottom' },
     xaxis: { gridcolor: t.grid, zeroline: false },
     yaxis: { gridcolor: t.grid, zeroline: false },
   }
