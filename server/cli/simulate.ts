@@ -7,7 +7,8 @@
  * unit (the engine works in internal SI units). --set names a parameter, a state (its initial value)
  * or an input (its value without a trace). CSV output: header `t,<outputs…>[,<states…>]`. JSON:
  * { t, outputs, states, stats: { method, switched, steps, rejected, rhsEvals, jacEvals, luDecomps,
- * elapsedMs }, warnings }. Warnings go to stderr as well.
+ * elapsedMs }, warnings } and, for a sheet with events, events: [{ t, line, condition }] (every event that
+ * fired). Warnings go to stderr as well.
  * Exit 0: done; 1: the sheet has errors or the integration failed; 2: bad arguments or input file.
  */
 import { readFile } from 'node:fs/promises'
@@ -261,6 +262,7 @@ export async function run(args: string[]): Promise<number> {
       t: Array.from(res.t), outputs, states,
       stats: { method: s.method, switched: s.switched, steps: s.steps, rejected: s.rejected, rhsEvals: s.rhsEvals, jacEvals: s.jacEvals, luDecomps: s.luDecomps, elapsedMs: s.elapsedMs },
       warnings: all,
+      ...(res.events ? { events: res.events.map((e) => ({ t: e.t, line: e.line, condition: model.events[e.event].text })) } : {}),
     }) + '\n')
     return 0
   }

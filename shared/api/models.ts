@@ -68,11 +68,15 @@ export const sheetSummary = z.object({
   })).default([]),
   /** every part version the flattened sheet holds, directly or inside other parts */
   partsUsed: z.array(z.object({ handle: z.string(), version: z.number() })).default([]),
+  /** switch positions the equations read (initial position: 0 off/closed, 1 on/open, or a whole number) */
+  modes: z.array(z.object({ name: z.string(), initial: z.number(), description: z.string(), line: z.number() })).default([]),
+  /** events: the condition as written, its direction, what it assigns */
+  events: z.array(z.object({ condition: z.string(), direction: z.enum(['up', 'down', 'either']), assigns: z.array(z.string()), description: z.string(), line: z.number() })).default([]),
 })
 export type SheetSummary = z.infer<typeof sheetSummary>
 
 export const emptySheetSummary = (): SheetSummary => ({
-  title: '', kind: 'continuous', timeUnit: 's', sampleTime: null, states: [], parameters: [], inputs: [], outputs: [], consts: [], lookups: [], lets: 0, parts: [], partsUsed: [],
+  title: '', kind: 'continuous', timeUnit: 's', sampleTime: null, states: [], parameters: [], inputs: [], outputs: [], consts: [], lookups: [], lets: 0, parts: [], partsUsed: [], modes: [], events: [],
 })
 
 export const checkBody = z.object({ text: sheetText })

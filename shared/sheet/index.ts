@@ -63,7 +63,7 @@ export function checkModel(text: string, opts: SheetOptions = {}): CheckResult {
   if (flat) {
     // a part's symbols are placed at its part line
     const at = (line: number) => flat.origin(line)?.line ?? line
-    for (const list of [summary.states, summary.parameters, summary.inputs, summary.outputs, summary.consts, summary.lookups]) for (const x of list) x.line = at(x.line)
+    for (const list of [summary.states, summary.parameters, summary.inputs, summary.outputs, summary.consts, summary.lookups, summary.modes, summary.events]) for (const x of list) x.line = at(x.line)
   }
   return { ok, diagnostics: r.diagnostics, summary }
 }

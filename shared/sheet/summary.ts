@@ -15,6 +15,8 @@ export interface SheetSummary {
   lets: number
   parts: { name: string; handle: string; version: number; description: string; line: number; inputs: { name: string; unit: string }[]; outputs: { name: string; unit: string }[] }[]
   partsUsed: { handle: string; version: number }[]
+  modes: { name: string; initial: number; description: string; line: number }[]
+  events: { condition: string; direction: 'up' | 'down' | 'either'; assigns: string[]; description: string; line: number }[]
 }
 
 export function summarize(m: ParsedModel): SheetSummary {
@@ -33,9 +35,14 @@ export function summarize(m: ParsedModel): SheetSummary {
     lets: m.lets.length,
     parts: (m.parts ?? []).map((p) => ({ name: p.name, handle: p.handle, version: p.version, description: p.description, line: p.line, inputs: p.inputs, outputs: p.outputs })),
     partsUsed: (m.partsUsed ?? []).map((p) => ({ handle: p.handle, version: p.version })),
+    modes: m.modes.map((x) => ({ name: x.name, initial: x.initial, description: x.description, line: x.span.line })),
+    events: m.events.map((e) => ({
+      condition: e.text, direction: e.direction, description: e.description, line: e.span.line,
+      assigns: e.resets.map((r) => (r.target === 'state' ? m.states[r.index].name : m.modes[r.index].name)),
+    })),
   }
 }
 
 export function emptySummary(): SheetSummary {
-  return { title: '', kind: 'continuous', timeUnit: 's', sampleTime: null, states: [], parameters: [], inputs: [], outputs: [], consts: [], lookups: [], lets: 0, parts: [], partsUsed: [] }
+  return { title: '', kind: 'continuous', timeUnit: 's', sampleTime: null, states: [], parameters: [], inputs: [], outputs: [], consts: [], lookups: [], lets: 0, parts: [], partsUsed: [], modes: [], events: [] }
 }

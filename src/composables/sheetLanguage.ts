@@ -17,12 +17,15 @@ export { stripComment }
 export const SHEET_LANGUAGE = 'pewter-sheet'
 export const SHEET_THEME = 'pewter-light'
 
-export const SHEET_KEYWORDS = ['model', 'time', 'sample', 'input', 'param', 'const', 'lookup', 'state', 'let', 'next', 'output', 'part', 'feed'] as const
+export const SHEET_KEYWORDS = ['model', 'time', 'sample', 'input', 'param', 'const', 'lookup', 'state', 'let', 'next', 'output', 'part', 'feed', 'mode', 'event'] as const
+/** the words of an event line (`event A falls below B then m = on`) and a mode's positions */
+export const EVENT_WORDS = ['falls', 'below', 'rises', 'above', 'crosses', 'then'] as const
+export const MODE_POSITIONS = ['off', 'on', 'closed', 'open'] as const
 export const SHEET_MODIFIERS = ['in', 'fixed', 'estimate', 'steady', 'linear', 'hold', 'sigma'] as const
 const BUILTINS = ['delay', 't', 'pi', 'e']
 const REDUCERS = ['sum', 'prod']
 
-export type SymbolKind = 'input' | 'param' | 'const' | 'lookup' | 'state' | 'let' | 'output' | 'part'
+export type SymbolKind = 'input' | 'param' | 'const' | 'lookup' | 'state' | 'let' | 'output' | 'part' | 'mode'
 
 export interface SheetSymbol {
   name: string
@@ -42,7 +45,7 @@ export interface SheetSymbol {
   part?: { handle: string; version: number; title?: string; inputs?: { name: string; unit: string }[]; outputs?: { name: string; unit: string }[] }
 }
 
-const DECL_RE = /^\s*(input|param|const|lookup|state|let|output)\s+([A-Za-z_][A-Za-z0-9_]*)(?:\[([^\]]*)\])?/
+const DECL_RE = /^\s*(input|param|const|lookup|state|let|output|mode)\s+([A-Za-z_][A-Za-z0-9_]*)(?:\[([^\]]*)\])?/
 const PART_DECL_RE = /^\s*part\s+([A-Za-z_][A-Za-z0-9_]*)\s*=\s*([A-Za-z0-9][A-Za-z0-9_-]*)@(\d+)\s*(?:"([^"]*)")?/
 
 /** Declared names of a sheet, by a line scan (works on sheets with errors), enriched by a check's summary. */
@@ -75,6 +78,9 @@ export function scanSymbols(text: string, check?: CheckReply | null): SheetSymbo
       } else if (sym.kind === 'part') {
         const p = s.parts?.find((v) => v.name === sym.name)
         if (p && sym.part) Object.assign(sym.part, { inputs: p.inputs, outputs: p.outputs })
+      } else if (sym.kind === 'mode') {
+        const m = s.modes?.find((v) => v.name === sym.name)
+        if (m) sym.value = m.initial
       } else if (sym.kind === 'input') {
         const u = s.inputs.find((v) => v.name === sym.name) as { value?: number } | undefined
         if (u) sym.value = u.value ?? null
@@ -109,7 +115,17 @@ export function partHandleItems(entries: PartCatalogueEntry[], typed: string): {
 }
 
 const kindLabel: Record<SymbolKind, string> = {
-  input: 'input', param: 'parameter', const: 'constant', lookup: 'lookup', state: 'state', let: 'intermediate (let)', output: 'output', part: 'part',
+  input: 'input', param: 'parameter', const: 'constant', lookup: 'lookup', state: 'state', let: 'intermediate (let)', output: 'output', part: 'part', mode: 'mode (switch position, set by events)',
+}
+
+/** hover help of the event words */
+export const EVENT_HELP: Record<string, string> = {
+  event: 'event A falls below B then x = …, m = on — where A − B crosses zero (located on the solver\'s dense output), the assignments happen at once, all reading the values just before the event',
+  falls: 'A falls below B — fires where A − B goes from above zero to zero or below',
+  rises: 'A rises above B — fires where A − B goes from below zero to zero or above',
+  crosses: 'A crosses B — fires where A − B changes sign either way',
+  then: 'then x = …, m = on — what the event sets: states (to expressions of the values before the event) and modes (to positions)',
+  mode: 'mode m = off — a switch position the equations read as a number (off/closed 0, on/open 1, or a whole number); only events change it',
 }
 
 const fmt = (v: number) => (Math.abs(v) >= 1e5 || (Math.abs(v) < 1e-3 && v !== 0) ? v.toExponential(3).replace(/\.?0+e/, 'e') : String(Number(v.toPrecision(6))))
@@ -130,6 +146,7 @@ export function describeSymbol(s: SheetSymbol): string {
   if (s.range) parts.push(`one ${kindLabel[s.kind]} per index ${s.range}: write ${s.name}[i]`)
   const facts: string[] = []
   if (s.value !== undefined && s.value !== null) facts.push(`${s.kind === 'state' ? 'initial value' : 'value'} ${fmt(s.value)}${s.unit ? ` ${s.unit}` : ''}`)
+  if (s.kind === 'mode' && facts.length) facts[0] = `starts at ${s.value === 0 ? 'off/closed (0)' : s.value === 1 ? 'on/open (1)' : `position ${s.value}`}`
   if (s.kind === 'param' && s.fixed) facts.push('fixed')
   if ((s.lower ?? null) !== null || (s.upper ?? null) !== null) facts.push(`bounds [${s.lower === null || s.lower === undefined ? '−∞' : fmt(s.lower)}, ${s.upper === null || s.upper === undefined ? '∞' : fmt(s.upper)}]`)
   if (facts.length) parts.push(facts.join(' · '))
@@ -165,7 +182,8 @@ export function registerSheetLanguage(monaco: typeof Monaco): void {
     keywords: [...SHEET_KEYWORDS],
     modifiers: [...SHEET_MODIFIERS],
     functions: [...FUNCTIONS, 'delay'],
-    builtins: ['t', 'pi', 'e'],
+    builtins: ['t', 'pi', 'e', ...MODE_POSITIONS],
+    eventWords: [...EVENT_WORDS],
     tokenizer: {
       root: [
         [/#.*$/, 'comment'],
@@ -174,7 +192,7 @@ export function registerSheetLanguage(monaco: typeof Monaco): void {
         [/\[/, { token: 'unit.bracket', next: '@unit' }],
         [/[A-Za-z_][A-Za-z0-9_]*'/, 'derivative'],
         [/[A-Za-z_][A-Za-z0-9_]*(?=\s*\()/, { cases: { '@functions': 'predefined', '@default': 'identifier' } }],
-        [/[A-Za-z_][A-Za-z0-9_]*/, { cases: { '@keywords': 'keyword', '@modifiers': 'keyword.modifier', '@builtins': 'constant', '@default': 'identifier' } }],
+        [/[A-Za-z_][A-Za-z0-9_]*/, { cases: { '@keywords': 'keyword', '@modifiers': 'keyword.modifier', '@eventWords': 'keyword.modifier', '@builtins': 'constant', '@default': 'identifier' } }],
         [/(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?/, 'number'],
         [/->|[-+*/^=<>!?:]+/, 'operator'],
         [/[{}(),]/, 'delimiter'],
@@ -241,6 +259,7 @@ export function registerSheetLanguage(monaco: typeof Monaco): void {
       if ((FUNCTIONS as readonly string[]).includes(word.word) || word.word === 'delay' || REDUCERS.includes(word.word)) {
         return { range, contents: [{ value: `**${word.word}** — function\n\n${FUNCTION_HELP[word.word] ?? `${word.word}(x)`}` }] }
       }
+      if (word.word in EVENT_HELP) return { range, contents: [{ value: `**${word.word}**\n\n${EVENT_HELP[word.word]}` }] }
       if (word.word === 't') return { range, contents: [{ value: '**t** — the time, in the sheet\'s time unit' }] }
       return null
     },
@@ -262,7 +281,7 @@ export function registerSheetLanguage(monaco: typeof Monaco): void {
         }
       }
       const kindOf: Record<SymbolKind, Monaco.languages.CompletionItemKind> = {
-        state: K.Variable, param: K.Constant, const: K.Constant, input: K.Field, lookup: K.Function, let: K.Variable, output: K.Value, part: K.Module,
+        state: K.Variable, param: K.Constant, const: K.Constant, input: K.Field, lookup: K.Function, let: K.Variable, output: K.Value, part: K.Module, mode: K.EnumMember,
       }
       const seen = new Set<string>()
       const suggestions: Monaco.languages.CompletionItem[] = []
@@ -287,7 +306,13 @@ export function registerSheetLanguage(monaco: typeof Monaco): void {
           range, sortText: `1${f}`, detail: 'function', documentation: FUNCTION_HELP[f],
         })
       }
-      for (const k of [...SHEET_KEYWORDS, ...SHEET_MODIFIERS]) suggestions.push({ label: k, kind: K.Keyword, insertText: k, range, sortText: `2${k}` })
+      for (const k of [...SHEET_KEYWORDS, ...SHEET_MODIFIERS, ...EVENT_WORDS]) suggestions.push({ label: k, kind: K.Keyword, insertText: k, range, sortText: `2${k}`, documentation: EVENT_HELP[k] })
+      for (const k of MODE_POSITIONS) suggestions.push({ label: k, kind: K.EnumMember, insertText: k, range, sortText: `2${k}`, detail: 'mode position' })
+      suggestions.push({
+        label: 'event … then …', kind: K.Snippet, range, sortText: '3event', detail: 'an event line', documentation: EVENT_HELP.event,
+        insertText: 'event ${1:x} ${2|falls below,rises above,crosses|} ${3:threshold} then ${4:target} = ${5:on}',
+        insertTextRules: monaco.languages.CompletionItemInsertTextRule.InsertAsSnippet,
+      })
       for (const b of BUILTINS.slice(1)) suggestions.push({ label: b, kind: K.Constant, insertText: b, range, sortText: `1${b}` })
       return { suggestions }
     },

@@ -45,3 +45,21 @@ describe('completing part handles', () => {
     expect(partHandleItems(entries, '')).toHaveLength(2)
   })
 })
+
+describe('editor words for events and modes', () => {
+  it('knows every keyword of the sheet language, the event words and the mode positions', async () => {
+    const { KEYWORDS, EVENT_WORDS } = await import('../../shared/sheet/parser')
+    const { SHEET_KEYWORDS, EVENT_WORDS: EDITOR_EVENT_WORDS, MODE_POSITIONS, EVENT_HELP } = await import('../../src/composables/sheetLanguage')
+    expect([...SHEET_KEYWORDS].sort()).toEqual([...KEYWORDS].sort())
+    for (const w of EVENT_WORDS) expect(EDITOR_EVENT_WORDS as readonly string[]).toContain(w)
+    expect([...MODE_POSITIONS]).toEqual(['off', 'on', 'closed', 'open'])
+    for (const w of ['event', 'mode', 'falls', 'rises', 'crosses', 'then']) expect(EVENT_HELP[w]).toBeTruthy()
+  })
+  it('a mode hovers with its starting position', () => {
+    const text = readFileSync(join(MODELS, 'kiln-thermostat.sheet'), 'utf8')
+    const r = checkModel(text)
+    const burner = scanSymbols(text, { ok: r.ok, diagnostics: r.diagnostics, summary: r.summary }).find((s) => s.name === 'burner')!
+    expect(burner.kind).toBe('mode')
+    expect(describeSymbol(burner)).toMatch(/\*\*burner\*\* — mode \(switch position, set by events\)[\s\S]*burner relay[\s\S]*starts at off\/closed \(0\)/)
+  })
+})

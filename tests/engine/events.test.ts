@@ -188,6 +188,47 @@ output power = heater * P_h [W]
   })
 })
 
+describe('a threshold that is a parameter, with a measured input in the condition', () => {
+  const SHEET = `time [min]
+param UA    = 50 [W/K] in [1, 1000]
+param T_lo  = 18 [degC] in [10, 20]
+const C     = 2e5 [J/K]
+const P_h   = 2000 [W]
+const T_amb = 5 [degC]
+const T_hi  = 22 [degC]
+input T_set = 0 [K] linear "set-point offset"
+state T = 20 [degC]
+mode  heater = off
+T' = (heater * P_h - UA * (T - T_amb)) / C
+event T falls below T_lo + T_set then heater = on
+event T rises above T_hi then heater = off
+output temp = T [degC]
+`
+  it('event-time and output sensitivities to the threshold (h_θ) and through the input slope (h_u·u\') match central differences', () => {
+    const m = compileModel(SHEET)
+    const tOut = Float64Array.of(0, 20, 40, 80, 100) // away from the switching times (9.1, 19.5, 35.6, 45.4, 60.3, …)
+    const inputs = [{ t: Float64Array.of(0, 100), v: Float64Array.of(0, 1) }]
+    const r = simulate(m, { tOut, inputs, rtol: 1e-10, atol: 1e-10, sensitivities: { params: [0, 1], initialStates: [0] } })
+    const p0 = Float64Array.from(m.params.map((q) => q.value))
+    expect(r.events!.length).toBe(8)
+    for (const j of [0, 1]) {
+      const d = 1e-4 * p0[j]
+      const pp = Float64Array.from(p0); pp[j] += d
+      const pm = Float64Array.from(p0); pm[j] -= d
+      const a = simulate(m, { tOut, inputs, p: pp, rtol: 1e-12, atol: 1e-12 })
+      const b = simulate(m, { tOut, inputs, p: pm, rtol: 1e-12, atol: 1e-12 })
+      r.events!.forEach((e, k) => {
+        const fd = (a.events![k].t - b.events![k].t) / (2 * d)
+        expect(Math.abs(e.dt![j] - fd)).toBeLessThan(2e-5 * Math.max(1, Math.abs(fd)))
+      })
+      for (let k = 0; k < tOut.length; k++) {
+        const fd = (a.y[k] - b.y[k]) / (2 * d)
+        expect(Math.abs(r.dy![k * 3 + j] - fd)).toBeLessThan(1e-4 * Math.max(1, Math.abs(fd)))
+      }
+    }
+  })
+})
+
 describe('chattering and hysteresis', () => {
   const tank = (lo: string, hi: string) => `model "Sump with a float-switch pump (test)"
 time [s]

@@ -113,11 +113,13 @@ output globalThis_level = fs_require [m]`)
     const allowed = new Set(['use', 'strict', 'const', 'let', 'function', 'return', 'if', 'else', 'while', 'for', 'Math', 'length',
       't', 'x', 'p', 'u', 'out', 'ts', 'SPT', 'TX', 'TY', 'X', 'Y', 'n', 'v', 'lo', 'hi', 'k', 'lkv', 'lkd',
       'rhs', 'outputs', 'outputsFn', 'dfdx', 'dfdp', 'dfdu', 'dfdt', 'dgdx', 'dgdp', 'dgdu', 'd2f',
+      // modes (M) and the event functions: conditions ev…, resets r<k>…
+      'M', 'events', 'h', 'dhdx', 'dhdp', 'dhdu', 'dhdt', 'resets', 'dx', 'dp', 'du', 'dt', 'ev', 'evx', 'evp', 'evu', 'evt',
       'sin', 'cos', 'tan', 'asin', 'acos', 'atan', 'atan2', 'sinh', 'cosh', 'tanh', 'exp', 'log', 'log10', 'sqrt', 'abs', 'sign', 'min', 'max', 'floor', 'ceil', 'pow', 'hypot'])
     for (const text of [KITCHEN_SINK, ...templates().map((t) => t.text)]) {
       const src = compileModel(text).source
       const ids = new Set(src.replace(/(?<![A-Za-z_$0-9])\d+(\.\d+)?(e[+-]?\d+)?/g, ' ').match(/[A-Za-z_$][A-Za-z0-9_$]*/g))
-      for (const id of ids) expect(allowed.has(id) || /^[LDXY]\d+$/.test(id), id).toBe(true)
+      for (const id of ids) expect(allowed.has(id) || /^[LDXY]\d+$/.test(id) || /^r\d+[xput]?$/.test(id), id).toBe(true)
     }
   })
 

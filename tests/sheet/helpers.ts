@@ -95,6 +95,8 @@ export function mathjsReference(m: ParsedModel, pt: Point): { f: number[]; g: nu
   m.params.forEach((s, i) => (scope[s.name] = pt.p[i]))
   m.inputs.forEach((s, i) => (scope[s.name] = pt.u[i]))
   m.consts.forEach((s) => (scope[s.name] = s.value))
+  // modes read their current position: the initial one outside a simulation
+  m.modes.forEach((s) => (scope[s.name] = s.initial))
   m.lookups.forEach((l) => (scope[l.name] = (v: number) => interp(l.xs, l.ys, v)))
   scope.t = pt.t * m.secondsPerTimeUnit
   scope.delay = (uv: number, tauv: number) => {
