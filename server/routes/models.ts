@@ -64,6 +64,12 @@ export function modelRoutes() {
     res.json({ deleted: true, id })
   })
 
+  router.delete('/:id/versions/:n', requireCapability('administer'), async (req, res) => {
+    const id = intParam(req.params, 'id')
+    const n = intParam(req.params, 'n')
+    await library.deleteVersion(ctx(req).db, actor(req), id, n)
+    res.json({ deleted: true, id, version: n })
+  })
   router.get('/:id/versions/latest', requireCapability('read'), async (req, res) => {
     res.json(await library.getVersion(ctx(req).db, actor(req), intParam(req.params, 'id'), 'latest'))
   })

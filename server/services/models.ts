@@ -461,6 +461,36 @@ export async function diffVersions(db: Db, actor: Actor, modelId: number, q: Dif
 }
 
 // ── delete ──────────────────────────────────────────────────────────────────────────────────────
+/**
+ * Delete one version. Refused, with what depends on it named, when another model's version uses it
+ * as a part, a fit run used it, a binding is pinned to it, a fork was taken from it, or it is the
+ * model's only version (delete the model instead).
+ */
+export async function deleteVersion(db: Db, actor: Actor, modelId: number, number: number): Promise<void> {
+  if (!can.administer(actor.role)) throw forbidden(`Your role (${actor.role}) does not allow this: it needs the admin role.`)
+  await db.transaction(async (tx) => {
+    const m = await getModelRow(tx, actor.workspaceId, modelId, true)
+    const row = await versionRow(tx, m.id, number)
+    const users = (await usersOf(tx, m.id)).filter((u) => u.partVersion === number && u.modelId !== m.id)
+    if (users.length) {
+      throw conflict(`Version ${number} of "${m.title}" cannot be deleted: it is used as a part by ${users.map((u) => `"${u.title}" version ${u.version}`).join(', ')}. Update or delete those versions first.`,
+        { usedIn: users.map((u) => ({ model: { id: u.modelId, slug: u.slug, title: u.title }, version: u.version, partVersion: u.partVersion })) })
+    }
+    const [r] = await tx.select({ n: sql<number>`count(*)::int` }).from(runs).where(and(eq(runs.modelId, m.id), eq(runs.modelVersion, number)))
+    if (r.n) throw conflict(`Version ${number} of "${m.title}" cannot be deleted: ${r.n} fit run${r.n === 1 ? '' : 's'} used it. Delete those runs first.`, { runs: r.n })
+    const pinned = await tx.select({ name: bindings.name, project: projects.name }).from(bindings).innerJoin(projects, eq(projects.id, bindings.projectId))
+      .where(and(eq(bindings.modelId, m.id), eq(bindings.modelVersion, number)))
+    if (pinned.length) throw conflict(`Version ${number} of "${m.title}" cannot be deleted: binding${pinned.length === 1 ? '' : 's'} ${pinned.map((b) => `'${b.name}' (project '${b.project}')`).join(', ')} pin${pinned.length === 1 ? 's' : ''} it. Edit or delete ${pinned.length === 1 ? 'that binding' : 'those bindings'} first.`)
+    const forks = await tx.select({ title: models.title }).from(models).where(and(eq(models.forkOfModelId, m.id), eq(models.forkOfVersion, number)))
+    if (forks.length) throw conflict(`Version ${number} of "${m.title}" cannot be deleted: ${forks.map((f) => `"${f.title}"`).join(', ')} ${forks.length === 1 ? 'was' : 'were'} forked from it.`)
+    if ((await tx.select({ id: modelVersions.id }).from(modelVersions).where(eq(modelVersions.modelId, m.id))).length === 1) {
+      throw conflict(`Version ${number} is the only version of "${m.title}": delete the model instead.`)
+    }
+    await tx.delete(modelVersions).where(eq(modelVersions.id, row.id))
+  })
+  await audit(db, { workspaceId: actor.workspaceId, actorId: actor.userId, action: 'model.version-deleted', target: `model:${modelId}`, details: { version: number }, ip: actor.ip })
+}
+
 export async function deleteModel(db: Db, actor: Actor, modelId: number): Promise<void> {
   if (!can.administer(actor.role)) throw forbidden(`Your role (${actor.role}) does not allow this: it needs the admin role.`)
   const gone = await db.transaction(async (tx) => {

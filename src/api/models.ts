@@ -78,6 +78,11 @@ export function diffModel(ws: string, id: number, q: { from: number | 'latest'; 
   return api.get(`${base(ws)}/${id}/diff`, { query: q, schema: diffReply })
 }
 
+/** 409 names what depends on the version (parts users, runs, bindings, forks). */
+export function deleteVersion(ws: string, id: number, n: number): Promise<void> {
+  return api.delete(`${base(ws)}/${id}/versions/${n}`)
+}
+
 export function deleteModel(ws: string, id: number): Promise<void> {
   return api.delete(`${base(ws)}/${id}`)
 }

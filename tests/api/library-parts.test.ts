@@ -1,7 +1,7 @@
 /**
  * Parts in the workspace library: a version that uses another model as a part is checked against
  * the library at the pinned version, records the exact part versions it uses (lineage), the part's
- * page lists its users, and the part cannot be deleted while used.
+ * page lists its users, and neither the part nor a version of it used as a part can be deleted.
  */
 import { readFileSync } from 'node:fs'
 import { join } from 'node:path'
@@ -52,8 +52,24 @@ describe('parts from the workspace library', () => {
     // nothing was lost
     expect((await modeler.get(`${base}/${part.body.id}`)).status).toBe(200)
 
+    // a version used as a part is refused with its users named; an unused one goes; the last one stays
+    expect((await modeler.post(`${base}/${part.body.id}/versions`).set(CSRF).send({ text: tank.replace('param  A    = 0.8', 'param  A    = 0.9'), note: 'wider', baseVersion: 1 })).status).toBe(201)
+    const delV1 = await admin.delete(`${base}/${part.body.id}/versions/1`).set(CSRF)
+    expect(delV1.status).toBe(409)
+    expect(delV1.body.error.message).toBe('Version 1 of "Part tank" cannot be deleted: it is used as a part by "Cascade" version 1. Update or delete those versions first.')
+    expect(delV1.body.error.details.usedIn).toEqual([{ model: { id: host.body.id, slug: host.body.slug, title: 'Cascade' }, version: 1, partVersion: 1 }])
+    expect((await modeler.delete(`${base}/${part.body.id}/versions/2`).set(CSRF)).status).toBe(403)
+    const delV2 = await admin.delete(`${base}/${part.body.id}/versions/2`).set(CSRF)
+    expect(delV2.status).toBe(200)
+    expect(delV2.body).toEqual({ deleted: true, id: part.body.id, version: 2 })
+    expect((await modeler.get(`${base}/${part.body.id}`)).body.versions.map((v: { number: number }) => v.number)).toEqual([1])
+    expect((await admin.delete(`${base}/${part.body.id}/versions/9`).set(CSRF)).status).toBe(404)
+
     // once the user is gone, the part may go
     expect((await admin.delete(`${base}/${host.body.id}`).set(CSRF)).status).toBe(200)
+    const only = await admin.delete(`${base}/${part.body.id}/versions/1`).set(CSRF)
+    expect(only.status).toBe(409)
+    expect(only.body.error.message).toBe('Version 1 is the only version of "Part tank": delete the model instead.')
     expect((await admin.delete(`${base}/${part.body.id}`).set(CSRF)).status).toBe(200)
   })
 })

@@ -65,6 +65,7 @@ const MATRIX: Record<string, Access> = {
   'POST /api/workspaces/:ws/models/:id/part-updates': 'write',
   'GET /api/workspaces/:ws/parts': 'read',
   'GET /api/workspaces/:ws/reviews': 'read',
+  'DELETE /api/workspaces/:ws/models/:id/versions/:n': 'administer',
   'POST /api/workspaces/:ws/models/:id/versions/:n/review-request': 'write',
   'POST /api/workspaces/:ws/models/:id/versions/:n/request-changes': 'approve',
   'POST /api/workspaces/:ws/parts/texts': 'read',

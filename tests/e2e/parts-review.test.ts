@@ -148,6 +148,7 @@ describe('browser: parts, review and bindings', () => {
   })
 
   it('edits and deletes bindings, picks the version in the fit form, and runs again from a filled-in form', { timeout: 300_000 }, async () => {
+    modeler ??= await signedInPage(demo.modeler)
     const lag = (tau: number) => `model "Browser lag"\ntime [s]\ninput u = 0 [1]\nparam tau = ${tau} [s] in [1, 300]\nstate x = 0 [1]\nx' = (u - x) / tau\noutput y = x [1] sigma 0.01\n`
     const m = await call(modeler.request, 'post', `${WS}/models`, { title: 'Browser lag', text: lag(30) })
     await call(modeler.request, 'post', `${WS}/models/${m.id}/versions`, { text: lag(25), note: 'start nearer', baseVersion: 1 })
@@ -178,8 +179,8 @@ describe('browser: parts, review and bindings', () => {
     // the worker threads start with the first fit: allow the shared machine its time
     await expect.poll(async () => (await call(modeler.request, 'get', `${WS}/runs/${run.id}`)).status, { timeout: 180_000, interval: 500 }).toBe('succeeded')
     await modeler.goto(`${rig.baseUrl}/w/tinmoor/runs/${run.id}`)
-    await modeler.getByTestId('run-again').click()
-    await modeler.waitForURL(new RegExp(`/projects/${project.id}\\?.*again=${run.id}`))
+    await modeler.getByTestId('run-again').click({ timeout: 60_000 })
+    await modeler.waitForURL(new RegExp(`/projects/${project.id}\\?.*again=${run.id}`), { timeout: 60_000 })
     await poll(() => modeler.getByTestId('run-again-note').textContent()).toMatch(new RegExp(`Filled in from run #${run.id} \\(lag first\\).*same seed \\(7\\)`, 's'))
     expect(await modeler.getByLabel('Run name').inputValue()).toBe('lag first (again)')
     // the version picker keeps the run's version 1 and offers version 2
@@ -188,7 +189,7 @@ describe('browser: parts, review and bindings', () => {
     await modeler.locator('.el-select-dropdown:visible .el-select-dropdown__item').filter({ hasText: 'v2' }).click()
     await rig.screenshot(modeler, 'run-again-form')
     await modeler.getByTestId('start-fit').click()
-    await modeler.waitForURL(/\/runs\/\d+$/)
+    await modeler.waitForURL(/\/runs\/\d+$/, { timeout: 60_000 })
     const again = await call(modeler.request, 'get', `${WS}/runs/${Number(/\/runs\/(\d+)$/.exec(modeler.url())![1])}`)
     expect(again.modelVersion).toBe(2)
     expect(again.settings).toMatchObject({ rerunOf: run.id, seed: 7, bindingId: keep.id, name: 'lag first (again)' })
