@@ -10,7 +10,7 @@ import { notifyEnvOf, notifyForked } from '../services/notifications'
 import { exportVersion, linearizeVersion } from '../services/handover'
 import { exportBody, handoverBody } from '../../shared/api/handover'
 import {
-  createModelBody, diffQuery, forkBody, listModelsQuery, publishBody, saveDraftBody, setMaintainersBody, updateModelBody,
+  createModelBody, diffQuery, forkBody, listModelsQuery, publishBody, saveDraftBody, setMaintainersBody, updateModelBody, type DeleteModelReply,
 } from '../../shared/api/models'
 
 const actor = (req: Request): library.Actor => ({ userId: req.auth!.userId, workspaceId: req.workspace!.id, role: req.workspace!.role, ip: req.ip })
@@ -51,7 +51,8 @@ export function modelRoutes() {
   router.delete('/:id', requireCapability('administer'), async (req, res) => {
     const id = intParam(req.params, 'id')
     await library.deleteModel(ctx(req).db, actor(req), id)
-    res.json({ deleted: true, id })
+    const reply: DeleteModelReply = { deleted: true, id }
+    res.json(reply)
   })
 
   router.get('/:id/versions/latest', requireCapability('read'), async (req, res) => {

@@ -76,7 +76,6 @@ export const emptySheetSummary = (): SheetSummary => ({
 })
 
 export const checkBody = z.object({ text: sheetText })
-export type CheckBody = z.infer<typeof checkBody>
 export const checkReply = z.object({
   ok: z.boolean(),
   diagnostics: z.array(diagnosticDto),
@@ -111,7 +110,6 @@ export type VersionDto = z.infer<typeof versionDto>
 
 // ── models ──────────────────────────────────────────────────────────────────────────────────────
 export const modelRefDto = z.object({ id: z.number(), slug: z.string(), title: z.string() })
-export type ModelRefDto = z.infer<typeof modelRefDto>
 
 export const modelListItemDto = z.object({
   id: z.number(),
@@ -174,7 +172,6 @@ export const modelPermissions = z.object({
   edit: z.boolean(),
   remove: z.boolean(),
 })
-export type ModelPermissions = z.infer<typeof modelPermissions>
 
 export const modelDetailDto = modelListItemDto.extend({
   createdAt: z.string(),
@@ -233,7 +230,6 @@ export type PublishBody = z.infer<typeof publishBody>
 export const publishConflictDetails = z.object({
   latest: versionDto,
 })
-export type PublishConflictDetails = z.infer<typeof publishConflictDetails>
 
 export const forkBody = z.object({
   /** the origin's version to fork (default: the latest) */
@@ -285,3 +281,4 @@ export const diffReply = z.object({
 export type DiffReply = z.infer<typeof diffReply>
 
 export const deleteModelReply = z.object({ deleted: z.literal(true), id: z.number() })
+export type DeleteModelReply = z.infer<typeof deleteModelReply>

@@ -269,7 +269,6 @@ export function generateSource(m: ParsedModel): string {
 
 /** Build the functions from our own generated source (never from user text). */
 export function instantiate(source: string, m: ParsedModel): GeneratedFunctions {
-  // eslint-disable-next-line @typescript-eslint/no-implied-eval
   const factory = new Function('TX', 'TY', source) as (tx: Float64Array[], ty: Float64Array[]) => GeneratedFunctions
   return factory(m.lookups.map((l) => l.xs), m.lookups.map((l) => l.ys))
 }

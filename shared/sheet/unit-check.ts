@@ -77,10 +77,6 @@ function where(ctx: Ctx, s: Cols | undefined, alt?: Cols) {
   return { line: ctx.line, column: c[0], endColumn: c[1] }
 }
 
-function show(u: U): string {
-  return u.k === 'dims' ? formatDims(u.d) : u.k === 'any' ? 'a number' : 'unknown'
-}
-
 function declaredUnitOfBare(e: Expr, ctx: Ctx): UnitInfo | null {
   const m = ctx.m
   switch (e.k) {

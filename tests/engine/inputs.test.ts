@@ -10,9 +10,9 @@ const lag = makeModel({
   title: 'lag',
   states: [{ name: 'x', initial: 0 }],
   inputs: [{ name: 'u', value: 0, interp: 'hold' }],
-  rhs: (t, x, p, u, o) => { o[0] = (u[0] - x[0]) / tau },
-  dfdx: (t, x, p, u, o) => { o[0] = -1 / tau },
-  dfdu: (t, x, p, u, o) => { o[0] = 1 / tau },
+  rhs: (_t, x, _p, u, o) => { o[0] = (u[0] - x[0]) / tau },
+  dfdx: (_t, _x, _p, _u, o) => { o[0] = -1 / tau },
+  dfdu: (_t, _x, _p, _u, o) => { o[0] = 1 / tau },
 })
 
 describe('input traces', () => {
@@ -64,9 +64,9 @@ describe('input traces', () => {
       title: 'integrator',
       states: [{ name: 'x', initial: 0 }],
       inputs: [{ name: 'u', value: 0, interp: 'linear' }],
-      rhs: (t, x, p, u, o) => { o[0] = u[0] },
-      dfdx: (t, x, p, u, o) => { o[0] = 0 },
-      dfdu: (t, x, p, u, o) => { o[0] = 1 },
+      rhs: (_t, _x, _p, u, o) => { o[0] = u[0] },
+      dfdx: (_t, _x, _p, _u, o) => { o[0] = 0 },
+      dfdu: (_t, _x, _p, _u, o) => { o[0] = 1 },
     })
     const ts = Float64Array.of(0, 0.3, 0.35, 1.2, 2.9, 3.0, 4.4)
     const vs = Float64Array.of(1, -2, 5, 0.5, 3, -1, 2)
@@ -95,7 +95,7 @@ describe('input traces', () => {
       title: 'lag-const',
       states: [{ name: 'x', initial: 0 }],
       inputs: [{ name: 'u', value: 2.5 }],
-      rhs: (t, x, p, u, o) => { o[0] = (u[0] - x[0]) / tau },
+      rhs: (_t, x, _p, u, o) => { o[0] = (u[0] - x[0]) / tau },
     })
     const r = simulate(lagK, { tOut: Float64Array.of(3) })
     expect(Math.abs(r.x[0] - 2.5 * (1 - Math.exp(-3 / tau)))).toBeLessThan(1e-5)
