@@ -145,9 +145,11 @@ describe('closed-form solutions', () => {
   })
 
   it('Lotka–Volterra keeps its first integral within 1e-8 relative over ten periods (rk45, odex at 1e-11)', () => {
-    // x' = αx − βxy, y' = δxy − γy; V = δx − γ ln x + βy − α ln y is constant along solutions
-    // (Hairer, Nørsett & Wanner, Solving ODEs I, Sec. I.16 / Hairer, Lubich & Wanner, Geometric
-    // Numerical Integration, Sec. I.1.1), α = 2/3, β = 4/3, γ = δ = 1, start (1.8, 1.8).
+    // x' = αx − βxy, y' = δxy − γy; V = δx − γ ln x + βy − α ln y is constant along solutions (the
+    // invariant is shown, for u' = u(v − 2), v' = v(1 − u), in Hairer, Lubich & Wanner, Geometric
+    // Numerical Integration, 2nd ed. 2006, Sec. I.1.1; it follows for any α, β, γ, δ > 0 by
+    // differentiating V). The set α = 2/3, β = 4/3, γ = δ = 1 is not that book's: it is the one of the
+    // Wikipedia article "Lotka–Volterra equations" (from memory); the start (1.8, 1.8) is ours.
     const [al, be, ga, de] = [2 / 3, 4 / 3, 1, 1]
     const lv = makeModel({
       title: 'lotka-volterra',
