@@ -30,6 +30,9 @@ export default tseslint.config(
       // from their source, even past double precision: the literal is the citation
       'no-loss-of-precision': 'off',
       'vue/multi-word-component-names': 'error',
+      // one test-id attribute: data-testid (what Playwright's getByTestId reads)
+      'vue/no-restricted-static-attribute': ['error', { key: 'data-test', message: 'Use data-testid, the one test-id attribute.' }],
+      'vue/no-restricted-v-bind': ['error', { argument: 'data-test', message: 'Use data-testid, the one test-id attribute.' }],
       // presentation rules of the Vue recommended set: the code base keeps its own layout
       'vue/max-attributes-per-line': 'off',
       'vue/singleline-html-element-content-newline': 'off',
