@@ -48,4 +48,10 @@ export default tseslint.config(
       'vue/mustache-interpolation-spacing': 'off',
     },
   },
+  {
+    // CommonJS boot files (worker-thread loaders) load with require()
+    files: ['**/*.cjs'],
+    languageOptions: { sourceType: 'commonjs' },
+    rules: { '@typescript-eslint/no-require-imports': 'off' },
+  },
 )

@@ -11,8 +11,14 @@
  *     predator–prey record from the sheet start 30 % off, and the open-loop unstable plant's closed-loop
  *     record; cost, time and simulations (a multiple-shooting simulation is one segment's).
  *     `npm run bench:fit -- shooting` prints this part alone.
+ *  5. The segments of a multiple-shooting fit over threads on a long record (predator–prey, 2 000
+ *     samples × 2 outputs, 40 segments): 1 thread against 2 (the fit's thread and one helper thread,
+ *     server/jobs/segment-threads.ts, warmed up first); one evaluation with its Jacobian and the whole
+ *     fit (whose single-shooting polish runs in one thread either way); the speed-up and whether the
+ *     results are identical. `npm run bench:fit -- threads` prints this part alone.
  */
 import { spawnSync } from 'node:child_process'
+import { availableParallelism, loadavg } from 'node:os'
 import { compileModel } from '../shared/sheet'
 import { simulate } from '../shared/engine/simulate'
 import { runFit, type FitOptions, type ProblemSpec } from '../shared/engine/fit'
@@ -20,6 +26,58 @@ import { BOXBOD, MISRA1A, nistSheet, type NistProblem } from '../fixtures/fit/ni
 import { gaussian } from '../fixtures/fit/synthetic'
 import { parseCsv } from '../shared/data/csv'
 import { LV_SHEET, lotkaVolterraSpec, UNSTABLE_SHEET, unstableSpec } from '../fixtures/fit/shooting'
+import { SegmentHelpers } from '../server/jobs/segment-threads'
+import { MultipleShootingProblem } from '../shared/engine/fit/multiple-shooting/problem'
+import { makeProblem } from '../shared/engine/fit/driver'
+
+async function segmentThreads(): Promise<string> {
+  const model = compileModel(LV_SHEET)
+  const spec = lotkaVolterraSpec(5, 2000, 0.05)
+  const segments = { segments: 40 }
+  // a tight integration tolerance: the segments' simulations, the part spread over threads, dominate
+  const options = { rtol: 1e-10 }
+  const setup = { sheet: LV_SHEET, spec, options, segments }
+  const helpers = new SegmentHelpers()
+  await helpers.warmUp(1)
+  const rows: string[][] = [['threads', 'one evaluation + Jacobian, ms (best of 10)', 'whole fit, ms (best of 3)', 'SSE', 'segment simulations', 'blocks done by the helper']]
+  const base: number[] = []
+  const sse: number[] = []
+  for (const threads of [1, 2]) {
+    // one evaluation with the Jacobian, at the sheet start with nodes from the data
+    const ms = new MultipleShootingProblem(makeProblem(model, spec, simulate, options), segments, spec.bounds)
+    const w = ms.initialNodes(Array.from(ms.base.start))
+    const ev = helpers.factory(setup, threads)({ segments: ms.segmentCount, shape: { n: ms.n, m: ms.m, segments: ms.segmentCount }, deadline: undefined })
+    ms.evaluator = ev
+    while (ev && ev.starting > 0) await new Promise((r) => setTimeout(r, 20))
+    const r = new Float64Array(ms.m)
+    const jac = new Float64Array(ms.m * ms.n)
+    const evalTimes: number[] = []
+    for (let k = 0; k < 10; k++) {
+      const t = performance.now()
+      await ms.evaluateAsync(w, r, jac)
+      evalTimes.push(performance.now() - t)
+    }
+    await ev?.close()
+    const served0 = helpers.served
+    const fitTimes: number[] = []
+    let res = await runFit(model, spec, { ...options, segments, segmentEvaluator: helpers.factory(setup, threads) })
+    fitTimes.push(res.elapsedMs)
+    for (let k = 1; k < 3; k++) {
+      res = await runFit(model, spec, { ...options, segments, segmentEvaluator: helpers.factory(setup, threads) })
+      fitTimes.push(res.elapsedMs)
+    }
+    const e = Math.min(...evalTimes)
+    const f = Math.min(...fitTimes)
+    base.push(e, f)
+    sse.push(res.sse ?? NaN)
+    const up = threads === 1 ? '' : ` (speed-up ${g(base[0] / e, 3)}×)`
+    const upFit = threads === 1 ? '' : ` (speed-up ${g(base[1] / f, 3)}×)`
+    rows.push([String(threads), `${g(e)}${up}`, `${g(f)}${upFit}`, g(res.sse ?? NaN, 12), String(res.multipleShooting?.simulations ?? 0), String(helpers.served - served0)])
+  }
+  await helpers.close()
+  rows.push(['', '', '', sse[0] === sse[1] ? 'identical' : `DIFFER by ${g(Math.abs(sse[0] - sse[1]), 3)}`, '', ''])
+  return `${pad(rows)}\nload average while measuring: ${loadavg().map((x) => x.toFixed(1)).join(' ')} on ${availableParallelism()} cores (above the core count the threads compete with other work and the speed-up shrinks); the whole fit also holds the optimiser's linear algebra and the single-shooting polish, which run in one thread`
+}
 
 async function shooting(): Promise<string[][]> {
   const rows: string[][] = [['case', 'method', 'SSE', 'ms', 'iterations', 'simulations', 'segment sims', 'continuity defect']]
@@ -197,6 +255,11 @@ async function main(): Promise<void> {
     console.log(pad(await shooting()))
     return
   }
+  if (process.argv.includes('threads')) {
+    console.log('segments of one multiple-shooting fit over threads (`npm run bench:fit -- threads`; predator–prey, 2 000 samples × 2, 40 segments):')
+    console.log(await segmentThreads())
+    return
+  }
   console.log('Pewter fit benchmark (prints figures; not a test). Machine: 2 shared cores; NIST times are the best of 15 (Pewter) and 5 (scipy) runs, medians in brackets.\n')
   const ours = await nistPewter()
   const theirs = nistScipy()
@@ -216,6 +279,8 @@ async function main(): Promise<void> {
   await scaling()
   console.log('\nsingle against multiple shooting from the sheet start (best of 3 runs; simulations count whole-record and segment simulations alike, segment sims are those of the shooting phase before the single-shooting polish):')
   console.log(pad(await shooting()))
+  console.log('\nsegments of one multiple-shooting fit over threads (predator–prey, 2 000 samples × 2, 40 segments; 2 cores shared with other work):')
+  console.log(await segmentThreads())
 }
 
 main().catch((e) => {

@@ -9,8 +9,10 @@
  * Also the "sensitivities" row: Robertson with ∂/∂(k1, k2, k3) against LSODA without them.
  */
 import { spawnSync } from 'node:child_process'
+import { readFileSync } from 'node:fs'
 import { simulate, type SolverName, type SimulationRequest } from '../shared/engine'
-import type { CompiledModel, VecFn } from '../shared/sheet/compiled'
+import { compileModel } from '../shared/sheet'
+import type { CompiledModel } from '../shared/sheet/compiled'
 
 interface StiffProblem {
   name: string
@@ -21,34 +23,11 @@ interface StiffProblem {
   py: string
 }
 
-function model(name: string, x0: number[], p: number[], rhs: VecFn, dfdx: VecFn, dfdp: VecFn): CompiledModel {
-  const nx = x0.length
-  const u = { unit: '', scale: 1, offset: 0 }
-  const zero: VecFn = (_t, _x, _pp, _uu, o) => { o.fill(0) }
-  return {
-    hash: name, title: name, kind: 'continuous', timeUnit: 's', secondsPerTimeUnit: 1, sampleTime: null,
-    states: x0.map((v, i) => ({ ...u, name: `x${i}`, description: '', initial: v, estimate: false, steady: false, lower: null, upper: null, line: 0 })),
-    params: p.map((v, i) => ({ ...u, name: `p${i}`, description: '', value: v, lower: null, upper: null, fixed: false, line: 0 })),
-    inputs: [], outputs: x0.map((_, i) => ({ ...u, name: `y${i}`, description: '', sigma: null, line: 0 })), delays: [],
-    nx, np: p.length, nu: 0, nd: 0, ny: nx, rhs,
-    outputsFn: (_t, x, _pp, _uu, o) => { for (let i = 0; i < nx; i++) o[i] = x[i] },
-    dfdx, dfdp, dfdu: zero, dfdt: zero,
-    dgdx: (_t, _x, _pp, _uu, o) => { o.fill(0); for (let i = 0; i < nx; i++) o[i * nx + i] = 1 },
-    dgdp: zero, dgdu: zero, source: '',
-  }
-}
-
-// Robertson (Hairer & Wanner, Solving ODEs II, Sec. IV.1, eq. (1.4)) to t = 4e10
-const robertson = model('robertson', [1, 0, 0], [0.04, 3e7, 1e4],
-  (_t, y, p, _u, o) => { o[0] = -p[0] * y[0] + p[2] * y[1] * y[2]; o[1] = p[0] * y[0] - p[2] * y[1] * y[2] - p[1] * y[1] * y[1]; o[2] = p[1] * y[1] * y[1] },
-  (_t, y, p, _u, o) => { o[0] = -p[0]; o[1] = p[2] * y[2]; o[2] = p[2] * y[1]; o[3] = p[0]; o[4] = -p[2] * y[2] - 2 * p[1] * y[1]; o[5] = -p[2] * y[1]; o[6] = 0; o[7] = 2 * p[1] * y[1]; o[8] = 0 },
-  (_t, y, _p, _u, o) => { o[0] = -y[0]; o[1] = 0; o[2] = y[1] * y[2]; o[3] = y[0]; o[4] = -y[1] * y[1]; o[5] = -y[1] * y[2]; o[6] = 0; o[7] = y[1] * y[1]; o[8] = 0 })
-// VDPOL, ε = 1e-6 (Hairer & Wanner II, Sec. IV.1, eq. (1.5'))
-const eps = 1e-6
-const vdpol = model('vdpol', [2, 0], [],
-  (_t, y, _p, _u, o) => { o[0] = y[1]; o[1] = ((1 - y[0] * y[0]) * y[1] - y[0]) / eps },
-  (_t, y, _p, _u, o) => { o[0] = 0; o[1] = 1; o[2] = (-2 * y[0] * y[1] - 1) / eps; o[3] = (1 - y[0] * y[0]) / eps },
-  (_t, _y, _p, _u, o) => { o.fill(0) })
+/** Robertson (Hairer & Wanner, Solving ODEs II, Sec. IV.1, eq. (1.4)) and VDPOL, ε = 1e-6 (eq. (1.5'))
+ * as sheets, so the sheet compiler's exact Jacobians and coupling term are what runs */
+const sheet = (name: string): CompiledModel => compileModel(readFileSync(new URL(`../tests/engine/fixtures/${name}.sheet`, import.meta.url), 'utf8'))
+const robertson = sheet('robertson')
+const vdpol = sheet('vdpol')
 
 const problems: StiffProblem[] = [
   { name: 'Robertson (to 4e10)', model: robertson, tOut: Array.from({ length: 16 }, (_, i) => 4e-5 * 10 ** i), atolFactor: 1e-6,

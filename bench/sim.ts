@@ -25,7 +25,11 @@ interface Problem {
   py: string
 }
 
-function model(name: string, states: number[], params: number[], rhs: VecFn, dfdx: VecFn, dfdp?: VecFn): CompiledModel {
+/**
+ * d2f is the sensitivities' coupling term (shared/sheet/compiled.ts, packed X = [x, s, v, τ],
+ * P = [p, q]), written out by hand; a problem never run with sensitivities has none.
+ */
+function model(name: string, states: number[], params: number[], rhs: VecFn, dfdx: VecFn, dfdp?: VecFn, d2f?: VecFn): CompiledModel {
   const nx = states.length
   const np = params.length
   const u = { unit: '', scale: 1, offset: 0 }
@@ -41,6 +45,8 @@ function model(name: string, states: number[], params: number[], rhs: VecFn, dfd
     dfdx, dfdp: dfdp ?? zero, dfdu: zero, dfdt: zero,
     dgdx: (_t, _x, _p, _uu, o) => { o.fill(0); for (let i = 0; i < nx; i++) o[i * nx + i] = 1 },
     dgdp: zero, dgdu: zero, source: '',
+    d2f: d2f ?? (() => { throw new Error(`${name}: this benchmark problem has no coupling term (it is not run with sensitivities)`) }),
+    modes: [], events: [], nm: 0, ne: 0, modeValues: new Float64Array(0), eventFns: null,
   }
 }
 
@@ -64,7 +70,9 @@ const lv = model('lotka-volterra', [1.8, 1.8], [2 / 3, 4 / 3, 1, 1],
 const osc = model('oscillator', [1, 0], [2.5, 0.15],
   (_t, x, p, _u, o) => { o[0] = x[1]; o[1] = -2 * p[1] * p[0] * x[1] - p[0] * p[0] * x[0] },
   (_t, _x, p, _u, o) => { o[0] = 0; o[1] = 1; o[2] = -p[0] * p[0]; o[3] = -2 * p[1] * p[0] },
-  (_t, x, p, _u, o) => { o[0] = 0; o[1] = 0; o[2] = -2 * p[1] * x[1] - 2 * p[0] * x[0]; o[3] = -2 * p[0] * x[1] })
+  (_t, x, p, _u, o) => { o[0] = 0; o[1] = 0; o[2] = -2 * p[1] * x[1] - 2 * p[0] * x[0]; o[3] = -2 * p[0] * x[1] },
+  // D_v D_w f of f₁ = −2ζω x₁ − ω² x₀ (ω = p₀, ζ = p₁): −2(q₁ω + ζq₀) v₁ − 2ω q₀ v₀
+  (_t, X, P, _u, o) => { o[0] = 0; o[1] = -2 * (P[3] * P[0] + P[1] * P[2]) * X[5] - 2 * P[0] * P[2] * X[4] })
 
 const eps = 1e-6
 const vdp = model('vdpol', [2, 0], [],

@@ -11,14 +11,18 @@ import { parseCsv, CsvError } from '../../shared/data/csv'
 import { experimentFromTable } from '../../shared/data/experiment'
 import { describeOutcome, type FitResult, type EstimateRow } from '../../shared/api/fit'
 import { ArgError, folderLibrary, splitOption } from './args'
+import { segmentHelpers, segmentThreadsOption } from '../jobs/segment-threads'
+import { formatP, residualVerdicts } from '../../shared/api/residual-checks'
 
 const USAGE = `usage: pewter fit <sheet> <data.csv>… [--validate v.csv] [--method lm|nelder-mead] [--starts N]
   [--weighting sheet|equal|normalized|ml] [--set name=value …] [--fix a,b] [--free c,d] [--bounds c=lo:hi]
-  [--local k] [--t0 t] [--rtol r] [--atol a] [--seed n] [--profile name] [--landscape a,b[,n]]
+  [--per-record k] [--t0 t] [--rtol r] [--atol a] [--seed n] [--profile name] [--landscape a,b[,n]]
   [--equation-error compare|start] [--time-budget ms] [--solver auto|rk45|odex|stiff] [--max-iterations n] [--library DIR]
-  [--validation-start sheet|estimate] [--segments N | --segment-length T] [--json]
+  [--validation-start sheet|estimate] [--segments N | --segment-length T] [--threads N] [--json]
   --segments N, --segment-length T: multiple shooting, each record cut into N segments (or segments of
-  about T in the sheet's time unit), then a single-shooting polish`
+  about T in the sheet's time unit), then a single-shooting polish; --threads N: threads evaluating the
+  segments, the fit's own included (default min(segments, cores − 1); 1 = the fit's thread alone)
+  --per-record k: estimate parameter k once per record (data file) instead of once for all (--local is the older name)`
 
 interface Args {
   sheet: string
@@ -35,6 +39,8 @@ interface Args {
   opts: FitOptions
   weighting: ProblemSpec['weighting']
   library: ResolvePart | null
+  /** threads for the segments of multiple shooting; null: the default */
+  threads: number | null
 }
 
 function number(flag: string, v: string): number {
@@ -49,7 +55,7 @@ function list(v: string): string[] {
 
 export function parseArgs(argv: string[]): Args {
   const pos: string[] = []
-  const a: Args = { sheet: '', data: [], validate: [], json: false, set: [], fix: [], free: [], bounds: [], local: [], opts: {}, weighting: undefined, library: null }
+  const a: Args = { sheet: '', data: [], validate: [], json: false, set: [], fix: [], free: [], bounds: [], local: [], opts: {}, weighting: undefined, library: null, threads: null }
   for (let i = 0; i < argv.length; i++) {
     const arg = argv[i]
     if (!arg.startsWith('--')) {
@@ -98,6 +104,7 @@ export function parseArgs(argv: string[]): Args {
       }
       case '--fix': a.fix.push(...list(value())); break
       case '--free': a.free.push(...list(value())); break
+      case '--per-record':
       case '--local': a.local.push(...list(value())); break
       case '--bounds': {
         for (const item of list(value())) {
@@ -151,6 +158,14 @@ export function parseArgs(argv: string[]): Args {
         a.opts.segments = { segmentLength: t }
         break
       }
+      case '--threads': {
+        try {
+          a.threads = segmentThreadsOption(value(), '--threads')
+        } catch (e) {
+          throw new ArgError(e instanceof Error ? e.message : String(e))
+        }
+        break
+      }
       case '--time-budget': a.opts.timeBudgetMs = number(flag, value()); break
       case '--max-iterations': a.opts.maxIterations = number(flag, value()); break
       case '--validation-start': {
@@ -200,8 +215,16 @@ export async function run(argv: string[]): Promise<number> {
     }
     throw e
   }
+  // the part texts the sheet used, for the segment helper threads (they compile the sheet themselves)
+  const parts: Record<string, string> = {}
+  const library = args.library
+  const resolvePart: ResolvePart | null = library && ((h, v) => {
+    const t = library(h, v)
+    if (t !== null) parts[`${h}@${v}`] = t
+    return t
+  })
   try {
-    model = compileModel(texts.get(args.sheet)!, { resolvePart: args.library })
+    model = compileModel(texts.get(args.sheet)!, { resolvePart })
   } catch (e) {
     if (e instanceof SheetError) {
       const errs = e.diagnostics.filter((d) => d.severity === 'error')
@@ -248,6 +271,11 @@ export async function run(argv: string[]): Promise<number> {
     throw e
   }
   let result: FitResult
+  const segments = args.opts.segments
+  if (segments) {
+    const { rtol, atol, solver, maxSteps } = args.opts
+    args.opts.segmentEvaluator = segmentHelpers().factory({ sheet: texts.get(args.sheet)!, parts, spec, options: { rtol, atol, solver, maxSteps }, segments }, args.threads)
+  }
   try {
     result = await runFit(model, spec, args.opts)
   } catch (e) {
@@ -256,6 +284,8 @@ export async function run(argv: string[]): Promise<number> {
       return e.kind === 'argument' ? 2 : 1
     }
     throw e
+  } finally {
+    if (segments) await segmentHelpers().close()
   }
   result.warnings = [...cliWarnings, ...result.warnings]
   if (args.json) process.stdout.write(JSON.stringify(result) + '\n')
@@ -282,7 +312,7 @@ function pad(rows: string[][]): string {
 function estimateTable(rows: EstimateRow[], title: string): string {
   if (rows.length === 0) return ''
   const body = rows.map((p) => [
-    p.experiment === null ? p.name : `${p.name} (exp ${p.experiment + 1})`, g(p.value, 8), p.unit || '-', g(p.stdError, 4),
+    p.experiment === null ? p.name : `${p.name} (per-record, record ${p.experiment + 1})`, g(p.value, 8), p.unit || '-', g(p.stdError, 4),
     `[${g(p.ci95[0])}, ${g(p.ci95[1])}]`, `[${g(p.lower)}, ${g(p.upper)}]`,
     p.atBound ? `at ${p.atBound} bound` : !p.determined ? `not determined by these data${p.profileCi95 ? `; profile [${g(p.profileCi95[0])}, ${g(p.profileCi95[1])}]` : ''}` : p.profileCi95 ? `profile [${g(p.profileCi95[0])}, ${g(p.profileCi95[1])}]` : '',
   ])
@@ -300,10 +330,18 @@ export function formatTable(r: FitResult): string {
   s += estimateTable(r.parameters, 'parameters')
   s += estimateTable(r.initialStates, 'initial states')
   if (r.outputs.length > 0) {
-    s += '\noutputs\n' + pad([['output', 'experiment', 'set', 'N', 'NRMSE', 'RMSE', 'R²', 'Ljung–Box p'], ...r.outputs.map((o) => [
+    s += '\noutputs\n' + pad([['output', 'record', 'set', 'N', 'NRMSE', 'RMSE', 'R²', 'Ljung–Box p'], ...r.outputs.map((o) => [
       o.name, o.experimentName, o.validation ? 'validation' : 'fit', String(o.n), g(o.nrmse, 4), g(o.rmse, 4), g(o.r2, 6),
       o.residuals ? g(o.residuals.ljungBox.pValue, 3) : '—',
     ])])
+  }
+  const checked = r.outputs.filter((o) => o.residuals)
+  if (checked.length > 0) {
+    s += '\nresidual checks (5 % level)\n'
+    for (const o of checked) {
+      s += `  ${o.name} on ${o.experimentName} (${o.validation ? 'validation' : 'fit'})\n`
+      s += pad(residualVerdicts(o.residuals!).map((v) => [`    ${v.passed ? 'pass' : 'FAIL'}`, v.check, `p ${formatP(v.pValue)}`, v.statistic]))
+    }
   }
   if (r.equationError) {
     s += `\nequation-error (OLS) comparison: ${r.equationError.parameters.map((p) => `${p.name} = ${g(p.value)} ± ${g(p.stdError, 3)}`).join(', ')}; output-error SSE there ${g(r.equationError.sse)}\n`

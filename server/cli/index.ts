@@ -10,6 +10,7 @@ import * as fit from './fit'
 import * as submit from './submit'
 import * as linearize from './linearize'
 import * as exportCmd from './export'
+import { isSegmentHelperThread } from '../jobs/segment-helper'
 
 const commands: Record<string, () => Promise<{ run: (args: string[]) => Promise<number> }>> = {
   check: async () => check,
@@ -30,7 +31,8 @@ async function main(argv: string[]): Promise<number> {
   return (await load()).run(rest)
 }
 
-main(process.argv.slice(2)).then(
+// inside the bundle the same file starts the segment helper threads of `fit --threads` (segment-helper.ts)
+if (!isSegmentHelperThread()) main(process.argv.slice(2)).then(
   (code) => { process.exitCode = code },
   (err) => { process.stderr.write(`pewter: ${err instanceof Error ? err.message : String(err)}\n`); process.exitCode = 1 },
 )

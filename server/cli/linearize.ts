@@ -51,7 +51,9 @@ function summary(a: LinearAnalysis): string {
     out.push('DC gains:')
     a.dcGain.forEach((r, i) => r.forEach((v, j) => out.push(`  ${a.outputs[i]} / ${a.inputs[j]}: ${g(v)}${a.dcGainSd?.[i]?.[j] != null ? ` ± ${g(a.dcGainSd[i][j], 3)}` : ''} ${a.units.outputs[i]}/${a.units.inputs[j] || '1'}`)))
   }
-  for (const z of a.zeros) if (z.zeros && z.zeros.length) out.push(`zeros ${z.output}/${z.input}: ${z.zeros.map((c) => `${g(c.re)}${c.im ? ` ${c.im > 0 ? '+' : '-'} ${g(Math.abs(c.im))}j` : ''}`).join(', ')}`)
+  const cx = (c: { re: number; im: number }) => `${g(c.re)}${c.im ? ` ${c.im > 0 ? '+' : '-'} ${g(Math.abs(c.im))}j` : ''}`
+  if (a.systemZeros) out.push(`zeros of the whole system (1/${tu}): ${a.systemZeros.zeros.length ? a.systemZeros.zeros.map(cx).join(', ') : 'none'} (normal rank ${a.systemZeros.normalRank})`)
+  for (const z of a.zeros) if (z.zeros && z.zeros.length) out.push(`zeros ${z.output}/${z.input}: ${z.zeros.map(cx).join(', ')}`)
   out.push(`controllability rank ${a.controllability.rank} of ${a.controllability.n}, observability rank ${a.observability.rank} of ${a.observability.n} (singular values above ${a.controllability.tolerance} of the largest)`)
   for (const w of a.warnings) out.push(`warning: ${w}`)
   out.push(...a.cautions)

@@ -156,8 +156,21 @@ export const modelVersions = pgTable('model_versions', {
   approvedAt: timestamp('approved_at', { withTimezone: true }),
   /** run whose estimates this version carries, when published from a fit */
   fromRunId: integer('from_run_id'),
+  /** where the review stands for a version not approved: 'requested' | 'changes-requested' | null (not asked) */
+  review: varchar({ length: 24 }),
   createdAt: now(),
-}, (t) => [uniqueIndex('model_versions_model_number_uq').on(t.modelId, t.number)])
+}, (t) => [uniqueIndex('model_versions_model_number_uq').on(t.modelId, t.number), index('model_versions_review_idx').on(t.review)])
+
+/** The review history of versions: requests, approvals and change requests, each with its comment. */
+export const versionReviews = pgTable('version_reviews', {
+  id: serial().primaryKey(),
+  versionId: integer('version_id').notNull().references(() => modelVersions.id, { onDelete: 'cascade' }),
+  actorId: integer('actor_id').references(() => users.id, { onDelete: 'set null' }),
+  /** 'requested' | 'approved' | 'changes-requested' */
+  action: varchar({ length: 24 }).notNull(),
+  comment: text().notNull().default(''),
+  createdAt: now(),
+}, (t) => [index('version_reviews_version_idx').on(t.versionId)])
 
 /** Lineage: the exact part versions a version's sheet uses (directly or inside its parts). */
 export const modelVersionParts = pgTable('model_version_parts', {
@@ -211,6 +224,8 @@ export const bindings = pgTable('bindings', {
   projectId: integer('project_id').notNull().references(() => projects.id, { onDelete: 'cascade' }),
   modelId: integer('model_id').notNull().references(() => models.id),
   modelVersion: integer('model_version').notNull(),
+  /** which version a run of this binding takes: 'pinned' (modelVersion) | 'latest' | 'approved' (the newest approved) */
+  follow: varchar({ length: 16 }).notNull().default('pinned'),
   name: text().notNull(),
   /** { inputs: { sheetInput: column }, outputs: { sheetOutput: column } } */
   mapping: jsonb().notNull(),

@@ -6,7 +6,7 @@
  * tests use a small executor of their own).
  */
 import type { Db } from '../db/client'
-import type { StartOutcome, StartPlan } from '../../shared/engine/fit/driver'
+import type { FitOptions } from '../../shared/engine/fit/driver'
 
 export interface ExecuteOptions {
   /** aborted when the run is cancelled or times out */
@@ -14,7 +14,7 @@ export interface ExecuteOptions {
   /** who executes it (written to the run row by the claim) */
   workerId?: string
   /** runs a multi-start fit's starts over the pool's threads (FitOptions.runStarts) */
-  runStarts?: (plans: StartPlan[]) => Promise<StartOutcome[]>
+  runStarts?: FitOptions['runStarts']
 }
 
 export type RunExecutor = (db: Db, runId: number, opts: ExecuteOptions) => Promise<unknown>

@@ -7,16 +7,22 @@
  * sequential fit: the result does not depend on how the starts were spread.
  *
  * Messages on a MessagePort (thread → parent): { type: 'starts', plans } | { type: 'next' } |
- * { type: 'outcome', outcome, threadId }; (parent → thread): { type: 'plan', plan } |
- * { type: 'outcomes', outcomes } | { abort }.
+ * { type: 'outcome', outcome, threadId } | { type: 'progress', info } (a helper's iterations, passed on
+ * to the run's thread, which writes the live cost curve and estimates); (parent → thread):
+ * { type: 'plan', plan } | { type: 'outcomes', outcomes } | { type: 'progress', info } | { abort }.
  */
 import type { MessagePort } from 'node:worker_threads'
 import type { StartOutcome, StartPlan } from '../../shared/engine/fit/driver'
+import type { ProgressInfo } from '../../shared/engine/fit/lsq'
 
 export type ThreadMessage =
   | { type: 'starts'; plans: StartPlan[]; deadline: number | null }
   | { type: 'next' }
   | { type: 'outcome'; outcome: StartOutcome; threadId: number }
+  | { type: 'progress'; info: ProgressInfo }
+
+/** A helper reports its iterations at most this often (the run's thread throttles its writes again). */
+export const HELPER_PROGRESS_MS = 100
 
 export interface FanOutRecord { plans: number; helpers: number; threadIds: number[] }
 
@@ -58,6 +64,11 @@ export class FanOut {
     this.maybeFinish()
   }
 
+  /** A helper's iteration: handed to the run's thread, which reports every start's progress. */
+  progress(info: ProgressInfo) {
+    if (!this.done) this.runPort.postMessage({ type: 'progress', info })
+  }
+
   /** A helper thread died or ended: a plan it held is recorded as failed. */
   lost(port: MessagePort, reason: string) {
     const plan = this.held.get(port)
@@ -84,6 +95,17 @@ export class FanOut {
 
   record(): FanOutRecord {
     return { plans: this.total, helpers: this.helpers, threadIds: [...this.threadIds].sort((a, b) => a - b) }
+  }
+}
+
+/** A helper's progress callback: its iterations posted to the parent, at most every HELPER_PROGRESS_MS. */
+export function helperProgress(port: MessagePort, now: () => number = Date.now): (info: ProgressInfo) => void {
+  let last = -Infinity
+  return (info) => {
+    const t = now()
+    if (t - last < HELPER_PROGRESS_MS) return
+    last = t
+    port.postMessage({ type: 'progress', info } satisfies ThreadMessage)
   }
 }
 
@@ -118,19 +140,23 @@ export function planRequests(port: MessagePort) {
  * The thread's side: a `runStarts` for FitOptions that sends the plans to the parent, fits plans from
  * the shared list itself until none is left, then waits for every outcome.
  */
-export function threadRunStarts(port: MessagePort, fit: (plan: StartPlan) => Promise<StartOutcome>, threadId: number, deadline: () => number | null = () => null) {
-  return async (plans: StartPlan[]): Promise<StartOutcome[]> => {
+export function threadRunStarts(
+  port: MessagePort, fit: (plan: StartPlan, onProgress?: (info: ProgressInfo) => void) => Promise<StartOutcome>, threadId: number,
+  deadline: () => number | null = () => null,
+) {
+  return async (plans: StartPlan[], onProgress?: (info: ProgressInfo) => void): Promise<StartOutcome[]> => {
     const requests = planRequests(port)
     let resolveAll!: (o: StartOutcome[]) => void
     const all = new Promise<StartOutcome[]>((r) => { resolveAll = r })
-    const onMessage = (m: { type?: string; plan?: StartPlan | null; outcomes?: StartOutcome[] }) => {
+    const onMessage = (m: { type?: string; plan?: StartPlan | null; outcomes?: StartOutcome[]; info?: ProgressInfo }) => {
       if (m?.type === 'plan') requests.deliver(m.plan ?? null)
+      if (m?.type === 'progress' && m.info) onProgress?.(m.info)
       if (m?.type === 'outcomes') { requests.end(); resolveAll(m.outcomes ?? []) }
     }
     port.on('message', onMessage)
     try {
       port.postMessage({ type: 'starts', plans, deadline: deadline() } satisfies ThreadMessage)
-      await fitSharedPlans(port, requests.next, fit, threadId)
+      await fitSharedPlans(port, requests.next, (plan) => fit(plan, onProgress), threadId)
       return await all
     } finally {
       port.off('message', onMessage)

@@ -5,8 +5,7 @@
  * Used by the embedded runner (web process) and by `npm run worker` (pg-boss consumer).
  */
 import { MessageChannel, type MessagePort } from 'node:worker_threads'
-import { createRequire } from 'node:module'
-import { pathToFileURL } from 'node:url'
+import { threadExecArgv } from './thread-argv'
 import { hostname } from 'node:os'
 import { randomBytes } from 'node:crypto'
 import { Piscina } from 'piscina'
@@ -52,12 +51,7 @@ interface Active {
 
 export const newWorkerId = (kind: string) => `${kind}@${hostname()}:${process.pid}:${randomBytes(3).toString('hex')}`
 
-/** tsx's loader for the worker threads (already present when the process itself runs under tsx) */
-export function threadExecArgv(): string[] {
-  if (process.execArgv.some((a) => a.includes('tsx'))) return process.execArgv
-  const loader = pathToFileURL(createRequire(import.meta.url).resolve('tsx')).href
-  return ['--import', loader]
-}
+export { threadExecArgv } from './thread-argv'
 
 export class RunPool {
   readonly workerId: string
@@ -234,6 +228,7 @@ export class RunPool {
     port1.on('message', (m: ThreadMessage) => {
       if (m.type === 'next') fan.next(port1)
       else if (m.type === 'outcome') fan.outcome(port1, m.outcome, m.threadId)
+      else if (m.type === 'progress') fan.progress(m.info)
     })
     const task: HelperTask = { runId, databaseUrl: this.o.databaseUrl, deadline: fan.deadline, port: port2, abortFlag: a.flag }
     this.piscina.run(task, { name: 'helper', transferList: [port2], signal: a.hard.signal })
@@ -243,7 +238,7 @@ export class RunPool {
 
   private async writeStartsProgress(runId: number, done: number, total: number, best: number | null, fan: FanOut) {
     await this.o.db.update(runs).set({
-      progress: sql`jsonb_build_object('iteration', 0, 'cost', ${best}::float8, 'costHistory', coalesce(${runs.progress}->'costHistory', '[]'::jsonb), 'fraction', ${Math.min(0.97, done / total)}::float8, 'start', ${done}::int, 'starts', ${total}::int, 'message', ${`${done} of ${total} starts done (${fan.helpers + 1} threads)`}::text, 'updatedAt', ${new Date().toISOString()}::text)`,
+      progress: sql`jsonb_build_object('iteration', 0, 'cost', ${best}::float8, 'costHistory', coalesce(${runs.progress}->'costHistory', '[]'::jsonb), 'estimates', coalesce(${runs.progress}->'estimates', '[]'::jsonb), 'fraction', ${Math.min(0.97, done / total)}::float8, 'start', ${done}::int, 'starts', ${total}::int, 'message', ${`${done} of ${total} starts done (${fan.helpers + 1} threads)`}::text, 'updatedAt', ${new Date().toISOString()}::text)`,
     }).where(and(eq(runs.id, runId), eq(runs.status, 'running'))).catch(() => {})
   }
 

@@ -1,6 +1,6 @@
 /**
  * CPU-heavy work on request data (compiling a sheet for a run, reading an uploaded CSV, conditioning a
- * dataset) runs here, on a small pool of worker threads of its own (PEWTER_REQUEST_THREADS, default 1),
+ * dataset, the hand-over's linear analysis and exports) runs here, on a small pool of worker threads of its own (PEWTER_REQUEST_THREADS, default 1),
  * never on the event loop that answers every other request, and never behind hour-long fits. Each task
  * has a time limit (PEWTER_REQUEST_TIME_LIMIT_SECONDS, counted from when a thread takes it): past it the
  * thread is terminated and the request answers 422 naming the limit. Tasks live in request-tasks.ts and

@@ -1,5 +1,6 @@
 /**
- * Tasks of the request pool (request-pool.ts), run in a worker thread: each receives plain data and a
+ * Tasks of the request pool (request-pool.ts), run in a worker thread (compiling a sheet for a run,
+ * reading and conditioning datasets, the hand-over's linear analysis and exports): each receives plain data and a
  * MessagePort (told `{ started: true }` so the time limit counts from here), and returns a
  * RequestOutcome. Database work is done here too, on the thread's own connection, so that neither the
  * parsed samples nor their JSON ever pass through the event loop of the web process.
@@ -13,6 +14,9 @@ import { compileModel, SheetError } from '../../shared/sheet'
 import type { CompiledModel } from '../../shared/sheet/compiled'
 import { conditionDataset, uploadDataset } from '../services/datasets'
 import type { ConditionBody, DatasetDto, DatasetPurpose } from '../../shared/api/datasets'
+import type { ExportBody, HandoverBody, LinearAnalysis } from '../../shared/api/handover'
+import type { ExportFile } from '../../shared/export'
+import { exportLoaded, linearizeLoaded, type HandoverInput } from '../services/handover'
 
 export type RequestOutcome<T> = { ok: true; value: T } | { ok: false; status: number; code: string; message: string; details?: unknown }
 
@@ -84,4 +88,11 @@ export interface ConditionTask extends Base {
 
 export function condition(task: ConditionTask): Promise<RequestOutcome<DatasetDto>> {
   return outcome(task, () => conditionDataset(database(task.databaseUrl), task.workspaceId, task.datasetId, task.userId, task.body))
+}
+
+export type HandoverTask = Base & ({ kind: 'linearize'; input: HandoverInput; body: HandoverBody } | { kind: 'export'; input: HandoverInput; body: ExportBody })
+
+/** The hand-over analysis or export of a version loaded by services/handover.ts. */
+export function handover(task: HandoverTask): Promise<RequestOutcome<LinearAnalysis | ExportFile>> {
+  return outcome(task, () => (task.kind === 'linearize' ? linearizeLoaded(task.input, task.body) : exportLoaded(task.input, task.body as ExportBody)))
 }

@@ -8,6 +8,7 @@ import { runs } from '../db/schema'
 import { fitOptions, loadRunInputs, problemSpec } from '../services/fit-execution'
 import { simulate } from '../../shared/engine'
 import { fitFromStart, type StartOutcome, type StartPlan } from '../../shared/engine/fit/driver'
+import type { ProgressInfo } from '../../shared/engine/fit/lsq'
 
 const cache = new Map<number, Promise<Awaited<ReturnType<typeof prepare>>>>()
 
@@ -18,7 +19,9 @@ async function prepare(db: Db, runId: number) {
   return { model, settings, spec: problemSpec(model, settings, est, val) }
 }
 
-export async function fitPlan(db: Db, runId: number, plan: StartPlan, deadline: number | null, signal: AbortSignal): Promise<StartOutcome> {
+export async function fitPlan(
+  db: Db, runId: number, plan: StartPlan, deadline: number | null, signal: AbortSignal, onProgress?: (info: ProgressInfo) => void,
+): Promise<StartOutcome> {
   let p = cache.get(runId)
   if (!p) {
     p = prepare(db, runId)
@@ -26,7 +29,7 @@ export async function fitPlan(db: Db, runId: number, plan: StartPlan, deadline: 
     if (cache.size > 8) cache.delete(cache.keys().next().value!)
   }
   const { model, settings, spec } = await p
-  return fitFromStart(model, spec, plan, fitOptions(settings, { signal }), simulate, deadline ?? undefined)
+  return fitFromStart(model, spec, plan, fitOptions(settings, { signal, ...(onProgress ? { onProgress } : {}) }), simulate, deadline ?? undefined)
 }
 
 /** The deadline of a run's estimation, from its time budget (none by default). */

@@ -13,7 +13,7 @@ import { threadId, type MessagePort } from 'node:worker_threads'
 import { openDatabase, type Database } from '../db/client'
 import { loadExecutor, type RunExecutor } from './executor'
 import { alsoAbortedWhen, flagRaised, type AbortFlag } from './abort-flag'
-import { fitSharedPlans, planRequests, threadRunStarts } from './fan-out'
+import { fitSharedPlans, helperProgress, planRequests, threadRunStarts } from './fan-out'
 import { deadlineOf, fitPlan } from './start-fits'
 import { runs } from '../db/schema'
 import { eq } from 'drizzle-orm'
@@ -79,15 +79,15 @@ export default async function runTask(task: RunTask): Promise<{ ok: true }> {
   }
   const controller = abortable(task.port, task.abortFlag)
   let deadline: number | null = null
-  const runStarts = threadRunStarts(task.port, (plan) => fitPlan(db.db, task.runId, plan, deadline, controller.signal), threadId, () => deadline)
+  const runStarts = threadRunStarts(task.port, (plan, onProgress) => fitPlan(db.db, task.runId, plan, deadline, controller.signal, onProgress), threadId, () => deadline)
   try {
     await (await exec)(db.db, task.runId, {
       signal: controller.signal,
       workerId: task.workerId,
-      runStarts: async (plans) => {
+      runStarts: async (plans, onProgress) => {
         const [row] = await db.db.select({ settings: runs.settings }).from(runs).where(eq(runs.id, task.runId))
         deadline = deadlineOf(row?.settings)
-        return runStarts(plans)
+        return runStarts(plans, onProgress)
       },
     })
     return { ok: true }
@@ -102,7 +102,8 @@ export async function helper(task: HelperTask): Promise<{ fitted: number }> {
   const requests = planRequests(task.port)
   task.port.on('message', (m: { type?: string; plan?: StartPlan | null }) => { if (m?.type === 'plan') requests.deliver(m.plan ?? null) })
   try {
-    const fitted = await fitSharedPlans(task.port, requests.next, (plan) => fitPlan(db.db, task.runId, plan, task.deadline, controller.signal), threadId, () => controller.signal.aborted)
+    const progress = helperProgress(task.port)
+    const fitted = await fitSharedPlans(task.port, requests.next, (plan) => fitPlan(db.db, task.runId, plan, task.deadline, controller.signal, progress), threadId, () => controller.signal.aborted)
     return { fitted }
   } finally {
     task.port.close()
@@ -127,4 +128,4 @@ export async function ping(): Promise<number> {
   return threadId
 }
 // the request pool's tasks (request-pool.ts) load through this same entry
-export { compileSheet, upload, condition } from './request-tasks'
+export { compileSheet, upload, condition, handover } from './request-tasks'

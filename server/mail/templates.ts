@@ -66,3 +66,18 @@ export function modelForkedMail(o: { to: string; model: string; fork: string; wo
     `${o.by} forked your model "${o.model}" as "${o.fork}" in the workspace "${o.workspace}".`,
   ], { href: o.link, label: 'Open the fork' })
 }
+
+export function reviewRequestedMail(o: { to: string; model: string; version: number; workspace: string; by: string; comment: string; link: string }): MailMessage {
+  return compose(o.to, `Review requested: ${o.model} version ${o.version}`, [
+    `${o.by} asks for a review of version ${o.version} of "${o.model}" in the workspace "${o.workspace}".`,
+    ...(o.comment ? [`Their comment: ${o.comment}`] : []),
+    'Approve it with a comment, or request changes saying what should change. You get this message as a reviewer of the workspace.',
+  ], { href: o.link, label: 'Open the version' })
+}
+
+export function changesRequestedMail(o: { to: string; model: string; version: number; by: string; comment: string; link: string }): MailMessage {
+  return compose(o.to, `Changes requested: ${o.model} version ${o.version}`, [
+    `${o.by} reviewed version ${o.version} of "${o.model}" and asks for changes before approving it:`,
+    o.comment,
+  ], { href: o.link, label: 'Open the model' })
+}

@@ -1,7 +1,7 @@
 /**
  * Datasets and bindings (thin: parse, authorize, call the services).
  *   under /projects/:pid: POST datasets (multipart field `file`), GET datasets, GET/POST bindings,
- *     POST bindings/match, PUT bindings/:bid
+ *     POST bindings/match, PUT and DELETE bindings/:bid
  *   under /datasets: GET /, GET /:did, PATCH /:did, DELETE /:did, GET /:did/data, GET /:did/original, POST /:did/condition
  */
 import { Router } from 'express'
@@ -62,6 +62,9 @@ export function projectDatasetRoutes() {
   })
   router.put('/bindings/:bid', requireCapability('write'), async (req, res) => {
     res.json(await bindings.updateBinding(ctx(req).db, req.workspace!.id, intParam(req.params, 'pid'), intParam(req.params, 'bid'), parse(updateBindingBody, req.body)))
+  })
+  router.delete('/bindings/:bid', requireCapability('write'), async (req, res) => {
+    res.json(await bindings.deleteBinding(ctx(req).db, req.workspace!.id, intParam(req.params, 'pid'), intParam(req.params, 'bid')))
   })
   return router
 }

@@ -19,6 +19,8 @@ import { tokenRoutes } from './tokens'
 import { mailboxRoutes } from './mailbox'
 import { modelRoutes } from './models'
 import { checkRoutes } from './check'
+import { partRoutes } from './parts'
+import { reviewRoutes } from './reviews'
 
 export function apiRouter(context: AppContext) {
   const api = Router()
@@ -40,6 +42,8 @@ export function apiRouter(context: AppContext) {
   ws.use('/audit', auditRoutes())
   ws.use('/tokens', tokenRoutes())
   ws.use('/models', modelRoutes())
+  ws.use('/parts', partRoutes())
+  ws.use('/reviews', reviewRoutes())
   api.use('/workspaces/:ws', ws)
   return api
 }

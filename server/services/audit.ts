@@ -9,7 +9,7 @@ export type AuditAction =
   | 'member.invitation_revoked' | 'auth.password_reset_requested'
   | 'auth.signup_requested' | 'auth.signup_existing' | 'auth.email_verified'
   | 'workspace.settings_changed'
-  | 'model.created' | 'model.published' | 'model.approved' | 'model.forked' | 'model.deleted'
+  | 'model.created' | 'model.published' | 'model.approved' | 'model.review-requested' | 'model.changes-requested' | 'model.forked' | 'model.deleted'
   | 'token.created' | 'token.revoked'
   | 'run.started' | 'run.cancelled'
 

@@ -7,12 +7,12 @@
  * temperatures); its dimension must equal that of the sheet's unit. A column without a unit is read in
  * the sheet's declared unit. A sheet signal without a unit takes the column's numbers as they are.
  */
-import { and, desc, eq } from 'drizzle-orm'
+import { and, desc, eq, sql } from 'drizzle-orm'
 import type { Db } from '../db/client'
 import { bindings, datasets, models, modelVersions } from '../db/schema'
 import { badRequest, notFound } from '../errors'
 import { parseUnit, sameDims, formatDims } from '../../shared/sheet/units'
-import type { BindingDto, ColumnMapping, ColumnMeta, CreateBindingBody, MappingCheck } from '../../shared/api/datasets'
+import type { BindingDto, BindingFollow, ColumnMapping, ColumnMeta, CreateBindingBody, MappingCheck, UpdateBindingBody } from '../../shared/api/datasets'
 import { getProjectRow } from './projects'
 import { columnsOf } from './datasets'
 
@@ -125,38 +125,78 @@ export async function matchMapping(db: Db, workspaceId: number, projectId: numbe
   return { mapping, checks: checkMapping(signals, mapping, columns), signals }
 }
 
-function toDto(b: typeof bindings.$inferSelect, title: string, checks: MappingCheck[]): BindingDto {
+type BindingRow = typeof bindings.$inferSelect
+
+/**
+ * The version a fit of the binding takes by default: the pinned one, the model's latest, or its
+ * newest approved (null when none is approved).
+ */
+export async function resolveFollow(db: Db, modelId: number, follow: BindingFollow, pinned: number): Promise<number | null> {
+  if (follow === 'pinned') return pinned
+  const [r] = await db.select({
+    latest: sql<number | null>`max(${modelVersions.number})::int`,
+    approved: sql<number | null>`(max(${modelVersions.number}) filter (where ${modelVersions.status} = 'approved'))::int`,
+  }).from(modelVersions).where(eq(modelVersions.modelId, modelId))
+  return follow === 'latest' ? (r?.latest ?? pinned) : (r?.approved ?? null)
+}
+
+function toDto(b: BindingRow, title: string, resolvedVersion: number | null, checks: MappingCheck[]): BindingDto {
   return {
-    id: b.id, projectId: b.projectId, modelId: b.modelId, modelTitle: title, modelVersion: b.modelVersion, name: b.name,
+    id: b.id, projectId: b.projectId, modelId: b.modelId, modelTitle: title, modelVersion: b.modelVersion,
+    follow: b.follow as BindingFollow, resolvedVersion, name: b.name,
     mapping: b.mapping as ColumnMapping, checks, createdAt: b.createdAt.toISOString(),
   }
 }
 
-export async function createBinding(db: Db, workspaceId: number, projectId: number, body: CreateBindingBody) {
+/** A binding as the API shows it: its mapping checked against the version it resolves to now. */
+async function describeBinding(db: Db, workspaceId: number, b: BindingRow, title: string, columns: ColumnMeta[] | null): Promise<BindingDto> {
+  const resolved = await resolveFollow(db, b.modelId, b.follow as BindingFollow, b.modelVersion)
+  const { v } = await getVersionRow(db, workspaceId, b.modelId, resolved ?? b.modelVersion)
+  return toDto(b, title, resolved, checkMapping(signalsOf(v.summary), b.mapping as ColumnMapping, columns))
+}
+
+const refuseProblems = (checks: MappingCheck[]) => {
+  const bad = checks.filter((c) => c.problem)
+  if (bad.length) throw badRequest(bad.map((c) => `${c.kind} '${c.signal}': ${c.problem}`).join('; '), bad.map((c) => ({ path: `mapping.${c.kind}s.${c.signal}`, message: c.problem })))
+}
+
+export async function createBinding(db: Db, workspaceId: number, projectId: number, body: Omit<CreateBindingBody, 'follow'> & { follow?: BindingFollow }) {
   await getProjectRow(db, workspaceId, projectId)
   const { v, title } = await getVersionRow(db, workspaceId, body.modelId, body.version)
   const signals = signalsOf(v.summary)
   const columns = await datasetColumns(db, projectId, body.datasetId)
   if (body.mapping) checkMappingNames(signals, body.mapping)
   const mapping = autoMatch(signals, (columns ?? []).map((c) => c.name), body.mapping)
-  const checks = checkMapping(signals, mapping, columns)
-  const bad = checks.filter((c) => c.problem)
-  if (bad.length) throw badRequest(bad.map((c) => `${c.kind} '${c.signal}': ${c.problem}`).join('; '), bad.map((c) => ({ path: `mapping.${c.kind}s.${c.signal}`, message: c.problem })))
+  refuseProblems(checkMapping(signals, mapping, columns))
   const [row] = await db.insert(bindings).values({
-    projectId, modelId: body.modelId, modelVersion: body.version, name: body.name ?? `${title} v${body.version}`, mapping,
+    projectId, modelId: body.modelId, modelVersion: body.version, follow: body.follow ?? 'pinned', name: body.name ?? `${title} v${body.version}`, mapping,
   }).returning()
-  return toDto(row, title, checks)
+  return describeBinding(db, workspaceId, row, title, columns)
 }
 
-export async function updateBinding(db: Db, workspaceId: number, projectId: number, bindingId: number, body: { name?: string; mapping: ColumnMapping }) {
-  const { row, title, signals } = await getBindingRow(db, workspaceId, projectId, bindingId)
-  checkMappingNames(signals, body.mapping)
+/**
+ * Change a binding's name, mapping, pinned version or what it follows. Mapping names must be
+ * signals of the (new) pinned version; the reply's checks show unit problems, as the list does.
+ */
+export async function updateBinding(db: Db, workspaceId: number, projectId: number, bindingId: number, body: UpdateBindingBody) {
+  const { row, title } = await getBindingRow(db, workspaceId, projectId, bindingId)
+  const version = body.version ?? row.modelVersion
+  const { v } = await getVersionRow(db, workspaceId, row.modelId, version)
+  const signals = signalsOf(v.summary)
+  if (body.mapping) checkMappingNames(signals, body.mapping)
   const old = row.mapping as ColumnMapping
-  const mapping = autoMatch(signals, [], { inputs: { ...old.inputs, ...body.mapping.inputs }, outputs: { ...old.outputs, ...body.mapping.outputs } })
+  const mapping = autoMatch(signals, [], { inputs: { ...old.inputs, ...body.mapping?.inputs }, outputs: { ...old.outputs, ...body.mapping?.outputs } })
   const columns = await datasetColumns(db, projectId)
-  const checks = checkMapping(signals, mapping, columns)
-  const [u] = await db.update(bindings).set({ mapping, ...(body.name ? { name: body.name } : {}) }).where(eq(bindings.id, row.id)).returning()
-  return toDto(u, title, checks)
+  const [u] = await db.update(bindings).set({ mapping, modelVersion: version, ...(body.follow ? { follow: body.follow } : {}), ...(body.name ? { name: body.name } : {}) })
+    .where(eq(bindings.id, row.id)).returning()
+  return describeBinding(db, workspaceId, u, title, columns)
+}
+
+/** Delete a binding. Runs keep their own copy of the mapping, so they are not affected. */
+export async function deleteBinding(db: Db, workspaceId: number, projectId: number, bindingId: number) {
+  const { row } = await getBindingRow(db, workspaceId, projectId, bindingId)
+  await db.delete(bindings).where(eq(bindings.id, row.id))
+  return { deleted: true as const, id: row.id }
 }
 
 export async function getBindingRow(db: Db, workspaceId: number, projectId: number, bindingId: number) {
@@ -164,16 +204,16 @@ export async function getBindingRow(db: Db, workspaceId: number, projectId: numb
   const [r] = await db.select({ b: bindings, title: models.title }).from(bindings).innerJoin(models, eq(models.id, bindings.modelId))
     .where(and(eq(bindings.id, bindingId), eq(bindings.projectId, projectId))).limit(1)
   if (!r) throw notFound('Binding')
-  const { v } = await getVersionRow(db, workspaceId, r.b.modelId, r.b.modelVersion)
-  return { row: r.b, title: r.title, signals: signalsOf(v.summary) }
+  return { row: r.b, title: r.title }
 }
 
 export async function listBindings(db: Db, workspaceId: number, projectId: number) {
   await getProjectRow(db, workspaceId, projectId)
-  const rows = await db.select({ b: bindings, title: models.title, summary: modelVersions.summary }).from(bindings)
+  const rows = await db.select({ b: bindings, title: models.title }).from(bindings)
     .innerJoin(models, eq(models.id, bindings.modelId))
-    .innerJoin(modelVersions, and(eq(modelVersions.modelId, bindings.modelId), eq(modelVersions.number, bindings.modelVersion)))
     .where(eq(bindings.projectId, projectId)).orderBy(desc(bindings.createdAt))
   const columns = await datasetColumns(db, projectId)
-  return rows.map((r) => toDto(r.b, r.title, checkMapping(signalsOf(r.summary), r.b.mapping as ColumnMapping, columns)))
+  const out: BindingDto[] = []
+  for (const r of rows) out.push(await describeBinding(db, workspaceId, r.b, r.title, columns))
+  return out
 }

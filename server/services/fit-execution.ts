@@ -16,19 +16,22 @@ import { readFileSync } from 'node:fs'
 import { and, eq, inArray, sql } from 'drizzle-orm'
 import type { Db } from '../db/client'
 import { datasets, modelVersions, runs } from '../db/schema'
-import { workspaceParts } from './part-library'
+import { workspaceParts, workspacePartTexts } from './part-library'
+import { segmentHelpers, segmentThreadsOption } from '../jobs/segment-threads'
 import { compileModel, type CompiledModel } from '../../shared/sheet'
 import { alsoAbortedWhen } from '../jobs/abort-flag'
 import { toDeclared, toInternal } from '../../shared/sheet/compiled'
 import { simulate } from '../../shared/engine'
 import { makeProblem, type FitOptions } from '../../shared/engine/fit/driver'
+import { declaredEstimates } from '../../shared/engine/fit/result'
 import { runFit } from '../../shared/engine/fit'
 import type { ExperimentData, FitProblem, ProblemSpec } from '../../shared/engine/fit/problem'
 import { BoxTransform } from '../../shared/engine/fit/transform'
 import { costLandscape } from '../../shared/engine/landscape'
+import { covarianceFrom, outputBandHalfWidth } from '../../shared/engine/stats/output-band'
 import { describeOutcome, type FitResult, type LandscapeResult } from '../../shared/api/fit'
 import type { ColumnMapping, ColumnMeta } from '../../shared/api/datasets'
-import type { OutputTrace, RunProgress, RunSettings } from '../../shared/api/runs'
+import type { LiveSegmentLine, OutputTrace, ProgressEstimate, RunProgress, RunSettings } from '../../shared/api/runs'
 import { conversionFor } from './bindings'
 import { columnsOf, type StoredData } from './datasets'
 
@@ -156,11 +159,13 @@ export async function loadRunInputs(db: Db, run: typeof runs.$inferSelect) {
   return { settings, model, est: settings.estimation.map(get), val: settings.validation.map(get), versionText: version.text }
 }
 
-/** Measured against simulated outputs at the estimate, for every experiment (declared units, seconds). */
+/** Measured against simulated outputs at the estimate, for every experiment (declared units, seconds), with the covariance band. */
 export function simulateTraces(model: CompiledModel, prob: FitProblem, result: FitResult, est: LoadedDataset[], val: LoadedDataset[], mapping: ColumnMapping): OutputTrace[] {
   const best = result.starts.find((s) => s.index === result.bestStart)
   const theta = best && best.value.every((v) => v !== null) ? (best.value as number[]) : null
   if (!theta || theta.length !== prob.n) return []
+  const cov = internalCovariance(model, prob, result)
+  const tq = result.tQuantile ?? NaN
   const traces: OutputTrace[] = []
   const p = new Float64Array(model.np)
   const x0 = new Float64Array(model.nx)
@@ -173,7 +178,20 @@ export function simulateTraces(model: CompiledModel, prob: FitProblem, result: F
       const k = model.states.findIndex((st) => st.name === v.name)
       if (k >= 0) x0[k] = toInternal(model.states[k], v.value)
     }
-    const res = prob.simulateExperiment(ex, p, hasX0 || started.length > 0 ? x0 : undefined, false)
+    const withBand = cov !== null && Number.isFinite(tq)
+    let res = prob.simulateExperiment(ex, p, hasX0 || started.length > 0 ? x0 : undefined, withBand)
+    if (!res && withBand) res = prob.simulateExperiment(ex, p, hasX0 || started.length > 0 ? x0 : undefined, false)
+    let half: Float64Array | null = null
+    if (res?.dy && cov) {
+      const ns = ex.sensParams.length + ex.sensStates.length
+      // sensitivity column c → estimated quantity q; on a validation record only the shared parameters count
+      const cols = new Int32Array(ns).fill(-1)
+      prob.quantities.forEach((q, qi) => {
+        const c = ex.sensCol[qi]
+        if (c >= 0 && (!validation || (q.kind === 'param' && q.experiment === null))) cols[c] = qi
+      })
+      half = outputBandHalfWidth(res.dy, ex.tOut.length * model.ny, ns, cols, cov, prob.n, tq)
+    }
     model.outputs.forEach((o, j) => {
       const col = mapping.outputs[o.name]
       const meas = ex.data.outputs[o.name]
@@ -182,17 +200,41 @@ export function simulateTraces(model: CompiledModel, prob: FitProblem, result: F
       const t = new Array<number>(n)
       const measured = new Array<number | null>(n)
       const simulated = new Array<number | null>(n)
+      const band = half ? new Array<number | null>(n) : null
       for (let k = 0; k < n; k++) {
         t[k] = ex.tOut[k] * model.secondsPerTimeUnit
         const m = meas[ex.timeIndex[k]]
         measured[k] = Number.isFinite(m) ? toDeclared(o, m) : null
         const s = res ? res.y[k * model.ny + j] : NaN
         simulated[k] = Number.isFinite(s) ? toDeclared(o, s) : null
+        if (band && half) {
+          const h = half[k * model.ny + j] / Math.abs(o.scale)
+          band[k] = Number.isFinite(h) ? h : null
+        }
       }
-      traces.push({ experiment: idx, datasetId: ds.id, datasetName: ds.name, validation, output: o.name, column: col, unit: o.unit, t, measured, simulated })
+      traces.push({ experiment: idx, datasetId: ds.id, datasetName: ds.name, validation, output: o.name, column: col, unit: o.unit, t, measured, simulated, ...(band ? { band } : {}) })
     })
   })
   return traces
+}
+
+/**
+ * The linearised covariance of the estimated quantities in internal units, from the result's standard
+ * errors and correlations; quantities held at a bound contribute nothing. Null when a quantity is not
+ * determined by the data (its variance is unbounded) or the result has no covariance.
+ */
+function internalCovariance(model: CompiledModel, prob: FitProblem, result: FitResult): Float64Array | null {
+  const byKey = new Map([...result.parameters.map((r) => [`p|${r.name}|${r.experiment}`, r] as const), ...result.initialStates.map((r) => [`s|${r.name}|${r.experiment}`, r] as const)])
+  const rows = prob.quantities.map((q) => byKey.get(`${q.kind === 'param' ? 'p' : 's'}|${q.name}|${q.experiment}`))
+  if (rows.some((r) => !r || !r.determined)) return null
+  const se = rows.map((r, q) => {
+    if (!r || r.atBound) return 0
+    const qq = prob.quantities[q]
+    const u = qq.kind === 'param' ? model.params[qq.index] : model.states[qq.index]
+    return r.stdError === null ? NaN : r.stdError * Math.abs(u.scale)
+  })
+  if (result.correlation.names.length !== prob.n) return null
+  return covarianceFrom(se, result.correlation.matrix)
 }
 
 /** The cost over a grid of two estimated quantities, the others at the estimate (results page, on request). */
@@ -220,6 +262,7 @@ export async function computeLandscape(db: Db, run: typeof runs.$inferSelect, a:
 }
 
 const PROGRESS_INTERVAL_MS = 250
+const SEGMENT_LINES_INTERVAL_MS = 500
 const CANCEL_POLL_MS = 200
 
 /**
@@ -262,12 +305,15 @@ export async function executeRun(db: Db, runId: number, opts: ExecuteOptions = {
   let best = Infinity
   let lastWrite = 0
   let pending: RunProgress | null = null
+  let lines: { segmentLines: LiveSegmentLine[]; segmentIteration: number } | Record<string, never> = {}
+  let linesAt = 0
   let writing: Promise<unknown> = Promise.resolve()
   const writeProgress = (p: RunProgress) => {
     writing = writing.then(() => db.update(runs).set({ progress: p }).where(and(eq(runs.id, runId), eq(runs.status, 'running')))).catch(() => undefined)
   }
+  let estimates: ProgressEstimate[] = []
   const progress = (iteration: number, cost: number | null, start: number, message: string, fraction: number): RunProgress => ({
-    iteration, cost, costHistory: thin(history, 500), fraction, start, starts: settings.starts, message, updatedAt: new Date().toISOString(),
+    iteration, cost, costHistory: thin(history, 500), fraction, start, starts: settings.starts, message, updatedAt: new Date().toISOString(), estimates,
   })
   writeProgress(progress(0, null, 0, 'preparing the fit', 0.01))
 
@@ -280,7 +326,7 @@ export async function executeRun(db: Db, runId: number, opts: ExecuteOptions = {
   }
 
   try {
-    const { model, est, val } = await loadRunInputs(db, row)
+    const { model, est, val, versionText } = await loadRunInputs(db, row)
     const spec = problemSpec(model, settings, est, val)
     // built once without the abort signal: its names pick the landscape, then it simulates the traces
     const probe = makeProblem(model, spec, simulate, fitOptions(settings))
@@ -290,18 +336,45 @@ export async function executeRun(db: Db, runId: number, opts: ExecuteOptions = {
       landscape,
       ...(opts.runStarts ? { runStarts: opts.runStarts } : {}),
       onProgress: (info) => {
+        if (info.cost <= best && info.parameters.length === probe.n) estimates = declaredEstimates(model, probe, info.parameters)
         if (info.cost < best) best = info.cost
         history.push(best)
         const start = info.start ?? 0
         const fraction = Math.min(0.97, (start + 1 - Math.exp(-(info.iteration + 1) / 12)) / settings.starts)
         const how = options.segments ? `multiple shooting over ${options.segments.segments} segments, ` : ''
-        pending = progress(info.iteration, info.cost, start, `${how}start ${start + 1} of ${settings.starts}, iteration ${info.iteration}`, fraction)
         const now = Date.now()
+        // the segments' own lines while multiple shooting runs, at most twice a second
+        if (info.segmentLines && now - linesAt >= SEGMENT_LINES_INTERVAL_MS) {
+          linesAt = now
+          lines = { segmentLines: info.segmentLines(), segmentIteration: info.iteration }
+        }
+        pending = { ...progress(info.iteration, info.cost, start, `${how}start ${start + 1} of ${settings.starts}, iteration ${info.iteration}`, fraction), ...lines }
         if (now - lastWrite >= PROGRESS_INTERVAL_MS) { lastWrite = now; writeProgress(pending); pending = null }
       },
     })
+    if (options.segments) {
+      const { rtol, atol, solver, maxSteps } = options
+      const threads = segmentThreadsOption(process.env.PEWTER_SEGMENT_THREADS, 'PEWTER_SEGMENT_THREADS')
+      const parts = await workspacePartTexts(db, row.workspaceId, versionText)
+      options.segmentEvaluator = segmentHelpers().factory({ sheet: versionText, parts, spec, options: { rtol, atol, solver, maxSteps }, segments: options.segments }, threads)
+    }
     const result = await runFit(model, spec, options, simulate)
+    const tracesOf = (r: FitResult): OutputTrace[] => {
+      try { return simulateTraces(model, probe, r, est, val, settings.mapping) } catch { return [] }
+    }
     if (pending) writeProgress(pending)
+    if (result.stoppedEarly) {
+      // cancelled after some starts finished: their best is kept on the cancelled run, with its traces
+      const { finishedStarts, plannedStarts } = result.stoppedEarly
+      const traces = tracesOf(result)
+      const why = cancelled ? 'Cancelled by request' : 'Stopped'
+      return await finish('cancelled', {
+        outcome: result.status, convergedBy: result.convergedBy,
+        result: { ...result, traces } as unknown as Record<string, unknown>,
+        error: `${why} after ${finishedStarts} of ${plannedStarts} starts: the result shown is the best of the finished starts.`,
+        progress: progress(result.iterations, result.sse, finishedStarts, 'stopped, best finished start kept', 1),
+      })
+    }
     if (cancelled || controller.signal.aborted || result.status === 'aborted') {
       return await finish('cancelled', { error: cancelled ? 'Cancelled by request.' : 'Stopped: the fit was aborted.', progress: progress(0, best === Infinity ? null : best, 0, 'cancelled', 0) })
     }
@@ -310,14 +383,14 @@ export async function executeRun(db: Db, runId: number, opts: ExecuteOptions = {
       const where = result.reasonStart !== null && settings.starts > 1 ? ` (start ${result.reasonStart})` : ''
       return await finish('failed', { ...outcome, error: `The fit failed${where}: ${result.reason}`, result: { ...result, traces: [] } as unknown as Record<string, unknown> })
     }
-    let traces: OutputTrace[] = []
-    try { traces = simulateTraces(model, probe, result, est, val, settings.mapping) } catch { traces = [] }
+    const traces = tracesOf(result)
     const lastHistory = result.costHistory.length ? result.costHistory : history
     return await finish('succeeded', {
       ...outcome,
       result: { ...result, traces } as unknown as Record<string, unknown>,
       error: null,
-      progress: { ...progress(result.iterations, result.sse, settings.starts - 1, `finished, ${describeOutcome(result.status, result.convergedBy)}: ${result.reason}`, 1), costHistory: thin(lastHistory, 500) },
+      // a multiple-shooting run keeps the segments' lines of its last shooting iteration
+      progress: { ...progress(result.iterations, result.sse, settings.starts - 1, `finished, ${describeOutcome(result.status, result.convergedBy)}: ${result.reason}`, 1), costHistory: thin(lastHistory, 500), ...lines },
     })
   } catch (e) {
     if (cancelled || controller.signal.aborted) return await finish('cancelled', { error: cancelled ? 'Cancelled by request.' : 'Stopped: the fit was aborted.' })

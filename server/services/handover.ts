@@ -1,10 +1,13 @@
 /**
  * Hand-over of a model version: operating point, linearisation and responses (shared/engine/linear),
  * and exports (shared/export), with the parameter values of the sheet, a fit run or a saved parameter
- * set of the same workspace.
+ * set of the same workspace. The database reads happen here; the analysis and the export (compiling,
+ * Newton, continuation, frequency sweeps, uncertainty propagation) run on the request pool's threads
+ * with its time limit (request-tasks.ts `handover`), never on the event loop.
  */
 import { and, eq } from 'drizzle-orm'
 import type { Db } from '../db/client'
+import type { AppContext } from '../context'
 import { parameterSets, projects } from '../db/schema'
 import { badRequest, conflict, notFound } from '../errors'
 import { parseModel, compileModel, SheetError, type CompiledModel, type ParsedModel } from '../../shared/sheet'
@@ -14,6 +17,18 @@ import { AnalysisInputError, analyzeModel, covarianceFromFit, resolveValues, typ
 import { buildExport, exportMeta, type ExportFile } from '../../shared/export'
 import { getVersion, type Actor } from './models'
 import { getRunRow } from './runs'
+import { requestPoolOf } from './request-work'
+import { withoutLandscapeCache } from './landscape'
+
+/** What the analysis of a version needs, as plain data (it crosses to a worker thread). */
+export interface HandoverInput {
+  text: string
+  number: number
+  label: string
+  sources: ValueSources
+  fit: FitResult | null
+  warnings: string[]
+}
 
 interface Prepared {
   parsed: ParsedModel
@@ -24,17 +39,9 @@ interface Prepared {
   warnings: string[]
 }
 
-async function prepare(db: Db, actor: Actor, modelId: number, number: number, body: HandoverBody): Promise<Prepared> {
+/** Reads the version and the source of the parameter values (database only). */
+async function load(db: Db, actor: Actor, modelId: number, number: number, body: HandoverBody): Promise<HandoverInput> {
   const v = await getVersion(db, actor, modelId, number)
-  const r = parseModel(v.text)
-  if (!r.model) throw badRequest(`Version ${number} of this model has errors and cannot be handed over`, { diagnostics: r.diagnostics })
-  let model: CompiledModel
-  try {
-    model = compileModel(r.model)
-  } catch (e) {
-    if (e instanceof SheetError) throw badRequest(e.message)
-    throw e
-  }
   const warnings: string[] = []
   const sources: ValueSources = { set: body.set, inputs: body.inputs }
   let fit: FitResult | null = null
@@ -43,7 +50,9 @@ async function prepare(db: Db, actor: Actor, modelId: number, number: number, bo
     const run = await getRunRow(db, actor.workspaceId, src.runId)
     if (run.modelId !== modelId) throw badRequest(`Run ${run.id} fitted another model (model ${run.modelId}); its estimates do not apply to this one`)
     if (run.status !== 'succeeded' || !run.result) throw conflict(`Run ${run.id} has no result (status ${run.status})`)
-    fit = run.result as unknown as FitResult
+    // the traces and the cached landscapes are not needed: only the estimates and their covariance cross to the thread
+    const { traces: _traces, ...result } = withoutLandscapeCache({ result: run.result as Record<string, unknown> }).result!
+    fit = result as unknown as FitResult
     if (run.modelVersion !== number) warnings.push(`run ${run.id} fitted version ${run.modelVersion}; its estimates are applied to version ${number} by parameter name`)
     sources.fit = { result: fit, label: `fit run #${run.id} (version ${run.modelVersion})` }
   } else if (src.kind === 'parameter-set') {
@@ -54,7 +63,21 @@ async function prepare(db: Db, actor: Actor, modelId: number, number: number, bo
     if (ps.modelId !== modelId) throw badRequest(`Parameter set ${ps.id} belongs to another model (model ${ps.modelId})`)
     sources.parameterSet = { values: ps.values as Record<string, { value: number }>, label: `parameter set '${ps.name}' (#${ps.id})` }
   }
-  return { parsed: r.model, model, sources, fit, label: `${v.summary.title || model.title}, version ${number} (model #${modelId})`, warnings }
+  return { text: v.text, number, label: `${v.summary.title || `model #${modelId}`}, version ${number} (model #${modelId})`, sources, fit, warnings }
+}
+
+/** Parses and compiles the version (CPU work: in a request thread). */
+function prepare(input: HandoverInput): Prepared {
+  const r = parseModel(input.text)
+  if (!r.model) throw badRequest(`Version ${input.number} of this model has errors and cannot be handed over`, { diagnostics: r.diagnostics })
+  let model: CompiledModel
+  try {
+    model = compileModel(r.model)
+  } catch (e) {
+    if (e instanceof SheetError) throw badRequest(e.message)
+    throw e
+  }
+  return { parsed: r.model, model, sources: input.sources, fit: input.fit, label: input.label, warnings: [...input.warnings] }
 }
 
 function analyse(p: Prepared, body: HandoverBody, frequencies = body.frequencies): { analysis: LinearAnalysis; pv: Float64Array; provenance: string } {
@@ -70,12 +93,14 @@ function analyse(p: Prepared, body: HandoverBody, frequencies = body.frequencies
   }
 }
 
-export async function linearizeVersion(db: Db, actor: Actor, modelId: number, number: number, body: HandoverBody): Promise<LinearAnalysis> {
-  return analyse(await prepare(db, actor, modelId, number, body), body).analysis
+/** The analysis of a loaded version (runs in a request thread; throws HttpError for bad input). */
+export function linearizeLoaded(input: HandoverInput, body: HandoverBody): LinearAnalysis {
+  return analyse(prepare(input), body).analysis
 }
 
-export async function exportVersion(db: Db, actor: Actor, modelId: number, number: number, body: ExportBody): Promise<ExportFile> {
-  const p = await prepare(db, actor, modelId, number, body)
+/** The export of a loaded version (runs in a request thread). */
+export function exportLoaded(input: HandoverInput, body: ExportBody): ExportFile {
+  const p = prepare(input)
   const needsAnalysis = body.format === 'ss-json' || body.format === 'ss-csv'
   let pv: Float64Array
   let provenance: string
@@ -101,4 +126,18 @@ export async function exportVersion(db: Db, actor: Actor, modelId: number, numbe
     if (e instanceof AnalysisInputError) throw badRequest(e.message)
     throw e
   }
+}
+
+export async function linearizeVersion(context: AppContext, actor: Actor, modelId: number, number: number, body: HandoverBody): Promise<LinearAnalysis> {
+  const input = await load(context.db, actor, modelId, number, body)
+  const pool = requestPoolOf(context)
+  if (!pool) return linearizeLoaded(input, body)
+  return pool.run<LinearAnalysis>('handover', { kind: 'linearize', input, body }, `Linearising ${input.label}`)
+}
+
+export async function exportVersion(context: AppContext, actor: Actor, modelId: number, number: number, body: ExportBody): Promise<ExportFile> {
+  const input = await load(context.db, actor, modelId, number, body)
+  const pool = requestPoolOf(context)
+  if (!pool) return exportLoaded(input, body)
+  return pool.run<ExportFile>('handover', { kind: 'export', input, body }, `Exporting ${input.label}`)
 }

@@ -9,7 +9,7 @@
  */
 import { and, asc, desc, eq, inArray, sql, type SQL } from 'drizzle-orm'
 import type { Db } from '../db/client'
-import { bindings, memberships, modelDrafts, modelMaintainers, models, modelVersions, parameterSets, projects, runs, users } from '../db/schema'
+import { bindings, memberships, modelDrafts, modelMaintainers, models, modelVersions, parameterSets, projects, runs, users, versionReviews } from '../db/schema'
 import { conflict, forbidden, HttpError, notFound } from '../errors'
 import { audit } from './audit'
 import { checkSheet } from './sheet-check'
@@ -22,7 +22,7 @@ import { can, type Role } from '../../shared/api/auth'
 import {
   emptySheetSummary, sheetSummary, type CreateModelBody, type DiffQuery, type DiffReply, type DraftDto, type ForkBody, type ForkDto,
   type ListModelsQuery, type ListModelsReply, type ModelDetailDto, type ModelListItemDto, type PersonDto,
-  type PublishBody, type SaveDraftBody, type SetMaintainersBody, type SheetSummary, type UpdateModelBody,
+  type PublishBody, type ReviewEntryDto, type ReviewState, type SaveDraftBody, type SetMaintainersBody, type SheetSummary, type UpdateModelBody,
   type VersionDto, type VersionMetaDto, type VersionStatus,
 } from '../../shared/api/models'
 
@@ -51,8 +51,28 @@ async function people(db: Conn, ids: (number | null | undefined)[]): Promise<Map
 const unknownPerson = (id: number): PersonDto => ({ id, name: 'former member', email: '' })
 const person = (map: Map<number, PersonDto>, id: number) => map.get(id) ?? unknownPerson(id)
 
-function toVersionMeta(v: VersionRow, p: Map<number, PersonDto>): VersionMetaDto {
+/** The review history of these versions (oldest first), by version id. */
+export async function reviewHistory(db: Conn, versionIds: number[]): Promise<Map<number, ReviewEntryDto[]>> {
+  const out = new Map<number, ReviewEntryDto[]>()
+  if (!versionIds.length) return out
+  const rows = await db.select({ r: versionReviews, name: users.name, email: users.email }).from(versionReviews)
+    .leftJoin(users, eq(users.id, versionReviews.actorId))
+    .where(inArray(versionReviews.versionId, versionIds)).orderBy(asc(versionReviews.createdAt), asc(versionReviews.id))
+  for (const { r, name, email } of rows) {
+    const list = out.get(r.versionId) ?? []
+    list.push({
+      action: r.action as ReviewEntryDto['action'], comment: r.comment, at: iso(r.createdAt)!,
+      by: r.actorId !== null && name !== null ? { id: r.actorId, name, email: email ?? '' } : null,
+    })
+    out.set(r.versionId, list)
+  }
+  return out
+}
+
+function toVersionMeta(v: VersionRow, p: Map<number, PersonDto>, reviews: Map<number, ReviewEntryDto[]> = new Map()): VersionMetaDto {
   return {
+    review: v.status === 'approved' ? null : (v.review as ReviewState | null),
+    reviews: reviews.get(v.id) ?? [],
     number: v.number,
     note: v.note,
     author: person(p, v.authorId),
@@ -64,14 +84,14 @@ function toVersionMeta(v: VersionRow, p: Map<number, PersonDto>): VersionMetaDto
   }
 }
 
-function storedSummary(v: VersionRow): SheetSummary {
+export function storedSummary(v: VersionRow): SheetSummary {
   const r = sheetSummary.safeParse(v.summary)
   return r.success ? r.data : emptySheetSummary()
 }
 
-async function toVersion(db: Conn, v: VersionRow): Promise<VersionDto> {
+export async function toVersion(db: Conn, v: VersionRow): Promise<VersionDto> {
   const p = await people(db, [v.authorId, v.approvedBy])
-  return { ...toVersionMeta(v, p), modelId: v.modelId, text: v.text, summary: storedSummary(v) }
+  return { ...toVersionMeta(v, p, await reviewHistory(db, [v.id])), modelId: v.modelId, text: v.text, summary: storedSummary(v) }
 }
 
 /** The model of this workspace; 404 for a missing model or another workspace's. */
@@ -87,7 +107,7 @@ async function latestNumber(db: Conn, modelId: number): Promise<number> {
   return r.n
 }
 
-async function versionRow(db: Conn, modelId: number, number: number | 'latest'): Promise<VersionRow> {
+export async function versionRow(db: Conn, modelId: number, number: number | 'latest'): Promise<VersionRow> {
   const q = db.select().from(modelVersions)
   const [v] = number === 'latest'
     ? await q.where(eq(modelVersions.modelId, modelId)).orderBy(desc(modelVersions.number)).limit(1)
@@ -109,7 +129,7 @@ export async function assertNotTemplate(db: Db, actor: Actor, modelId: number): 
 }
 
 /** Publishing and editing a model: a modeler who maintains it, or an admin. */
-async function assertMaintainer(db: Conn, actor: Actor, m: ModelRow) {
+export async function assertMaintainer(db: Conn, actor: Actor, m: ModelRow) {
   if (actor.role === 'admin') return
   if (!can.write(actor.role)) throw forbidden(`Your role (${actor.role}) does not allow this: it needs the modeler or admin role.`)
   if (!(await isMaintainer(db, m.id, actor.userId))) {
@@ -220,13 +240,14 @@ export async function getModel(db: Conn, actor: Actor, modelId: number): Promise
     id: f.id, slug: f.slug, title: f.title, owner: person(p, f.ownerId), fromVersion: f.forkOfVersion ?? 1, createdAt: iso(f.createdAt)!,
   }))
   const admin = actor.role === 'admin'
+  const reviews = await reviewHistory(db, versions.map((v) => v.id))
   const usedIn = (await usersOf(db, m.id)).map((u) => ({ model: { id: u.modelId, slug: u.slug, title: u.title }, version: u.version, partVersion: u.partVersion }))
   return {
     ...listItem(m, latest, status, forks.length, p, origins),
     usedIn,
     createdAt: iso(m.createdAt)!,
     maintainers: maint.map((x) => person(p, x.id)).sort((a, b) => a.name.localeCompare(b.name)),
-    versions: versions.map((v) => toVersionMeta(v, p)),
+    versions: versions.map((v) => toVersionMeta(v, p, reviews)),
     forks: forkDtos,
     draft: draft ? { text: draft.text, baseVersion: draft.baseVersion, updatedAt: iso(draft.updatedAt)! } : null,
     can: {
@@ -386,7 +407,12 @@ export async function publishVersion(db: Db, actor: Actor, modelId: number, body
 }
 
 // ── review ──────────────────────────────────────────────────────────────────────────────────────
-export async function approveVersion(db: Db, actor: Actor, modelId: number, number: number): Promise<VersionDto> {
+/**
+ * Approve a version (the four-eyes rule of the workspace holds), with an optional comment kept in
+ * the version's review history. Approval records a review of an existing text: the model's
+ * "changed" date stays.
+ */
+export async function approveVersion(db: Db, actor: Actor, modelId: number, number: number, comment = ''): Promise<VersionDto> {
   if (!can.approve(actor.role)) throw forbidden(`Your role (${actor.role}) does not allow this: it needs the reviewer or admin role.`)
   const v = await db.transaction(async (tx) => {
     const m = await getModelRow(tx, actor.workspaceId, modelId, true)
@@ -395,12 +421,12 @@ export async function approveVersion(db: Db, actor: Actor, modelId: number, numb
     if (row.authorId === actor.userId && await fourEyesRule(tx as unknown as Db, actor.workspaceId)) {
       throw forbidden(`This workspace applies the four-eyes rule: you wrote version ${number}, so another reviewer or admin must approve it.`)
     }
-    const [u] = await tx.update(modelVersions).set({ status: 'approved', approvedBy: actor.userId, approvedAt: new Date() })
+    const [u] = await tx.update(modelVersions).set({ status: 'approved', approvedBy: actor.userId, approvedAt: new Date(), review: null })
       .where(eq(modelVersions.id, row.id)).returning()
-    await tx.update(models).set({ updatedAt: new Date() }).where(eq(models.id, m.id))
+    await tx.insert(versionReviews).values({ versionId: row.id, actorId: actor.userId, action: 'approved', comment })
     return u
   })
-  await audit(db, { workspaceId: actor.workspaceId, actorId: actor.userId, action: 'model.approved', target: `model:${modelId}`, details: { version: number }, ip: actor.ip })
+  await audit(db, { workspaceId: actor.workspaceId, actorId: actor.userId, action: 'model.approved', target: `model:${modelId}`, details: { version: number, ...(comment ? { comment } : {}) }, ip: actor.ip })
   return toVersion(db, v)
 }
 

@@ -5,10 +5,11 @@
 import { and, eq, inArray, ne } from 'drizzle-orm'
 import type { Db } from '../db/client'
 import type { Mailer } from '../mail/mailer'
-import { modelMaintainers, models, projects, runs, users, workspaces } from '../db/schema'
-import { fitSettledMail, modelForkedMail } from '../mail/templates'
+import { memberships, modelMaintainers, models, modelVersions, projects, runs, users, workspaces } from '../db/schema'
+import { changesRequestedMail, fitSettledMail, modelForkedMail, reviewRequestedMail } from '../mail/templates'
 import { createMailer } from '../mail/mailer'
 import { describeOutcome } from '../../shared/api/fit'
+import { can, type Role } from '../../shared/api/auth'
 
 export interface NotifyEnv { db: Db; mailer: Mailer; publicUrl: string }
 
@@ -54,6 +55,50 @@ export async function notifyForked(env: NotifyEnv, o: { sourceModelId: number; f
     if (ok) sent++
   }
   return sent
+}
+
+async function versionInfo(env: NotifyEnv, modelId: number, version: number) {
+  const [row] = await env.db.select({ title: models.title, workspaceId: models.workspaceId, ws: workspaces.slug, wsName: workspaces.name, authorId: modelVersions.authorId })
+    .from(models).innerJoin(workspaces, eq(workspaces.id, models.workspaceId))
+    .innerJoin(modelVersions, and(eq(modelVersions.modelId, models.id), eq(modelVersions.number, version)))
+    .where(eq(models.id, modelId)).limit(1)
+  return row ?? null
+}
+
+/**
+ * After a review request is stored: mails every member who may approve (reviewers and admins),
+ * except the person who asked. Returns the number of messages sent.
+ */
+export async function notifyReviewRequested(env: NotifyEnv, o: { modelId: number; version: number; requestedBy: number; comment: string }): Promise<number> {
+  const v = await versionInfo(env, o.modelId, o.version)
+  if (!v) return 0
+  const [by] = await env.db.select({ name: users.name }).from(users).where(eq(users.id, o.requestedBy))
+  const members = await env.db.select({ email: users.email, role: memberships.role }).from(memberships)
+    .innerJoin(users, eq(users.id, memberships.userId))
+    .where(and(eq(memberships.workspaceId, v.workspaceId), ne(memberships.userId, o.requestedBy)))
+  let sent = 0
+  for (const u of members.filter((x) => can.approve(x.role as Role))) {
+    const ok = await env.mailer.send(reviewRequestedMail({
+      to: u.email, model: v.title, version: o.version, workspace: v.wsName, by: by?.name ?? 'Someone', comment: o.comment,
+      link: link(env, `/w/${v.ws}/library/${o.modelId}?tab=history`),
+    }))
+    if (ok) sent++
+  }
+  return sent
+}
+
+/** After changes are requested: mails the version's author (unless they asked for the changes themselves). */
+export async function notifyChangesRequested(env: NotifyEnv, o: { modelId: number; version: number; by: number; comment: string }): Promise<number> {
+  const v = await versionInfo(env, o.modelId, o.version)
+  if (!v || v.authorId === o.by) return 0
+  const [author] = await env.db.select({ email: users.email }).from(users).where(eq(users.id, v.authorId))
+  const [by] = await env.db.select({ name: users.name }).from(users).where(eq(users.id, o.by))
+  if (!author) return 0
+  const ok = await env.mailer.send(changesRequestedMail({
+    to: author.email, model: v.title, version: o.version, by: by?.name ?? 'A reviewer', comment: o.comment,
+    link: link(env, `/w/${v.ws}/library/${o.modelId}?tab=history`),
+  }))
+  return ok ? 1 : 0
 }
 
 /** The environment for the functions above from an app context: `notifyForked(notifyEnvOf(ctx(req)), {...})`. */

@@ -6,15 +6,19 @@
 import { and, eq, inArray } from 'drizzle-orm'
 import type { Db } from '../db/client'
 import { models, modelVersionParts, modelVersions } from '../db/schema'
-import { loadParts, type ResolvePart, usesParts } from '../../shared/sheet'
+import { loadPartTexts, partsResolver, type ResolvePart, usesParts } from '../../shared/sheet'
 import type { SheetSummary } from '../../shared/api/models'
 
 type Conn = Db | Parameters<Parameters<Db['transaction']>[0]>[0]
 
-/** A resolver over every part the sheet needs, read from the workspace's library; null for a sheet without parts. */
-export async function workspaceParts(db: Conn, workspaceId: number, text: string): Promise<ResolvePart | null> {
-  if (!usesParts(text)) return null
-  return loadParts(text, async (handle, version) => {
+/**
+ * The texts of every part a sheet needs (recursively), keyed `handle@version`, read from the
+ * workspace's library: plain data that can travel to a worker thread or to the editor. Empty for a
+ * sheet without parts; parts missing from the library are left out (the flattener names them).
+ */
+export async function workspacePartTexts(db: Conn, workspaceId: number, text: string): Promise<Record<string, string>> {
+  if (!usesParts(text)) return {}
+  return loadPartTexts(text, async (handle, version) => {
     const [row] = await db.select({ text: modelVersions.text }).from(modelVersions)
       .innerJoin(models, eq(models.id, modelVersions.modelId))
       .where(and(eq(models.workspaceId, workspaceId), eq(models.slug, handle), eq(modelVersions.number, version))).limit(1)
@@ -22,21 +26,10 @@ export async function workspaceParts(db: Conn, workspaceId: number, text: string
   })
 }
 
-/**
- * The texts of every part a sheet needs (recursively), keyed `handle@version`, as plain data that can
- * travel to a worker thread (see partsResolver in shared/sheet/parts.ts). Empty for a sheet without parts.
- */
-export async function workspacePartTexts(db: Conn, workspaceId: number, text: string): Promise<Record<string, string>> {
-  const out: Record<string, string> = {}
-  if (!usesParts(text)) return out
-  await loadParts(text, async (handle, version) => {
-    const [row] = await db.select({ text: modelVersions.text }).from(modelVersions)
-      .innerJoin(models, eq(models.id, modelVersions.modelId))
-      .where(and(eq(models.workspaceId, workspaceId), eq(models.slug, handle), eq(modelVersions.number, version))).limit(1)
-    if (row) out[`${handle}@${version}`] = row.text
-    return row?.text ?? null
-  })
-  return out
+/** A resolver over every part the sheet needs (workspacePartTexts); null for a sheet without parts. */
+export async function workspaceParts(db: Conn, workspaceId: number, text: string): Promise<ResolvePart | null> {
+  if (!usesParts(text)) return null
+  return partsResolver(await workspacePartTexts(db, workspaceId, text)) ?? null
 }
 
 /** Record the part versions a new version uses (from its checked summary). */

@@ -1,7 +1,7 @@
 /**
  * The CPU-heavy steps of requests, sent to the request pool's worker threads (jobs/request-pool.ts) with
  * its time limit: compiling a sheet for a run, reading an uploaded CSV (and storing it), conditioning a
- * dataset. A context without a pool (scripts) does the work in place.
+ * dataset (the hand-over's analysis and exports go there from services/handover.ts). A context without a pool (scripts) does the work in place.
  */
 import type { AppContext } from '../context'
 import { RequestPool } from '../jobs/request-pool'

@@ -95,7 +95,8 @@ async function resolveRun(db: Db, workspaceId: number, projectId: number, body: 
   if (body.bindingId) {
     const [b] = await db.select().from(bindings).where(and(eq(bindings.id, body.bindingId), eq(bindings.projectId, projectId))).limit(1)
     if (!b) throw notFound('Binding')
-    if (b.modelId !== body.modelId || b.modelVersion !== body.version) throw badRequest(`Binding ${b.id} is for model ${b.modelId} version ${b.modelVersion}, not model ${body.modelId} version ${body.version}`)
+    // the binding gives the mapping; the run may take any version of its model (the form proposes the one the binding follows)
+    if (b.modelId !== body.modelId) throw badRequest(`Binding ${b.id} is for model ${b.modelId}, not model ${body.modelId}`, [{ path: 'body.bindingId', message: `binding ${b.id} binds another model` }])
     bindingId = b.id
     base = body.mapping ?? (b.mapping as ColumnMapping)
   }
@@ -153,6 +154,11 @@ async function resolveRun(db: Db, workspaceId: number, projectId: number, body: 
 
 export async function createRun(db: Db, jobs: JobRunner | undefined, workspaceId: number, projectId: number, userId: number, body: CreateRunBody, rerunOf: number | null = null, compile: SheetCompiler = compileHere): Promise<RunDto> {
   await getProjectRow(db, workspaceId, projectId)
+  if (rerunOf === null && body.rerunOf !== undefined) {
+    const [of] = await db.select({ id: runs.id }).from(runs).where(and(eq(runs.id, body.rerunOf), eq(runs.projectId, projectId))).limit(1)
+    if (!of) throw badRequest(`No run ${body.rerunOf} in this project to repeat`, [{ path: 'body.rerunOf', message: `no run ${body.rerunOf} in this project` }])
+    rerunOf = of.id
+  }
   const { settings, provenance } = await resolveRun(db, workspaceId, projectId, body, rerunOf, compile)
   const [row] = await db.insert(runs).values({
     workspaceId, projectId, modelId: body.modelId, modelVersion: body.version, bindingId: settings.bindingId,
@@ -169,9 +175,11 @@ export async function createRun(db: Db, jobs: JobRunner | undefined, workspaceId
 export async function rerun(db: Db, jobs: JobRunner | undefined, workspaceId: number, runId: number, userId: number, compile: SheetCompiler = compileHere) {
   const row = await getRunRow(db, workspaceId, runId)
   const s = row.settings as RunSettings
+  // a binding deleted since keeps nothing from the run: the run's own mapping is used
+  const [bound] = s.bindingId ? await db.select({ id: bindings.id }).from(bindings).where(eq(bindings.id, s.bindingId)).limit(1) : []
   const body: CreateRunBody = {
     modelId: row.modelId, version: row.modelVersion, name: `${s.name || `Run ${row.id}`} (again)`,
-    ...(s.bindingId ? { bindingId: s.bindingId } : {}),
+    ...(bound ? { bindingId: bound.id } : {}),
     estimation: s.estimation, validation: s.validation, mapping: s.mapping,
     free: s.free, initialStates: s.initialStates, method: s.method, starts: s.starts, weighting: s.weighting,
     ...(s.segments !== undefined ? { segments: s.segments } : {}),
@@ -200,7 +208,7 @@ function summaryOf(r: RunRow, modelTitle: string, projectName: string): RunSumma
     id: r.id, projectId: r.projectId, projectName, modelId: r.modelId, modelTitle, modelVersion: r.modelVersion,
     name: s.name || `Run ${r.id}`, status: r.status as RunStatus, progress: (r.progress as RunProgress | null) ?? null,
     error: r.error, cancelRequested: r.cancelRequested, createdAt: iso(r.createdAt)!, startedAt: iso(r.startedAt), finishedAt: iso(r.finishedAt),
-    createdBy: r.createdBy, sse: r.status === 'succeeded' ? result?.sse ?? null : null,
+    createdBy: r.createdBy, sse: r.status === 'succeeded' || r.status === 'cancelled' ? result?.sse ?? null : null,
     outcome: (r.outcome as FitStatus | null) ?? null, convergedBy: (r.convergedBy as ConvergenceTest | null) ?? null,
   }
 }

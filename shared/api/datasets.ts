@@ -154,9 +154,15 @@ export const columnMapping = z.object({
 })
 export type ColumnMapping = z.infer<typeof columnMapping>
 
+/** Which version a fit of a binding takes by default: the pinned one, the latest, or the newest approved. */
+export const bindingFollows = ['pinned', 'latest', 'approved'] as const
+export const bindingFollow = z.enum(bindingFollows)
+export type BindingFollow = z.infer<typeof bindingFollow>
+
 export const createBindingBody = z.object({
   modelId: z.coerce.number().int().positive(),
   version: z.coerce.number().int().positive(),
+  follow: bindingFollow.default('pinned'),
   name: visibleText('the binding name', 200).optional(),
   /** omitted: matched automatically against `datasetId`'s columns */
   mapping: columnMapping.optional(),
@@ -167,8 +173,13 @@ export type CreateBindingBody = z.infer<typeof createBindingBody>
 
 export const updateBindingBody = z.object({
   name: visibleText('the binding name', 200).optional(),
-  mapping: columnMapping,
-})
+  /** entries replace the binding's; signals left out keep their columns */
+  mapping: columnMapping.optional(),
+  /** the pinned version (its signals check the mapping) */
+  version: z.coerce.number().int().positive().optional(),
+  follow: bindingFollow.optional(),
+}).refine((b) => b.name !== undefined || b.mapping !== undefined || b.version !== undefined || b.follow !== undefined, { message: 'nothing to change: give name, mapping, version or follow' })
+export type UpdateBindingBody = z.infer<typeof updateBindingBody>
 
 /** How one sheet signal meets its column: the unit conversion applied, or why it fails. */
 export const mappingCheck = z.object({
@@ -189,9 +200,14 @@ export const bindingDto = z.object({
   projectId: z.number(),
   modelId: z.number(),
   modelTitle: z.string(),
+  /** the pinned version */
   modelVersion: z.number(),
+  follow: bindingFollow.default('pinned'),
+  /** the version a fit takes by default now (null: follows approved versions and none is approved) */
+  resolvedVersion: z.number().nullable(),
   name: z.string(),
   mapping: columnMapping,
+  /** the mapping against the resolved version's signals (the pinned one's when none resolves) */
   checks: z.array(mappingCheck),
   createdAt: z.string(),
 })

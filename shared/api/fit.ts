@@ -80,6 +80,17 @@ export const residualDiagnostics = z.object({
   autocorrelation: z.array(num),
   ljungBox: z.object({ q: num, lags: z.number().int(), pValue: num }),
   crossCorrelation: z.array(z.object({ input: z.string(), lags: z.array(z.number().int()), values: z.array(num) })),
+  /** median spacing of the samples in the sheet's time unit: lag k is k·sampleStep (absent on older runs) */
+  sampleStep: num.optional(),
+  timeUnit: z.string().optional(),
+  /** cumulative periodogram (frequency in cycles per sheet time unit, thinned for plotting) and its KS test */
+  periodogram: z.object({
+    frequency: z.array(num), cumulative: z.array(num), q: z.number().int(), band: num, d: num, pValue: num,
+  }).nullable().optional(),
+  /** Jarque–Bera test of normality */
+  normality: z.object({ test: z.literal('jarque-bera'), statistic: num, pValue: num, skewness: num, kurtosis: num }).nullable().optional(),
+  /** independence from each input: N Σ_{τ=0..L} r_ue(τ)² against χ²(L + 1) */
+  independence: z.array(z.object({ input: z.string(), statistic: num, dof: z.number().int(), pValue: num })).optional(),
 })
 export type ResidualDiagnostics = z.infer<typeof residualDiagnostics>
 
@@ -219,5 +230,7 @@ export const fitResult = z.object({
   cautions: z.array(z.string()),
   /** present when the fit used multiple shooting */
   multipleShooting: multipleShootingInfo.optional(),
+  /** present when the fit was stopped by request after some starts finished: the result is their best */
+  stoppedEarly: z.object({ finishedStarts: z.number().int(), plannedStarts: z.number().int() }).optional(),
 })
 export type FitResult = z.infer<typeof fitResult>

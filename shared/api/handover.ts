@@ -58,7 +58,7 @@ export const poleRow = z.object({
 
 export const operatingPointReply = z.object({
   status: z.enum(['unique', 'several', 'none']),
-  solutions: z.array(z.object({ x: z.array(num), stable: z.boolean().nullable(), residual: num, method: z.enum(['newton', 'continuation']) })),
+  solutions: z.array(z.object({ x: z.array(num), stable: z.boolean().nullable(), residual: num, method: z.enum(['newton', 'continuation', 'input-continuation']) })),
   starts: z.number().int(),
   messages: z.array(z.string()),
 })
@@ -85,7 +85,13 @@ export const linearAnalysis = z.object({
   C: matrix,
   D: matrix,
   poles: z.array(poleRow),
+  /** zeros of each input–output channel */
   zeros: z.array(z.object({ input: z.string(), output: z.string(), relativeDegree: z.number().int().nullable(), zeros: z.array(complex).nullable() })),
+  /**
+   * invariant zeros of the whole system: finite s where the pencil [A − sI, B; C, D] loses rank below
+   * its normal rank (null when they could not be computed, with a warning)
+   */
+  systemZeros: z.object({ zeros: z.array(complex), normalRank: z.number().int(), rows: z.number().int(), columns: z.number().int(), tolerance: num }).nullable(),
   dcGain: z.array(z.array(numOrNull)).nullable(),
   dcGainSd: z.array(z.array(numOrNull)).nullable(),
   controllability: z.object({ rank: z.number().int(), n: z.number().int(), tolerance: num }),

@@ -13,7 +13,7 @@ export type VersionStatus = z.infer<typeof versionStatus>
 /** Largest sheet text accepted (characters). */
 export const MAX_SHEET_CHARS = 200_000
 
-const sheetText = z.string().max(MAX_SHEET_CHARS, `a sheet may have at most ${MAX_SHEET_CHARS} characters`)
+export const sheetText = z.string().max(MAX_SHEET_CHARS, `a sheet may have at most ${MAX_SHEET_CHARS} characters`)
 const tag = z.string().trim().toLowerCase().min(1, 'a tag may not be empty').max(40, 'a tag has at most 40 characters')
   .regex(/^[a-z0-9][a-z0-9 _-]*$/, 'a tag uses letters, digits, spaces, - and _')
 
@@ -87,6 +87,30 @@ export type CheckReply = z.infer<typeof checkReply>
 export const personDto = z.object({ id: z.number(), name: z.string(), email: z.string() })
 export type PersonDto = z.infer<typeof personDto>
 
+// ── review ──────────────────────────────────────────────────────────────────────────────────────
+/** Where the review of a version not yet approved stands (null: nobody was asked). */
+export const reviewStates = ['requested', 'changes-requested'] as const
+export const reviewState = z.enum(reviewStates)
+export type ReviewState = z.infer<typeof reviewState>
+export const reviewActions = ['requested', 'approved', 'changes-requested'] as const
+/** One step of a version's review history, with its comment. */
+export const reviewEntryDto = z.object({
+  action: z.enum(reviewActions),
+  /** null when the account was deleted */
+  by: personDto.nullable(),
+  comment: z.string(),
+  at: z.string(),
+})
+export type ReviewEntryDto = z.infer<typeof reviewEntryDto>
+
+const reviewComment = z.string().trim().max(4000, 'a comment has at most 4000 characters')
+/** POST …/versions/:n/review-request and …/approve: an optional comment */
+export const reviewCommentBody = z.object({ comment: reviewComment.default('') })
+export type ReviewCommentBody = z.infer<typeof reviewCommentBody>
+/** POST …/versions/:n/request-changes: what should change */
+export const requestChangesBody = z.object({ comment: reviewComment.min(1, 'say what should change before approval') })
+export type RequestChangesBody = z.infer<typeof requestChangesBody>
+
 // ── versions ────────────────────────────────────────────────────────────────────────────────────
 /** A version without its text (lists, history). */
 export const versionMetaDto = z.object({
@@ -98,6 +122,9 @@ export const versionMetaDto = z.object({
   approvedBy: personDto.nullable(),
   approvedAt: z.string().nullable(),
   fromRunId: z.number().nullable(),
+  review: reviewState.nullable().default(null),
+  /** the review history, oldest first */
+  reviews: z.array(reviewEntryDto).default([]),
 })
 export type VersionMetaDto = z.infer<typeof versionMetaDto>
 
@@ -282,3 +309,20 @@ export type DiffReply = z.infer<typeof diffReply>
 
 export const deleteModelReply = z.object({ deleted: z.literal(true), id: z.number() })
 export type DeleteModelReply = z.infer<typeof deleteModelReply>
+
+// ── the review queue ────────────────────────────────────────────────────────────────────────────
+/** GET /api/workspaces/:ws/reviews: versions awaiting review, oldest request first */
+export const reviewQueueItem = z.object({
+  model: modelRefDto,
+  version: z.number(),
+  note: z.string(),
+  author: personDto,
+  requestedBy: personDto.nullable(),
+  requestedAt: z.string(),
+  comment: z.string(),
+  /** the caller wrote this version and the four-eyes rule applies: someone else approves it */
+  ownWork: z.boolean(),
+})
+export type ReviewQueueItem = z.infer<typeof reviewQueueItem>
+export const reviewQueueReply = z.object({ items: z.array(reviewQueueItem) })
+export type ReviewQueueReply = z.infer<typeof reviewQueueReply>

@@ -5,7 +5,7 @@
 import { z } from 'zod'
 import { nameProblem, visibleText } from './text'
 import { columnMapping } from './datasets'
-import { convergenceTest, fitMethod, fitStatus, fitWeighting, landscapeResult } from './fit'
+import { convergenceTest, fitMethod, fitResult, fitStatus, fitWeighting, landscapeResult } from './fit'
 
 /**
  * The run's lifecycle. 'succeeded' means the fit ran to its end and stored a result ("finished" on the
@@ -62,6 +62,8 @@ export const createRunBody = z.object({
   seed: z.number().int().min(0).max(2 ** 31 - 1).optional(),
   /** validation records start from the sheet's initial state, or from initial states estimated on each (parameters frozen) */
   validationStart: z.enum(['sheet', 'estimate']).optional(),
+  /** the run this one repeats, when started from its "run again" form (a run of the same project) */
+  rerunOf: z.coerce.number().int().positive().optional(),
 })
 export type CreateRunBody = z.infer<typeof createRunBody>
 
@@ -101,6 +103,24 @@ export const provenance = z.object({
 })
 export type Provenance = z.infer<typeof provenance>
 
+/**
+ * While a multiple-shooting fit runs: one output of one estimation record, measured, and each
+ * segment's own simulated line at the current iterate (time in seconds, values in the declared unit;
+ * thinned to a few hundred points).
+ */
+export const liveSegmentLine = z.object({
+  experiment: z.string(),
+  output: z.string(),
+  unit: z.string(),
+  t: z.array(z.number()),
+  measured: z.array(z.number().nullable()),
+  segments: z.array(z.object({ t: z.array(z.number()), y: z.array(z.number().nullable()) })),
+})
+export type LiveSegmentLine = z.infer<typeof liveSegmentLine>
+/** One estimated quantity while the fit runs (per-record quantities carry the record in brackets). */
+export const progressEstimate = z.object({ name: z.string(), unit: z.string(), value: z.number() })
+export type ProgressEstimate = z.infer<typeof progressEstimate>
+
 export const runProgress = z.object({
   /** iteration of the current start */
   iteration: z.number(),
@@ -113,10 +133,14 @@ export const runProgress = z.object({
   starts: z.number(),
   message: z.string(),
   updatedAt: z.string(),
+  /** multiple shooting: the segments' lines at iteration `segmentIteration` (refreshed at most twice a second) */
+  segmentLines: z.array(liveSegmentLine).optional(),
+  segmentIteration: z.number().optional(),
+  /** the estimates at the best cost so far, in declared units (absent on rows written before they were reported) */
+  estimates: z.array(progressEstimate).optional(),
 })
 export type RunProgress = z.infer<typeof runProgress>
 
-/** Measured against simulated output for one experiment (time in seconds, values in the column's unit). */
 /** Measured against simulated output for one experiment (time in seconds, values in the sheet's declared unit). */
 export const outputTrace = z.object({
   experiment: z.number(),
@@ -129,6 +153,11 @@ export const outputTrace = z.object({
   t: z.array(z.number()),
   measured: z.array(z.number().nullable()),
   simulated: z.array(z.number().nullable()),
+  /**
+   * half-width of the 95 % band of the simulated output from the parameter covariance (first-order
+   * propagation through the output sensitivities); absent when the covariance is not available
+   */
+  band: z.array(z.number().nullable()).optional(),
 })
 export type OutputTrace = z.infer<typeof outputTrace>
 
@@ -173,6 +202,13 @@ export const runDto = runSummaryDto.extend({
   caution: z.string(),
 })
 export type RunDto = z.infer<typeof runDto>
+
+/**
+ * A stored run result as the results pages read it: the fit JSON plus the traces the server simulated
+ * (absent on results stored without them). Unknown keys (caches) are kept.
+ */
+export const storedRunResult = fitResult.extend({ traces: z.array(outputTrace).default([]) }).loose()
+export type StoredRunResult = z.infer<typeof storedRunResult>
 
 export const saveParameterSetBody = z.object({ name: visibleText('the parameter set name', 200) })
 export const publishFromRunBody = z.object({ note: z.string().trim().max(2000).optional() })

@@ -12,6 +12,7 @@ export type SimulationErrorCode =
   | 'input_trace'
   | 'steady_state'
   | 'bad_request'
+  | 'chattering'
 
 export class SimulationError extends Error {
   readonly code: SimulationErrorCode
@@ -134,4 +135,17 @@ export class SimulationRequestError extends SimulationError {
 
 export function fmt(v: number): string {
   return Number.isFinite(v) ? String(Number(v.toPrecision(10))) : String(v)
+}
+
+/**
+ * Events fired again and again within a vanishing time (a switch without hysteresis, a ball coming
+ * to rest): the run stops instead of crawling; see shared/engine/events.ts.
+ */
+export class ChatteringError extends SimulationError {
+  readonly events: string[]
+  constructor(count: number, from: number, to: number, events: string[]) {
+    super('chattering', `chattering: ${count} events within ${fmt(to - from)} time units up to t = ${fmt(to)}, from the event${events.length > 1 ? 's' : ''} at ${events.join(', ')}; the condition is met again right after each switch. Give the switch hysteresis (switch on below one threshold and off above another), make the reset move the state clear of the condition, or stop the run before the motion dies out`, to)
+    this.name = 'ChatteringError'
+    this.events = events
+  }
 }

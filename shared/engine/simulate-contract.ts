@@ -59,4 +59,9 @@ export interface SimulationResult {
   x0: Float64Array
   stats: SimulationStats
   warnings: string[]
+  /**
+   * sheets with events: every event that fired, in time order (time, event index, its line) and, with
+   * sensitivities, the event time's sensitivities dτ/dθ in the order of θ
+   */
+  events?: { t: number; event: number; line: number; dt: Float64Array | null }[]
 }

@@ -7,8 +7,9 @@
  *   delay for delayed reads); the solver lands on each breakpoint and keeps its step size.
  * - Outputs come at exactly the requested times from the method's dense output.
  * - Steady initial states are solved first (steady.ts); discrete sheets iterate (discrete.ts).
- * - Sensitivity error control: ∂x_i/∂θ_j · |θ_j| (|θ_j| = 1 when θ_j = 0) is measured like state i;
- *   `errorControl: false` leaves sensitivities out of it.
+ * - Sensitivity error control: ∂x_i/∂θ_j · |θ_j| (|θ_j| = 1 when θ_j = 0) is measured like state i
+ *   by the explicit methods; the stiff method measures the states only unless `errorControl: true`;
+ *   `errorControl: false` leaves sensitivities out of every method's error control.
  * - Work buffers are cached per model and sensitivity layout: repeated calls (a fit) do not allocate
  *   beyond the result arrays.
  */
@@ -24,10 +25,14 @@ import { AutoSolver } from './solvers/auto'
 import { OdexSolver } from './solvers/odex'
 import { Rk45 } from './solvers/rk45'
 import { Rosenbrock } from './solvers/rosenbrock'
+import { resetModes } from './events'
 import { now, type OdeSolver, type SolverLimits, type Tolerances } from './solvers/types'
 
 export const DEFAULT_RTOL = 1e-6
 export const DEFAULT_MAX_STEPS = 100_000
+
+/** thrown from the step observer to end a solver's advance at an event (one object, never allocated again) */
+const EVENT_STOP = Object.freeze({ eventStop: true })
 
 function solverFor(ws: Workspace, name: SolverName): OdeSolver {
   let s = ws.solvers[name]
@@ -86,6 +91,8 @@ export function simulate(model: CompiledModel, req: SimulationRequest): Simulati
   const sens = sensLayout(model, req)
   const ws = workspace(model, sens)
   const { sys, tol, zStart: z0 } = ws
+  // every run starts in the sheet's modes (the steady solve too)
+  resetModes(model)
   const nx = model.nx
   const ns = sens.length
   const tOut = req.tOut
@@ -121,7 +128,10 @@ export function simulate(model: CompiledModel, req: SimulationRequest): Simulati
     if (!(a > 0)) throw new SimulationRequestError(`atol for state '${model.states[i].name}' must be > 0, got ${a}`)
     tol.atol[i] = a
   }
+  // errorControl: true → sensitivities in every method's error norm; false → in none; not given →
+  // in the explicit methods' (rk45, odex) but not the stiff method's (rosenbrock.ts, error control)
   const sensCtl = req.sensitivities?.errorControl !== false
+  tol.stiffSensitivities = req.sensitivities?.errorControl === true
   for (let i = 0; i < nx; i++) tol.weight[i] = 1
   for (let j = 0; j < ns; j++) {
     const th = sens[j].param >= 0 ? p[sens[j].param] : x0[sens[j].state]
@@ -166,15 +176,40 @@ export function simulate(model: CompiledModel, req: SimulationRequest): Simulati
     solver.start(sys, tol, limits, t0, z0, 0)
     const bps = inputs.breakpoints(t0, tEnd)
     const zd = ws.zScratch
-    const obs = (_a: number, b: number): void => {
-      while (iOut < nt && tOut[iOut] <= b) {
+    /** outputs up to `limit` (inclusive or not) from the last step */
+    const flush = (limit: number, inclusive: boolean): void => {
+      while (iOut < nt && (inclusive ? tOut[iOut] <= limit : tOut[iOut] < limit)) {
         const tq = tOut[iOut]
-        if (tq === b) writeOut(model, ws, inputs, solver.z, iOut, tq, res)
+        if (tq === solver.t) writeOut(model, ws, inputs, solver.z, iOut, tq, res)
         else {
           solver.dense(tq, zd)
           writeOut(model, ws, inputs, zd, iOut, tq, res)
         }
         iOut++
+      }
+    }
+    const obs = (_a: number, b: number): void => flush(b, true)
+    const mon = ws.events
+    /** steps to b; the first event in a step ends it there (events.ts) and the solver restarts after it */
+    let te = 0, hNext = 0
+    const obsEvents = (ta: number, tb: number): void => {
+      const ev = mon!
+      te = ev.locate(solver, ta, tb)
+      if (te === Infinity) { flush(tb, true); return }
+      flush(te, false)
+      solver.dense(te, ws.zEvent)
+      hNext = solver.h
+      ev.fire(te, ws.zEvent)
+      throw EVENT_STOP
+    }
+    const advanceEvents = (b: number): void => {
+      while (solver.t < b) {
+        try {
+          solver.advance(b, obsEvents)
+        } catch (e) {
+          if (e !== EVENT_STOP) throw e
+          solver.restartAt(te, ws.zEvent, hNext)
+        }
       }
     }
     const tauHold = sens.some((s) => s.delaySlots.some((slot) => inputs.isHoldTrace(slot)))
@@ -195,6 +230,7 @@ export function simulate(model: CompiledModel, req: SimulationRequest): Simulati
         if (k > 0 && checkJumps) inputs.eval(a, ws.uAt) // left limit at the breakpoint
         if (k > 0 && tauSlope) inputs.slope(ws.slopeLeft)
         inputs.setSegment(0.5 * (a + b))
+        if (k === 0 && mon !== null) mon.begin(inputs, t0, tEnd, solver.z)
         if (k > 0 && (checkJumps || tauSlope)) {
           let jump = false
           if (checkJumps) {
@@ -213,11 +249,18 @@ export function simulate(model: CompiledModel, req: SimulationRequest): Simulati
             solver.breakpoint()
           }
         }
-        solver.advance(b, obs)
+        if (mon === null) solver.advance(b, obs)
+        else advanceEvents(b)
         a = b
       }
     } catch (e) {
+      resetModes(model)
       throw withAdvice(e, solver, limits, tol, ns > 0 && sensCtl, a)
+    }
+    if (mon !== null) {
+      res.events = mon.log
+      res.warnings.push(...mon.warnings)
+      resetModes(model)
     }
     const c = solver.counters
     res.stats.steps = c.steps
@@ -240,7 +283,10 @@ function withAdvice(e: unknown, solver: OdeSolver, limits: SolverLimits, tol: To
   let rtol = Infinity
   for (let i = 0; i < tol.rtol.length; i++) rtol = Math.min(rtol, tol.rtol[i])
   const auto = solver instanceof AutoSolver ? solver : null
-  const ctx: RunContext = { solver: solver.name, switched: auto !== null && auto.switched, rtol, maxSteps: limits.maxSteps, sensitivities: sens }
+  const switched = auto !== null && auto.switched
+  // the stiff method measures the sensitivities only when asked to (errorControl: true)
+  const measured = sens && (solver.name === 'stiff' || switched ? tol.stiffSensitivities === true : true)
+  const ctx: RunContext = { solver: solver.name, switched, rtol, maxSteps: limits.maxSteps, sensitivities: measured }
   const t = e.t ?? tSeg
   return e instanceof StepLimitError ? new StepLimitError(e.maxSteps, t, adviceFor('step_limit', ctx)) : new StepSizeTooSmallError(t, e.h, adviceFor('step_too_small', ctx))
 }

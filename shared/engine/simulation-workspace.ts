@@ -10,6 +10,7 @@ import type { SimulationResult, SolverName } from './simulate-contract'
 import type { InputSet } from './inputs'
 import { ModelSystem, type SensSpec } from './system'
 import type { OdeSolver, Tolerances } from './solvers/types'
+import { EventMonitor } from './events'
 
 export interface Workspace {
   sys: ModelSystem
@@ -40,6 +41,10 @@ export interface Workspace {
   slopeRight: Float64Array
   /** the states' names, for error messages */
   stateNames: string[]
+  /** the augmented state at an event time (sheets with events) */
+  zEvent: Float64Array
+  /** zero-crossing monitor of the sheet's events, or null when it has none */
+  events: EventMonitor | null
 }
 
 const cache = new WeakMap<CompiledModel, Map<string, Workspace>>()
@@ -74,6 +79,8 @@ export function workspace(model: CompiledModel, sens: SensSpec[]): Workspace {
       slopeLeft: new Float64Array(Math.max(1, nuu)),
       slopeRight: new Float64Array(Math.max(1, nuu)),
       stateNames: model.states.map((s) => s.name),
+      zEvent: new Float64Array(sys.n),
+      events: model.ne > 0 ? new EventMonitor(model, sys) : null,
     }
     if (m.size > 16) m.clear()
     m.set(key, ws)

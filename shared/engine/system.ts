@@ -37,6 +37,11 @@ export class ModelSystem implements OdeSystem {
   readonly Fu: Float64Array
   private readonly needFp: boolean
   private readonly needFu: boolean
+  /** packed arguments of model.d2f: [x, s, v, vt], [p, q], [u, r, ν] */
+  private readonly X: Float64Array
+  private readonly P: Float64Array
+  private readonly U: Float64Array
+  private readonly d2: Float64Array
 
   constructor(model: CompiledModel, sens: SensSpec[]) {
     this.model = model
@@ -53,6 +58,10 @@ export class ModelSystem implements OdeSystem {
     this.Fu = new Float64Array(Math.max(1, model.nx * this.nuu))
     this.needFp = sens.some((s) => s.param >= 0)
     this.needFu = sens.some((s) => s.delaySlots.length > 0)
+    this.X = new Float64Array(3 * model.nx + 1)
+    this.P = new Float64Array(2 * model.np)
+    this.U = new Float64Array(3 * this.nuu)
+    this.d2 = new Float64Array(model.nx)
   }
 
   f(t: number, z: Float64Array, dz: Float64Array): void {
@@ -101,6 +110,45 @@ export class ModelSystem implements OdeSystem {
         for (let k = 0; k < this.nuu; k++) acc += this.Fu[i * this.nuu + k] * this.du[k]
         ft[i] += acc
       }
+    }
+  }
+
+  /**
+   * M_j·v + (∂/∂t of block j)·vt for each sensitivity j, exactly, from the sheet's generated
+   * second directional derivative d2f (coupling-codegen.ts): w = (s_j, e_θj, r_j) with
+   * r_j = −u'/s on a delay parameter's slots (the ∂f/∂tau term of f above), and the second
+   * direction (v, vt, vt·u') in (x, t, u): the inputs move with t at their interval's slope.
+   */
+  couple(t: number, z: Float64Array, v: Float64Array, vt: number, out: Float64Array): void {
+    const ns = this.ns
+    if (ns === 0) return
+    const { model, X, P, U, d2, nuu } = this
+    const nx = this.nBlock
+    const np = model.np
+    this.inputs.eval(t, this.u)
+    if (nuu > 0) this.inputs.slope(this.du)
+    for (let i = 0; i < nx; i++) {
+      X[i] = z[i]
+      X[2 * nx + i] = v[i]
+    }
+    X[3 * nx] = vt
+    for (let k = 0; k < np; k++) P[k] = this.p[k]
+    for (let k = 0; k < nuu; k++) {
+      U[k] = this.u[k]
+      U[nuu + k] = 0
+      U[2 * nuu + k] = vt * this.du[k]
+    }
+    const spt = model.secondsPerTimeUnit
+    for (let j = 0; j < ns; j++) {
+      const sj = this.sens[j]
+      const off = (j + 1) * nx
+      for (let i = 0; i < nx; i++) X[nx + i] = z[off + i]
+      if (sj.param >= 0) P[np + sj.param] = 1
+      for (let q = 0; q < sj.delaySlots.length; q++) U[nuu + sj.delaySlots[q]] = -this.du[sj.delaySlots[q]] / spt
+      model.d2f(t, X, P, U, d2)
+      if (sj.param >= 0) P[np + sj.param] = 0
+      for (let q = 0; q < sj.delaySlots.length; q++) U[nuu + sj.delaySlots[q]] = 0
+      for (let i = 0; i < nx; i++) out[off + i] += d2[i]
     }
   }
 }

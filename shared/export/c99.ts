@@ -11,7 +11,7 @@ import type { CompiledModel } from '../sheet/compiled'
 import type { ParsedModel } from '../sheet/model'
 import { GENERATED, generateFunctions, type Dialect } from '../sheet/codegen'
 import type { CmpOp, FnName } from '../sheet/ast'
-import { blockComment, metaLines, type ExportMeta } from './meta'
+import { blockComment, metaLines, refuseEvents, type ExportMeta } from './meta'
 
 /** a C double literal that reads back to exactly v */
 export function cLit(v: number): string {
@@ -62,6 +62,7 @@ const strs = (xs: string[]) => (xs.length ? xs.map((s) => JSON.stringify(s)).joi
  * all nu + nd input slots).
  */
 export function exportC(parsed: ParsedModel, model: CompiledModel, p: Float64Array, meta: ExportMeta, prefix: string, x0?: Float64Array): CExport {
+  refuseEvents(model, 'C')
   const P = prefix.toUpperCase()
   const d = cDialect(prefix)
   const fns = generateFunctions(parsed, d)

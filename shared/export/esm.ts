@@ -6,12 +6,13 @@
  */
 import type { CompiledModel } from '../sheet/compiled'
 import type { ParsedModel } from '../sheet/model'
-import { blockComment, metaLines, type ExportMeta } from './meta'
+import { blockComment, metaLines, refuseEvents, type ExportMeta } from './meta'
 
 const js = (v: unknown) => JSON.stringify(v)
 const f64 = (xs: ArrayLike<number>) => `Float64Array.of(${Array.from(xs, (v) => (Number.isNaN(v) ? 'NaN' : v === Infinity ? 'Infinity' : v === -Infinity ? '-Infinity' : Object.is(v, -0) ? '-0' : String(v))).join(', ')})`
 
 export function exportEsModule(parsed: ParsedModel, model: CompiledModel, p: Float64Array, meta: ExportMeta, x0?: Float64Array): string {
+  refuseEvents(model, 'ES module')
   const nuu = model.nu + model.nd
   const u0 = new Float64Array(nuu)
   model.inputs.forEach((s, i) => (u0[i] = s.value))

@@ -17,7 +17,7 @@ import type { ParsedModel } from '../sheet/model'
 import { hashText } from '../sheet/hash'
 import { AnalysisInputError } from '../engine/linear/errors'
 import { exportC } from './c99'
-import { blockComment, metaLines, type ExportMeta } from './meta'
+import { blockComment, metaLines, refuseEvents, type ExportMeta } from './meta'
 import { zipStore } from './zip'
 
 const xml = (s: string) => s.replace(/&/g, '&amp;').replace(/</g, '&lt;').replace(/>/g, '&gt;').replace(/"/g, '&quot;')
@@ -314,6 +314,7 @@ export interface FmuExport {
 }
 
 export function exportFmu(parsed: ParsedModel, model: CompiledModel, p: Float64Array, meta: ExportMeta, id: string, x0?: Float64Array): FmuExport {
+  refuseEvents(model, 'FMU')
   if (model.kind !== 'continuous') throw new AnalysisInputError('an FMU for Model Exchange needs a continuous sheet; this sheet is discrete (export it as C or an ES module)')
   if (model.nd > 0) throw new AnalysisInputError(`the sheet delays input(s) ${model.delays.map((d) => `'${model.inputs[d.input].name}'`).join(', ')}: Pewter's FMU export has no delay buffer (export as C or an ES module and supply the delayed values)`)
   const x = x0 ?? Float64Array.from(model.states, (s) => s.initial)

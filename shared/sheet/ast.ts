@@ -22,8 +22,8 @@ export type Cols = [number, number]
 
 export type Expr =
   | { k: 'num'; v: number; s?: Cols }
-  /** state, parameter, input (index may be a delayed slot nu + k), constant, let, derivative temporary */
-  | { k: 'x' | 'p' | 'u' | 'c' | 'let' | 'tmp'; i: number; s?: Cols }
+  /** state, parameter, input (index may be a delayed slot nu + k), constant, let, derivative temporary, mode */
+  | { k: 'x' | 'p' | 'u' | 'c' | 'let' | 'tmp' | 'm'; i: number; s?: Cols }
   /** the time, in seconds (t_sheet * secondsPerTimeUnit) */
   | { k: 't'; s?: Cols }
   | { k: 'neg'; a: Expr; s?: Cols }

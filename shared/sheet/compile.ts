@@ -10,7 +10,8 @@ function unitMap(u: UnitInfo | null) {
 
 export function buildCompiled(m: ParsedModel): CompiledModel {
   const source = generateSource(m)
-  const fns = instantiate(source, m)
+  const modeValues = Float64Array.from(m.modes, (x) => x.initial)
+  const { events: eventFns, ...fns } = instantiate(source, m, modeValues)
   return {
     hash: m.hash,
     title: m.title,
@@ -28,6 +29,16 @@ export function buildCompiled(m: ParsedModel): CompiledModel {
     nu: m.inputs.length,
     nd: m.delays.length,
     ny: m.outputs.length,
+    modes: m.modes.map((x) => ({ name: x.name, description: x.description, initial: x.initial, line: x.span.line })),
+    events: m.events.map((e) => ({
+      direction: e.direction, text: e.text, description: e.description, line: e.span.line,
+      states: e.resets.flatMap((r) => (r.target === 'state' ? [r.index] : [])),
+      modes: e.resets.flatMap((r) => (r.target === 'mode' ? [{ mode: r.index, value: r.value }] : [])),
+    })),
+    nm: m.modes.length,
+    ne: m.events.length,
+    modeValues,
+    eventFns: eventFns ?? null,
     ...fns,
     source,
   }

@@ -78,6 +78,42 @@ export interface DelayInfo {
 
 export type VecFn = (t: number, x: Float64Array, p: Float64Array, u: Float64Array, out: Float64Array) => void
 
+/** A switch position the equations read (see shared/sheet/events.ts). */
+export interface ModeInfo {
+  name: string
+  description: string
+  /** position at the start of every simulation */
+  initial: number
+  line: number
+}
+
+/** One event: where its condition h = A − B crosses zero, and what it sets. */
+export interface EventInfo {
+  /** 'down': h from > 0 to <= 0; 'up': from < 0 to >= 0; 'either' */
+  direction: 'up' | 'down' | 'either'
+  /** the condition as written, for messages */
+  text: string
+  description: string
+  line: number
+  /** states the event assigns (their new values come from `events.resets[k].x`) */
+  states: number[]
+  /** modes the event sets, and their new positions */
+  modes: { mode: number; value: number }[]
+}
+
+/** Generated functions of the events (ne conditions; per event the post-event states and their Jacobians). */
+export interface EventFunctions {
+  /** h, ne values */
+  h: VecFn
+  /** ∂h/∂x (ne×nx), ∂h/∂p (ne×np), ∂h/∂u (ne×(nu+nd)), ∂h/∂t (ne; per sheet time unit) */
+  dhdx: VecFn
+  dhdp: VecFn
+  dhdu: VecFn
+  dhdt: VecFn
+  /** per event: x⁺ = r(t, x⁻, p, u) for all nx states (unassigned states keep their value) and its Jacobians */
+  resets: { x: VecFn; dx: VecFn; dp: VecFn; du: VecFn; dt: VecFn }[]
+}
+
 export interface CompiledModel {
   hash: string
   title: string
@@ -113,6 +149,25 @@ export interface CompiledModel {
   dgdp: VecFn
   /** ∂g/∂u, ny*(nu+nd) */
   dgdu: VecFn
+  /**
+   * The sensitivities' coupling term, nx values: the second directional derivative
+   * D_v D_w f with w = (s, q, r) in (x, p, u) and v = (v_x, τ, ν) in (x, t, u), called with packed
+   * arrays X = [x, s, v_x, τ] (3nx + 1), P = [p, q] (2np), U = [u, r, ν] (3(nu+nd))
+   * (coupling-codegen.ts).
+   */
+  d2f: VecFn
+  /** switch positions (modes) and events; nm = modes.length, ne = events.length */
+  modes: ModeInfo[]
+  events: EventInfo[]
+  nm: number
+  ne: number
+  /**
+   * The current mode positions every generated function reads (length nm). The engine sets them to
+   * the initial positions when a simulation starts and ends, and changes them at events.
+   */
+  modeValues: Float64Array
+  /** present when ne > 0 */
+  eventFns: EventFunctions | null
   /** the generated JavaScript source, for inspection */
   source: string
 }

@@ -11,21 +11,54 @@
  */
 import { add, cmp, cond, div, type Expr, fn, mul, neg, num, ONE, pow, sub, ZERO, isNum, constValue } from './ast'
 
-export type Var = { k: 'x' | 'p' | 'u'; i: number } | { k: 't' }
+/** One state, parameter, input slot or the time. */
+export type PointVar = { k: 'x' | 'p' | 'u'; i: number } | { k: 't' }
+/**
+ * A direction: the derivative of an expression along it is Σ ∂e/∂x_i·x[i] + Σ ∂e/∂p_i·p[i] +
+ * Σ ∂e/∂u_i·u[i] + ∂e/∂t_sheet·t (forward-mode differentiation by the chain rule in one pass);
+ * an index past the end of a seed list counts as 0.
+ */
+export type Direction = { k: 'dir'; x: Expr[]; p: Expr[]; u: Expr[]; t: Expr }
+export type Var = PointVar | Direction
 
 export interface DiffContext {
   /** d(let i)/dv: a temporary holding it, or ZERO */
   letDerivative(i: number): Expr
+  /** d(temporary i)/dv, for differentiating a derivative again (default: ZERO) */
+  tmpDerivative?(i: number): Expr
   /** d(t_seconds)/d(t_sheet) */
   secondsPerTimeUnit: number
+  /**
+   * derivatives already taken, by node: a subtree shared by reference is differentiated once and
+   * its derivative shared too (without it, differentiating twice grows exponentially with depth)
+   */
+  memo?: Map<Expr, Expr>
 }
 
 export function diff(e: Expr, v: Var, ctx: DiffContext): Expr {
+  const memo = ctx.memo
+  if (memo === undefined) return diffNode(e, v, ctx)
+  let d = memo.get(e)
+  if (d === undefined) {
+    d = diffNode(e, v, ctx)
+    memo.set(e, d)
+  }
+  return d
+}
+
+function diffNode(e: Expr, v: Var, ctx: DiffContext): Expr {
   switch (e.k) {
-    case 'num': case 'c': case 'tmp': return ZERO
-    case 'x': case 'p': case 'u': return v.k === e.k && v.i === e.i ? ONE : ZERO
-    case 'delay': return v.k === 'u' && v.i === e.slot ? ONE : ZERO
-    case 't': return v.k === 't' ? num(ctx.secondsPerTimeUnit) : ZERO
+    case 'num': case 'c': case 'm': return ZERO
+    case 'tmp': return ctx.tmpDerivative ? ctx.tmpDerivative(e.i) : ZERO
+    case 'x': case 'p': case 'u':
+      if (v.k === 'dir') return v[e.k][e.i] ?? ZERO
+      return v.k === e.k && v.i === e.i ? ONE : ZERO
+    case 'delay':
+      if (v.k === 'dir') return v.u[e.slot] ?? ZERO
+      return v.k === 'u' && v.i === e.slot ? ONE : ZERO
+    case 't':
+      if (v.k === 'dir') return mul(num(ctx.secondsPerTimeUnit), v.t)
+      return v.k === 't' ? num(ctx.secondsPerTimeUnit) : ZERO
     case 'let': return ctx.letDerivative(e.i)
     case 'neg': return neg(diff(e.a, v, ctx))
     case 'cmp': return ZERO

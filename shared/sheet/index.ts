@@ -15,7 +15,7 @@ import { parseSheet } from './parser'
 import { flattenSheet, mapDiagnostics, type FlattenResult, type ResolvePart, usesParts } from './parts'
 import { emptySummary, type SheetSummary, summarize } from './summary'
 
-export { flattenSheet, loadParts, partRefs, usesParts, type PartRef, type ResolvePart } from './parts'
+export { flattenSheet, loadParts, loadPartTexts, partRefs, partsResolver, repinParts, usesParts, type PartRef, type ResolvePart } from './parts'
 
 /** Where a sheet's parts come from (see parts.ts); without it a sheet with parts is an error. */
 export interface SheetOptions {

@@ -84,6 +84,30 @@ export interface OutputDecl extends DeclBase {
   declaredSigma: number | null
 }
 
+/** A discrete mode (switch position) that equations read: 0 for off/closed, 1 for on/open, or a whole number. */
+export interface ModeDecl extends DeclBase {
+  initial: number
+}
+
+/** One assignment of an event: a state gets the value of an expression, or a mode a position. */
+export type ResetDecl =
+  | { target: 'state'; index: number; expr: Expr; text: string; span: Span }
+  | { target: 'mode'; index: number; value: number; span: Span }
+
+/** `event A falls below B then …`: the condition h = A − B crossing zero in a direction. */
+export interface EventDecl {
+  lhs: Expr
+  rhs: Expr
+  /** 'down': h goes from > 0 to <= 0 (falls below); 'up': from < 0 to >= 0 (rises above); 'either' (crosses) */
+  direction: 'up' | 'down' | 'either'
+  /** the condition as written */
+  text: string
+  description: string
+  /** the `event` keyword */
+  span: Span
+  resets: ResetDecl[]
+}
+
 export interface ParsedModel {
   /** hash of the sheet text */
   hash: string
@@ -106,6 +130,10 @@ export interface ParsedModel {
   equations: EquationDecl[]
   outputs: OutputDecl[]
   delays: DelayInfo[]
+  /** switch positions read by the equations, changed only by events */
+  modes: ModeDecl[]
+  /** events in sheet order */
+  events: EventDecl[]
   /** parts the sheet declares and every part version it holds (sheets with parts only) */
   parts?: { name: string; handle: string; version: number; description: string; line: number; inputs: { name: string; unit: string }[]; outputs: { name: string; unit: string }[] }[]
   partsUsed?: { handle: string; version: number }[]

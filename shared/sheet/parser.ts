@@ -9,17 +9,20 @@ import { type Diagnostic, DiagnosticList, type Span } from './diagnostics'
 import { buildExpr, type ExprContext } from './expression'
 import { hashText } from './hash'
 import { LineScanner, NUMBER_RE, stripComment, type Tok } from './line-scanner'
-import type { ConstDecl, EquationDecl, InputDecl, LetDecl, LookupDecl, OutputDecl, ParamDecl, ParsedModel, StateDecl } from './model'
+import type { ConstDecl, EquationDecl, InputDecl, LetDecl, LookupDecl, ModeDecl, OutputDecl, ParamDecl, ParsedModel, StateDecl } from './model'
 import { didYouMean } from '../did-you-mean'
 import { checkUnits } from './unit-check'
 import { checkComparisons } from './comparison-check'
+import { buildEvents, type RawEvent, readEventLine, readModeLine } from './events'
 import { parseUnit, SECONDS_PER, sameDims, TIME_DIMS, type UnitInfo } from './units'
 
 export const MAX_SHEET_CHARS = 2_000_000
 export const MAX_LINE_CHARS = 10_000
 export const MAX_DIAGNOSTICS = 200
 
-export const KEYWORDS = ['model', 'time', 'sample', 'input', 'param', 'const', 'lookup', 'state', 'let', 'next', 'output', 'part', 'feed'] as const
+export const KEYWORDS = ['model', 'time', 'sample', 'input', 'param', 'const', 'lookup', 'state', 'let', 'next', 'output', 'part', 'feed', 'mode', 'event'] as const
+/** words of an event line: `event A falls below B then x = …` (see events.ts) */
+export const EVENT_WORDS = ['falls', 'rises', 'crosses', 'then'] as const
 /** reductions over an index range: sum(i in 1..N, …), prod(i in 1..N, …) */
 export const REDUCERS = ['sum', 'prod'] as const
 /** the most names one indexed declaration may expand to */
@@ -27,7 +30,7 @@ export const MAX_RANGE = 10_000
 const MODIFIERS = ['in', 'fixed', 'estimate', 'steady', 'linear', 'hold', 'sigma']
 /** words that mathjs's parser reads as operators or constants, and JavaScript's object internals */
 const HOST_WORDS = ['mod', 'to', 'and', 'or', 'not', 'xor', 'true', 'false', 'null', 'undefined', 'Infinity', 'NaN', 'end', 'constructor', 'prototype', '__proto__']
-export const RESERVED = new Set<string>([...KEYWORDS, ...MODIFIERS, ...FUNCTIONS, ...REDUCERS, ...HOST_WORDS, 'delay', 't', 'pi', 'e'])
+export const RESERVED = new Set<string>([...KEYWORDS, ...MODIFIERS, ...FUNCTIONS, ...REDUCERS, ...EVENT_WORDS, ...HOST_WORDS, 'delay', 't', 'pi', 'e'])
 
 /**
  * The position of the first `[` at or after `from` that opens a unit: one that does not follow a
@@ -47,10 +50,10 @@ function unitBracket(t: string, from: number): number {
   return -1
 }
 
-type Kind = 'state' | 'param' | 'const' | 'input' | 'lookup' | 'let'
+type Kind = 'state' | 'param' | 'const' | 'input' | 'lookup' | 'let' | 'mode'
 interface Entry { kind: Kind; index: number; span: Span }
 
-interface RawExpr { text: string; line: number; col0: number }
+export interface RawExpr { text: string; line: number; col0: number }
 /** an index range written after a name: `[lo..hi]`, `[i in lo..hi]` or a single index `[k]` */
 interface Range { v: string | null; lo: number; hi: number; single: boolean; span: Span }
 /** the value of the index variable while an expression of a ranged statement is built */
@@ -98,6 +101,8 @@ class SheetParser {
   private lets: RawLet[] = []
   private eqs: RawEq[] = []
   private outs: RawOut[] = []
+  private modes: ModeDecl[] = []
+  private rawEvents: RawEvent[] = []
   private statements = 0
   private delays: DelayInfo[] = []
   private delayKeys = new Map<string, number>()
@@ -190,6 +195,18 @@ class SheetParser {
         return i
       }
       case 'output': this.output(s); return i
+      case 'mode': {
+        const name = this.declareName(s, 'mode')
+        if (!name) return i
+        const decl = readModeLine(s, name, d)
+        if (decl) { this.register(name, 'mode', this.modes.length); this.modes.push(decl) }
+        return i
+      }
+      case 'event': {
+        const ev = readEventLine(s, head, d, (sc) => this.name(sc))
+        if (ev) this.rawEvents.push(ev)
+        return i
+      }
       case 'part': case 'feed':
         d.error(head.span, `${head.text} lines need the model library: check the sheet where its parts can be found (the editor, or the command line with --library DIR)`)
         return i
@@ -735,6 +752,7 @@ class SheetParser {
           case 'input': return { k: 'u', i: ent.index }
           case 'const': return { k: 'c', i: ent.index }
           case 'let': return { k: 'let', i: ent.index }
+          case 'mode': return { k: 'm', i: ent.index }
           case 'lookup':
             this.pendingError(cols, `lookup ${name} must be called with its argument: ${name}(x)`)
             return null
@@ -874,7 +892,7 @@ class SheetParser {
       if (!unit && (e.k === 'x' || e.k === 'p' || e.k === 'u' || e.k === 'c' || e.k === 'let')) unit = this.unitOfRef(e.k, e.i)
       const sigma = o.decl.declaredSigma === null ? null : o.decl.declaredSigma * (unit ? unit.scale : 1)
       let touches = false
-      walk(e, (n) => { if (n.k === 'x' || n.k === 'p' || n.k === 'u' || n.k === 'let' || n.k === 'delay' || n.k === 't') touches = true })
+      walk(e, (n) => { if (n.k === 'x' || n.k === 'p' || n.k === 'u' || n.k === 'let' || n.k === 'delay' || n.k === 't' || n.k === 'm') touches = true })
       if (!touches) d.warning(o.decl.span, `output ${o.decl.name} depends on no state, parameter or input`)
       outputs.push({ ...o.decl, unit, expr: e, sigma })
     }
@@ -883,6 +901,17 @@ class SheetParser {
     const spt = SECONDS_PER[this.timeUnit]
     let sampleTime: number | null = null
     if (this.sample) sampleTime = this.sample.unit === '' ? this.sample.value : (this.sample.value * SECONDS_PER[this.sample.unit as TimeUnit]) / spt
+
+    const events = buildEvents(this.rawEvents, {
+      diags: d,
+      discrete,
+      lookup: (name) => this.names.get(name) ?? null,
+      states: this.states,
+      modes: this.modes,
+      build: (raw) => this.build(raw, ctx),
+      unknown: (name) => this.unknownName(name, () => [...this.names.keys()]),
+    })
+    if (events === null) broken = true
 
     if (broken || d.hasErrors) return null
     const model: ParsedModel = {
@@ -902,6 +931,8 @@ class SheetParser {
       equations: equations as EquationDecl[],
       outputs,
       delays: this.delays,
+      modes: this.modes,
+      events: events!,
     }
     checkUnits(model, d)
     checkComparisons(model, d)

@@ -67,25 +67,56 @@ export function partRefs(text: string): PartRef[] {
   return out
 }
 
-/** A resolver over part texts keyed `handle@version` (null when the sheet uses no part). */
-export function partsResolver(texts: Record<string, string> | undefined): ResolvePart | undefined {
-  if (!texts || Object.keys(texts).length === 0) return undefined
-  return (h, v) => texts[`${h}@${v}`] ?? null
+/**
+ * The sheet with some parts pinned to other versions (`pins`: part name -> version); only the
+ * version number of each matching `part` line changes, the rest of the text stays as written.
+ */
+export function repinParts(text: string, pins: ReadonlyMap<string, number>): string {
+  const lines = text.split(/(\r\n|\n|\r)/)
+  for (let i = 0; i < lines.length; i += 2) {
+    const code = stripComment(lines[i])
+    const m = PART_RE.exec(code)
+    if (!m || !pins.has(m[1])) continue
+    const at = code.indexOf(`@${m[3]}`, code.indexOf(m[2], code.indexOf('=')))
+    lines[i] = lines[i].slice(0, at + 1) + String(pins.get(m[1])) + lines[i].slice(at + 1 + m[3].length)
+  }
+  return lines.join('')
 }
 
-/** Fetch the texts of every part a sheet needs (recursively) and return a resolver over them. */
-export async function loadParts(text: string, load: (handle: string, version: number) => Promise<string | null>): Promise<ResolvePart> {
-  const got = new Map<string, string | null>()
+/**
+ * A resolver over part texts keyed `handle@version`; undefined when no texts were given (no library
+ * at all). An empty record is a library without those parts: the flattener names what is missing.
+ */
+export function partsResolver(texts: Record<string, string> | undefined): ResolvePart | undefined {
+  if (!texts) return undefined
+  return (h, v) => (Object.prototype.hasOwnProperty.call(texts, `${h}@${v}`) ? texts[`${h}@${v}`] : null)
+}
+
+/**
+ * Fetch the texts of every part a sheet needs (recursively, each version once) through `load`,
+ * keyed `handle@version`: plain data that can travel to a worker thread or over HTTP. Parts the
+ * loader does not find are left out.
+ */
+export async function loadPartTexts(text: string, load: (handle: string, version: number) => Promise<string | null>): Promise<Record<string, string>> {
+  const out: Record<string, string> = {}
+  const tried = new Set<string>()
   const queue = partRefs(text)
   for (let n = 0; queue.length && n < 10_000; n++) {
     const r = queue.shift()!
     const key = `${r.handle}@${r.version}`
-    if (got.has(key)) continue
+    if (tried.has(key)) continue
+    tried.add(key)
     const t = await load(r.handle, r.version)
-    got.set(key, t)
-    if (t) queue.push(...partRefs(t))
+    if (t === null) continue
+    out[key] = t
+    queue.push(...partRefs(t))
   }
-  return (h, v) => got.get(`${h}@${v}`) ?? null
+  return out
+}
+
+/** Fetch every part a sheet needs (loadPartTexts) and return a resolver over them. */
+export async function loadParts(text: string, load: (handle: string, version: number) => Promise<string | null>): Promise<ResolvePart> {
+  return partsResolver(await loadPartTexts(text, load))!
 }
 
 interface Binding { expr: string; line: number }
@@ -229,7 +260,7 @@ function rewritePart(
   const P = part.name
   const kinds = new Map<string, { kind: string; unit: UnitInfo | null }>()
   const add = (list: { name: string; unit: UnitInfo | null }[], kind: string) => list.forEach((d) => kinds.set(d.name, { kind, unit: d.unit }))
-  add(m.states, 'state'); add(m.params, 'param'); add(m.consts, 'const'); add(m.inputs, 'input'); add(m.lookups, 'lookup'); add(m.lets, 'let')
+  add(m.states, 'state'); add(m.params, 'param'); add(m.consts, 'const'); add(m.inputs, 'input'); add(m.lookups, 'lookup'); add(m.lets, 'let'); add(m.modes, 'mode')
   const bases = new Set<string>()
   for (const k of kinds.keys()) bases.add(k.replace(/\[\d+\]$/, ''))
   const outputNames = new Set(m.outputs.map((o) => o.name))

@@ -58,6 +58,19 @@ export function checkUnits(m: ParsedModel, diags: DiagnosticList): void {
       diags.error(eqSpan(o.expr, o.span.line, o.span), `output ${o.name} has unit ${formatDims(u.d)} but is declared in ${o.unit.text} (${formatDims(o.unit.dims)})`)
     }
   }
+  for (const ev of m.events) {
+    ctx.line = ev.span.line
+    const s: Cols | undefined = ev.lhs.s && ev.rhs.s ? [ev.lhs.s[0], ev.rhs.s[1]] : undefined
+    like(unitOf(ev.lhs, ctx), unitOf(ev.rhs, ctx), ev.lhs, ev.rhs, `the event condition '${ev.text}' compares values`, ctx, s)
+    for (const r of ev.resets) {
+      if (r.target !== 'state') continue
+      const st = m.states[r.index]
+      const u = unitOf(r.expr, ctx)
+      if (st.unit && u.k === 'dims' && !sameDims(u.d, st.unit.dims)) {
+        diags.error(r.span, `the event sets ${st.name} to a value in ${formatDims(u.d)}, but ${st.name} is in ${st.unit.text || '1'} (${formatDims(st.unit.dims)})`)
+      }
+    }
+  }
 }
 
 interface Ctx {
@@ -128,6 +141,7 @@ function unitOf(e: Expr, ctx: Ctx): U {
     case 'c': return ctx.symUnit(m.consts[e.i].unit)
     case 'let': return ctx.letUnits[e.i]
     case 'tmp': return UNKNOWN
+    case 'm': return DL
     case 't': return dims(TIME_DIMS)
     case 'neg': return unitOf(e.a, ctx)
     case 'delay': return ctx.symUnit(m.inputs[e.input].unit)

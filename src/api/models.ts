@@ -1,6 +1,6 @@
 /** Calls of the model library routes; every shape comes from shared/api/models.ts. */
 import {
-  checkReply, diffReply, draftDto, listModelsReply, modelDetailDto, versionDto,
+  checkReply, diffReply, draftDto, listModelsReply, modelDetailDto, reviewQueueReply, versionDto, type ReviewQueueReply,
   type CheckReply, type CreateModelBody, type DiffReply, type DraftDto, type ForkBody, type ListModelsReply,
   type ModelDetailDto, type PublishBody, type UpdateModelBody, type VersionDto,
 } from '@shared/api/models'
@@ -53,8 +53,21 @@ export function publishVersion(ws: string, id: number, body: PublishBody): Promi
   return api.post(`${base(ws)}/${id}/versions`, body, { schema: versionDto, silent: [400, 409] })
 }
 
-export function approveVersion(ws: string, id: number, n: number): Promise<VersionDto> {
-  return api.post(`${base(ws)}/${id}/versions/${n}/approve`, undefined, { schema: versionDto })
+export function approveVersion(ws: string, id: number, n: number, comment = ''): Promise<VersionDto> {
+  return api.post(`${base(ws)}/${id}/versions/${n}/approve`, { comment }, { schema: versionDto })
+}
+
+export function requestReview(ws: string, id: number, n: number, comment = ''): Promise<VersionDto> {
+  return api.post(`${base(ws)}/${id}/versions/${n}/review-request`, { comment }, { schema: versionDto })
+}
+
+export function requestChanges(ws: string, id: number, n: number, comment: string): Promise<VersionDto> {
+  return api.post(`${base(ws)}/${id}/versions/${n}/request-changes`, { comment }, { schema: versionDto })
+}
+
+/** Versions awaiting review in the workspace. */
+export function reviewQueue(ws: string): Promise<ReviewQueueReply> {
+  return api.get(`/api/workspaces/${encodeURIComponent(ws)}/reviews`, { schema: reviewQueueReply })
 }
 
 export function forkModel(ws: string, id: number, body: ForkBody): Promise<ModelDetailDto> {

@@ -9,6 +9,7 @@
 import type * as Monaco from 'monaco-editor/editor'
 import { FUNCTIONS } from '@shared/sheet/ast'
 import type { CheckReply } from '@shared/api/models'
+import type { PartCatalogueEntry } from '@shared/api/parts'
 import { stripComment } from '@shared/sheet/line-scanner'
 
 export { stripComment }
@@ -38,7 +39,7 @@ export interface SheetSymbol {
   /** indexed declarations: the range as written (`1..N`) */
   range?: string
   /** parts: the library model and version, and (when the sheet checks) its inputs and outputs */
-  part?: { handle: string; version: number; inputs?: { name: string; unit: string }[]; outputs?: { name: string; unit: string }[] }
+  part?: { handle: string; version: number; title?: string; inputs?: { name: string; unit: string }[]; outputs?: { name: string; unit: string }[] }
 }
 
 const DECL_RE = /^\s*(input|param|const|lookup|state|let|output)\s+([A-Za-z_][A-Za-z0-9_]*)(?:\[([^\]]*)\])?/
@@ -86,6 +87,27 @@ export function scanSymbols(text: string, check?: CheckReply | null): SheetSymbo
 /** The symbols of each open sheet, by the Monaco model's URI (set by SheetEditor). */
 export const sheetSymbols = new Map<string, SheetSymbol[]>()
 
+/** The workspace library's models as part handles, by the Monaco model's URI (set by SheetEditor). */
+export const sheetPartHandles = new Map<string, PartCatalogueEntry[]>()
+
+/** After `part NAME = ` (the handle being typed): the text typed so far, else null. */
+export function partHandlePrefix(lineBeforeCursor: string): string | null {
+  const m = /^\s*part\s+[A-Za-z_][A-Za-z0-9_]*\s*=\s*([A-Za-z0-9_-]*)$/.exec(lineBeforeCursor)
+  return m ? m[1] : null
+}
+
+/** Completion entries for a part handle: `handle@version`, the newest approved version first, else the latest. */
+export function partHandleItems(entries: PartCatalogueEntry[], typed: string): { label: string; insert: string; detail: string }[] {
+  const t = typed.toLowerCase()
+  return entries.filter((e) => e.handle.toLowerCase().startsWith(t) || e.title.toLowerCase().includes(t)).map((e) => {
+    const v = e.latestApproved ?? e.latest
+    return {
+      label: `${e.handle}@${v}`, insert: `${e.handle}@${v}`,
+      detail: `${e.title} — ${e.latestApproved !== null ? `version ${v}, approved` : `version ${v}, not reviewed`}${e.latestApproved !== null && e.latest > e.latestApproved ? ` (latest ${e.latest})` : ''}`,
+    }
+  })
+}
+
 const kindLabel: Record<SymbolKind, string> = {
   input: 'input', param: 'parameter', const: 'constant', lookup: 'lookup', state: 'state', let: 'intermediate (let)', output: 'output', part: 'part',
 }
@@ -95,7 +117,7 @@ const fmt = (v: number) => (Math.abs(v) >= 1e5 || (Math.abs(v) < 1e-3 && v !== 0
 /** Markdown shown when hovering a declared name. */
 export function describeSymbol(s: SheetSymbol): string {
   if (s.part) {
-    const lines = [`**${s.name}** — part: library model **${s.part.handle}**, version ${s.part.version}`]
+    const lines = [`**${s.name}** — part: library model **${s.part.handle}**${s.part.title ? ` (${s.part.title})` : ''}, pinned at version ${s.part.version}`]
     if (s.description) lines.push(s.description)
     const list = (xs: { name: string; unit: string }[]) => xs.map((x) => `${s.name}.${x.name}${x.unit ? ` [${x.unit}]` : ''}`).join(', ') || 'none'
     if (s.part.inputs) lines.push(`inputs (feed ${s.name}.…): ${list(s.part.inputs)}`)
@@ -203,6 +225,10 @@ export function registerSheetLanguage(monaco: typeof Monaco): void {
       const range = new monaco.Range(position.lineNumber, word.startColumn, position.lineNumber, word.endColumn)
       const syms = sheetSymbols.get(model.uri.toString()) ?? []
       const sym = syms.find((s) => s.name === word.word)
+      if (sym?.part) {
+        const entry = sheetPartHandles.get(model.uri.toString())?.find((e) => e.handle === sym.part!.handle)
+        return { range, contents: [{ value: describeSymbol(entry ? { ...sym, part: { ...sym.part, title: entry.title } } : sym) }] }
+      }
       if (sym) return { range, contents: [{ value: describeSymbol(sym) }] }
       const dot = word.word.indexOf('.')
       const owner = dot > 0 ? syms.find((s) => s.kind === 'part' && s.name === word.word.slice(0, dot)) : undefined
@@ -225,6 +251,16 @@ export function registerSheetLanguage(monaco: typeof Monaco): void {
       const word = model.getWordUntilPosition(position)
       const range = new monaco.Range(position.lineNumber, word.startColumn, position.lineNumber, word.endColumn)
       const K = monaco.languages.CompletionItemKind
+      // `part NAME = ` → the library's models as handle@version
+      const typed = partHandlePrefix(model.getLineContent(position.lineNumber).slice(0, position.column - 1))
+      if (typed !== null) {
+        const from = position.column - typed.length
+        const r = new monaco.Range(position.lineNumber, from, position.lineNumber, position.column)
+        return {
+          suggestions: partHandleItems(sheetPartHandles.get(model.uri.toString()) ?? [], typed)
+            .map((it, i) => ({ label: it.label, kind: K.Module, insertText: it.insert, range: r, detail: it.detail, sortText: String(i).padStart(4, '0') })),
+        }
+      }
       const kindOf: Record<SymbolKind, Monaco.languages.CompletionItemKind> = {
         state: K.Variable, param: K.Constant, const: K.Constant, input: K.Field, lookup: K.Function, let: K.Variable, output: K.Value, part: K.Module,
       }

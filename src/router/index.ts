@@ -94,6 +94,12 @@ export const router = createRouter({
           meta: { title: 'Model', section: 'library' },
         },
         {
+          path: 'reviews',
+          name: 'reviews',
+          component: () => import('@/views/ReviewsView.vue'),
+          meta: { title: 'Awaiting review', section: 'library' },
+        },
+        {
           path: 'reference',
           name: 'reference',
           component: () => import('@/views/ReferenceView.vue'),

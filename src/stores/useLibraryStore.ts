@@ -136,6 +136,6 @@ export const useLibraryStore = defineStore('library', () => {
   return {
     filters, list, listLoading, fetchList, resetList,
     model, baseVersion, text, saveState, savedAt, dirty, latest, behind,
-    open, reload, edit, saveNow, publish, discard, rebase, close,
+    open, reload, edit, saveNow, publish, discard, rebase, close, cancelAutosave,
   }
 })

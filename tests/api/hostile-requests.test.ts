@@ -122,6 +122,45 @@ describe('hostile requests', () => {
     expect(again.status).toBe(201)
   })
 
+  /** an invented chain of n tanks with a nonlinear coupling (synthetic): seconds of hand-over analysis */
+  const chainSheet = (n: number) => [
+    `model "Hostile tank chain ${n} (synthetic)"`, 'time [s]', 'input u = 1', 'param k = 0.5 [1/s]',
+    ...Array.from({ length: n }, (_, i) => `state x${i} = 0`),
+    ...Array.from({ length: n }, (_, i) => `x${i}' = ${i === 0 ? 'u' : `sqrt(1 + x${i - 1}^2)`} - k * x${i} - 0.01 * x${i}^3`),
+    `output y = x${n - 1}`,
+  ].join('\n') + '\n'
+  const chainModel = async (n: number) => {
+    const m = await modeler.post(`${WS}/models`).set(CSRF).send({ title: `Hostile tank chain ${n} (synthetic)`, text: chainSheet(n) })
+    expect(m.status, JSON.stringify(m.body)).toBe(201)
+    return m.body.id as number
+  }
+
+  it('a heavy linearisation runs on the request pool: health answers meanwhile', async () => {
+    const id = await chainModel(40)
+    const { r, healthFirst } = await whileInFlight(() => modeler.post(`${WS}/models/${id}/versions/1/linearize`).set(CSRF).send({ frequencies: 2000 }), threadBusy)
+    expect(r.status, JSON.stringify(r.body).slice(0, 300)).toBe(200)
+    expect((r.body as unknown as { A: number[][] }).A).toHaveLength(40)
+    expect(healthFirst).toBe(true)
+  })
+
+  it('a linearisation or export past the time limit is stopped with 422 naming the limit', async () => {
+    const id = await chainModel(80)
+    const limits = pool().o
+    const before = limits.timeLimitMs
+    limits.timeLimitMs = 1000
+    try {
+      const { r, healthFirst } = await whileInFlight(() => modeler.post(`${WS}/models/${id}/versions/1/linearize`).set(CSRF).send({ frequencies: 2000 }), threadBusy)
+      expect(r.status).toBe(422)
+      expect(r.body.error!.message).toMatch(/^Linearising Hostile tank chain 80 \(synthetic\), version 1 .*exceeded the time limit of 1 s .*PEWTER_REQUEST_TIME_LIMIT_SECONDS/)
+      expect(healthFirst).toBe(true)
+      const e = await modeler.post(`${WS}/models/${id}/versions/1/export`).set(CSRF).send({ format: 'ss-json', frequencies: 2000 })
+      expect(e.status).toBe(422)
+      expect(e.body.error.message).toMatch(/^Exporting .*exceeded the time limit/)
+    } finally {
+      limits.timeLimitMs = before
+    }
+  })
+
   it('dataset lists return summaries: column names and units, no per-column statistics', async () => {
     for (const url of [`${WS}/datasets`, `${WS}/projects/${pid}/datasets`]) {
       const r = await modeler.get(url)

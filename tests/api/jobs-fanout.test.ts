@@ -40,7 +40,21 @@ describe('multi-start fan-out', () => {
     const created = await agent.post(`/api/workspaces/tinmoor/projects/${project.id}/runs`).set(CSRF).send(body)
     expect(created.status).toBe(201)
     const id = created.body.id as number
-    const run = await waitFor('the multi-start run', async () => { const r = await getRun(t.context.db, id); return ['succeeded', 'failed', 'cancelled'].includes(r.status) && r }, 150_000)
+    // while the starts are spread, the run row carries a live cost curve and the current estimates
+    // (the helpers' iterations reach the run's thread, which writes them)
+    let liveCurve = 0
+    let liveEstimates = 0
+    const run = await waitFor('the multi-start run', async () => {
+      const r = await getRun(t.context.db, id)
+      const p = r.progress as { costHistory?: number[]; estimates?: unknown[] } | null
+      if (r.status === 'running' && p) {
+        liveCurve = Math.max(liveCurve, p.costHistory?.length ?? 0)
+        liveEstimates = Math.max(liveEstimates, p.estimates?.length ?? 0)
+      }
+      return ['succeeded', 'failed', 'cancelled'].includes(r.status) && r
+    }, 150_000)
+    expect(liveCurve).toBeGreaterThan(1)
+    expect(liveEstimates).toBeGreaterThan(0)
     expect(run.error ?? null).toBeNull()
     expect(run.status).toBe('succeeded')
     const pool = runner.pool

@@ -83,6 +83,22 @@ describe('a fit from upload to result', () => {
     const tl = traces.find((x) => x.output === 'level' && !x.validation)!
     expect(tl.unit).toBe('m')
     expect(Math.abs(tl.measured[10]! - tl.simulated[10]!)).toBeLessThan(0.03)
+    // the covariance band of the simulated output: present, positive, and narrow next to the 0.5 cm noise
+    // the data were made with (the estimates are well determined by 1000 samples)
+    const band = (tl as unknown as { band: (number | null)[] }).band
+    expect(band).toHaveLength(tl.simulated.length)
+    expect(band.every((h) => h !== null && h >= 0)).toBe(true)
+    expect(Math.max(...(band as number[]))).toBeGreaterThan(0)
+    expect(Math.max(...(band as number[]))).toBeLessThan(0.005)
+    // residual checks: lags in the sheet's time unit, cumulative periodogram, normality, independence per input
+    expect(level.residuals!.timeUnit).toBe('s')
+    expect(level.residuals!.sampleStep).toBeGreaterThan(0)
+    const cp = level.residuals!.periodogram!
+    expect(cp.cumulative[cp.cumulative.length - 1]).toBeCloseTo(1, 12)
+    expect(cp.band).toBeCloseTo(1.36 / Math.sqrt(cp.q), 12)
+    expect(cp.frequency[cp.frequency.length - 1]).toBeLessThanOrEqual(0.5 / level.residuals!.sampleStep! + 1e-12)
+    expect(level.residuals!.normality!.test).toBe('jarque-bera')
+    expect(level.residuals!.independence!.map((i) => i.input).sort()).toEqual(['P_h', 'T_feed', 'opening', 'q_in'])
     expect(result.landscape?.cost.length).toBeGreaterThan(5)
     expect(run.caution).toBe(RESULT_CAUTION)
     expect(run.progress.fraction).toBe(1)
@@ -101,6 +117,21 @@ describe('a fit from upload to result', () => {
     expect(ms.segments).toBe(6)
     expect(ms.continuous).toBe(true)
     expect(ms.experiments[0].boundaries).toHaveLength(5)
+    // the segments' own lines, as the run page drew them while shooting: each output of the record,
+    // measured and six segment lines in the sheet's units and seconds
+    const lines = run.progress.segmentLines as { output: string; unit: string; t: number[]; measured: (number | null)[]; segments: { t: number[]; y: (number | null)[] }[] }[]
+    expect(lines.map((l) => l.output).sort()).toEqual(['level', 'temp'])
+    const level = lines.find((l) => l.output === 'level')!
+    expect(level.unit).toBe('m')
+    expect(level.segments).toHaveLength(6)
+    expect(level.segments.reduce((a, s) => a + s.t.length, 0)).toBe(level.t.length)
+    expect(level.t.length).toBeLessThanOrEqual(400 + 12)
+    expect(typeof run.progress.segmentIteration).toBe('number')
+    const traces = run.result.traces as { output: string; validation: boolean; t: number[]; measured: (number | null)[] }[]
+    const tl = traces.find((x) => x.output === 'level' && !x.validation)!
+    const k = tl.t.indexOf(level.t[1])
+    expect(k).toBeGreaterThan(0)
+    expect(level.measured[1]).toBeCloseTo(tl.measured[k]!, 12)
     const byName = Object.fromEntries(result.parameters.map((p) => [p.name, p]))
     for (const [name, truth] of [['Cv', BUFFER_TRUTH.Cv], ['UA', BUFFER_TRUTH.UA], ['tau', BUFFER_TRUTH.tau]] as const) {
       expect(Math.abs(byName[name].value - truth), name).toBeLessThan(4 * byName[name].stdError!)
@@ -195,27 +226,67 @@ describe('a fit from upload to result', () => {
 })
 
 describe('cancel', () => {
-  it('stops a running fit: its worker ends it cancelled, with no result', async () => {
+  /** Polls the run until `ready` holds for it while it runs. */
+  async function whileRunning(rid: number, ready: (s: Record<string, any>) => boolean) {
+    for (;;) {
+      const s = (await modeler.get(`${WS}/runs/${rid}`)).body
+      if (s.status === 'running' && ready(s)) return s
+      expect(['queued', 'running']).toContain(s.status)
+      await new Promise((res) => setTimeout(res, 50))
+    }
+  }
+
+  it('stops a running fit: its worker ends it cancelled; before any start finished nothing is kept', async () => {
     // many starts on the same data keep the fit busy for many seconds
     const r = await modeler.post(`${WS}/projects/${pid}/runs`).set(CSRF).send({ ...baseRun(), starts: 40, weighting: 'sheet' })
     expect(r.status).toBe(201)
     const rid = r.body.id
-    for (;;) {
-      const s = (await modeler.get(`${WS}/runs/${rid}`)).body
-      // under way: an iteration reported, or (multi-start fits fanned out over threads) a start done
-      if (s.status === 'running' && (s.progress?.iteration >= 1 || s.progress?.start >= 1)) break
-      expect(['queued', 'running']).toContain(s.status)
-      await new Promise((res) => setTimeout(res, 50))
-    }
+    // under way in the first start: an iteration reported, with the live estimates of the free parameters
+    const live = await whileRunning(rid, (s) => s.progress?.iteration >= 1)
+    // the sheet's free parameters and its estimated initial state (per estimation record)
+    expect(live.progress.estimates.map((e: { name: string }) => e.name).sort()).toEqual(['Cv', 'T[est]', 'UA', 'tau'])
+    for (const e of live.progress.estimates) expect(Number.isFinite(e.value)).toBe(true)
     const c = await modeler.post(`${WS}/runs/${rid}/cancel`).set(CSRF)
     expect(c.status).toBe(200)
     const end = await waitForRun(modeler, rid, 10_000)
     expect(end.status).toBe('cancelled')
-    expect(end.result).toBeNull()
-    // written by the worker that ran the fit once the cancel reached it (a queued run says 'before it started')
-    expect(end.error).toBe('Cancelled by request.')
+    if (end.result === null) expect(end.error).toBe('Cancelled by request.')
+    else expect(end.result.stoppedEarly.finishedStarts).toBeGreaterThanOrEqual(1) // a start finished meanwhile
     const again = await modeler.post(`${WS}/runs/${rid}/cancel`).set(CSRF)
     expect(again.status).toBe(409)
+  })
+
+  it('keeps the best of the finished starts when a multi-start fit is cancelled', async () => {
+    const r = await modeler.post(`${WS}/projects/${pid}/runs`).set(CSRF).send({ ...baseRun(), starts: 40, weighting: 'sheet' })
+    const rid = r.body.id
+    await whileRunning(rid, (s) => s.progress?.start >= 2)
+    expect((await modeler.post(`${WS}/runs/${rid}/cancel`).set(CSRF)).status).toBe(200)
+    const end = await waitForRun(modeler, rid, 20_000)
+    expect(end.status).toBe('cancelled')
+    expect(end.error).toMatch(/after \d+ of 40 starts: the result shown is the best of the finished starts/)
+    const result = fitResult.parse(Object.fromEntries(Object.entries(end.result).filter(([k]) => k !== 'traces')))
+    expect(result.stoppedEarly!.finishedStarts).toBeGreaterThanOrEqual(2)
+    expect(result.stoppedEarly!.plannedStarts).toBe(40)
+    expect(result.warnings.some((w) => w.startsWith('stopped by request after'))).toBe(true)
+    // the kept estimate is the lowest cost among the finished starts
+    const costs = result.starts.map((s) => s.sse).filter((c): c is number => c !== null)
+    expect(result.sse).toBeCloseTo(Math.min(...costs), 9)
+    expect(end.outcome).toBe(result.status)
+    expect(end.result.traces.length).toBeGreaterThan(0)
+    expect(end.sse).toBeCloseTo(result.sse!, 9)
+  })
+
+  it('reports live progress and estimates for a Nelder–Mead fit', async () => {
+    const r = await modeler.post(`${WS}/projects/${pid}/runs`).set(CSRF).send({ ...baseRun(), method: 'nelder-mead', starts: 40, weighting: 'sheet' })
+    const rid = r.body.id
+    const live = await whileRunning(rid, (s) => (s.progress?.costHistory?.length ?? 0) >= 3 && (s.progress?.estimates?.length ?? 0) > 0)
+    // the curve is the best cost so far: it never rises
+    const h = live.progress.costHistory as number[]
+    for (let i = 1; i < h.length; i++) expect(h[i]).toBeLessThanOrEqual(h[i - 1])
+    // the sheet's free parameters and its estimated initial state (per estimation record)
+    expect(live.progress.estimates.map((e: { name: string }) => e.name).sort()).toEqual(['Cv', 'T[est]', 'UA', 'tau'])
+    expect((await modeler.post(`${WS}/runs/${rid}/cancel`).set(CSRF)).status).toBe(200)
+    expect((await waitForRun(modeler, rid, 20_000)).status).toBe('cancelled')
   })
 
   it('cancels a queued run before it starts', async () => {

@@ -121,12 +121,16 @@ describe('typed failures, never a hang', () => {
     const notSwitched = caught(() => simulate(osc, { tOut, solver: 'auto', maxSteps: 50 })) as Error
     expect(notSwitched.message).toMatch(/try solver 'stiff' \(the run used 'auto' and did not detect stiffness\)/)
     // the stiff method already in use: no advice to use it; tight rtol and sensitivities named
-    const stiff = caught(() => simulate(osc, { tOut, solver: 'stiff', rtol: 1e-9, maxSteps: 50, sensitivities: { params: [0], initialStates: [] } })) as Error
+    const stiff = caught(() => simulate(osc, { tOut, solver: 'stiff', rtol: 1e-9, maxSteps: 50, sensitivities: { params: [0], initialStates: [], errorControl: true } })) as Error
     expect(stiff).toBeInstanceOf(StepLimitError)
     expect(stiff.message).not.toMatch(/try solver 'stiff'/)
     expect(stiff.message).toMatch(/loosen rtol \(now 1e-9\)/)
     expect(stiff.message).toMatch(/errorControl: false/)
     expect(stiff.message).toMatch(/stiff method was already in use/)
+    // by default the stiff method leaves the sensitivities out of its error norm: nothing to advise there
+    const stiffDefault = caught(() => simulate(osc, { tOut, solver: 'stiff', rtol: 1e-9, maxSteps: 50, sensitivities: { params: [0], initialStates: [] } })) as Error
+    expect(stiffDefault).toBeInstanceOf(StepLimitError)
+    expect(stiffDefault.message).not.toMatch(/errorControl/)
   })
 
   it('a time budget and an abort signal stop the integration', () => {

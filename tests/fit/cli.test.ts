@@ -80,12 +80,19 @@ describe('pewter fit', () => {
     expect(res.elapsedMs).toBeGreaterThan(0)
   })
 
-  it('two experiments, a local parameter, a validation file and the readable table', async () => {
-    const r = await pewterHere(['boxbod.sheet', 'boxbod.csv', 'boxbod.csv', '--local', 'b2', '--validate', 'boxbod.csv', '--rtol', '1e-10'])
+  it('two records, a per-record parameter, a validation file and the readable table', async () => {
+    const r = await pewterHere(['boxbod.sheet', 'boxbod.csv', 'boxbod.csv', '--per-record', 'b2', '--validate', 'boxbod.csv', '--rtol', '1e-10'])
     expect(r.code).toBe(0)
     expect(r.stdout).toMatch(/^fit converged/)
-    expect(r.stdout).toMatch(/b2 \(exp 1\)/)
-    expect(r.stdout).toMatch(/b2 \(exp 2\)/)
+    expect(r.stdout).toMatch(/b2 \(per-record, record 1\)/)
+    expect(r.stdout).toMatch(/b2 \(per-record, record 2\)/)
+    // the verdict table of the residual checks
+    expect(r.stdout).toMatch(/residual checks \(5 % level\)/)
+    expect(r.stdout).toMatch(/(pass|FAIL)\s+Normality: Jarque–Bera\s+p /)
+    // the older option name still works
+    const old = await pewterHere(['boxbod.sheet', 'boxbod.csv', 'boxbod.csv', '--local', 'b2', '--rtol', '1e-10', '--json'])
+    expect(old.code).toBe(0)
+    expect(fitResult.parse(JSON.parse(old.stdout)).parameters.filter((p) => p.name === 'b2')).toHaveLength(2)
     expect(r.stdout).toMatch(/validation/)
     expect(r.stdout).toMatch(/note: .*control or for any safety-related decision/)
   })
@@ -104,6 +111,18 @@ describe('pewter fit', () => {
     expect(t.stdout).toMatch(/multiple shooting: 10 segments, continuous/)
   }, 60_000)
 
+  it('--threads spreads the segments over helper threads (the bundle starts itself as the helper): the same fit as one thread', async () => {
+    const one = await pewter(['lv.sheet', 'lv.csv', '--segments', '10', '--threads', '1', '--json'])
+    const two = await pewter(['lv.sheet', 'lv.csv', '--segments', '10', '--threads', '2', '--json'])
+    expect(one.code, one.stderr).toBe(0)
+    expect(two.code, two.stderr).toBe(0)
+    const a = fitResult.parse(JSON.parse(one.stdout))
+    const b = fitResult.parse(JSON.parse(two.stdout))
+    expect(b.sse).toBe(a.sse)
+    expect(b.parameters.map((p) => p.value)).toEqual(a.parameters.map((p) => p.value))
+    expect(b.multipleShooting?.defect).toBe(a.multipleShooting?.defect)
+  }, 240_000)
+
   it('bad arguments exit 2 with a one-line reason', async () => {
     const cases: [string[], RegExp][] = [
       [['misra.sheet', 'misra.csv', '--frobnicate'], /unknown option --frobnicate/],
@@ -116,6 +135,7 @@ describe('pewter fit', () => {
       [['lv.sheet', 'lv.csv', '--segments', '2', '--segment-length', '1'], /give --segments or --segment-length, not both/],
       [['lv.sheet', 'lv.csv', '--segments', '0'], /--segments: a whole number from 1 to 10000/],
       [['lv.sheet', 'lv.csv', '--segments', '40'], /lv.csv: 60 samples allow at most 30 segments/],
+      [['lv.sheet', 'lv.csv', '--segments', '4', '--threads', '0'], /--threads: a whole number from 1 to 64 \(got '0'\)/],
     ]
     const viaProcess = await pewter(cases[1][0])
     expect(viaProcess.code).toBe(2)

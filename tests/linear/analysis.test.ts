@@ -7,7 +7,7 @@ import {
   analyzeModel, channelZeros, controllabilityRank, covarianceFromFit, eigenvalues, findOperatingPoints, frequencyResponse,
   inputSlots, linearize, linearStep, observabilityRank, resolveValues,
 } from '../../shared/engine/linear/index'
-import { FIRST_ORDER, LINEAR, LINEAR_A, LINEAR_B, LINEAR_C, LINEAR_D, NO_ROOT, SECOND_ORDER, TANK, THREE_ROOTS } from './sheets'
+import { FIRST_ORDER, FOLD_START, LINEAR, LINEAR_A, LINEAR_B, LINEAR_C, LINEAR_D, NO_ROOT, SECOND_ORDER, TANK, THREE_ROOTS } from './sheets'
 
 /** seeded uniform generator (mulberry32), synthetic test data only */
 function rng(seed: number) {
@@ -186,6 +186,30 @@ describe('operating points', () => {
     expect(r.solutions[0].method).toBe('continuation')
     expect(r.solutions[0].x[0]).toBeCloseTo(Math.log(1e12), 10)
     expect(r.messages.join(' ')).toMatch(/continuation/)
+  })
+  it('steps the inputs from a steady state at the sheet\'s inputs when Newton fails at the requested ones', () => {
+    // x' = u − x(x − 2)², start x = 2 (∂f/∂x = 0), requested u = 3: the equilibrium is x = 3 (3·(3 − 2)² = 3, by hand)
+    const m = compileModel(FOLD_START)
+    const at3 = inputSlots(m, Float64Array.of(3))
+    // from the start alone neither Newton nor the state homotopy moves (singular Jacobian at the start)
+    const plain = findOperatingPoints(m, { p: new Float64Array(0), u: at3, maxStarts: 1 })
+    expect(plain.status).toBe('none')
+    const r = findOperatingPoints(m, { p: new Float64Array(0), u: at3, maxStarts: 1, from: inputSlots(m, Float64Array.of(0.5)) })
+    expect(r.status).toBe('unique')
+    expect(r.solutions[0].method).toBe('input-continuation')
+    expect(r.solutions[0].x[0]).toBeCloseTo(3, 10)
+    expect(r.solutions[0].stable).toBe(true)
+    // at the sheet's u = 0.5 Newton cannot start from x = 2 either: the steady state there comes from a
+    // simulation (f(2) = 0.5 > 0 drives x to the stable equilibrium right of 2)
+    expect(r.messages.join(' ')).toMatch(/stepping the inputs from the sheet's values in \d+ continuation steps.*simulating at those inputs/)
+    expect(at3[0]).toBe(3)
+    // through the analysis: reported with the method, linearised there: ∂f/∂x = −(3x² − 8x + 4) = −7 at x = 3 (by hand)
+    const { a } = analyse(FOLD_START, { inputs: { u: 3 } })
+    if (a.at.kind !== 'steady') throw new Error('expected an operating point')
+    expect(a.at.operatingPoint.solutions[0].method).toBe('input-continuation')
+    expect(a.x[0]).toBeCloseTo(3, 10)
+    expect(a.A[0][0]).toBeCloseTo(-7, 8)
+    expect(a.warnings.join(' ')).toMatch(/stepping the inputs/)
   })
   it('keeps states inside their bounds', () => {
     // the equilibria 1 and 2 lie outside [2.5, 4]: only 3 is found

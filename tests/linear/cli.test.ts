@@ -41,6 +41,8 @@ describe('pewter linearize', () => {
     expect(a.dcGain![0][0]).toBeCloseTo(0.003 / (9.81 * 0.0015 ** 2), 8)
     expect(a.states).toEqual(['h'])
     expect(a.provenance).toMatch(/a = 0\.0015 set by hand/)
+    // level out, inflow in, no feedthrough: relative degree 1, no zeros, the 2×2 pencil of full normal rank
+    expect(a.systemZeros).toMatchObject({ zeros: [], normalRank: 2, rows: 2, columns: 2 })
   })
   it('applies a fit result file and propagates its covariance', async () => {
     // a synthetic fit result (no real fit): only the fields the hand-over reads are meaningful

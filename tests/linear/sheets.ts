@@ -75,3 +75,16 @@ state x = 0
 x' = u + x^2
 output y = x
 `
+
+/**
+ * x' = u − x (x − 2)²: for u above the local maximum 32/27 of x (x − 2)² (at x = 2/3) the only
+ * equilibrium lies right of x = 2; at u = 3 it is x = 3 exactly (3·1² = 3). The start x = 2 is where
+ * ∂f/∂x = −(3x² − 8x + 4) vanishes: Newton's first step from it is undefined.
+ */
+export const FOLD_START = `model "Start beyond a fold"
+time [s]
+input u = 0.5
+state x = 2
+x' = u - x * (x - 2)^2
+output y = x
+`

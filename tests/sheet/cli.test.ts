@@ -77,7 +77,7 @@ describe('pewter check', () => {
       expect(await run([MODELS_DIR])).toBe(2)
       expect(out).not.toHaveBeenCalled()
       expect(String(err.mock.calls[0][0])).toMatch(/no sheet file given/)
-      expect(await run([join(MODELS_DIR, 'battery-cell.sheet')])).toBe(0)
+      expect(await run([join(MODELS_DIR, 'air-receiver.sheet')])).toBe(0)
       expect(JSON.parse(String(out.mock.calls[0][0])).ok).toBe(true)
     } finally {
       err.mockRestore()

@@ -110,9 +110,9 @@ output globalThis_level = fs_require [m]`)
   })
 
   it('the generated source uses only the compiler\'s own identifiers', () => {
-    const allowed = new Set(['use', 'strict', 'const', 'let', 'function', 'return', 'if', 'else', 'while', 'Math', 'fill', 'length',
+    const allowed = new Set(['use', 'strict', 'const', 'let', 'function', 'return', 'if', 'else', 'while', 'for', 'Math', 'length',
       't', 'x', 'p', 'u', 'out', 'ts', 'SPT', 'TX', 'TY', 'X', 'Y', 'n', 'v', 'lo', 'hi', 'k', 'lkv', 'lkd',
-      'rhs', 'outputs', 'outputsFn', 'dfdx', 'dfdp', 'dfdu', 'dfdt', 'dgdx', 'dgdp', 'dgdu',
+      'rhs', 'outputs', 'outputsFn', 'dfdx', 'dfdp', 'dfdu', 'dfdt', 'dgdx', 'dgdp', 'dgdu', 'd2f',
       'sin', 'cos', 'tan', 'asin', 'acos', 'atan', 'atan2', 'sinh', 'cosh', 'tanh', 'exp', 'log', 'log10', 'sqrt', 'abs', 'sign', 'min', 'max', 'floor', 'ceil', 'pow', 'hypot'])
     for (const text of [KITCHEN_SINK, ...templates().map((t) => t.text)]) {
       const src = compileModel(text).source

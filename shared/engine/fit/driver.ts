@@ -128,7 +128,7 @@ export async function runFitWith(
   const plans = planStarts(model, spec, opts, simulate, eqErr, probe)
   let outcomes: StartOutcome[]
   if (opts.runStarts && plans.length > 1) {
-    outcomes = await opts.runStarts(plans)
+    outcomes = await opts.runStarts(plans, opts.onProgress)
     outcomes.sort((a, b) => a.index - b.index)
   } else {
     outcomes = []
@@ -137,6 +137,18 @@ export async function runFitWith(
       if (deadline !== undefined && Date.now() > deadline && outcomes.length > 0) break
       outcomes.push(await fitFromStart(model, spec, plan, opts, simulate, deadline))
     }
+  }
+  const finished = outcomes.filter((o) => o.status !== 'aborted' && o.status !== 'failed' && Number.isFinite(o.objective))
+  if (opts.signal?.aborted && finished.length > 0) {
+    // stopped by the caller between or during starts: the finished starts' best is still a result; it is
+    // assembled without the raised signal (and without the optional landscape and profiles, to end soon)
+    const calm: FitOptions = { ...opts, signal: undefined, landscape: undefined, profile: undefined, onProgress: undefined }
+    const note = `stopped by request after ${finished.length} of ${plans.length} starts: the estimates are the best of the finished starts`
+    const result = await buildResult({
+      model, spec, opts: calm, simulate, best: pickBest(finished), outcomes, weighting, eqErr, extraWarnings: [...eqWarnings, note],
+      startedAt: t0, deadline,
+    })
+    return { ...result, stoppedEarly: { finishedStarts: finished.length, plannedStarts: plans.length } }
   }
   const best = pickBest(outcomes)
   return buildResult({

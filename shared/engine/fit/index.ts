@@ -31,6 +31,10 @@ export { AT_BOUND_TOL, CAUTIONS } from './result'
 export { suggestSegments, segmentStarts } from './multiple-shooting/segments'
 export { MultipleShootingProblem } from './multiple-shooting/problem'
 export { defectTolerance } from './multiple-shooting/solve'
+export {
+  SegmentServer, InThreadEvaluator, buildSegmentProblem, shapeOf,
+  type SegmentSetup, type SegmentShape, type SegmentBatch, type SegmentRows, type SegmentEvaluator, type SegmentEvaluatorFactory,
+} from './multiple-shooting/evaluator'
 
 const engineSimulate: Simulate = simulate
 

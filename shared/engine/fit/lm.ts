@@ -77,9 +77,9 @@ export async function levenbergMarquardt(
 
   // a time-out or an abort inside a simulation ends the fit at the last accepted point
   let interrupted: 'aborted' | 'time-budget' | null = null
-  const evaluate = (th: Float64Array, rr: Float64Array, jj: Float64Array): boolean => {
+  const evaluate = async (th: Float64Array, rr: Float64Array, jj: Float64Array): Promise<boolean> => {
     try {
-      return prob.evaluate(th, rr, jj)
+      return prob.evaluateAsync ? await prob.evaluateAsync(th, rr, jj) : prob.evaluate(th, rr, jj)
     } catch (e) {
       if (e instanceof FitAborted) interrupted = 'aborted'
       else if (e instanceof FitTimeout) interrupted = 'time-budget'
@@ -88,7 +88,7 @@ export async function levenbergMarquardt(
     }
   }
   let evaluations = 1
-  if (!evaluate(theta, r, jac) || !allFinite(r) || !allFinite(jac)) {
+  if (!(await evaluate(theta, r, jac)) || !allFinite(r) || !allFinite(jac)) {
     if (interrupted === 'aborted') return done('aborted', 'aborted by the caller', 0, NaN)
     if (interrupted === 'time-budget') return done('time-budget', 'time budget exhausted', 0, NaN)
     const why = prob.failure?.() ?? 'a residual or its sensitivity is not finite'
@@ -96,7 +96,7 @@ export async function levenbergMarquardt(
   }
   let cost = sumSquares(r)
   costHistory.push(cost)
-  opts.onIteration?.({ iteration: 0, cost, parameters: Array.from(theta) })
+  opts.onIteration?.({ iteration: 0, cost, parameters: Array.from(theta), residual: r })
 
   let lambda = -1
   let nu = 2
@@ -215,7 +215,7 @@ export async function levenbergMarquardt(
       const pred = -(2 * rq + qq)
       tr.toTheta(zT, thetaT)
       evaluations++
-      const ok = evaluate(thetaT, rT, jacT) && allFinite(rT) && allFinite(jacT)
+      const ok = (await evaluate(thetaT, rT, jacT)) && allFinite(rT) && allFinite(jacT)
       if (interrupted === 'aborted') return done('aborted', 'aborted by the caller', iter, cost)
       if (interrupted === 'time-budget') return done('time-budget', 'time budget exhausted', iter, cost)
       const costT = ok ? sumSquares(rT) : Infinity
@@ -240,7 +240,7 @@ export async function levenbergMarquardt(
     iter++
     costHistory.push(cost)
     buildJz()
-    opts.onIteration?.({ iteration: iter, cost, parameters: Array.from(theta) })
+    opts.onIteration?.({ iteration: iter, cost, parameters: Array.from(theta), residual: r })
     if (relAct <= ftol && relPred <= ftol) {
       return done('converged', `relative cost change below ftol (${tolText(ftol)})`, iter, cost, 'cost-change')
     }

@@ -1,4 +1,5 @@
 import type { ConvergenceTest, FitStatus } from '../../api/fit'
+import type { LiveSegmentLine } from '../../api/runs'
 
 /** A bounded least-squares problem as the optimisers see it: minimise ‖r(θ)‖² over lower ≤ θ ≤ upper. */
 export interface LsqProblem {
@@ -14,6 +15,8 @@ export interface LsqProblem {
    * Returns false when the model cannot be evaluated there (failed or blown-up simulation).
    */
   evaluate(theta: Float64Array, r: Float64Array, jac: Float64Array | null): boolean
+  /** the same evaluation, when it may wait for other threads (multiple shooting's segment helpers) */
+  evaluateAsync?(theta: Float64Array, r: Float64Array, jac: Float64Array | null): Promise<boolean>
   /** the engine's message for the last evaluation that failed (e.g. "step size too small at t = 1.2") */
   failure?(): string | null
 }
@@ -25,6 +28,10 @@ export interface ProgressInfo {
   cost: number
   parameters: number[]
   start?: number
+  /** the residual at this iteration (the optimiser's buffer: read it at once, do not keep it) */
+  residual?: Float64Array
+  /** multiple shooting: the segments' simulated outputs at this iteration, computed on request */
+  segmentLines?: () => LiveSegmentLine[]
 }
 
 export interface OptimiseOptions {

@@ -13,6 +13,7 @@ import { FitProblem, type ProblemSpec, type Simulate } from './problem'
 import type { ProgressInfo, StopStatus } from './lsq'
 import type { LandscapeRequest } from '../landscape'
 import type { SegmentRequest } from './multiple-shooting/segments'
+import type { SegmentEvaluatorFactory } from './multiple-shooting/evaluator'
 
 export interface FitOptions {
   method?: FitMethod
@@ -40,8 +41,13 @@ export interface FitOptions {
   equationError?: 'compare' | 'start'
   /** multiple shooting (multiple-shooting/): segments per experiment or a segment length; absent: single shooting */
   segments?: SegmentRequest
-  /** run the planned starts elsewhere (workers); must return one outcome per plan, in any order */
-  runStarts?: (plans: StartPlan[]) => Promise<StartOutcome[]>
+  /** multiple shooting: the host's helpers for the segments of each evaluation (multiple-shooting/evaluator.ts) */
+  segmentEvaluator?: SegmentEvaluatorFactory
+  /**
+   * run the planned starts elsewhere (workers); must return one outcome per plan, in any order (after a
+   * cancel: the outcomes of the starts that finished); `onProgress` receives every start's iterations
+   */
+  runStarts?: (plans: StartPlan[], onProgress?: (info: ProgressInfo) => void) => Promise<StartOutcome[]>
 }
 
 export interface StartPlan {

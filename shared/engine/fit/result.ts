@@ -29,7 +29,9 @@ import { linearisedCovariance } from '../stats/covariance'
 import { analyseIdentifiability } from '../stats/identifiability'
 import { estimateValidationStates } from './validation-start'
 import { fitMetrics, aic, bic } from '../stats/metrics'
-import { autocorrelation, crossCorrelation, ljungBox, maxLagFor, whiteBand } from '../stats/residuals'
+import { autocorrelation, crossCorrelation, independenceTest, ljungBox, maxLagFor, medianStep, whiteBand } from '../stats/residuals'
+import { cumulativePeriodogram } from '../stats/whiteness'
+import { jarqueBera } from '../stats/normality'
 import { sampleTrace } from './interp'
 import { profileInterval } from './profile'
 import { costLandscape } from '../landscape'
@@ -67,6 +69,14 @@ const toDeclaredDelta = (u: UnitMap, v: number) => v / Math.abs(u.scale)
 export function unitOf(model: CompiledModel, prob: FitProblem, q: number): UnitMap {
   const qq = prob.quantities[q]
   return qq.kind === 'param' ? model.params[qq.index] : model.states[qq.index]
+}
+
+/** The estimated quantities at `theta` in their declared units (the live estimates of a running fit). */
+export function declaredEstimates(model: CompiledModel, prob: FitProblem, theta: ArrayLike<number>): { name: string; unit: string; value: number }[] {
+  return prob.names.map((name, q) => {
+    const u = unitOf(model, prob, q)
+    return { name, unit: u.unit, value: toDeclared(u, theta[q]) }
+  })
 }
 
 export async function buildResult(a: BuildArgs): Promise<FitResult> {
@@ -205,7 +215,7 @@ export async function buildResult(a: BuildArgs): Promise<FitResult> {
     const means = localMeans(prob, theta)
     const estimateStarts = spec.validationStart === 'estimate'
     if (prob.validation.length > 0 && prob.quantities.some((q) => q.experiment !== null && q.kind === 'param')) {
-      warnings.push('validation: local parameters take the mean of their per-experiment estimates')
+      warnings.push('validation: per-record parameters take the mean of their estimates on the fit records')
     }
     if (prob.validation.length > 0 && !estimateStarts && prob.quantities.some((q) => q.kind === 'state')) {
       warnings.push("validation: the estimated initial states take their sheet values on validation records; ask for initial states estimated on each record (parameters frozen) when a record starts elsewhere")
@@ -338,7 +348,9 @@ function residualDiagnostics(model: CompiledModel, ex: PreparedExperiment, y: Fl
   const L = maxLagFor(n)
   const r = autocorrelation(e, L)
   const lb = ljungBox(r, n)
+  const step = medianStep(times)
   const cross: ResidualDiagnostics['crossCorrelation'] = []
+  const independence: NonNullable<ResidualDiagnostics['independence']> = []
   const uAt = new Float64Array(n)
   model.inputs.forEach((inp, i) => {
     const tr = ex.inputs[i]
@@ -346,11 +358,35 @@ function residualDiagnostics(model: CompiledModel, ex: PreparedExperiment, y: Fl
     sampleTrace(tr, times, inp.interp, uAt)
     const c = crossCorrelation(uAt, e, L)
     cross.push({ input: inp.name, lags: Array.from({ length: 2 * L + 1 }, (_, k) => k - L), values: Array.from(c, (v) => (Number.isFinite(v) ? v : 0)) })
+    const it = independenceTest(c, L, n)
+    independence.push({ input: inp.name, statistic: fin(it.statistic) ?? 0, dof: it.dof, pValue: fin(it.pValue) ?? 1 })
   })
+  const cp = cumulativePeriodogram(e)
+  const jb = jarqueBera(e)
   return {
     n, maxLag: L, band95: whiteBand(n),
     autocorrelation: Array.from(r, (v) => (Number.isFinite(v) ? v : 0)),
     ljungBox: { q: Number.isFinite(lb.q) ? lb.q : 0, lags: lb.lags, pValue: Number.isFinite(lb.pValue) ? lb.pValue : 1 },
     crossCorrelation: cross,
+    sampleStep: step, timeUnit: model.timeUnit,
+    periodogram: cp ? periodogramRow(cp, step) : null,
+    normality: jb && Number.isFinite(jb.statistic) ? jb : null,
+    independence,
   }
+}
+
+const PERIODOGRAM_POINTS = 400
+
+/** The periodogram for storage: frequencies per sheet time unit, thinned evenly to at most 400 points (the test uses all). */
+function periodogramRow(cp: NonNullable<ReturnType<typeof cumulativePeriodogram>>, step: number): NonNullable<ResidualDiagnostics['periodogram']> {
+  const q = cp.q
+  const keep = Math.min(q, PERIODOGRAM_POINTS)
+  const frequency: number[] = [0]
+  const cumulative: number[] = [0]
+  for (let k = 1; k <= keep; k++) {
+    const j = Math.round((k * q) / keep) - 1
+    frequency.push(step > 0 ? cp.frequency[j] / step : cp.frequency[j])
+    cumulative.push(cp.cumulative[j])
+  }
+  return { frequency, cumulative, q, band: cp.band, d: cp.d, pValue: cp.pValue }
 }

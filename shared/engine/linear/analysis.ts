@@ -17,6 +17,8 @@ import { findOperatingPoints, type OperatingPointResult } from './operating-poin
 import { linearize, type LinearModel } from './linearize'
 import { RANK_TOL, controllabilityRank, dcGain, observabilityRank, poleInfo } from './properties'
 import { transmissionZeros } from './zeros'
+import { ZERO_RANK_TOL, systemZeros, type SystemZeros } from './system-zeros'
+import { LinearAlgebraError } from './errors'
 import { defaultFrequencies, frequencyResponse } from './frequency-response'
 import { linearStep } from './step-response'
 import { inputSlots } from './parameters'
@@ -49,7 +51,8 @@ interface Point {
 function pointFor(model: CompiledModel, p: Float64Array, u: Float64Array, at: 'steady' | number, guess: Float64Array | undefined, maxStarts: number): Point {
   const slots = inputSlots(model, u)
   if (at === 'steady') {
-    const op = findOperatingPoints(model, { p, u: slots, guess, maxStarts })
+    const from = inputSlots(model, Float64Array.from(model.inputs, (s) => s.value))
+    const op = findOperatingPoints(model, { p, u: slots, guess, maxStarts, from })
     if (op.status === 'none') throw new AnalysisInputError(op.messages.join('; '))
     const x = op.solutions[0].x
     const lin = linearize(model, 0, x, p, slots)
@@ -83,6 +86,13 @@ export function analyzeModel(model: CompiledModel, req: AnalysisRequest): Linear
   const G = dcGain(lin.A, lin.B, lin.C, lin.D, n, m, p, lin.kind)
   if (!G && p * m > 0) warnings.push('no DC gain: the model has a pole at ' + (lin.kind === 'discrete' ? 'z = 1' : 's = 0') + ' (an integrating mode)')
   const zeros = transmissionZeros(lin.A, lin.B, lin.C, lin.D, n, m, p)
+  let sysZeros: SystemZeros | null = null
+  try {
+    sysZeros = systemZeros(lin.A, lin.B, lin.C, lin.D, n, m, p)
+  } catch (e) {
+    if (!(e instanceof LinearAlgebraError)) throw e
+    warnings.push(`the zeros of the whole system could not be computed: ${e.message}`)
+  }
   const cr = controllabilityRank(lin.A, lin.B, n, m)
   const or = observabilityRank(lin.A, lin.C, n, p)
   if (n > 0 && m > 0 && cr < n) warnings.push(`not controllable from the inputs: rank ${cr} of ${n}`)
@@ -190,6 +200,13 @@ export function analyzeModel(model: CompiledModel, req: AnalysisRequest): Linear
       relativeDegree: z.relativeDegree,
       zeros: z.zeros ? Array.from(z.zeros.re, (re, k) => ({ re, im: z.zeros!.im[k] })) : null,
     })),
+    systemZeros: sysZeros ? {
+      zeros: Array.from(sysZeros.zeros.re, (re, k) => ({ re, im: sysZeros!.zeros.im[k] })),
+      normalRank: sysZeros.normalRank,
+      rows: sysZeros.rows,
+      columns: sysZeros.columns,
+      tolerance: ZERO_RANK_TOL,
+    } : null,
     dcGain: G ? toRows(G, p, m).map(finArr) : null,
     dcGainSd: G && sdGain ? toRows(Float64Array.from(sdGain), p, m).map(finArr) : null,
     controllability: { rank: cr, n, tolerance: RANK_TOL },

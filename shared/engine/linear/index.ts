@@ -4,6 +4,7 @@ export { findOperatingPoints, type OperatingPointResult, type OperatingPointSolu
 export { linearize, type LinearModel } from './linearize'
 export { eigenvalues, type Eigenvalues } from './eigen'
 export { transmissionZeros, channelZeros } from './zeros'
+export { systemZeros, pencilRank, ZERO_RANK_TOL, type SystemZeros } from './system-zeros'
 export { frequencyResponse, defaultFrequencies } from './frequency-response'
 export { linearStep, expm } from './step-response'
 export { dcGain, poleInfo, controllabilityRank, observabilityRank, RANK_TOL } from './properties'

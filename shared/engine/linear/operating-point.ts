@@ -12,12 +12,21 @@
  *   and adaptive steps in λ (Allgower & Georg, Introduction to Numerical Continuation Methods, SIAM
  *   2003, Sec. 1.1 and Ch. 2). A turning point in λ stops it: then no operating point is reported from
  *   that start.
+ * - When Newton fails from the given start at the requested inputs u₁ and the sheet's own inputs u₀
+ *   differ, the inputs are stepped first: a steady state x₀ at u₀ (Newton from the start, or the end
+ *   state of a simulation at u₀, polished by Newton) is carried along u(λ) = u₀ + λ (u₁ − u₀), λ: 0 → 1,
+ *   by natural-parameter continuation with Newton correctors, halving the step in λ when a corrector
+ *   fails and lengthening it after a success (Allgower & Georg 2003, Sec. 1.1; Seydel, Practical
+ *   Bifurcation and Stability Analysis, 3rd ed. 2010, Sec. 4.1). It follows a physical branch of
+ *   operating points; a fold (turning point) in u stops it, and the state homotopy above is tried.
  * - Several starts (the guess, scaled copies of it, points inside the states' bounds) are tried so that
  *   more than one operating point is noticed; distinct solutions are reported with their stability.
  */
 import type { CompiledModel } from '../../sheet/compiled'
 import { luFactor, luSolve } from '../solvers/lu'
 import { eigenvalues } from './eigen'
+import { simulate } from '../simulate'
+import { SimulationError } from '../errors'
 
 export interface OperatingPointRequest {
   /** parameters, internal units */
@@ -30,6 +39,11 @@ export interface OperatingPointRequest {
   t?: number
   /** most starts tried (default 9) */
   maxStarts?: number
+  /**
+   * the sheet's own input slots: when Newton fails from the start at `u`, the operating point is sought
+   * by stepping the inputs from a steady state at these (absent or equal to `u`: not tried)
+   */
+  from?: Float64Array
 }
 
 export interface OperatingPointSolution {
@@ -37,7 +51,8 @@ export interface OperatingPointSolution {
   /** 2-norm of the residual at x */
   residual: number
   iterations: number
-  method: 'newton' | 'continuation'
+  /** continuation: the state homotopy; input-continuation: inputs stepped from a steady state at the sheet's inputs */
+  method: 'newton' | 'continuation' | 'input-continuation'
   /** from the eigenvalues of the Jacobian; null when they could not be computed */
   stable: boolean | null
 }
@@ -172,6 +187,72 @@ function continuation(R: Residual, x: Float64Array): number {
   }
 }
 
+const SIM_HORIZONS = [10, 100, 1e3, 1e4, 1e5]
+
+/** Steady states at the inputs uc (all slots) to start an input continuation from: Newton from the guess, then simulated end states. */
+function* anchors(model: CompiledModel, R: Residual, guess: Float64Array): Generator<{ x: Float64Array; how: string }> {
+  const x = Float64Array.from(guess)
+  if (newton(R, x, MAX_NEWTON) >= 0) yield { x, how: "Newton's method from the start" }
+  if (model.kind !== 'continuous') return
+  const constant: CompiledModel = {
+    ...model,
+    inputs: model.inputs.map((s, i) => ({ ...s, value: R.u[i] })),
+    states: model.states.map((s) => ({ ...s, steady: false })),
+  }
+  let x0 = Float64Array.from(guess)
+  let t0 = 0
+  for (const T of SIM_HORIZONS) {
+    try {
+      const res = simulate(constant, { tOut: Float64Array.of(T), p: R.p, x0, t0, rtol: 1e-8 })
+      x0 = res.x.slice(0, model.nx)
+      t0 = T
+    } catch (e) {
+      if (e instanceof SimulationError) return
+      throw e
+    }
+    const xs = Float64Array.from(x0)
+    if (newton(R, xs, MAX_NEWTON) >= 0) {
+      yield { x: xs, how: `simulating at those inputs to t = ${T} and Newton's method from there` }
+      return
+    }
+  }
+}
+
+/**
+ * Steps the input slots from u0 to R.u (restored on return) carrying a steady state along; x is set to
+ * the result. Returns the steps and Newton iterations taken, or null when the step fell below 1e-5.
+ */
+function inputContinuation(R: Residual, x: Float64Array, x0: Float64Array, u0: Float64Array, u1: Float64Array): { steps: number; iterations: number } | null {
+  const xc = Float64Array.from(x0)
+  const xPrev = new Float64Array(xc.length)
+  let lambda = 0
+  let step = 0.25
+  let steps = 0
+  let iterations = 0
+  try {
+    while (lambda < 1) {
+      const target = Math.min(1, lambda + step)
+      for (let i = 0; i < u1.length; i++) R.u[i] = u0[i] + target * (u1[i] - u0[i])
+      xPrev.set(xc)
+      const it = newton(R, xc, 20)
+      if (it < 0) {
+        xc.set(xPrev)
+        step *= 0.5
+        if (step < 1e-5) return null
+        continue
+      }
+      iterations += it
+      steps++
+      lambda = target
+      step = Math.min(0.5, step * 2)
+    }
+  } finally {
+    R.u.set(u1)
+  }
+  x.set(xc)
+  return { steps, iterations }
+}
+
 function startPoints(model: CompiledModel, guess: Float64Array, max: number): Float64Array[] {
   const n = model.nx
   const out: Float64Array[] = [Float64Array.from(guess)]
@@ -202,7 +283,8 @@ function same(a: Float64Array, b: Float64Array, scale: Float64Array): boolean {
 export function findOperatingPoints(model: CompiledModel, req: OperatingPointRequest): OperatingPointResult {
   const n = model.nx
   const t = req.t ?? 0
-  const R = new Residual(model, req.p, req.u, t)
+  // a copy of the inputs: an input continuation steps them in place
+  const R = new Residual(model, req.p, Float64Array.from(req.u), t)
   const guess = req.guess ?? Float64Array.from(model.states, (s) => s.initial)
   const messages: string[] = []
   if (n === 0) return { status: 'unique', solutions: [{ x: new Float64Array(0), residual: 0, iterations: 0, method: 'newton', stable: true }], starts: 0, messages }
@@ -210,10 +292,33 @@ export function findOperatingPoints(model: CompiledModel, req: OperatingPointReq
   const scale = Float64Array.from(guess, (v) => Math.max(Math.abs(v), 1e-9))
   const found: OperatingPointSolution[] = []
   const r = new Float64Array(n)
+  const u1 = Float64Array.from(req.u)
+  const u0 = req.from && req.from.some((v, i) => v !== u1[i]) ? req.from : null
   starts.forEach((s, k) => {
     const x = Float64Array.from(s)
     let it = newton(R, x, MAX_NEWTON)
-    let method: 'newton' | 'continuation' = 'newton'
+    let method: OperatingPointSolution['method'] = 'newton'
+    if (it < 0 && k === 0 && u0) {
+      R.u.set(u0)
+      let reached: string | null = null
+      try {
+        for (const a of anchors(model, R, guess)) {
+          const c = inputContinuation(R, x, a.x, u0, u1)
+          if (c) {
+            it = c.iterations
+            reached = `Newton's method failed from the start at the requested inputs; the operating point was reached by stepping the inputs from the sheet's values in ${c.steps} continuation steps, starting from the steady state there found by ${a.how}`
+            break
+          }
+          R.u.set(u0)
+        }
+      } finally {
+        R.u.set(u1)
+      }
+      if (reached) {
+        method = 'input-continuation'
+        messages.push(reached)
+      }
+    }
     if (it < 0) {
       x.set(s)
       R.project(x)

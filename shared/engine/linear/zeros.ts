@@ -8,9 +8,8 @@
  *           dynamics matrix Â = A − b γ⁻¹ c A^r leaves N = null([c; cA; …; cA^(r−1)]) invariant, and
  *           the zeros are eig(Nᵀ Â N) (n − r of them; Isidori, Nonlinear Control Systems, 3rd ed. 1995,
  *           Sec. 4.3, the linear case).
- * Limits: channels are treated one at a time (MIMO transmission zeros of the whole matrix transfer
- * function, from the generalized eigenproblem of the full Rosenbrock pencil, are not computed);
- * invariant zeros include modes that cancel (uncontrollable or unobservable ones).
+ * Channels are treated one at a time here; the zeros of the whole multivariable system are in
+ * system-zeros.ts. Invariant zeros include modes that cancel (uncontrollable or unobservable ones).
  */
 import { eigenvalues, type Eigenvalues } from './eigen'
 import { matMul } from './dense'

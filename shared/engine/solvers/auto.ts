@@ -63,6 +63,11 @@ export class AutoSolver implements OdeSolver {
     this.active.breakpoint()
   }
 
+  restartAt(t: number, z: Float64Array, h: number): void {
+    this.active.restartAt(t, z, h)
+    this.pendingDense = false
+  }
+
   step(tStop: number): void {
     this.active.step(tStop)
     if (!this.switched && this.nonstiff.stiff) {

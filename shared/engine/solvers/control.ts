@@ -103,22 +103,23 @@ export function nextStep(hNew: number, h: number, hWanted: number, clipped: bool
 
 /**
  * Starting step size (Hairer, Nørsett & Wanner, Solving ODEs I, Sec. II.4, "Starting Step Size",
- * steps a–f; the same as HINIT in their dopri5 code). f0 = f(t, z) is given; y1, f1 are scratch.
+ * steps a–f; the same as HINIT in their dopri5 code). f0 = f(t, z) is given; y1, f1 are scratch;
+ * the norms take the first nNorm components (the method's error norm's).
  */
 export function initialStep(
   sys: OdeSystem, tol: Tolerances, t: number, z: Float64Array, f0: Float64Array,
-  y1: Float64Array, f1: Float64Array, order: number, hmax: number, c: SolverCounters,
+  y1: Float64Array, f1: Float64Array, order: number, hmax: number, c: SolverCounters, nNorm = sys.n,
 ): number {
   const n = sys.n
-  const d0 = errNorm(tol, sys.nBlock, n, z, z, z)
-  const d1 = errNorm(tol, sys.nBlock, n, f0, z, z)
+  const d0 = errNorm(tol, sys.nBlock, nNorm, z, z, z)
+  const d1 = errNorm(tol, sys.nBlock, nNorm, f0, z, z)
   let h0 = d0 < 1e-5 || d1 < 1e-5 ? 1e-6 : 0.01 * (d0 / d1)
   h0 = Math.min(h0, hmax)
   for (let i = 0; i < n; i++) y1[i] = z[i] + h0 * f0[i]
   sys.f(t + h0, y1, f1)
   c.rhsEvals++
   for (let i = 0; i < n; i++) f1[i] = (f1[i] - f0[i]) / h0
-  const d2 = errNorm(tol, sys.nBlock, n, f1, z, z)
+  const d2 = errNorm(tol, sys.nBlock, nNorm, f1, z, z)
   const dm = Math.max(d1, d2)
   const h1 = dm <= 1e-15 || !Number.isFinite(dm) ? Math.max(1e-6, h0 * 1e-3) : Math.pow(0.01 / dm, 1 / (order + 1))
   return Math.min(100 * h0, h1, hmax)

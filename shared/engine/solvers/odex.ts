@@ -52,6 +52,13 @@ export class OdexSolver implements OdeSolver {
     resetCounters(this.counters)
   }
 
+  restartAt(t: number, z: Float64Array, h: number): void {
+    this.t = t
+    this.z.set(z.subarray(0, this.n))
+    this.h = h
+    this.denseFn = null
+  }
+
   breakpoint(): void {
     // each segment is a separate package call; nothing is carried over but the step size
   }

@@ -22,12 +22,24 @@
  *
  * Sensitivities: the system z = [x, s_1, …] (system.ts) has the block lower-triangular Jacobian
  *   [[J, 0], [M_j, J]],   M_j = ∂(J s_j + ∂f/∂θ_j)/∂x,
- * and a Rosenbrock method of order 4 needs it exactly (it is not a W-method). Each stage solves the
- * state block first, u_x = W⁻¹ r_x, then each sensitivity block u_j = W⁻¹ (r_j + M_j u_x): one LU of the
- * nx×nx matrix serves all blocks. M_j u_x is the directional derivative of the sensitivity right-hand
- * side along u_x, taken as a central difference of f on the state block (the difference-quotient
- * approach of Hindmarsh & Serban, CVODES guide, Sec. 2.6 "forward sensitivity", DQ option); the
- * sensitivity blocks' ∂/∂t comes from a central difference in t (the RODAS code takes a forward one, FX).
+ * and a Rosenbrock method of order 4 needs it exactly (it is not a W-method; Hairer & Wanner II,
+ * Sec. IV.7). Each stage solves the state block first, u_x = W⁻¹ r_x, then each sensitivity block
+ * u_j = W⁻¹ (r_j + M_j u_x): one LU of the nx×nx matrix serves all blocks (the simultaneous
+ * treatment of the sensitivity system with the states' matrix, T. Maly & L. R. Petzold,
+ * "Numerical methods and software for sensitivity analysis of differential-algebraic systems",
+ * Appl. Numer. Math. 20 (1996) 57–79, their "simultaneous corrector"; cited from memory). M_j u_x
+ * and the sensitivity blocks' ∂/∂t are exact: the sheet compiler's second directional derivative
+ * d2f (sys.couple; shared/sheet/coupling-codegen.ts).
+ *
+ * Error control of the sensitivities: with M_j exact, the sensitivity stages are the derivatives of
+ * the state stages with respect to θ_j (differentiate (I/(hγ) − J(y)) u = r by θ: the extra term
+ * (dJ/dθ_j)·u = f''[s_j, u] + ∂J/∂θ_j·u is M_j u), so s is the exact derivative of the computed x
+ * for the steps taken ("internal numerical differentiation", H. G. Bock, "Numerical treatment of
+ * inverse problems in chemical reaction kinetics", Springer Ser. Chem. Phys. 18 (1981) 102–125;
+ * cited from memory): what a fit needs is the gradient of what it computes. So by default the
+ * error norm takes the states only — partial error control, the default of CVODES (errconS false;
+ * Hindmarsh & Serban, CVODES guide, Sec. 2.6 and CVodeSetSensErrCon); `tol.stiffSensitivities`
+ * puts the sensitivities in the norm too (full error control).
  */
 import { checkLimits, checkStepSize, clipStep, errNorm, firstNonFinite, initialStep, nextStep, stepEnd, throwNonFinite } from './control'
 import { luFactor, luSolve } from './lu'
@@ -81,16 +93,9 @@ const MAX_RATIO = 6
 const PRED_ERR_FLOOR = 1e-2
 /** a step whose stages are not finite or whose matrix is singular is retried with h × this */
 const RETRY_SHRINK = 0.25
-/**
- * relative size of the central-difference perturbation for the coupling term: ε^{1/3} balances
- * truncation O(δ²) and rounding O(ε/δ) (Nocedal & Wright, Numerical Optimization, 2nd ed. 2006,
- * Sec. 8.1, eq. (8.9))
- */
-const COUPLING_STEP = Math.cbrt(Number.EPSILON)
-
 export class Rosenbrock extends OneStepSolver {
   readonly name = 'stiff'
-  /** size of the leading state block the Jacobian covers (the rest are sensitivities, coupled by addCoupling) */
+  /** size of the leading state block the Jacobian covers (the rest are sensitivities, coupled through sys.couple) */
   private nb = 0
   /** the stage vectors u₁…u_s of the transformed method (Hairer & Wanner II, Sec. IV.7, eq. (7.3')) */
   private u: Float64Array[] = []
@@ -100,8 +105,9 @@ export class Rosenbrock extends OneStepSolver {
   /** the step's result y₁ (swapped with z on acceptance) */
   private z1: Float64Array = new Float64Array(0)
   private ytmp: Float64Array = new Float64Array(0)
-  /** f at t + δt for the coupling difference, and ∂f/∂t */
-  private fd: Float64Array = new Float64Array(0)
+  /** nb zeros: the direction of a pure time derivative in sys.couple */
+  private zeroX: Float64Array = new Float64Array(0)
+  /** ∂f/∂t at the step's start */
   private ft: Float64Array = new Float64Array(0)
   /** Jacobian ∂f/∂z of the state block, the iteration matrix W = I/(hγ) − J, and W's LU pivots */
   private J: Float64Array = new Float64Array(0)
@@ -128,7 +134,7 @@ export class Rosenbrock extends OneStepSolver {
     this.z = new Float64Array(n)
     this.z1 = new Float64Array(n)
     this.ytmp = new Float64Array(n)
-    this.fd = new Float64Array(n)
+    this.zeroX = new Float64Array(nb)
     this.ft = new Float64Array(n)
     this.w2 = new Float64Array(n)
     this.w3 = new Float64Array(n)
@@ -148,6 +154,11 @@ export class Rosenbrock extends OneStepSolver {
     this.haveJ = false
   }
 
+  /** components in the error norm: the states, and the sensitivities only when asked (full error control) */
+  private normSize(): number {
+    return this.tol.stiffSensitivities === true ? this.n : this.nb
+  }
+
   /** f(t, z) into f0, once per accepted step (it is stage 1 and the base of the differences) */
   private evalF0(): void {
     const { sys, n, counters, limits } = this
@@ -158,39 +169,16 @@ export class Rosenbrock extends OneStepSolver {
     this.haveF0 = true
   }
 
-  /** J and f_t at the step's start; with sensitivities also their blocks' ∂/∂t by a central difference */
+  /** J and f_t at the step's start; with sensitivities also their blocks' exact ∂/∂t */
   private evalJacobian(t: number, z: Float64Array): void {
-    const { sys, n, nb, ft, fd, counters } = this
+    const { sys, n, nb, ft, counters } = this
     sys.jac(t, z, this.J, ft)
     counters.jacEvals++
     if (n > nb) {
-      const dt = COUPLING_STEP * Math.max(1, Math.abs(t))
-      sys.f(t + dt, z, fd)
-      sys.f(t - dt, z, this.f1)
-      counters.rhsEvals += 2
-      for (let i = nb; i < n; i++) ft[i] = (fd[i] - this.f1[i]) / (2 * dt)
+      ft.fill(0, nb, n)
+      sys.couple(t, z, this.zeroX, 1, ft)
     }
     this.haveJ = true
-  }
-
-  /**
-   * Adds M_j·v (v = the state block of `r`, already solved) to each sensitivity block of r: a
-   * central difference of f along v on the state block, perturbing each state by at most ε^{1/3} of its
-   * scale |x_i| + atol_i.
-   */
-  private addCoupling(t: number, z: Float64Array, r: Float64Array): void {
-    const { sys, n, nb, ytmp, fd, f1 } = this
-    let q = 0
-    for (let i = 0; i < nb; i++) q = Math.max(q, Math.abs(r[i]) / (Math.abs(z[i]) + this.tol.atol[i]))
-    if (q === 0) return
-    const delta = COUPLING_STEP / q
-    ytmp.set(z)
-    for (let i = 0; i < nb; i++) ytmp[i] = z[i] + delta * r[i]
-    sys.f(t, ytmp, fd)
-    for (let i = 0; i < nb; i++) ytmp[i] = z[i] - delta * r[i]
-    sys.f(t, ytmp, f1)
-    this.counters.rhsEvals += 2
-    for (let i = nb; i < n; i++) r[i] += (fd[i] - f1[i]) / (2 * delta)
   }
 
   step(tStop: number): void {
@@ -200,7 +188,7 @@ export class Rosenbrock extends OneStepSolver {
     const nBlocks = n / nb
     if (!this.haveF0) this.evalF0()
     if (this.h === 0 && limits.fixedStep <= 0) {
-      this.h = initialStep(sys, this.tol, this.t, this.z, this.f0, ytmp, this.z1, RODAS4.order, Math.abs(tStop - this.t), counters)
+      this.h = initialStep(sys, this.tol, this.t, this.z, this.f0, ytmp, this.z1, RODAS4.order, Math.abs(tStop - this.t), counters, this.normSize())
     }
     for (;;) {
       checkLimits(limits, counters, this.t)
@@ -247,7 +235,8 @@ export class Rosenbrock extends OneStepSolver {
         if (gh !== 0) for (let i = 0; i < n; i++) ui[i] += gh * ft[i]
         luSolve(W, nb, piv, ui, 0)
         if (coupled) {
-          this.addCoupling(t, z, ui)
+          // r_j += M_j·u_x (u_x, the state block of ui, is solved already)
+          sys.couple(t, z, ui, 0, ui)
           for (let b = 1; b < nBlocks; b++) luSolve(W, nb, piv, ui, b * nb)
         }
       }
@@ -260,7 +249,7 @@ export class Rosenbrock extends OneStepSolver {
           for (let j = 0; j < s; j++) acc += RODAS4.m[j] * u[j][i]
           z1[i] = acc
         }
-        err = limits.fixedStep > 0 ? 0 : errNorm(this.tol, nb, n, u6, z, z1)
+        err = limits.fixedStep > 0 ? 0 : errNorm(this.tol, nb, this.normSize(), u6, z, z1)
         if (!Number.isFinite(err) || firstNonFinite(z1, n) >= 0) ok = false
       }
       if (!ok) {

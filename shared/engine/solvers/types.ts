@@ -4,8 +4,8 @@
  * A system has `n` components made of `blocks` blocks of `nBlock` components each: block 0 holds
  * the states, the further blocks forward sensitivities (one block per parameter or initial state).
  * The stiff method factors the state block's nBlock×nBlock matrix once and solves the block
- * lower-triangular augmented system with it, adding the coupling of each sensitivity block to the
- * states by differences of f (see rosenbrock.ts).
+ * lower-triangular augmented system with it, adding the exact coupling of each sensitivity block
+ * to the states (`couple`, see rosenbrock.ts).
  */
 export interface OdeSystem {
   n: number
@@ -14,6 +14,13 @@ export interface OdeSystem {
   f(t: number, z: Float64Array, dz: Float64Array): void
   /** state-block Jacobian ∂f/∂x (nBlock², row-major) and ∂f/∂t of the state block (ft[0..nBlock)) */
   jac(t: number, z: Float64Array, J: Float64Array, ft: Float64Array): void
+  /**
+   * The sensitivity blocks' dependence on the states and the time: for every block b ≥ 1 adds
+   *   (∂f_b/∂x)·v + (∂f_b/∂t)·vt      (v = v[0..nBlock); the partials hold block b itself fixed)
+   * to out[b·nBlock … (b+1)·nBlock). Reads all of v before writing, so out may be v's own array.
+   * Nothing to do without sensitivity blocks.
+   */
+  couple(t: number, z: Float64Array, v: Float64Array, vt: number, out: Float64Array): void
 }
 
 /**
@@ -30,6 +37,12 @@ export interface Tolerances {
   atol: Float64Array
   /** per component (length n) */
   weight: Float64Array
+  /**
+   * the stiff method measures the sensitivity components too (with `weight`); otherwise its error
+   * norm takes the states only (partial error control, see rosenbrock.ts). The explicit methods
+   * always use `weight`.
+   */
+  stiffSensitivities?: boolean
 }
 
 export interface SolverCounters {
@@ -68,6 +81,11 @@ export interface OdeSolver {
    * refresh whatever derivative is carried over (no fresh start-up).
    */
   breakpoint(): void
+  /**
+   * Continue from (t, z) after the state jumped there (an event cut the last step): counters and the
+   * method in use are kept, nothing is carried over from the last step but the step size h to try.
+   */
+  restartAt(t: number, z: Float64Array, h: number): void
   /** one accepted step, never beyond tStop (lands exactly on it when it is reached) */
   step(tStop: number): void
   /** integrate to exactly tStop, calling obs after each accepted step */

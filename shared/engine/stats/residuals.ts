@@ -9,6 +9,10 @@
  *   G. M. Ljung & G. E. P. Box, "On a measure of lack of fit in time series models",
  *   Biometrika 65 (1978) 297–303, eq. (2.1).
  *
+ * - Independence of the residuals from an input: S = N Σ_{τ=0..L} r_ue(τ)², compared with χ²(L + 1)
+ *   (the cross-correlation check of Box & Jenkins 1970, Sec. 11.3.1, from memory; the τ ≥ 0 lags are
+ *   the residual against present and past inputs).
+ *
  * Lag rule: L = min(N − 1, max(1, ⌊10·log10 N⌋)), the default maximum lag of common statistics
  * packages' autocorrelation plots (common practice, no source); it grows with N but slowly, so each r_k
  * still averages many products. Samples are taken in their stored order; uneven sampling or gaps
@@ -86,4 +90,28 @@ export function ljungBox(r: ArrayLike<number>, n: number, lags = r.length): Ljun
 /** Half-width of the 95 % band of a white sequence's correlation estimates. */
 export function whiteBand(n: number): number {
   return n > 0 ? 1.96 / Math.sqrt(n) : Infinity
+}
+
+export interface IndependenceTest {
+  statistic: number
+  dof: number
+  pValue: number
+}
+
+/** The cross-correlation check over τ = 0..L of `r` as returned by crossCorrelation (index τ + L). */
+export function independenceTest(r: ArrayLike<number>, maxLag: number, n: number): IndependenceTest {
+  let s = 0
+  for (let tau = 0; tau <= maxLag; tau++) s += r[tau + maxLag] * r[tau + maxLag]
+  const statistic = n * s
+  return { statistic, dof: maxLag + 1, pValue: chiSquareSurvival(statistic, maxLag + 1) }
+}
+
+/** Median spacing of sample times (0 for fewer than two samples). */
+export function medianStep(t: ArrayLike<number>): number {
+  if (t.length < 2) return 0
+  const d = new Float64Array(t.length - 1)
+  for (let i = 1; i < t.length; i++) d[i - 1] = t[i] - t[i - 1]
+  d.sort()
+  const h = d.length >> 1
+  return d.length % 2 ? d[h] : 0.5 * (d[h - 1] + d[h])
 }

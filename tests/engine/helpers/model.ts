@@ -1,7 +1,9 @@
 /**
  * Builds a CompiledModel from plain JavaScript functions, for engine tests independent of the sheet
  * compiler. Jacobians not given are central finite differences (step 1e-6·max(1,|v|)); the tests
- * that check sensitivities give them exactly.
+ * that check sensitivities give them exactly. The coupling term d2f, when not given, is a central
+ * difference of the directional derivative J·s + ∂f/∂p·q + ∂f/∂u·r along (v, τ, ν) (relative step
+ * 1e-6; common practice, no source).
  */
 import type { CompiledModel, VecFn } from '../../../shared/sheet/compiled'
 
@@ -24,6 +26,7 @@ export interface TestModelSpec {
   dgdx?: VecFn
   dgdp?: VecFn
   dgdu?: VecFn
+  d2f?: VecFn
 }
 
 type Which = 'x' | 'p' | 'u' | 't'
@@ -59,6 +62,47 @@ function call(fn: VecFn, which: Which, t: number, x: Float64Array, p: Float64Arr
   else fn(t, x, p, v, out)
 }
 
+/** d2f (compiled.ts: packed X = [x, s, v, τ], P = [p, q], U = [u, r, ν]) by a central difference */
+function fdCoupling(nx: number, np: number, nuu: number, dfdx: VecFn, dfdp: VecFn, dfdu: VecFn): VecFn {
+  const J = new Float64Array(Math.max(1, nx * nx))
+  const Fp = new Float64Array(Math.max(1, nx * np))
+  const Fu = new Float64Array(Math.max(1, nx * nuu))
+  const xs = new Float64Array(nx)
+  const us = new Float64Array(Math.max(1, nuu))
+  const a = new Float64Array(nx)
+  const b = new Float64Array(nx)
+  const p = new Float64Array(np)
+  const dirDerivative = (t: number, X: Float64Array, P: Float64Array, U: Float64Array, out: Float64Array) => {
+    dfdx(t, xs, p, us, J)
+    if (np) dfdp(t, xs, p, us, Fp)
+    if (nuu) dfdu(t, xs, p, us, Fu)
+    for (let i = 0; i < nx; i++) {
+      let acc = 0
+      for (let k = 0; k < nx; k++) acc += J[i * nx + k] * X[nx + k]
+      for (let k = 0; k < np; k++) acc += Fp[i * np + k] * P[np + k]
+      for (let k = 0; k < nuu; k++) acc += Fu[i * nuu + k] * U[nuu + k]
+      out[i] = acc
+    }
+  }
+  return (t, X, P, U, out) => {
+    for (let k = 0; k < np; k++) p[k] = P[k]
+    let scale = Math.abs(X[3 * nx]) / (1 + Math.abs(t))
+    for (let i = 0; i < nx; i++) scale = Math.max(scale, Math.abs(X[2 * nx + i]) / (1 + Math.abs(X[i])))
+    for (let k = 0; k < nuu; k++) scale = Math.max(scale, Math.abs(U[2 * nuu + k]) / (1 + Math.abs(U[k])))
+    if (scale === 0) {
+      out.fill(0, 0, nx)
+      return
+    }
+    const h = 1e-6 / scale
+    for (const [sign, dst] of [[1, a], [-1, b]] as const) {
+      for (let i = 0; i < nx; i++) xs[i] = X[i] + sign * h * X[2 * nx + i]
+      for (let k = 0; k < nuu; k++) us[k] = U[k] + sign * h * U[2 * nuu + k]
+      dirDerivative(t + sign * h * X[3 * nx], X, P, U, dst)
+    }
+    for (let i = 0; i < nx; i++) out[i] = (a[i] - b[i]) / (2 * h)
+  }
+}
+
 export function makeModel(spec: TestModelSpec): CompiledModel {
   const nx = spec.states.length
   const params = spec.params ?? []
@@ -80,6 +124,9 @@ export function makeModel(spec: TestModelSpec): CompiledModel {
   const zeros = (len: number): VecFn => (_t, _x, _p, _u, out) => {
     out.fill(0, 0, len)
   }
+  const dfdx = spec.dfdx ?? fdJac(spec.rhs, nx, 'x', nx)
+  const dfdp = spec.dfdp ?? (np ? fdJac(spec.rhs, nx, 'p', np) : zeros(0))
+  const dfdu = spec.dfdu ?? (nu + nd ? fdJac(spec.rhs, nx, 'u', nu + nd) : zeros(0))
   return {
     hash: 'test-' + (spec.title ?? 'model'),
     title: spec.title ?? 'test model',
@@ -95,14 +142,16 @@ export function makeModel(spec: TestModelSpec): CompiledModel {
     nx, np, nu, nd, ny,
     rhs: spec.rhs,
     outputsFn,
-    dfdx: spec.dfdx ?? fdJac(spec.rhs, nx, 'x', nx),
-    dfdp: spec.dfdp ?? (np ? fdJac(spec.rhs, nx, 'p', np) : zeros(0)),
-    dfdu: spec.dfdu ?? (nu + nd ? fdJac(spec.rhs, nx, 'u', nu + nd) : zeros(0)),
+    dfdx,
+    dfdp,
+    dfdu,
     dfdt: spec.dfdt ?? zeros(nx),
     dgdx: spec.dgdx ?? (spec.outputsFn ? fdJac(outputsFn, ny, 'x', nx) : identity),
     dgdp: spec.dgdp ?? (spec.outputsFn && np ? fdJac(outputsFn, ny, 'p', np) : zeros(ny * np)),
     dgdu: spec.dgdu ?? (spec.outputsFn && nu + nd ? fdJac(outputsFn, ny, 'u', nu + nd) : zeros(ny * (nu + nd))),
+    d2f: spec.d2f ?? fdCoupling(nx, np, nu + nd, dfdx, dfdp, dfdu),
     source: '// hand-built test model',
+    modes: [], events: [], nm: 0, ne: 0, modeValues: new Float64Array(0), eventFns: null,
   }
 }
 

@@ -25,13 +25,8 @@ import type { CompiledModel } from '../../../sheet/compiled'
 import type { LsqProblem } from '../lsq'
 import type { FitProblem, PreparedExperiment } from '../problem'
 import { segmentStarts, type SegmentRequest } from './segments'
-
-/** Spreads one evaluation's segments over threads (parallel.ts). */
-export interface SegmentSharing {
-  evaluate(ms: MultipleShootingProblem, w: Float64Array, r: Float64Array, jac: Float64Array | null): boolean
-  /** simulations run on other threads */
-  readonly helperSimulations: number
-}
+import { FitAborted, FitTimeout, yieldToEventLoop } from '../lsq'
+import { mergeRows, splitSegments, type SegmentEvaluator, type SegmentRows } from './evaluator'
 
 export interface Segment {
   experiment: number
@@ -72,8 +67,11 @@ export class MultipleShootingProblem implements LsqProblem {
   readonly lambda: Float64Array
   /** scaled defects ĥ at the last evaluation */
   readonly defects: Float64Array
-  /** evaluates the segments on other threads as well (parallel.ts); null: all in this thread */
-  sharing: SegmentSharing | null = null
+  /** helpers that evaluate blocks of segments (evaluator.ts); null: all in this thread */
+  evaluator: SegmentEvaluator | null = null
+  /** simulations the helpers ran */
+  private helperSims = 0
+  private evaluation = 0
   private readonly model: CompiledModel
   private readonly pBuf: Float64Array
   private readonly xBuf: Float64Array
@@ -141,7 +139,7 @@ export class MultipleShootingProblem implements LsqProblem {
   }
 
   get simulations(): number {
-    return this.base.simulations + (this.sharing?.helperSimulations ?? 0)
+    return this.base.simulations + this.helperSims
   }
 
   /** Number of segments over all experiments. */
@@ -164,12 +162,63 @@ export class MultipleShootingProblem implements LsqProblem {
   }
 
   evaluate(w: Float64Array, r: Float64Array, jac: Float64Array | null): boolean {
-    if (this.sharing) return this.sharing.evaluate(this, w, r, jac)
     if (jac) jac.fill(0)
     for (let s = 0; s < this.segments.length; s++) {
       if (!this.evaluateSegment(s, w, r, jac, this.defects)) return false
     }
     return true
+  }
+
+  /**
+   * The same evaluation with the segments spread over the evaluator's ready helpers and this thread
+   * (evaluator.ts): blocks go out first, this thread evaluates the first block meanwhile, the replies
+   * are merged. Without an evaluator or a ready helper it is `evaluate`.
+   */
+  async evaluateAsync(w: Float64Array, r: Float64Array, jac: Float64Array | null): Promise<boolean> {
+    const ev = this.evaluator
+    if (ev && ev.starting > 0) await yieldToEventLoop()
+    const helpers = ev ? Math.min(ev.ready, this.segments.length - 1) : 0
+    if (!ev || helpers <= 0) return this.evaluate(w, r, jac)
+    const id = ++this.evaluation
+    const blocks = splitSegments(this, helpers + 1)
+    // a helper that is lost (its thread ended) rejects: its block is then evaluated here
+    const replies: Promise<SegmentRows | Int32Array>[] = []
+    const sent: Int32Array[] = []
+    for (let l = 1; l <= helpers; l++) {
+      if (!blocks[l].length) continue
+      sent.push(blocks[l])
+      replies.push(ev.evaluate(l - 1, {
+        id, w: Float64Array.from(w), mu: this.mu, lambda: Float64Array.from(this.lambda), stateScale: Float64Array.from(this.stateScale),
+        withJac: jac !== null, segments: blocks[l],
+      }).catch(() => blocks[l]))
+    }
+    if (jac) jac.fill(0)
+    let ok = true
+    let thrown: unknown = null
+    try {
+      for (const s of blocks[0]) if (!(ok = this.evaluateSegment(s, w, r, jac, this.defects))) break
+    } catch (e) {
+      thrown = e
+    }
+    const got = await Promise.all(replies)
+    if (thrown) throw thrown
+    let interrupted: SegmentRows['interrupted'] = null
+    for (let b = 0; b < got.length; b++) {
+      const rows = got[b]
+      if (rows instanceof Int32Array) {
+        for (const s of rows) if (ok && !(ok = this.evaluateSegment(s, w, r, jac, this.defects))) break
+        continue
+      }
+      this.helperSims += rows.simulations
+      if (rows.interrupted) interrupted = rows.interrupted
+      else if (!rows.ok) {
+        if (ok) this.base.lastError = rows.error
+        ok = false
+      } else mergeRows(this, sent[b], rows, r, jac)
+    }
+    if (interrupted === 'aborted') throw new FitAborted()
+    if (interrupted === 'time-budget') throw new FitTimeout()
+    return ok
   }
 
   /**

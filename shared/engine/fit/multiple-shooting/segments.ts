@@ -22,11 +22,6 @@ export interface SegmentRequest {
   segments?: number
   /** segment length in the sheet's time unit (used when `segments` is not given) */
   segmentLength?: number
-  /**
-   * Host hook: start helper threads that serve this shared block (parallel.ts serveSegments, each with
-   * its own copy of the same problem); returns a function that lets them go. Absent: one thread.
-   */
-  share?: (buffer: SharedArrayBuffer, segments: number) => () => void
 }
 
 /** Fewest samples a segment may hold. */

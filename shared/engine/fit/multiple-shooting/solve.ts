@@ -33,7 +33,8 @@ import { fitFromStart, makeProblem, pickBest, planStarts, resolveTolerances, typ
 import { buildResult } from '../result'
 import { MultipleShootingProblem } from './problem'
 import type { SegmentRequest } from './segments'
-import { SharedSegments } from './parallel'
+import { shapeOf } from './evaluator'
+import { segmentLinesAt } from './live-lines'
 
 /** Penalty rounds at most. */
 export const MAX_PENALTY_ROUNDS = 12
@@ -75,7 +76,7 @@ export async function shootFromStart(
   const r = new Float64Array(ms.m)
   ms.mu = 1
   ms.lambda.fill(0)
-  if (!safeEval(w, r)) return bad('failed', `the model cannot be evaluated at the starting point${ms.base.lastError ? `: ${ms.base.lastError}` : ''}`)
+  if (!(await safeEval(w, r))) return bad('failed', `the model cannot be evaluated at the starting point${ms.base.lastError ? `: ${ms.base.lastError}` : ''}`)
   const c0 = ms.outputCost(r)
   let h2 = 0
   for (const d of ms.defects) h2 += d * d
@@ -93,7 +94,10 @@ export async function shootFromStart(
     const res = await levenbergMarquardt(ms, w, {
       maxIterations: opts.maxIterations, ftol: tol.ftol, xtol: tol.xtol, gtol: tol.gtol,
       logTransform: opts.logTransform ?? true, signal: opts.signal, deadline,
-      onIteration: opts.onProgress ? (info: ProgressInfo) => opts.onProgress!({ ...info, parameters: info.parameters.slice(0, ms.nTheta), start }) : undefined,
+      onIteration: opts.onProgress ? (info: ProgressInfo) => {
+        const r = info.residual
+        opts.onProgress!({ ...info, parameters: info.parameters.slice(0, ms.nTheta), start, ...(r ? { segmentLines: () => segmentLinesAt(ms, r) } : {}) })
+      } : undefined,
     })
     iterations += res.iterations
     if (res.status === 'aborted' || res.status === 'failed') {
@@ -102,7 +106,7 @@ export async function shootFromStart(
       break
     }
     w = Float64Array.from(res.theta)
-    if (!safeEval(w, r)) {
+    if (!(await safeEval(w, r))) {
       status = 'failed'
       reason = 'the segments cannot be evaluated at the last estimate'
       break
@@ -132,9 +136,9 @@ export async function shootFromStart(
     simulations: ms.simulations - sims0, status, reason, costHistory: history,
   }
 
-  function safeEval(x: Float64Array, rr: Float64Array): boolean {
+  async function safeEval(x: Float64Array, rr: Float64Array): Promise<boolean> {
     try {
-      return ms.evaluate(x, rr, null) && rr.every(Number.isFinite)
+      return (await ms.evaluateAsync(x, rr, null)) && rr.every(Number.isFinite)
     } catch (e) {
       if (e instanceof FitAborted || e instanceof FitTimeout) return false
       throw e
@@ -149,21 +153,6 @@ export async function shootFromStart(
   }
 }
 
-/** Runs `shoot` with the segments shared with helper threads when the host offers them (parallel.ts). */
-async function shareWhileShooting<T>(ms: MultipleShootingProblem, req: SegmentRequest, shoot: () => Promise<T>): Promise<T> {
-  if (!req.share || ms.segmentCount < 2) return shoot()
-  const shared = new SharedSegments(ms)
-  const release = req.share(shared.buffer, ms.segmentCount)
-  ms.sharing = shared
-  try {
-    return await shoot()
-  } finally {
-    ms.sharing = null
-    shared.close()
-    release()
-  }
-}
-
 /**
  * The whole multiple-shooting fit: every planned start is shot, then polished by single shooting;
  * the best polished outcome is the result, with a `multipleShooting` section.
@@ -175,6 +164,10 @@ export async function runMultipleShootingFit(
   if (model.kind !== 'continuous') {
     throw new FitInputError('multiple shooting is for continuous-time sheets; a discrete-time sheet restarts every sample already', { kind: 'argument' })
   }
+  if (model.nm > 0) {
+    // a segment starts from free states but would start in the sheet's initial modes, not the ones the run is in there
+    throw new FitInputError(`multiple shooting cannot carry the sheet's modes (${model.modes.map((m) => m.name).join(', ')}) to the segment starts: fit this sheet by single shooting (leave out the segments)`, { kind: 'argument' })
+  }
   const deadline = opts.timeBudgetMs !== undefined ? Date.now() + opts.timeBudgetMs : undefined
   const tol = resolveTolerances(opts)
   const probe = makeProblem(model, spec, simulate, opts)
@@ -183,11 +176,23 @@ export async function runMultipleShootingFit(
   const ms = new MultipleShootingProblem(base, opts.segments, spec.bounds)
   const outcomes: StartOutcome[] = []
   const shots: ShootingOutcome[] = []
-  for (const plan of plans) {
-    if (opts.signal?.aborted) break
-    if (deadline !== undefined && Date.now() > deadline && outcomes.length > 0) break
-    const shot = await shareWhileShooting(ms, opts.segments, () => shootFromStart(ms, plan.theta, opts, deadline, plan.index))
-    shots.push(shot)
+  // helpers for the segments of each evaluation (evaluator.ts), when the host offers them
+  ms.evaluator = ms.segmentCount > 1 ? opts.segmentEvaluator?.({ segments: ms.segmentCount, shape: shapeOf(ms), deadline }) ?? null : null
+  try {
+    for (const plan of plans) {
+      if (opts.signal?.aborted) break
+      if (deadline !== undefined && Date.now() > deadline && outcomes.length > 0) break
+      const shot = await shootFromStart(ms, plan.theta, opts, deadline, plan.index)
+      shots.push(shot)
+      outcomes.push(await polish(plan, shot))
+    }
+  } finally {
+    const ev = ms.evaluator
+    ms.evaluator = null
+    await ev?.close()
+  }
+
+  async function polish(plan: StartPlan, shot: ShootingOutcome): Promise<StartOutcome> {
     const polished = await fitFromStart(model, spec, { ...plan, theta: shot.theta }, opts, simulate, deadline)
     const status: StopStatus = shot.status === 'aborted' || polished.status === 'aborted' ? 'aborted'
       : polished.status === 'failed' ? 'failed'
@@ -195,11 +200,11 @@ export async function runMultipleShootingFit(
     const reason = shot.feasible || shot.status === 'aborted'
       ? `${polished.reason} (single-shooting polish after multiple shooting: ${shot.reason})`
       : `multiple shooting did not reach continuity (${shot.reason}); single-shooting polish: ${polished.reason}`
-    outcomes.push({
+    return {
       ...polished, start: plan.theta, status, convergedBy: status === 'converged' ? polished.convergedBy : null, reason,
       iterations: shot.iterations + polished.iterations, simulations: shot.simulations + polished.simulations,
       costHistory: [...shot.costHistory, ...polished.costHistory],
-    })
+    }
   }
   const best = pickBest(outcomes)
   const bestShot = shots[outcomes.indexOf(best)] ?? shots[0]

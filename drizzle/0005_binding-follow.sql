@@ -1,0 +1,1 @@
+ALTER TABLE "bindings" ADD COLUMN "follow" varchar(16) DEFAULT 'pinned' NOT NULL;

@@ -1,0 +1,160 @@
+/**
+ * Generation of `d2f`, the second directional derivative of a sheet's right-hand side: the exact
+ * coupling term a stiff method needs when it integrates forward sensitivities with the states.
+ *
+ * The sensitivity s_j = ∂x/∂θ_j obeys s_j' = J s_j + ∂f/∂θ_j (+ ∂f/∂u·r for a delay parameter),
+ * i.e. s_j' = D_w f, the derivative of f along the direction w = (s_j, q, r) in (x, p, u), with q the
+ * unit vector of θ_j. The Jacobian of that right-hand side with respect to the states (s_j held),
+ * M_j = ∂(J s_j + ∂f/∂θ_j)/∂x, and its ∂/∂t enter every stage of a Rosenbrock method (Hairer &
+ * Wanner, Solving ODEs II, 2nd ed. 1996, Sec. IV.7: the method needs the exact Jacobian of the
+ * whole system, which for the sensitivity system is block lower triangular with these blocks).
+ * The generated function gives their product with a direction v = (v_x, τ, ν) in (x, t, u):
+ *
+ *   out_i = D_v D_w f_i = Σ ∂²f_i/∂a∂b · w_a · v_b,
+ *
+ * both derivatives taken symbolically in one forward pass each (derivative.ts, `Direction`: the
+ * chain rule with seed expressions in place of unit vectors, as in forward-mode automatic
+ * differentiation, A. Griewank & A. Walther, Evaluating Derivatives, 2nd ed. 2008, Ch. 3), each
+ * `let` getting a temporary for D_w, D_v and D_v D_w of its value.
+ *
+ * Calling convention (the arrays are packed so that the generated code reads plain x/p/u slots):
+ *   d2f(t, X, P, U, out):  X = [x (nx), s (nx), v_x (nx), τ],  P = [p (np), q (np)],
+ *                          U = [u (nu+nd), r (nu+nd), ν (nu+nd)],  out: nx values.
+ */
+import { type Expr, isNum, ZERO } from './ast'
+import type { Dialect, Emitter, SizeBudget } from './codegen'
+import { diff, type DiffContext, type Direction } from './derivative'
+import type { Span } from './diagnostics'
+import type { ParsedModel } from './model'
+
+export interface CouplingSource {
+  m: ParsedModel
+  em: Emitter
+  dialect: Dialect
+  budget: SizeBudget
+  /** the right-hand sides, folded, in compiled units */
+  f: Expr[]
+  fSpans: Span[]
+  letExpr: Expr[]
+  /** lets the right-hand sides need, in evaluation order */
+  order: number[]
+  letLines: (order: number[]) => string
+}
+
+const leaf = (k: 'x' | 'p' | 'u', i: number): Expr => ({ k, i })
+const range = (n: number, from: number, k: 'x' | 'p' | 'u'): Expr[] => Array.from({ length: n }, (_, i) => leaf(k, from + i))
+
+function children(e: Expr): Expr[] {
+  switch (e.k) {
+    case 'neg': return [e.a]
+    case 'bin': case 'cmp': return [e.a, e.b]
+    case 'cond': return [e.c, e.a, e.b]
+    case 'fn': return e.args
+    case 'lookup': return [e.a]
+    default: return [] // leaves; a delayed read is its input slot
+  }
+}
+
+/**
+ * Differentiating twice shares subtrees by reference (the memo of derivative.ts): each subtree used
+ * more than once is computed once into a temporary, so the code grows linearly with the sheet
+ * instead of exponentially with its nesting (common subexpressions by node identity; evaluating a
+ * branch of c ? a : b that is not taken is harmless in JavaScript: Math functions do not throw).
+ */
+function hoistShared(roots: Expr[], firstTemp: number): { order: Expr[]; names: Map<Expr, string> } {
+  const refs = new Map<Expr, number>()
+  const count = (e: Expr): void => {
+    const n = refs.get(e) ?? 0
+    refs.set(e, n + 1)
+    if (n === 0) for (const c of children(e)) count(c)
+  }
+  for (const r of roots) count(r)
+  const names = new Map<Expr, string>()
+  const order: Expr[] = []
+  const done = new Set<Expr>()
+  const visit = (e: Expr): void => {
+    if (done.has(e)) return
+    done.add(e)
+    const cs = children(e)
+    for (const c of cs) visit(c)
+    if (cs.length > 0 && refs.get(e)! > 1) {
+      names.set(e, `D${firstTemp + names.size}`)
+      order.push(e)
+    }
+  }
+  for (const r of roots) visit(r)
+  return { order, names }
+}
+
+/** The source of `d2f` (see the module comment for its packed arguments). */
+export function couplingFunction(c: CouplingSource): string {
+  const { m, em, dialect, budget, f, fSpans, letExpr, order } = c
+  const nx = m.states.length
+  const np = m.params.length
+  const nuu = m.inputs.length + m.delays.length
+  const nl = m.lets.length
+  const w: Direction = { k: 'dir', x: range(nx, nx, 'x'), p: range(np, np, 'p'), u: range(nuu, nuu, 'u'), t: ZERO }
+  const v: Direction = { k: 'dir', x: range(nx, 2 * nx, 'x'), p: [], u: range(nuu, 2 * nuu, 'u'), t: leaf('x', 3 * nx) }
+  // temporaries: D_w(let i) = tmp i, D_v(let i) = tmp nl + i, D_v D_w(let i) = tmp 2nl + i
+  const hasW = new Set<number>()
+  const hasV = new Set<number>()
+  const hasVW = new Set<number>()
+  const tmp = (i: number): Expr => ({ k: 'tmp', i })
+  const spt = m.secondsPerTimeUnit
+  const ctxW: DiffContext = { secondsPerTimeUnit: spt, letDerivative: (i) => (hasW.has(i) ? tmp(i) : ZERO), memo: new Map() }
+  const ctxV: DiffContext = {
+    secondsPerTimeUnit: spt,
+    letDerivative: (i) => (hasV.has(i) ? tmp(nl + i) : ZERO),
+    tmpDerivative: (i) => (hasVW.has(i) ? tmp(2 * nl + i) : ZERO),
+    memo: new Map(),
+  }
+  // the expressions, in evaluation order: each let's D_w, D_v, D_v D_w, then out[i] = D_v D_w f_i
+  const roots: { target: string; e: Expr; span: Span }[] = []
+  for (const li of order) {
+    const span = m.lets[li].span
+    const dw = diff(letExpr[li], w, ctxW)
+    const dv = diff(letExpr[li], v, ctxV)
+    if (!isNum(dw, 0)) {
+      hasW.add(li)
+      roots.push({ target: `D${li}`, e: dw, span })
+    }
+    if (!isNum(dv, 0)) {
+      hasV.add(li)
+      roots.push({ target: `D${nl + li}`, e: dv, span })
+    }
+    if (hasW.has(li)) {
+      const dvw = diff(dw, v, ctxV)
+      if (!isNum(dvw, 0)) {
+        hasVW.add(li)
+        roots.push({ target: `D${2 * nl + li}`, e: dvw, span })
+      }
+    }
+  }
+  f.forEach((fi, i) => roots.push({ target: `out[${i}]`, e: diff(diff(fi, w, ctxW), v, ctxV), span: fSpans[i] }))
+
+  const { names } = hoistShared(roots.map((r) => r.e), 3 * nl)
+  const body: string[] = []
+  const emitted = new Set<Expr>()
+  em.hoisted = new Map()
+  try {
+    // each root after the shared subtrees it uses (post-order), each shared subtree once
+    const emitShared = (e: Expr, span: Span): void => {
+      if (emitted.has(e)) return
+      emitted.add(e)
+      for (const ch of children(e)) emitShared(ch, span)
+      const name = names.get(e)
+      if (name !== undefined) {
+        body.push(budget.add(dialect.decl(name, em.emit(e)), span))
+        em.hoisted!.set(e, name)
+      }
+    }
+    for (const r of roots) {
+      for (const ch of children(r.e)) emitShared(ch, r.span)
+      const text = em.emit(r.e)
+      body.push(budget.add(r.target.startsWith('out') ? `${r.target}=${text};` : dialect.decl(r.target, text), r.span))
+    }
+  } finally {
+    em.hoisted = null
+  }
+  return [dialect.open('d2f'), dialect.decl('ts', `t*${dialect.spt}`), dialect.unused('ts'), c.letLines(order), ...body, '}'].join('\n')
+}

@@ -1,0 +1,73 @@
+/**
+ * The page's side of the quick simulation: a module Web Worker (src/workers/quickSimulation.worker.ts)
+ * compiles and integrates, so typing and dragging sliders never block. Only the newest answer of each
+ * kind counts; the worker ends with the component.
+ */
+import { onBeforeUnmount } from 'vue'
+import type { QuickModelInfo, QuickReply, QuickRequest } from '@/workers/quickSimulation'
+
+type Answer = { id: number; type: 'compiled'; info: QuickModelInfo } | { id: number; type: 'result'; reply: QuickReply } | { id: number; type: 'error'; message: string }
+
+export function useQuickSimulation() {
+  let worker: Worker | null = null
+  let next = 0
+  const waiting = new Map<number, (a: Answer) => void>()
+  /** the newest request of each kind: an older answer arriving later is dropped */
+  let newestCompile = 0
+  let newestSimulate = 0
+
+  function ensure(): Worker {
+    if (!worker) {
+      worker = new Worker(new URL('../workers/quickSimulation.worker.ts', import.meta.url), { type: 'module', name: 'pewter-quick-simulation' })
+      worker.addEventListener('message', (e: MessageEvent<Answer>) => {
+        const done = waiting.get(e.data.id)
+        waiting.delete(e.data.id)
+        done?.(e.data)
+      })
+      worker.addEventListener('error', (e) => {
+        for (const [id, done] of waiting) done({ id, type: 'error', message: `The simulation thread failed: ${e.message}` })
+        waiting.clear()
+      })
+    }
+    return worker
+  }
+
+  function ask(msg: { type: 'compile'; text: string; parts?: Record<string, string> } | { type: 'simulate'; request: QuickRequest }): { id: number; answer: Promise<Answer> } {
+    const id = ++next
+    const answer = new Promise<Answer>((resolve) => {
+      waiting.set(id, resolve)
+      ensure().postMessage({ id, ...msg })
+    })
+    return { id, answer }
+  }
+
+  /** The compiled sheet's controls, or the first error; null when a newer compile was asked meanwhile. */
+  async function compile(text: string, parts?: Record<string, string>): Promise<{ info: QuickModelInfo } | { message: string } | null> {
+    const q = ask({ type: 'compile', text, parts: parts ? { ...parts } : undefined })
+    newestCompile = q.id
+    const a = await q.answer
+    if (a.id !== newestCompile) return null
+    if (a.type === 'compiled') return { info: a.info }
+    return { message: a.type === 'error' ? a.message : 'unexpected answer' }
+  }
+
+  /** One simulation of the compiled sheet; null when a newer one was asked meanwhile. */
+  async function run(request: QuickRequest): Promise<QuickReply | null> {
+    // a plain copy: reactive proxies cannot cross to the worker
+    const q = ask({ type: 'simulate', request: JSON.parse(JSON.stringify(request)) as QuickRequest })
+    newestSimulate = q.id
+    const a = await q.answer
+    if (a.id !== newestSimulate) return null
+    if (a.type === 'result') return a.reply
+    return { ok: false, message: a.type === 'error' ? a.message : 'unexpected answer' }
+  }
+
+  function stop() {
+    worker?.terminate()
+    worker = null
+    waiting.clear()
+  }
+  onBeforeUnmount(stop)
+
+  return { compile, run, stop }
+}
