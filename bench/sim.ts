@@ -35,7 +35,7 @@ function model(name: string, states: number[], params: number[], rhs: VecFn, dfd
   const nx = states.length
   const np = params.length
   const u = { unit: '', scale: 1, offset: 0 }
-  const zero: VecFn = (t, x, p, uu, o) => { o.fill(0) }
+  const zero: VecFn = (_t, _x, _p, _uu, o) => { o.fill(0) }
   return {
     hash: name, title: name, kind: 'continuous', timeUnit: 's', secondsPerTimeUnit: 1, sampleTime: null,
     states: states.map((v, i) => ({ ...u, name: `x${i}`, description: '', initial: v, estimate: false, steady: false, lower: null, upper: null, line: 0 })),
@@ -43,9 +43,9 @@ function model(name: string, states: number[], params: number[], rhs: VecFn, dfd
     inputs: [], outputs: states.map((_, i) => ({ ...u, name: `y${i}`, description: '', sigma: null, line: 0 })), delays: [],
     nx, np, nu: 0, nd: 0, ny: nx,
     rhs,
-    outputsFn: (t, x, p, uu, o) => { for (let i = 0; i < nx; i++) o[i] = x[i] },
+    outputsFn: (_t, x, _p, _uu, o) => { for (let i = 0; i < nx; i++) o[i] = x[i] },
     dfdx, dfdp: dfdp ?? zero, dfdu: zero, dfdt: zero,
-    dgdx: (t, x, p, uu, o) => { o.fill(0); for (let i = 0; i < nx; i++) o[i * nx + i] = 1 },
+    dgdx: (_t, _x, _p, _uu, o) => { o.fill(0); for (let i = 0; i < nx; i++) o[i * nx + i] = 1 },
     dgdp: zero, dgdu: zero, source: '',
     d2f: d2f ?? (() => { throw new Error(`${name}: this benchmark problem has no coupling term (it is not run with sensitivities)`) }),
     modes: [], events: [], nm: 0, ne: 0, modeValues: new Float64Array(0), eventFns: null,
@@ -55,36 +55,36 @@ function model(name: string, states: number[], params: number[], rhs: VecFn, dfd
 const mu = 0.012277471
 const mu1 = 1 - mu
 const arenstorf = model('arenstorf', [0.994, 0, 0, -2.00158510637908252240537862224], [],
-  (t, y, p, u, o) => {
+  (_t, y, _p, _u, o) => {
     const D1 = Math.pow((y[0] + mu) ** 2 + y[1] ** 2, 1.5)
     const D2 = Math.pow((y[0] - mu1) ** 2 + y[1] ** 2, 1.5)
     o[0] = y[2]; o[1] = y[3]
     o[2] = y[0] + 2 * y[3] - (mu1 * (y[0] + mu)) / D1 - (mu * (y[0] - mu1)) / D2
     o[3] = y[1] - 2 * y[2] - (mu1 * y[1]) / D1 - (mu * y[1]) / D2
   },
-  (t, y, p, u, o) => { o.fill(0) }) // not used by the non-stiff methods
+  (_t, _y, _p, _u, o) => { o.fill(0) }) // not used by the non-stiff methods
 
 const lv = model('lotka-volterra', [1.8, 1.8], [2 / 3, 4 / 3, 1, 1],
-  (t, x, p, u, o) => { o[0] = p[0] * x[0] - p[1] * x[0] * x[1]; o[1] = p[3] * x[0] * x[1] - p[2] * x[1] },
-  (t, x, p, u, o) => { o[0] = p[0] - p[1] * x[1]; o[1] = -p[1] * x[0]; o[2] = p[3] * x[1]; o[3] = p[3] * x[0] - p[2] },
-  (t, x, p, u, o) => { o.fill(0); o[0] = x[0]; o[1] = -x[0] * x[1]; o[6] = -x[1]; o[7] = x[0] * x[1] })
+  (_t, x, p, _u, o) => { o[0] = p[0] * x[0] - p[1] * x[0] * x[1]; o[1] = p[3] * x[0] * x[1] - p[2] * x[1] },
+  (_t, x, p, _u, o) => { o[0] = p[0] - p[1] * x[1]; o[1] = -p[1] * x[0]; o[2] = p[3] * x[1]; o[3] = p[3] * x[0] - p[2] },
+  (_t, x, _p, _u, o) => { o.fill(0); o[0] = x[0]; o[1] = -x[0] * x[1]; o[6] = -x[1]; o[7] = x[0] * x[1] })
 
 const osc = model('oscillator', [1, 0], [2.5, 0.15],
-  (t, x, p, u, o) => { o[0] = x[1]; o[1] = -2 * p[1] * p[0] * x[1] - p[0] * p[0] * x[0] },
-  (t, x, p, u, o) => { o[0] = 0; o[1] = 1; o[2] = -p[0] * p[0]; o[3] = -2 * p[1] * p[0] },
-  (t, x, p, u, o) => { o[0] = 0; o[1] = 0; o[2] = -2 * p[1] * x[1] - 2 * p[0] * x[0]; o[3] = -2 * p[0] * x[1] },
+  (_t, x, p, _u, o) => { o[0] = x[1]; o[1] = -2 * p[1] * p[0] * x[1] - p[0] * p[0] * x[0] },
+  (_t, _x, p, _u, o) => { o[0] = 0; o[1] = 1; o[2] = -p[0] * p[0]; o[3] = -2 * p[1] * p[0] },
+  (_t, x, p, _u, o) => { o[0] = 0; o[1] = 0; o[2] = -2 * p[1] * x[1] - 2 * p[0] * x[0]; o[3] = -2 * p[0] * x[1] },
   // D_v D_w f of f₁ = −2ζω x₁ − ω² x₀ (ω = p₀, ζ = p₁): −2(q₁ω + ζq₀) v₁ − 2ω q₀ v₀
-  (t, X, P, u, o) => { o[0] = 0; o[1] = -2 * (P[3] * P[0] + P[1] * P[2]) * X[5] - 2 * P[0] * P[2] * X[4] })
+  (_t, X, P, _u, o) => { o[0] = 0; o[1] = -2 * (P[3] * P[0] + P[1] * P[2]) * X[5] - 2 * P[0] * P[2] * X[4] })
 
 const eps = 1e-6
 const vdp = model('vdpol', [2, 0], [],
-  (t, y, p, u, o) => { o[0] = y[1]; o[1] = ((1 - y[0] * y[0]) * y[1] - y[0]) / eps },
-  (t, y, p, u, o) => { o[0] = 0; o[1] = 1; o[2] = (-2 * y[0] * y[1] - 1) / eps; o[3] = (1 - y[0] * y[0]) / eps })
+  (_t, y, _p, _u, o) => { o[0] = y[1]; o[1] = ((1 - y[0] * y[0]) * y[1] - y[0]) / eps },
+  (_t, y, _p, _u, o) => { o[0] = 0; o[1] = 1; o[2] = (-2 * y[0] * y[1] - 1) / eps; o[3] = (1 - y[0] * y[0]) / eps })
 
 const eps3 = 1e-3
 const vdp3 = model('vdpol-mild', [2, 0], [],
-  (t, y, p, u, o) => { o[0] = y[1]; o[1] = ((1 - y[0] * y[0]) * y[1] - y[0]) / eps3 },
-  (t, y, p, u, o) => { o[0] = 0; o[1] = 1; o[2] = (-2 * y[0] * y[1] - 1) / eps3; o[3] = (1 - y[0] * y[0]) / eps3 })
+  (_t, y, _p, _u, o) => { o[0] = y[1]; o[1] = ((1 - y[0] * y[0]) * y[1] - y[0]) / eps3 },
+  (_t, y, _p, _u, o) => { o[0] = 0; o[1] = 1; o[2] = (-2 * y[0] * y[1] - 1) / eps3; o[3] = (1 - y[0] * y[0]) / eps3 })
 
 const problems: Problem[] = [
   { name: 'arenstorf (1 period)', model: arenstorf, tEnd: 17.0652165601579625588917206249, atolFactor: 1, skip: [],

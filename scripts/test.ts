@@ -1,5 +1,6 @@
 /**
- * `npm test`: type-checks, builds the client (the browser tests use it), then runs the whole vitest
+ * `npm test`: type-checks, lints (ESLint, then the layer rules with dependency-cruiser), builds the
+ * client (the browser tests use it), then runs the whole vitest
  * suite; the suite's global setup starts a throw-away PostgreSQL unless DATABASE_URL is set, and the
  * browser tests need Debian's Chromium (installed here with apt-get when missing).
  */
@@ -27,6 +28,8 @@ if (!existsSync('/usr/bin/chromium')) {
 }
 
 step('type-check', 'npm', ['run', '-s', 'typecheck'])
+step('lint', 'npm', ['run', '-s', 'lint'])
+step('layer rules and import cycles', 'npm', ['run', '-s', 'lint:deps'])
 step('build the client', 'npx', ['vite', 'build', '--logLevel', 'warn'])
 mkdirSync('test-artifacts', { recursive: true })
 const report = 'test-artifacts/vitest-report.json'

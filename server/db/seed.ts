@@ -18,11 +18,6 @@ export const DEMO_USERS: { email: string; name: string; role: Role }[] = [
   { email: 'viewer@tinmoor.example', name: 'Vale Orrin (viewer)', role: 'viewer' },
 ]
 
-/** Hooks that later layers (library templates, demo project) add; each runs once, on first seed. */
-export type SeedHook = (db: Db, demo: { workspaceId: number; users: Record<Role | 'modeler2', number> }) => Promise<void>
-const hooks: SeedHook[] = []
-export const registerSeedHook = (h: SeedHook) => { hooks.push(h) }
-
 /** Seeds the demo workspace when it does not exist yet; returns true when it seeded. */
 export async function seedDemo(db: Db): Promise<boolean> {
   const existing = await db.select({ id: workspaces.id }).from(workspaces).where(eq(workspaces.slug, DEMO_WORKSPACE.slug)).limit(1)
@@ -33,16 +28,12 @@ export async function seedDemo(db: Db): Promise<boolean> {
     return false
   }
   const passwordHash = await hashPassword(DEMO_PASSWORD)
-  const ids = {} as Record<Role | 'modeler2', number>
-  const workspaceId = await db.transaction(async (tx) => {
+  await db.transaction(async (tx) => {
     const [ws] = await tx.insert(workspaces).values(DEMO_WORKSPACE).returning()
     for (const u of DEMO_USERS) {
       const [row] = await tx.insert(users).values({ email: u.email, name: u.name, passwordHash, currentWorkspaceId: ws.id, emailVerifiedAt: new Date() }).returning()
       await tx.insert(memberships).values({ workspaceId: ws.id, userId: row.id, role: u.role })
-      ids[u.email.startsWith('modeler2') ? 'modeler2' : u.role] = row.id
     }
-    return ws.id
   })
-  for (const h of hooks) await h(db, { workspaceId, users: ids })
   return true
 }

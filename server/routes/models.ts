@@ -14,7 +14,7 @@ import { acceptPartUpdatesBody } from '../../shared/api/parts'
 import { listModelParameterSets } from '../services/runs'
 import { exportBody, handoverBody } from '../../shared/api/handover'
 import {
-  createModelBody, diffQuery, forkBody, listModelsQuery, publishBody, requestChangesBody, reviewCommentBody, saveDraftBody, setMaintainersBody, updateModelBody,
+  createModelBody, diffQuery, forkBody, listModelsQuery, publishBody, requestChangesBody, reviewCommentBody, saveDraftBody, setMaintainersBody, updateModelBody, type DeleteModelReply,
 } from '../../shared/api/models'
 
 /** A mail failure never undoes the step it reports. */
@@ -61,7 +61,8 @@ export function modelRoutes() {
   router.delete('/:id', requireCapability('administer'), async (req, res) => {
     const id = intParam(req.params, 'id')
     await library.deleteModel(ctx(req).db, actor(req), id)
-    res.json({ deleted: true, id })
+    const reply: DeleteModelReply = { deleted: true, id }
+    res.json(reply)
   })
 
   router.delete('/:id/versions/:n', requireCapability('administer'), async (req, res) => {

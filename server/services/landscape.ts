@@ -107,14 +107,14 @@ async function computeLandscape(context: AppContext, row: RunRow, a: string, b: 
     if (signal.aborted) {
       throw new HttpError(503, 'time_limit_exceeded', `The landscape of run ${row.id} (${a} × ${b}, n = ${n}) exceeded the time limit of ${limitMs >= 1000 ? `${Math.round(limitMs / 1000)} s` : `${limitMs} ms`} (counted from the request, including any wait for a free worker thread) and was stopped; try a smaller n or retry when fits have finished.`)
     }
-    throw new Error(`The landscape of run ${row.id} could not be computed: its worker thread failed (${e instanceof Error ? e.message : String(e)})`)
+    throw new Error(`The landscape of run ${row.id} could not be computed: its worker thread failed (${e instanceof Error ? e.message : String(e)})`, { cause: e })
   }
   if (!outcome.ok) {
     if (outcome.input) throw badRequest(outcome.message)
     throw new Error(`The landscape of run ${row.id} could not be computed: ${outcome.message}`)
   }
   // least recently used out when full
-  let used = touch(order, key)
+  const used = touch(order, key)
   const kept: Record<string, LandscapeResult> = { ...cache, [key]: outcome.landscape }
   while (used.length > LANDSCAPE_CACHE_MAX) delete kept[used.shift()!]
   await storeLandscapes(context, row.id, kept, used).catch(() => {})

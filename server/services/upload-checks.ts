@@ -23,8 +23,8 @@ export function firstInvalidUtf8(b: Uint8Array): number {
   while (i < b.length) {
     const c = b[i]
     if (c < 0x80) { i++; continue }
-    let n = 0
-    let min = 0
+    let n: number
+    let min: number
     if (c >= 0xc2 && c <= 0xdf) { n = 1; min = 0x80 }
     else if (c >= 0xe0 && c <= 0xef) { n = 2; min = 0x800 }
     else if (c >= 0xf0 && c <= 0xf4) { n = 3; min = 0x10000 }

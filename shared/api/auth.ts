@@ -57,7 +57,6 @@ export const userDto = z.object({
   /** the owner followed a link mailed to the address; unconfirmed accounts cannot accept invitations */
   emailVerified: z.boolean(),
 })
-export type UserDto = z.infer<typeof userDto>
 
 export const workspaceMembershipDto = z.object({
   id: z.number(),

@@ -8,7 +8,6 @@ export const apiErrorReply = z.object({
     details: z.unknown().optional(),
   }),
 })
-export type ApiErrorReply = z.infer<typeof apiErrorReply>
 
 export const errorCodes = {
   badRequest: 'bad_request',

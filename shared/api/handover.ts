@@ -55,7 +55,6 @@ export const poleRow = z.object({
   sdRe: numOrNull,
   sdIm: numOrNull,
 })
-export type PoleRow = z.infer<typeof poleRow>
 
 export const operatingPointReply = z.object({
   status: z.enum(['unique', 'several', 'none']),

@@ -80,7 +80,6 @@ export const emptySheetSummary = (): SheetSummary => ({
 })
 
 export const checkBody = z.object({ text: sheetText })
-export type CheckBody = z.infer<typeof checkBody>
 export const checkReply = z.object({
   ok: z.boolean(),
   diagnostics: z.array(diagnosticDto),
@@ -142,7 +141,6 @@ export type VersionDto = z.infer<typeof versionDto>
 
 // ── models ──────────────────────────────────────────────────────────────────────────────────────
 export const modelRefDto = z.object({ id: z.number(), slug: z.string(), title: z.string() })
-export type ModelRefDto = z.infer<typeof modelRefDto>
 
 export const modelListItemDto = z.object({
   id: z.number(),
@@ -205,7 +203,6 @@ export const modelPermissions = z.object({
   edit: z.boolean(),
   remove: z.boolean(),
 })
-export type ModelPermissions = z.infer<typeof modelPermissions>
 
 export const modelDetailDto = modelListItemDto.extend({
   createdAt: z.string(),
@@ -264,7 +261,6 @@ export type PublishBody = z.infer<typeof publishBody>
 export const publishConflictDetails = z.object({
   latest: versionDto,
 })
-export type PublishConflictDetails = z.infer<typeof publishConflictDetails>
 
 export const forkBody = z.object({
   /** the origin's version to fork (default: the latest) */
@@ -316,6 +312,7 @@ export const diffReply = z.object({
 export type DiffReply = z.infer<typeof diffReply>
 
 export const deleteModelReply = z.object({ deleted: z.literal(true), id: z.number() })
+export type DeleteModelReply = z.infer<typeof deleteModelReply>
 
 // ── the review queue ────────────────────────────────────────────────────────────────────────────
 /** GET /api/workspaces/:ws/reviews: versions awaiting review, oldest request first */

@@ -1,7 +1,6 @@
 import { z } from 'zod'
 import { visibleText } from './text'
 
-export const idParam = z.coerce.number().int().positive()
 
 export const createProjectBody = z.object({
   name: visibleText('the project name', 120, 'a project needs a name'),

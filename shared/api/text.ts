@@ -10,7 +10,7 @@ import { z } from 'zod'
 /** Characters that show nothing: spaces and separators (Z), controls (Cc), format characters (Cf,
  * e.g. zero-width space U+200B, word joiner U+2060, BOM U+FEFF), and the fillers that render blank
  * (Hangul fillers U+115F, U+1160, U+3164, U+FFA0; Braille blank U+2800; combining grapheme joiner U+034F). */
-const INVISIBLE = /[\p{Z}\p{Cc}\p{Cf}\u115F\u1160\u3164\uFFA0\u2800\u034F]/gu
+const INVISIBLE = /[\p{Z}\p{Cc}\p{Cf}\u115F\u1160\u3164\uFFA0\u2800]|\u034F/gu
 /** Embeddings, overrides and isolates (U+202A–U+202E, U+2066–U+2069) and the marks U+200E, U+200F, U+061C. */
 const DIRECTION_CONTROL = /[\u202A-\u202E\u2066-\u2069\u200E\u200F\u061C]/u
 

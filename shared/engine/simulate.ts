@@ -25,7 +25,7 @@ import { AutoSolver } from './solvers/auto'
 import { OdexSolver } from './solvers/odex'
 import { Rk45 } from './solvers/rk45'
 import { Rosenbrock } from './solvers/rosenbrock'
-import { EventMonitor, resetModes } from './events'
+import { resetModes } from './events'
 import { now, type OdeSolver, type SolverLimits, type Tolerances } from './solvers/types'
 
 export const DEFAULT_RTOL = 1e-6

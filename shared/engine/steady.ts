@@ -83,7 +83,7 @@ export function solveSteady(
     }
     if (!(Number.isFinite(newNorm) && newNorm < norm)) {
       // no descent: accept only when the residual already is at rounding level
-      if (small || norm <= 1e-14 * residScale(model, t0, x, p, u, f, idx)) break
+      if (small || norm <= 1e-14 * residScale(x, idx)) break
       throw new SteadyStateError(names, `Newton's method stalled at ${describe(model, idx, x)} with residual ${fmt(norm)}: the equations may have no steady state near the given values`)
     }
     x.set(xTry)
@@ -120,7 +120,7 @@ export function solveSteady(
   return iter
 }
 
-function residScale(model: CompiledModel, t0: number, x: Float64Array, p: Float64Array, u: Float64Array, f: Float64Array, idx: number[]): number {
+function residScale(x: Float64Array, idx: number[]): number {
   let s = 0
   for (const i of idx) s = Math.max(s, Math.abs(x[i]))
   return Math.max(s, 1)

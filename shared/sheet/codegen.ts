@@ -354,7 +354,6 @@ export function generateSource(m: ParsedModel): string {
 
 /** Build the functions from our own generated source (never from user text). `M` holds the mode positions the functions read. */
 export function instantiate(source: string, m: ParsedModel, M: Float64Array): GeneratedFunctions {
-  // eslint-disable-next-line @typescript-eslint/no-implied-eval
   const factory = new Function('TX', 'TY', 'M', source) as (tx: Float64Array[], ty: Float64Array[], M: Float64Array) => GeneratedFunctions
   return factory(m.lookups.map((l) => l.xs), m.lookups.map((l) => l.ys), M)
 }

@@ -90,10 +90,6 @@ function where(ctx: Ctx, s: Cols | undefined, alt?: Cols) {
   return { line: ctx.line, column: c[0], endColumn: c[1] }
 }
 
-function show(u: U): string {
-  return u.k === 'dims' ? formatDims(u.d) : u.k === 'any' ? 'a number' : 'unknown'
-}
-
 function declaredUnitOfBare(e: Expr, ctx: Ctx): UnitInfo | null {
   const m = ctx.m
   switch (e.k) {
@@ -116,15 +112,15 @@ function literalNote(lit: Expr, other: Expr, ctx: Ctx): void {
   ctx.diags.warning(where(ctx, lit.s, other.s), `the number ${v} meets a quantity in ${u.text} and is read in SI units (${formatDims(u.dims)}); declare a const with a unit to be explicit`)
 }
 
-/** like units for + - comparisons min max …; returns the common unit */
-function like(a: U, b: U, ea: Expr, eb: Expr, what: string, ctx: Ctx, s: Cols | undefined): U {
+/** like units for + - comparisons min max …; returns the common unit. `lead` starts the message: 'sum of', 'the two branches of ?: have' */
+function like(a: U, b: U, ea: Expr, eb: Expr, lead: string, ctx: Ctx, s: Cols | undefined): U {
   if (a.k === 'any' && b.k !== 'any') literalNote(ea, eb, ctx)
   if (b.k === 'any' && a.k !== 'any') literalNote(eb, ea, ctx)
   if (a.k === 'unknown' || b.k === 'unknown') return UNKNOWN
   if (a.k === 'any') return b
   if (b.k === 'any') return a
   if (!sameDims(a.d, b.d)) {
-    ctx.diags.error(where(ctx, s), `${what} of unlike units: ${formatDims(a.d)} and ${formatDims(b.d)}`)
+    ctx.diags.error(where(ctx, s), `${lead} unlike units: ${formatDims(a.d)} and ${formatDims(b.d)}`)
   }
   return a
 }
@@ -153,8 +149,8 @@ function unitOf(e: Expr, ctx: Ctx): U {
       const a = unitOf(e.a, ctx)
       const b = unitOf(e.b, ctx)
       switch (e.op) {
-        case '+': return like(a, b, e.a, e.b, 'sum', ctx, e.s)
-        case '-': return like(a, b, e.a, e.b, 'difference', ctx, e.s)
+        case '+': return like(a, b, e.a, e.b, 'sum of', ctx, e.s)
+        case '-': return like(a, b, e.a, e.b, 'difference of', ctx, e.s)
         case '*':
           if (a.k === 'unknown' || b.k === 'unknown') return UNKNOWN
           if (a.k === 'any') return b
@@ -171,7 +167,7 @@ function unitOf(e: Expr, ctx: Ctx): U {
       return UNKNOWN
     }
     case 'cmp': {
-      like(unitOf(e.a, ctx), unitOf(e.b, ctx), e.a, e.b, 'comparison', ctx, e.s)
+      like(unitOf(e.a, ctx), unitOf(e.b, ctx), e.a, e.b, 'comparison of', ctx, e.s)
       return DL
     }
     case 'cond': {
@@ -201,15 +197,15 @@ function unitOf(e: Expr, ctx: Ctx): U {
         case 'sign':
           return a0.k === 'any' ? ANY : DL
         case 'min': case 'max':
-          return like(a0, args[1], e.args[0], e.args[1], `${e.f}`, ctx, e.s)
+          return like(a0, args[1], e.args[0], e.args[1], `${e.f} of`, ctx, e.s)
         case 'atan2': {
-          const r = like(a0, args[1], e.args[0], e.args[1], 'atan2', ctx, e.s)
+          const r = like(a0, args[1], e.args[0], e.args[1], 'atan2 of', ctx, e.s)
           return r.k === 'any' ? ANY : DL
         }
         case 'pow': return power(a0, args[1], e.args[1], ctx)
         case 'hypot': {
           let acc = a0
-          for (let i = 1; i < args.length; i++) acc = like(acc, args[i], e.args[i - 1], e.args[i], 'hypot', ctx, e.s)
+          for (let i = 1; i < args.length; i++) acc = like(acc, args[i], e.args[i - 1], e.args[i], 'hypot of', ctx, e.s)
           return acc
         }
       }

@@ -45,7 +45,7 @@ function parseUncached(text: string): UnitResult {
   if (text === '' || text === '1' || text === '-') return { ok: true, unit: { text, dims: DIMENSIONLESS, scale: 1, offset: 0 } }
   if (text === '%') return { ok: true, unit: { text, dims: DIMENSIONLESS, scale: 0.01, offset: 0 } }
   if (text.length > 200) return { ok: false, message: 'unit text is too long' }
-  if (!/^[A-Za-z0-9_ .*/^()\-]+$/.test(text)) return { ok: false, message: `unknown unit '${text}'` }
+  if (!/^[A-Za-z0-9_ .*/^()-]+$/.test(text)) return { ok: false, message: `unknown unit '${text}'` }
   try {
     const one = mathUnit(1, text) as unknown as MathUnitLike
     const zero = mathUnit(0, text) as unknown as MathUnitLike

@@ -5,7 +5,6 @@
  * All traces here are small invented examples.
  */
 import { afterAll, beforeAll, describe, expect, it } from 'vitest'
-import request from 'supertest'
 import { createHash } from 'node:crypto'
 import { CSRF, demo, makeTestApp, signedIn, type Agent, type TestApp } from '../helpers/app'
 import { signUpVerified } from '../helpers/signup'

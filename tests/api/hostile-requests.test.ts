@@ -44,13 +44,11 @@ async function whileInFlight(hostile: () => PromiseLike<Outcome>, busy?: () => b
   let hostileDone = false
   const h = Promise.resolve(hostile()).then((r) => { hostileDone = true; return r })
   if (busy) await waitFor('the hostile request to be at work', async () => busy() || hostileDone, 60_000)
-  const t0 = performance.now()
   const health = await request(t.app).get('/api/health')
-  const healthMs = performance.now() - t0
+  // the event that matters: health answered while the hostile request was still at work
   const healthFirst = !hostileDone
   const r = await h
   expect(health.status).toBe(200)
-  expect(healthMs).toBeLessThan(2000)
   return { r, healthFirst }
 }
 

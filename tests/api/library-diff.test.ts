@@ -4,7 +4,7 @@ import { diffLines, diffParameters, splitLines } from '../../server/services/dif
 import { emptySheetSummary } from '../../shared/api/models'
 
 const lines = (s: string) => s.split('').join('\n')
-const apply = (oldText: string, d: ReturnType<typeof diffLines>) => d.lines.filter((l) => l.kind !== 'removed').map((l) => l.text).join('\n')
+const apply = (_oldText: string, d: ReturnType<typeof diffLines>) => d.lines.filter((l) => l.kind !== 'removed').map((l) => l.text).join('\n')
 
 describe('diffLines', () => {
   it('finds the shortest edit script of the worked example A = ABCABBA, B = CBABAC (D = 5)', () => {

@@ -101,7 +101,7 @@ it('goes from a CSV to a judged, exported fit in the browser', { timeout: 600_00
     await page.locator('[aria-label="cost landscape contour"] .contourlayer').first().waitFor({ state: 'attached', timeout: 150_000 })
   } catch (e) {
     await rig.screenshot(page, 'fit-flow-failed-results')
-    throw new Error(`plots not drawn (${await page.locator('[data-testid="plot"] .main-svg').count()} svg): ${String(e)} ${errors.join(' | ')}`)
+    throw new Error(`plots not drawn (${await page.locator('[data-testid="plot"] .main-svg').count()} svg): ${String(e)} ${errors.join(' | ')}`, { cause: e })
   }
   // segment starts of the multiple-shooting fit: the note and dotted lines on the measured-vs-simulated plots
   await expect(page.getByTestId('segments-note').textContent()).resolves.toMatch(/Multiple shooting over \d+ segments .*≤ tolerance/)

@@ -46,18 +46,18 @@ describe('browser: the model library', () => {
     page.on('request', (r) => requested.push(r.url()))
     await rig.signIn(page, demo.modeler)
     await page.waitForURL(/\/w\/tinmoor\/library/)
-    await poll(() => page.locator('[data-test="library-table"]').getByText('Heated buffer vessel').count()).toBeGreaterThan(0)
+    await poll(() => page.locator('[data-testid="library-table"]').getByText('Heated buffer vessel').count()).toBeGreaterThan(0)
     // the library page does not load the editor, its worker or the plotting library
     expect(requested.filter((u) => lazyChunks.test(u))).toEqual([])
 
-    await page.locator('[data-test="new-model"]').click()
+    await page.locator('[data-testid="new-model"]').click()
     await pickOption(page, 0, 'Heated buffer vessel')
     await page.getByLabel('Title').fill('Buffer B-7 (invented)')
-    await page.locator('[data-test="create-model"]').click()
+    await page.locator('[data-testid="create-model"]').click()
     await page.waitForURL(/\/w\/tinmoor\/library\/\d+$/)
     modelUrl = page.url()
     await page.locator('.monaco-editor .view-lines').waitFor()
-    await poll(() => page.locator('[data-test="problem-count"]').textContent()).toMatch(/checks clean/)
+    await poll(() => page.locator('[data-testid="problem-count"]').textContent()).toMatch(/checks clean/)
     expect(requested.some((u) => /register\.all/.test(u))).toBe(true)
     await rig.screenshot(page, 'library-editor-clean')
 
@@ -71,7 +71,7 @@ describe('browser: the model library', () => {
     await page.keyboard.press('End')
     await page.keyboard.type(' - q_drain')
     await poll(() => page.locator('.sheet-editor').getAttribute('data-marker-lines')).toBe(String(hLine))
-    await poll(() => page.locator('[data-test="problems"]').textContent()).toMatch(new RegExp(`line ${hLine}, col \\d+.*unknown name 'q_drain'`))
+    await poll(() => page.locator('[data-testid="problems"]').textContent()).toMatch(new RegExp(`line ${hLine}, col \\d+.*unknown name 'q_drain'`))
     await poll(() => page.locator('.monaco-editor .squiggly-error').count()).toBeGreaterThan(0)
     await rig.screenshot(page, 'library-editor-marker')
 
@@ -93,7 +93,7 @@ describe('browser: the model library', () => {
     // fix it: remove the unknown name again
     for (let i = 0; i < ' - q_drain'.length; i++) await page.keyboard.press('Backspace')
     await poll(() => page.locator('.sheet-editor').getAttribute('data-marker-lines')).toBe('')
-    await poll(() => page.locator('[data-test="problem-count"]').textContent()).toMatch(/checks clean/)
+    await poll(() => page.locator('[data-testid="problem-count"]').textContent()).toMatch(/checks clean/)
 
     // a real change: the heat-loss coefficient UA from 150 to 180 W/K
     const uaLine = lines.findIndex((l) => /^param\s+UA\s*=/.test(l)) + 1
@@ -104,16 +104,16 @@ describe('browser: the model library', () => {
     await page.keyboard.type('180')
     await poll(() => page.locator('.sheet-summary').textContent()).toMatch(/UA\s*180/)
     // the draft is autosaved
-    await poll(() => page.locator('[data-test="editor-status"]').textContent()).toMatch(/Draft saved/)
+    await poll(() => page.locator('[data-testid="editor-status"]').textContent()).toMatch(/Draft saved/)
 
     // hover over a declared name shows its unit and bounds
     await page.locator('.monaco-editor .view-line', { hasText: /^param\s+UA/ }).locator('span.pw-sym-param', { hasText: /^UA$/ }).hover()
     await poll(() => page.locator('.monaco-hover').first().textContent()).toMatch(/UA.*parameter.*\[W\/K\].*value 180 W\/K.*bounds \[1, 5000\]/s)
 
     // publish version 2 with a note
-    await page.locator('[data-test="publish"]').click()
-    await page.locator('textarea[data-test="publish-note"]').fill('UA raised to 180 W/K after the insulation survey (invented)')
-    await page.locator('[data-test="publish-confirm"]').click()
+    await page.locator('[data-testid="publish"]').click()
+    await page.locator('textarea[data-testid="publish-note"]').fill('UA raised to 180 W/K after the insulation survey (invented)')
+    await page.locator('[data-testid="publish-confirm"]').click()
     await poll(() => page.getByText('Version 2 published.').count()).toBeGreaterThan(0)
     await poll(() => page.locator('.page-header').textContent()).toMatch(/v2/)
     await page.getByRole('tab', { name: /History/ }).click()
@@ -121,8 +121,8 @@ describe('browser: the model library', () => {
 
     // the quick simulation runs the shared engine in the browser and plots with Plotly
     await page.getByRole('tab', { name: 'Sheet' }).click()
-    await page.locator('[data-test="open-sim"]').click()
-    await page.locator('[data-test="quick-sim-plot"] .main-svg').first().waitFor({ timeout: 30_000 })
+    await page.locator('[data-testid="open-sim"]').click()
+    await page.locator('[data-testid="quick-sim-plot"] .main-svg').first().waitFor({ timeout: 30_000 })
     await poll(() => page.locator('.quick-sim__status').textContent()).toMatch(/\d+ steps/)
     expect(requested.some((u) => /plotly/.test(u))).toBe(true)
     await rig.screenshot(page, 'library-published')
@@ -143,24 +143,24 @@ describe('browser: the model library', () => {
     await page.goto(modelUrl)
     await page.locator('.monaco-editor .view-lines').waitFor()
     // not a maintainer: no publish button, a hint to fork instead
-    expect(await page.locator('[data-test="publish"]').count()).toBe(0)
-    await page.locator('[data-test="fork"]').click()
-    await page.locator('input[data-test="fork-title"]').fill('Buffer B-7, Wren\'s variant')
+    expect(await page.locator('[data-testid="publish"]').count()).toBe(0)
+    await page.locator('[data-testid="fork"]').click()
+    await page.locator('input[data-testid="fork-title"]').fill('Buffer B-7, Wren\'s variant')
     await pickOption(page, 0, /^Version 1:/)
-    await page.locator('[data-test="fork-confirm"]').click()
+    await page.locator('[data-testid="fork-confirm"]').click()
     await page.waitForURL((u) => /\/library\/\d+$/.test(u.pathname) && u.href !== modelUrl)
     await poll(() => page.locator('.page-header').textContent()).toMatch(/forked from\s*Buffer B-7 \(invented\)\s*v1/)
 
-    await page.locator('[data-test="compare-origin"]').click()
-    await poll(() => page.locator('[data-test="diff-counts"]').textContent()).toMatch(/\+1 −1 lines/)
-    await poll(() => page.locator('[data-test="parameter-changes"]').textContent()).toMatch(/UA.*changed.*value/s)
+    await page.locator('[data-testid="compare-origin"]').click()
+    await poll(() => page.locator('[data-testid="diff-counts"]').textContent()).toMatch(/\+1 −1 lines/)
+    await poll(() => page.locator('[data-testid="parameter-changes"]').textContent()).toMatch(/UA.*changed.*value/s)
     await page.locator('.monaco-diff-editor').first().waitFor()
     await rig.screenshot(page, 'library-fork-compare')
 
     // the origin lists its fork
     await page.goto(modelUrl)
     await page.getByRole('tab', { name: /Forks \(1\)/ }).click()
-    await poll(() => page.locator('[data-test="forks-table"]').textContent()).toMatch(/Buffer B-7, Wren's variant.*v1/s)
+    await poll(() => page.locator('[data-testid="forks-table"]').textContent()).toMatch(/Buffer B-7, Wren's variant.*v1/s)
     await page.close()
   }, 180_000)
 
@@ -170,9 +170,9 @@ describe('browser: the model library', () => {
     await page.waitForURL(/\/w\/tinmoor\/library/)
     await page.goto(modelUrl)
     await page.locator('.monaco-editor .view-lines').waitFor()
-    expect(await page.locator('[data-test="publish"]').count()).toBe(0)
-    expect(await page.locator('[data-test="fork"]').count()).toBe(0)
-    await poll(() => page.locator('[data-test="editor-status"]').textContent()).toMatch(/Read only/)
+    expect(await page.locator('[data-testid="publish"]').count()).toBe(0)
+    expect(await page.locator('[data-testid="fork"]').count()).toBe(0)
+    await poll(() => page.locator('[data-testid="editor-status"]').textContent()).toMatch(/Read only/)
     await page.getByRole('tab', { name: /History/ }).click()
     await page.getByRole('button', { name: 'Approve version 2' }).click()
     await page.locator('.el-message-box').getByRole('button', { name: 'Approve' }).click()
@@ -191,7 +191,7 @@ describe('browser: the model library', () => {
     await page.waitForURL(/\/w\/tinmoor\/library/)
     await page.goto(modelUrl)
     await page.locator('.monaco-editor .view-lines').waitFor()
-    await poll(() => page.locator('[data-test="editor-status"]').textContent()).toMatch(/Editing from version 2/)
+    await poll(() => page.locator('[data-testid="editor-status"]').textContent()).toMatch(/Editing from version 2/)
 
     // the modeler changes the feed delay from 20 s to 25 s …
     const v2 = (await rig.context.database.pool.query('select text from model_versions where model_id = $1 and number = 2', [id])).rows[0].text as string
@@ -216,9 +216,9 @@ describe('browser: the model library', () => {
     expect(status).toBe(201)
     await admin.close()
 
-    await page.locator('[data-test="publish"]').click()
-    await page.locator('textarea[data-test="publish-note"]').fill('Feed delay 25 s after the pipe re-routing (invented)')
-    await page.locator('[data-test="publish-confirm"]').click()
+    await page.locator('[data-testid="publish"]').click()
+    await page.locator('textarea[data-testid="publish-note"]').fill('Feed delay 25 s after the pipe re-routing (invented)')
+    await page.locator('[data-testid="publish-confirm"]').click()
     // 409: the dialog names the newer version and shows it beside the modeler's text
     await poll(() => page.locator('.el-dialog:visible').textContent()).toMatch(/Version 3 by Ada Tinmoor \(admin\).*larger vessel cross-section/s)
     await page.locator('.el-dialog:visible .monaco-diff-editor').waitFor()

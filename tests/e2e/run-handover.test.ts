@@ -110,7 +110,7 @@ describe('browser: handing a run on', () => {
 
     // the model's quick simulation applies the set
     await page.goto(`${rig.baseUrl}/w/tinmoor/library/${tv.modelId}`)
-    await page.locator('[data-test="open-sim"]').click()
+    await page.locator('[data-testid="open-sim"]').click()
     await page.getByLabel('Apply a saved parameter set', { exact: true }).first().click({ force: true })
     await page.locator('.el-select-dropdown:visible .el-select-dropdown__item').filter({ hasText: setName }).first().click()
     await poll(() => page.getByTestId('apply-set-note').textContent()).toMatch(new RegExp(`Cv.* from '${setName}'`))

@@ -36,7 +36,7 @@ describe('browser: team administration and mail', () => {
     await page.getByLabel('E-mail').fill('tamsin.reed@example.org')
     await page.getByLabel('Password').fill('long-enough-31')
     await page.getByRole('button', { name: 'Create account' }).click()
-    await expect.poll(() => page.locator('[data-test="signup-sent"]').getByText(/Check your mail/).count()).toBeGreaterThan(0)
+    await expect.poll(() => page.locator('[data-testid="signup-sent"]').getByText(/Check your mail/).count()).toBeGreaterThan(0)
     await rig.screenshot(page, 'signup-check-mail')
     const mail = await mailTo('tamsin.reed@example.org')
     const link = /http\S+\/verify-email\/\S+/.exec(mail.text)![0]
@@ -62,10 +62,10 @@ describe('browser: team administration and mail', () => {
     await page.waitForURL(/\/w\/tinmoor\//)
     await page.goto(`${rig.baseUrl}/w/tinmoor/team`)
     // the machine is shared: give the page's chunks time to arrive
-    await expect.poll(() => page.locator('[data-test="members"]').getByText(demo.modeler).count(), { timeout: 20_000 }).toBeGreaterThan(0)
+    await expect.poll(() => page.locator('[data-testid="members"]').getByText(demo.modeler).count(), { timeout: 20_000 }).toBeGreaterThan(0)
     await page.locator('input[name="invite-email"]').fill('browser.hire@example.org')
     await page.getByRole('button', { name: 'Send invitation' }).click()
-    await expect.poll(() => page.locator('[data-test="invitations"]').getByText('browser.hire@example.org').count()).toBeGreaterThan(0)
+    await expect.poll(() => page.locator('[data-testid="invitations"]').getByText('browser.hire@example.org').count()).toBeGreaterThan(0)
     await rig.screenshot(page, 'team-page')
 
     const mail = await mailTo('browser.hire@example.org')
@@ -119,10 +119,10 @@ describe('browser: team administration and mail', () => {
     await page.goto(`${rig.baseUrl}/w/tinmoor/team`)
     await page.locator('input[name="token-name"]').fill('laptop CLI')
     await page.getByRole('button', { name: 'Create token' }).click()
-    const token = await page.locator('[data-test="new-token"]').textContent()
+    const token = await page.locator('[data-testid="new-token"]').textContent()
     expect(token).toMatch(/^pwt_/)
-    await expect.poll(() => page.locator('[data-test="tokens"]').getByText('laptop CLI').count()).toBeGreaterThan(0)
-    expect(await page.locator('[data-test="tokens"]').getByText(token!).count()).toBe(0)
+    await expect.poll(() => page.locator('[data-testid="tokens"]').getByText('laptop CLI').count()).toBeGreaterThan(0)
+    expect(await page.locator('[data-testid="tokens"]').getByText(token!).count()).toBe(0)
     // the modeler sees no admin sections
     expect(await page.getByRole('button', { name: 'Send invitation' }).count()).toBe(0)
     await rig.screenshot(page, 'team-tokens')

@@ -11,9 +11,9 @@ describe('closed-form solutions', () => {
     title: 'decay',
     states: [{ name: 'x', initial: 3 }],
     params: [{ name: 'k', value: 0.8 }],
-    rhs: (t, x, p, u, o) => { o[0] = -p[0] * x[0] },
-    dfdx: (t, x, p, u, o) => { o[0] = -p[0] },
-    dfdp: (t, x, p, u, o) => { o[0] = -x[0] },
+    rhs: (_t, x, p, _u, o) => { o[0] = -p[0] * x[0] },
+    dfdx: (_t, _x, p, _u, o) => { o[0] = -p[0] },
+    dfdp: (_t, x, _p, _u, o) => { o[0] = -x[0] },
   })
   for (const solver of methods) {
     it(`exponential decay matches x0·exp(-kt) (${solver})`, () => {
@@ -38,8 +38,8 @@ describe('closed-form solutions', () => {
     title: 'oscillator',
     states: [{ name: 'x', initial: 1 }, { name: 'v', initial: 0 }],
     params: [{ name: 'w', value: w }, { name: 'zeta', value: zeta }],
-    rhs: (t, x, p, u, o) => { o[0] = x[1]; o[1] = -2 * p[1] * p[0] * x[1] - p[0] * p[0] * x[0] },
-    dfdx: (t, x, p, u, o) => { o[0] = 0; o[1] = 1; o[2] = -p[0] * p[0]; o[3] = -2 * p[1] * p[0] },
+    rhs: (_t, x, p, _u, o) => { o[0] = x[1]; o[1] = -2 * p[1] * p[0] * x[1] - p[0] * p[0] * x[0] },
+    dfdx: (_t, _x, p, _u, o) => { o[0] = 0; o[1] = 1; o[2] = -p[0] * p[0]; o[3] = -2 * p[1] * p[0] },
   })
   const wd = w * Math.sqrt(1 - zeta * zeta)
   const xOsc = (t: number) => Math.exp(-zeta * w * t) * (Math.cos(wd * t) + ((zeta * w) / wd) * Math.sin(wd * t))
@@ -58,7 +58,7 @@ describe('closed-form solutions', () => {
     const two = makeModel({
       title: 'two-decays',
       states: [{ name: 'fast', initial: 1 }, { name: 'slow', initial: 1 }],
-      rhs: (t, x, p, u, o) => { o[0] = -3 * x[0]; o[1] = -0.2 * x[1] },
+      rhs: (_t, x, _p, _u, o) => { o[0] = -3 * x[0]; o[1] = -0.2 * x[1] },
     })
     const tOut = Float64Array.of(4)
     const both = simulate(two, { tOut, solver: 'rk45', rtol: 1e-10, atol: 1e-12 })
@@ -84,15 +84,15 @@ describe('closed-form solutions', () => {
       title: 'linear4',
       states: x0.map((v, i) => ({ name: `x${i + 1}`, initial: v })),
       inputs: [{ name: 'u', value: 0, interp: 'hold' }],
-      rhs: (t, x, p, u, o) => {
+      rhs: (_t, x, _p, u, o) => {
         for (let i = 0; i < 4; i++) {
           let s = B[i] * u[0]
           for (let j = 0; j < 4; j++) s += A[i][j] * x[j]
           o[i] = s
         }
       },
-      dfdx: (t, x, p, u, o) => { for (let i = 0; i < 4; i++) for (let j = 0; j < 4; j++) o[i * 4 + j] = A[i][j] },
-      dfdu: (t, x, p, u, o) => { for (let i = 0; i < 4; i++) o[i] = B[i] },
+      dfdx: (_t, _x, _p, _u, o) => { for (let i = 0; i < 4; i++) for (let j = 0; j < 4; j++) o[i * 4 + j] = A[i][j] },
+      dfdu: (_t, _x, _p, _u, o) => { for (let i = 0; i < 4; i++) o[i] = B[i] },
     })
     const ts = 0.5
     const U = 1.5
@@ -127,7 +127,7 @@ describe('closed-form solutions', () => {
     const aren = makeModel({
       title: 'arenstorf',
       states: ['y1', 'y2', 'v1', 'v2'].map((name, i) => ({ name, initial: y0[i] })),
-      rhs: (t, y, p, u, o) => {
+      rhs: (_t, y, _p, _u, o) => {
         const D1 = Math.pow((y[0] + mu) ** 2 + y[1] ** 2, 1.5)
         const D2 = Math.pow((y[0] - mu1) ** 2 + y[1] ** 2, 1.5)
         o[0] = y[2]
@@ -145,14 +145,16 @@ describe('closed-form solutions', () => {
   })
 
   it('Lotka–Volterra keeps its first integral within 1e-8 relative over ten periods (rk45, odex at 1e-11)', () => {
-    // x' = αx − βxy, y' = δxy − γy; V = δx − γ ln x + βy − α ln y is constant along solutions
-    // (Hairer, Nørsett & Wanner, Solving ODEs I, Sec. I.16 / Hairer, Lubich & Wanner, Geometric
-    // Numerical Integration, Sec. I.1.1), α = 2/3, β = 4/3, γ = δ = 1, start (1.8, 1.8).
+    // x' = αx − βxy, y' = δxy − γy; V = δx − γ ln x + βy − α ln y is constant along solutions (the
+    // invariant is shown, for u' = u(v − 2), v' = v(1 − u), in Hairer, Lubich & Wanner, Geometric
+    // Numerical Integration, 2nd ed. 2006, Sec. I.1.1; it follows for any α, β, γ, δ > 0 by
+    // differentiating V). The set α = 2/3, β = 4/3, γ = δ = 1 is not that book's: it is the one of the
+    // Wikipedia article "Lotka–Volterra equations" (from memory); the start (1.8, 1.8) is ours.
     const [al, be, ga, de] = [2 / 3, 4 / 3, 1, 1]
     const lv = makeModel({
       title: 'lotka-volterra',
       states: [{ name: 'prey', initial: 1.8 }, { name: 'predator', initial: 1.8 }],
-      rhs: (t, x, p, u, o) => { o[0] = al * x[0] - be * x[0] * x[1]; o[1] = de * x[0] * x[1] - ga * x[1] },
+      rhs: (_t, x, _p, _u, o) => { o[0] = al * x[0] - be * x[0] * x[1]; o[1] = de * x[0] * x[1] - ga * x[1] },
     })
     const V = (x: number, y: number) => de * x - ga * Math.log(x) + be * y - al * Math.log(y)
     const V0 = V(1.8, 1.8)

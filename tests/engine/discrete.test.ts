@@ -14,10 +14,10 @@ const disc = makeModel({
   states: [{ name: 'x', initial: 4 }],
   params: [{ name: 'a', value: a }, { name: 'b', value: b }],
   inputs: [{ name: 'u', value: U, interp: 'hold' }],
-  rhs: (t, x, p, u, o) => { o[0] = p[0] * x[0] + p[1] * u[0] },
-  dfdx: (t, x, p, u, o) => { o[0] = p[0] },
-  dfdp: (t, x, p, u, o) => { o[0] = x[0]; o[1] = u[0] },
-  dfdu: (t, x, p, u, o) => { o[0] = p[1] },
+  rhs: (_t, x, p, u, o) => { o[0] = p[0] * x[0] + p[1] * u[0] },
+  dfdx: (_t, _x, p, _u, o) => { o[0] = p[0] },
+  dfdp: (_t, x, _p, u, o) => { o[0] = x[0]; o[1] = u[0] },
+  dfdu: (_t, _x, p, _u, o) => { o[0] = p[1] },
 })
 const xk = (k: number, x0 = 4) => a ** k * x0 + (b * U * (1 - a ** k)) / (1 - a)
 // ∂x(k)/∂a = k a^{k−1} x0 + b u [(1 − a^k) − k a^{k−1}(1 − a)]/(1 − a)²

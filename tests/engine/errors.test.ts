@@ -20,8 +20,8 @@ describe('typed failures, never a hang', () => {
   const turnsNaN = makeModel({
     title: 'nan',
     states: [{ name: 'level', initial: 1 }],
-    rhs: (t, x, p, u, o) => { o[0] = t < 1.25 ? -x[0] : NaN },
-    dfdx: (t, x, p, u, o) => { o[0] = -1 },
+    rhs: (t, x, _p, _u, o) => { o[0] = t < 1.25 ? -x[0] : NaN },
+    dfdx: (_t, _x, _p, _u, o) => { o[0] = -1 },
   })
   for (const solver of methods) {
     it(`a derivative that becomes NaN names the state and the time (${solver})`, () => {
@@ -41,8 +41,8 @@ describe('typed failures, never a hang', () => {
   const blowUp = makeModel({
     title: 'blow-up',
     states: [{ name: 'x', initial: 1 }],
-    rhs: (t, x, p, u, o) => { o[0] = x[0] * x[0] },
-    dfdx: (t, x, p, u, o) => { o[0] = 2 * x[0] },
+    rhs: (_t, x, _p, _u, o) => { o[0] = x[0] * x[0] },
+    dfdx: (_t, x, _p, _u, o) => { o[0] = 2 * x[0] },
   })
   for (const solver of methods) {
     it(`a blow-up (x' = x²) stops with a typed error close to t = 1 (${solver})`, () => {
@@ -63,7 +63,7 @@ describe('typed failures, never a hang', () => {
     title: 'lag-err',
     states: [{ name: 'x', initial: 0 }],
     inputs: [{ name: 'feed', value: 0 }],
-    rhs: (t, x, p, u, o) => { o[0] = u[0] - x[0] },
+    rhs: (_t, x, _p, u, o) => { o[0] = u[0] - x[0] },
   })
   it('an input trace with non-increasing time is an InputTraceError naming input and row', () => {
     const e = caught(() => simulate(lag, { tOut: Float64Array.of(1), inputs: [{ t: Float64Array.of(0, 0.5, 0.4), v: Float64Array.of(1, 1, 1) }] }))
@@ -84,8 +84,8 @@ describe('typed failures, never a hang', () => {
     const m = makeModel({
       title: 'no-steady',
       states: [{ name: 'T_wall', initial: 0.3, steady: true }],
-      rhs: (t, x, p, u, o) => { o[0] = 1 + x[0] * x[0] },
-      dfdx: (t, x, p, u, o) => { o[0] = 2 * x[0] },
+      rhs: (_t, x, _p, _u, o) => { o[0] = 1 + x[0] * x[0] },
+      dfdx: (_t, x, _p, _u, o) => { o[0] = 2 * x[0] },
     })
     const e = caught(() => simulate(m, { tOut: Float64Array.of(1) }))
     expect(e).toBeInstanceOf(SteadyStateError)
@@ -96,7 +96,7 @@ describe('typed failures, never a hang', () => {
     const osc = makeModel({
       title: 'osc-limit',
       states: [{ name: 'x', initial: 1 }, { name: 'v', initial: 0 }],
-      rhs: (t, x, p, u, o) => { o[0] = x[1]; o[1] = -x[0] },
+      rhs: (_t, x, _p, _u, o) => { o[0] = x[1]; o[1] = -x[0] },
     })
     for (const solver of methods) {
       const e = caught(() => simulate(osc, { tOut: Float64Array.of(1000), solver, maxSteps: 50 }))
@@ -111,9 +111,9 @@ describe('typed failures, never a hang', () => {
       title: 'osc-advice',
       states: [{ name: 'x', initial: 1 }, { name: 'v', initial: 0 }],
       params: [{ name: 'w', value: 1 }],
-      rhs: (t, x, p, u, o) => { o[0] = x[1]; o[1] = -p[0] * p[0] * x[0] },
-      dfdx: (t, x, p, u, o) => { o[0] = 0; o[1] = 1; o[2] = -p[0] * p[0]; o[3] = 0 },
-      dfdp: (t, x, p, u, o) => { o[0] = 0; o[1] = -2 * p[0] * x[0] },
+      rhs: (_t, x, p, _u, o) => { o[0] = x[1]; o[1] = -p[0] * p[0] * x[0] },
+      dfdx: (_t, _x, p, _u, o) => { o[0] = 0; o[1] = 1; o[2] = -p[0] * p[0]; o[3] = 0 },
+      dfdp: (_t, x, p, _u, o) => { o[0] = 0; o[1] = -2 * p[0] * x[0] },
     })
     const tOut = Float64Array.of(1000)
     const explicit = caught(() => simulate(osc, { tOut, solver: 'rk45', maxSteps: 50 })) as Error
@@ -139,7 +139,7 @@ describe('typed failures, never a hang', () => {
     const slow = makeModel({
       title: 'slow',
       states: [{ name: 'x', initial: 1 }, { name: 'v', initial: 0 }],
-      rhs: (t, x, p, u, o) => {
+      rhs: (_t, x, _p, _u, o) => {
         calls++
         if (calls === 5000) ctl.abort()
         o[0] = x[1]

@@ -10,9 +10,9 @@ const lag = makeModel({
   title: 'lag',
   states: [{ name: 'x', initial: 0 }],
   inputs: [{ name: 'u', value: 0, interp: 'hold' }],
-  rhs: (t, x, p, u, o) => { o[0] = (u[0] - x[0]) / tau },
-  dfdx: (t, x, p, u, o) => { o[0] = -1 / tau },
-  dfdu: (t, x, p, u, o) => { o[0] = 1 / tau },
+  rhs: (_t, x, _p, u, o) => { o[0] = (u[0] - x[0]) / tau },
+  dfdx: (_t, _x, _p, _u, o) => { o[0] = -1 / tau },
+  dfdu: (_t, _x, _p, _u, o) => { o[0] = 1 / tau },
 })
 
 describe('input traces', () => {
@@ -44,7 +44,8 @@ describe('input traces', () => {
   })
 
   it('a held square wave: exact piecewise response, and the jumps cost few rejected steps', () => {
-    // between samples x relaxes towards the held value: x_{k+1} = u_k + (x_k − u_k) e^{−Δ/τ} (no source)
+    // between samples x relaxes towards the held value: x_{k+1} = u_k + (x_k − u_k) e^{−Δ/τ} (the closed
+    // form of a linear first-order ODE with a constant input; common practice, no source)
     const n = 41
     const ts = linspace(0, 10, n)
     const v = Float64Array.from({ length: n }, (_, i) => i % 2)
@@ -52,9 +53,11 @@ describe('input traces', () => {
       const r = simulate(lag, { tOut: Float64Array.of(10), inputs: [{ t: ts, v }], solver, rtol: 1e-8, atol: 1e-10 })
       let x = 0
       for (let k = 0; k < n - 1; k++) x = v[k] + (x - v[k]) * Math.exp(-(ts[k + 1] - ts[k]) / tau)
-      expect(Math.abs(r.x[0] - x), solver).toBeLessThan(1e-7)
-      // the carried-over derivative is refreshed at each jump: a stale one would be rejected there
-      expect(r.stats.rejected, solver).toBeLessThan(n)
+      // measured: 4e-11 (rk45, auto) and 8e-11 (stiff) at rtol 1e-8, atol 1e-10
+      expect(Math.abs(r.x[0] - x), solver).toBeLessThan(1e-9)
+      // the carried-over derivative is refreshed at each of the 40 jumps: a stale one would cost a
+      // rejected step at every jump (measured: 4 rejected for rk45 and auto, 6 for stiff)
+      expect(r.stats.rejected, solver).toBeLessThanOrEqual(10)
     }
   })
 
@@ -64,9 +67,9 @@ describe('input traces', () => {
       title: 'integrator',
       states: [{ name: 'x', initial: 0 }],
       inputs: [{ name: 'u', value: 0, interp: 'linear' }],
-      rhs: (t, x, p, u, o) => { o[0] = u[0] },
-      dfdx: (t, x, p, u, o) => { o[0] = 0 },
-      dfdu: (t, x, p, u, o) => { o[0] = 1 },
+      rhs: (_t, _x, _p, u, o) => { o[0] = u[0] },
+      dfdx: (_t, _x, _p, _u, o) => { o[0] = 0 },
+      dfdu: (_t, _x, _p, _u, o) => { o[0] = 1 },
     })
     const ts = Float64Array.of(0, 0.3, 0.35, 1.2, 2.9, 3.0, 4.4)
     const vs = Float64Array.of(1, -2, 5, 0.5, 3, -1, 2)
@@ -95,7 +98,7 @@ describe('input traces', () => {
       title: 'lag-const',
       states: [{ name: 'x', initial: 0 }],
       inputs: [{ name: 'u', value: 2.5 }],
-      rhs: (t, x, p, u, o) => { o[0] = (u[0] - x[0]) / tau },
+      rhs: (_t, x, _p, u, o) => { o[0] = (u[0] - x[0]) / tau },
     })
     const r = simulate(lagK, { tOut: Float64Array.of(3) })
     expect(Math.abs(r.x[0] - 2.5 * (1 - Math.exp(-3 / tau)))).toBeLessThan(1e-5)

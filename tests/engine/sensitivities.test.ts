@@ -53,9 +53,9 @@ describe('forward sensitivities', () => {
     title: 'decay-sens',
     states: [{ name: 'x', initial: 2 }],
     params: [{ name: 'k', value: 0.6 }],
-    rhs: (t, x, p, u, o) => { o[0] = -p[0] * x[0] },
-    dfdx: (t, x, p, u, o) => { o[0] = -p[0] },
-    dfdp: (t, x, p, u, o) => { o[0] = -x[0] },
+    rhs: (_t, x, p, _u, o) => { o[0] = -p[0] * x[0] },
+    dfdx: (_t, _x, p, _u, o) => { o[0] = -p[0] },
+    dfdp: (_t, x, _p, _u, o) => { o[0] = -x[0] },
   })
   for (const solver of methods) {
     it(`decay: ∂x/∂k and ∂x/∂x0 match the closed form (${solver})`, () => {
@@ -76,12 +76,12 @@ describe('forward sensitivities', () => {
     states: [{ name: 'x', initial: 1 }, { name: 'v', initial: 0.3 }],
     params: [{ name: 'w', value: 2.5 }, { name: 'zeta', value: 0.15 }],
     outputs: [{ name: 'pos' }, { name: 'energy' }],
-    rhs: (t, x, p, u, o) => { o[0] = x[1]; o[1] = -2 * p[1] * p[0] * x[1] - p[0] * p[0] * x[0] },
-    dfdx: (t, x, p, u, o) => { o[0] = 0; o[1] = 1; o[2] = -p[0] * p[0]; o[3] = -2 * p[1] * p[0] },
-    dfdp: (t, x, p, u, o) => { o[0] = 0; o[1] = 0; o[2] = -2 * p[1] * x[1] - 2 * p[0] * x[0]; o[3] = -2 * p[0] * x[1] },
-    outputsFn: (t, x, p, u, o) => { o[0] = x[0]; o[1] = 0.5 * (x[1] * x[1] + p[0] * p[0] * x[0] * x[0]) },
-    dgdx: (t, x, p, u, o) => { o[0] = 1; o[1] = 0; o[2] = p[0] * p[0] * x[0]; o[3] = x[1] },
-    dgdp: (t, x, p, u, o) => { o[0] = 0; o[1] = 0; o[2] = p[0] * x[0] * x[0]; o[3] = 0 },
+    rhs: (_t, x, p, _u, o) => { o[0] = x[1]; o[1] = -2 * p[1] * p[0] * x[1] - p[0] * p[0] * x[0] },
+    dfdx: (_t, _x, p, _u, o) => { o[0] = 0; o[1] = 1; o[2] = -p[0] * p[0]; o[3] = -2 * p[1] * p[0] },
+    dfdp: (_t, x, p, _u, o) => { o[0] = 0; o[1] = 0; o[2] = -2 * p[1] * x[1] - 2 * p[0] * x[0]; o[3] = -2 * p[0] * x[1] },
+    outputsFn: (_t, x, p, _u, o) => { o[0] = x[0]; o[1] = 0.5 * (x[1] * x[1] + p[0] * p[0] * x[0] * x[0]) },
+    dgdx: (_t, x, p, _u, o) => { o[0] = 1; o[1] = 0; o[2] = p[0] * p[0] * x[0]; o[3] = x[1] },
+    dgdp: (_t, x, p, _u, o) => { o[0] = 0; o[1] = 0; o[2] = p[0] * x[0] * x[0]; o[3] = 0 },
   })
   for (const solver of methods) {
     it(`damped oscillator: ∂y/∂p and ∂y/∂x0 agree with central differences (${solver})`, () => {
@@ -114,10 +114,10 @@ describe('forward sensitivities', () => {
       params: [{ name: 'tau', value: tauS }],
       inputs: [{ name: 'u', value: 0, interp: 'linear' }],
       delays: [{ input: 0, param: 0 }],
-      rhs: (t, x, p, u, o) => { o[0] = (u[1] - x[0]) / T },
-      dfdx: (t, x, p, u, o) => { o[0] = -1 / T },
-      dfdp: (t, x, p, u, o) => { o[0] = 0 },
-      dfdu: (t, x, p, u, o) => { o[0] = 0; o[1] = 1 / T },
+      rhs: (_t, x, _p, u, o) => { o[0] = (u[1] - x[0]) / T },
+      dfdx: (_t, _x, _p, _u, o) => { o[0] = -1 / T },
+      dfdp: (_t, _x, _p, _u, o) => { o[0] = 0 },
+      dfdu: (_t, _x, _p, _u, o) => { o[0] = 0; o[1] = 1 / T },
     })
     const a = 1 + tauS / 60
     const x1 = 1 - T * (1 - Math.exp(-1 / T))
@@ -160,10 +160,10 @@ describe('forward sensitivities', () => {
       params: [{ name: 'tau', value: tauS }],
       inputs: [{ name: 'u', value: 0, interp: 'hold' }],
       delays: [{ input: 0, param: 0 }],
-      rhs: (t, x, p, u, o) => { o[0] = (u[1] - x[0]) / T },
-      dfdx: (t, x, p, u, o) => { o[0] = -1 / T },
-      dfdp: (t, x, p, u, o) => { o[0] = 0 },
-      dfdu: (t, x, p, u, o) => { o[0] = 0; o[1] = 1 / T },
+      rhs: (_t, x, _p, u, o) => { o[0] = (u[1] - x[0]) / T },
+      dfdx: (_t, _x, _p, _u, o) => { o[0] = -1 / T },
+      dfdp: (_t, _x, _p, _u, o) => { o[0] = 0 },
+      dfdu: (_t, _x, _p, _u, o) => { o[0] = 0; o[1] = 1 / T },
     })
     const d = tauS / 60
     const tOut = linspace(0, 5, 51)
@@ -187,9 +187,9 @@ describe('forward sensitivities', () => {
       title: 'steady',
       states: [{ name: 'x', initial: 1, steady: true }, { name: 'y', initial: 0.5 }],
       params: [{ name: 'a', value: 3 }, { name: 'k', value: 0.5 }],
-      rhs: (t, x, p, u, o) => { o[0] = p[0] - p[1] * x[0] * x[0]; o[1] = x[0] - x[1] },
-      dfdx: (t, x, p, u, o) => { o[0] = -2 * p[1] * x[0]; o[1] = 0; o[2] = 1; o[3] = -1 },
-      dfdp: (t, x, p, u, o) => { o[0] = 1; o[1] = -x[0] * x[0]; o[2] = 0; o[3] = 0 },
+      rhs: (_t, x, p, _u, o) => { o[0] = p[0] - p[1] * x[0] * x[0]; o[1] = x[0] - x[1] },
+      dfdx: (_t, x, p, _u, o) => { o[0] = -2 * p[1] * x[0]; o[1] = 0; o[2] = 1; o[3] = -1 },
+      dfdp: (_t, x, _p, _u, o) => { o[0] = 1; o[1] = -x[0] * x[0]; o[2] = 0; o[3] = 0 },
     })
     const r = simulate(m, { tOut: Float64Array.of(0, 2), rtol: 1e-10, atol: 1e-12, sensitivities: { params: [0, 1], initialStates: [1] } })
     const xs = Math.sqrt(3 / 0.5)
@@ -207,9 +207,9 @@ describe('forward sensitivities', () => {
       title: 'vdp-sens',
       states: [{ name: 'y1', initial: 2 }, { name: 'y2', initial: 0 }],
       params: [{ name: 'eps', value: 1e-3 }],
-      rhs: (t, y, p, u, o) => { o[0] = y[1]; o[1] = ((1 - y[0] * y[0]) * y[1] - y[0]) / p[0] },
-      dfdx: (t, y, p, u, o) => { o[0] = 0; o[1] = 1; o[2] = (-2 * y[0] * y[1] - 1) / p[0]; o[3] = (1 - y[0] * y[0]) / p[0] },
-      dfdp: (t, y, p, u, o) => { o[0] = 0; o[1] = -((1 - y[0] * y[0]) * y[1] - y[0]) / (p[0] * p[0]) },
+      rhs: (_t, y, p, _u, o) => { o[0] = y[1]; o[1] = ((1 - y[0] * y[0]) * y[1] - y[0]) / p[0] },
+      dfdx: (_t, y, p, _u, o) => { o[0] = 0; o[1] = 1; o[2] = (-2 * y[0] * y[1] - 1) / p[0]; o[3] = (1 - y[0] * y[0]) / p[0] },
+      dfdp: (_t, y, p, _u, o) => { o[0] = 0; o[1] = -((1 - y[0] * y[0]) * y[1] - y[0]) / (p[0] * p[0]) },
     })
     checkAgainstFd(vdp, { tOut: Float64Array.of(0.2, 0.5, 0.6), solver: 'stiff', rtol: 1e-8, atol: 1e-10, maxSteps: 1e6, sensitivities: { params: [0], initialStates: [0] } })
   })

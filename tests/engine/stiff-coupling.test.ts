@@ -22,7 +22,7 @@ const vessel = sheet('../../models/heated-buffer-vessel.sheet')
 const arenstorf = sheet('./fixtures/arenstorf.sheet')
 
 /** the same model with its coupling term left out */
-const uncoupled = (m: CompiledModel): CompiledModel => ({ ...m, d2f: (t, x, p, u, out) => { for (let i = 0; i < m.nx; i++) out[i] = 0 } })
+const uncoupled = (m: CompiledModel): CompiledModel => ({ ...m, d2f: (_t, _x, _p, _u, out) => { for (let i = 0; i < m.nx; i++) out[i] = 0 } })
 
 /** seeded synthetic numbers in [−1, 1) (a linear congruential generator; Numerical Recipes, 3rd ed., Sec. 7.1) */
 function lcg(seed: number): () => number {

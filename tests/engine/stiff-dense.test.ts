@@ -14,22 +14,22 @@ const robertson = makeModel({
   title: 'robertson',
   states: [{ name: 'y1', initial: 1 }, { name: 'y2', initial: 0 }, { name: 'y3', initial: 0 }],
   params: [{ name: 'k1', value: 0.04 }, { name: 'k2', value: 3e7 }, { name: 'k3', value: 1e4 }],
-  rhs: (t, y, p, u, o) => {
+  rhs: (_t, y, p, _u, o) => {
     o[0] = -p[0] * y[0] + p[2] * y[1] * y[2]
     o[1] = p[0] * y[0] - p[2] * y[1] * y[2] - p[1] * y[1] * y[1]
     o[2] = p[1] * y[1] * y[1]
   },
-  dfdx: (t, y, p, u, o) => {
+  dfdx: (_t, y, p, _u, o) => {
     o[0] = -p[0]; o[1] = p[2] * y[2]; o[2] = p[2] * y[1]
     o[3] = p[0]; o[4] = -p[2] * y[2] - 2 * p[1] * y[1]; o[5] = -p[2] * y[1]
     o[6] = 0; o[7] = 2 * p[1] * y[1]; o[8] = 0
   },
-  dfdp: (t, y, p, u, o) => {
+  dfdp: (_t, y, _p, _u, o) => {
     o[0] = -y[0]; o[1] = 0; o[2] = y[1] * y[2]
     o[3] = y[0]; o[4] = -y[1] * y[1]; o[5] = -y[1] * y[2]
     o[6] = 0; o[7] = y[1] * y[1]; o[8] = 0
   },
-  dfdt: (t, y, p, u, o) => { o.fill(0) },
+  dfdt: (_t, _y, _p, _u, o) => { o.fill(0) },
 })
 // scipy.integrate.solve_ivp(method='Radau', rtol=1e-12, atol=1e-20, exact Jacobian), scipy 1.17.1,
 // restarted from t = 0 for every time, so no interpolation is involved.
@@ -60,9 +60,9 @@ const vdpol = makeModel({
   title: 'vdpol',
   states: [{ name: 'y1', initial: 2 }, { name: 'y2', initial: 0 }],
   params: [{ name: 'mu', value: 1 }],
-  rhs: (t, y, p, u, o) => { o[0] = y[1]; o[1] = (p[0] * (1 - y[0] * y[0]) * y[1] - y[0]) / eps },
-  dfdx: (t, y, p, u, o) => { o[0] = 0; o[1] = 1; o[2] = (-2 * p[0] * y[0] * y[1] - 1) / eps; o[3] = (p[0] * (1 - y[0] * y[0])) / eps },
-  dfdp: (t, y, p, u, o) => { o[0] = 0; o[1] = ((1 - y[0] * y[0]) * y[1]) / eps },
+  rhs: (_t, y, p, _u, o) => { o[0] = y[1]; o[1] = (p[0] * (1 - y[0] * y[0]) * y[1] - y[0]) / eps },
+  dfdx: (_t, y, p, _u, o) => { o[0] = 0; o[1] = 1; o[2] = (-2 * p[0] * y[0] * y[1] - 1) / eps; o[3] = (p[0] * (1 - y[0] * y[0])) / eps },
+  dfdp: (_t, y, _p, _u, o) => { o[0] = 0; o[1] = ((1 - y[0] * y[0]) * y[1]) / eps },
 })
 const vdpT = Float64Array.from({ length: 20 }, (_, i) => 0.1 * (i + 1))
 const vdpRef = [
@@ -127,9 +127,9 @@ describe('stiff path: values between steps', () => {
     const lin = makeModel({
       title: 'linear',
       states: [{ name: 'a', initial: 1 }, { name: 'b', initial: 2 }, { name: 'c', initial: -1 }],
-      rhs: (t, x, p, u, o) => { for (let i = 0; i < 3; i++) o[i] = A[i][0] * x[0] + A[i][1] * x[1] + A[i][2] * x[2] },
-      dfdx: (t, x, p, u, o) => { for (let i = 0; i < 9; i++) o[i] = A[Math.floor(i / 3)][i % 3] },
-      dfdt: (t, x, p, u, o) => { o.fill(0) },
+      rhs: (_t, x, _p, _u, o) => { for (let i = 0; i < 3; i++) o[i] = A[i][0] * x[0] + A[i][1] * x[1] + A[i][2] * x[2] },
+      dfdx: (_t, _x, _p, _u, o) => { for (let i = 0; i < 9; i++) o[i] = A[Math.floor(i / 3)][i % 3] },
+      dfdt: (_t, _x, _p, _u, o) => { o.fill(0) },
     })
     const tOut = Float64Array.from({ length: 30 }, (_, i) => 1e-4 * Math.pow(10, (i * 5) / 29))
     const ref = Array.from(tOut, (t) => (multiply(expm(matrix(A.map((row) => row.map((v) => v * t)))), [1, 2, -1]).valueOf() as number[]))

@@ -11,8 +11,8 @@ const vdpRef = [1.706167732170483, -0.8928097010247975]
 const vdp = makeModel({
   title: 'vdpol',
   states: [{ name: 'y1', initial: 2 }, { name: 'y2', initial: 0 }],
-  rhs: (t, y, p, u, o) => { o[0] = y[1]; o[1] = ((1 - y[0] * y[0]) * y[1] - y[0]) / eps },
-  dfdx: (t, y, p, u, o) => { o[0] = 0; o[1] = 1; o[2] = (-2 * y[0] * y[1] - 1) / eps; o[3] = (1 - y[0] * y[0]) / eps },
+  rhs: (_t, y, _p, _u, o) => { o[0] = y[1]; o[1] = ((1 - y[0] * y[0]) * y[1] - y[0]) / eps },
+  dfdx: (_t, y, _p, _u, o) => { o[0] = 0; o[1] = 1; o[2] = (-2 * y[0] * y[1] - 1) / eps; o[3] = (1 - y[0] * y[0]) / eps },
 })
 
 describe('stiff integration', () => {
@@ -100,8 +100,8 @@ describe('stiff integration', () => {
       n: 2,
       nBlock: 1,
       f: (t, z, dz) => { dz[0] = -k * (z[0] - Math.sin(t)) + Math.cos(t); dz[1] = -k * z[1] - (z[0] - Math.sin(t)) },
-      jac: (t, z, J, ft) => { J[0] = -k; ft[0] = k * Math.cos(t) - Math.sin(t) },
-      couple: (t, z, v, vt, out) => { out[1] += -v[0] + Math.cos(t) * vt },
+      jac: (t, _z, J, ft) => { J[0] = -k; ft[0] = k * Math.cos(t) - Math.sin(t) },
+      couple: (t, _z, v, vt, out) => { out[1] += -v[0] + Math.cos(t) * vt },
     }
     const T = 2
     const errs: number[][] = []
@@ -127,9 +127,9 @@ describe('stiff integration', () => {
     const pr = makeModel({
       title: 'prothero-robinson',
       states: [{ name: 'x', initial: 1 }],
-      rhs: (t, x, p, u, o) => { o[0] = -L * (x[0] - Math.cos(t)) - Math.sin(t) },
-      dfdx: (t, x, p, u, o) => { o[0] = -L },
-      dfdt: (t, x, p, u, o) => { o[0] = -L * Math.sin(t) - Math.cos(t) },
+      rhs: (t, x, _p, _u, o) => { o[0] = -L * (x[0] - Math.cos(t)) - Math.sin(t) },
+      dfdx: (_t, _x, _p, _u, o) => { o[0] = -L },
+      dfdt: (t, _x, _p, _u, o) => { o[0] = -L * Math.sin(t) - Math.cos(t) },
     })
     // end values (each time as the end of its own run): between steps RODAS4's dense output of order 3
     // shows order reduction on this problem (docs/engine.md, "Dense output")

@@ -54,7 +54,7 @@ beforeAll(async () => {
   await writeFile(join(dir, 'notime.csv'), 'label,yobs\nfirst,109\nsecond,149\n')
   await writeFile(join(dir, 'drain.sheet'), 'model "drain"\ntime [s]\nparam k = 1 [1/s] in [0.5, 5]\nstate h = 1 [1]\nh\' = -k * sqrt(h)\noutput level = h [1]\n')
   await writeFile(join(dir, 'drain.csv'), ['t,level', ...Array.from({ length: 30 }, (_, i) => `${i * 0.2},0.5`)].join('\n'))
-  // predator–prey record (seeded synthetic data, fixtures/shooting.ts)
+  // predator–prey record (seeded synthetic data, fixtures/fit/shooting.ts)
   const lv = lotkaVolterraSpec().experiments[0]
   await writeFile(join(dir, 'lv.sheet'), LV_SHEET)
   await writeFile(join(dir, 'lv.csv'), ['t [s],prey,predator', ...Array.from(lv.time, (t, i) => `${t},${lv.outputs.prey[i]},${lv.outputs.predator[i]}`)].join('\n'))

@@ -1,4 +1,5 @@
 import { describe, expect, it } from 'vitest'
+import { erf } from 'mathjs'
 import { studentTQuantile, studentTCdf, chiSquareSurvival, normalQuantile, lnGamma } from '../../shared/engine/stats/distributions'
 import { svd } from '../../shared/engine/stats/svd'
 import { householderQR, applyQt, extractR } from '../../shared/engine/stats/qr'
@@ -24,6 +25,9 @@ describe('Student-t quantiles', () => {
     expect(studentTQuantile(0.9, 2)).toBeCloseTo(0.8 / Math.sqrt(0.18), 12)
     // large ν tends to the normal quantile 1.959963984540054 (A&S Table 26.1; value from memory)
     expect(normalQuantile(0.975)).toBeCloseTo(1.959963984540054, 10)
+    // and independently: Φ(z) = (1 + erf(z/√2))/2 with mathjs's erf (a general-purpose library; W. J. Cody's
+    // rational Chebyshev approximations, Math. Comp. 23 (1969) 631–637)
+    expect(erf(normalQuantile(0.975) / Math.SQRT2)).toBeCloseTo(0.95, 14)
     expect(studentTQuantile(0.975, 1e6)).toBeCloseTo(1.96, 4)
     // the quantile inverts the cdf at odd degrees of freedom
     for (const nu of [3, 7.5, 12, 41]) expect(studentTCdf(studentTQuantile(0.975, nu), nu)).toBeCloseTo(0.975, 12)

@@ -22,7 +22,6 @@ function rng(seed: number) {
 
 /** the system matrix [A − sI, B; C, D] as nested arrays (square systems), for mathjs */
 function pencil(A: number[][], B: number[][], C: number[][], D: number[][], s: number): number[][] {
-  const n = A.length
   return [...A.map((r, i) => [...r.map((v, j) => v - (i === j ? s : 0)), ...B[i]]), ...C.map((r, i) => [...r, ...D[i]])]
 }
 

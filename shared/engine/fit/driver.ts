@@ -5,19 +5,15 @@
  * The options, start and outcome shapes and the default tolerances are in options.ts.
  */
 import type { CompiledModel } from '../../sheet/compiled'
-import type { ConvergenceTest, FitMethod, FitResult, FitWeighting } from '../../api/fit'
-import type { SolverName } from '../simulate-contract'
+import type { FitResult, FitWeighting } from '../../api/fit'
 import { FitProblem, type ProblemSpec, type Simulate } from './problem'
 import { makeProblem, resolveTolerances, type FitOptions, type StartOutcome, type StartPlan } from './options'
 import { levenbergMarquardt } from './lm'
 import { nelderMeadFit } from './nelder-mead'
 import { latinHypercube } from './lhs'
-import { FitAborted, FitTimeout, type OptimiseResult, type ProgressInfo, type StopStatus } from './lsq'
+import { FitAborted, FitTimeout, type OptimiseResult, type ProgressInfo } from './lsq'
 import { buildResult } from './result'
 import { equationErrorEstimate, type EquationErrorEstimate } from './equation-error'
-import type { LandscapeRequest } from '../landscape'
-import type { SegmentRequest } from './multiple-shooting/segments'
-import type { SegmentEvaluatorFactory } from './multiple-shooting/evaluator'
 
 export type { FitOptions, StartPlan, StartOutcome, ResolvedTolerances } from './options'
 export { resolveTolerances, makeProblem } from './options'

@@ -8,9 +8,14 @@
  * - Step: δ = −Σ_i σ_i/(σ_i² + λ)·(u_iᵀ r)·v_i from the SVD of the scaled Jacobian J·D⁻¹ = Q·(U S Vᵀ)
  *   (Householder QR, then one-sided Jacobi SVD of R; no normal equations, no explicit inverse of JᵀJ).
  * - Damping update: H. B. Nielsen, "Damping parameter in Marquardt's method", IMM-REP-1999-05, DTU, 1999,
- *   eq. (2.4): accepted step λ ← λ·max(1/3, 1 − (2ρ − 1)³), ν ← 2; rejected λ ← λ·ν, ν ← 2ν;
- *   initial λ = τ·max σ_i² with τ = 1e-3 (K. Madsen, H. B. Nielsen & O. Tingleff, Methods for Non-Linear
- *   Least Squares Problems, 2nd ed., 2004, Algorithm 3.16).
+ *   eq. (2.4): accepted step λ ← λ·max(1/3, 1 − (2ρ − 1)³), ν ← 2; rejected λ ← λ·ν, ν ← 2ν.
+ * - Initial damping: ours, λ₀ = τ·σ_1² with τ = 1e-3 and σ_1 the largest singular value of the scaled
+ *   Jacobian J·D⁻¹ (the largest eigenvalue of its JᵀJ). The sources take λ₀ = τ·max_i (JᵀJ)_ii with the
+ *   same τ (Nielsen 1999 above; K. Madsen, H. B. Nielsen & O. Tingleff, Methods for Non-Linear Least
+ *   Squares Problems, 2nd ed., IMM, DTU, 2004, Sec. 3.2, the choice of μ₀ before Algorithm 3.16; section
+ *   numbers from memory). With the column scaling every diagonal entry of the scaled JᵀJ is 1 at the
+ *   start, so theirs would be τ itself; σ_1² ≥ max diagonal keeps the first steps shorter when the
+ *   columns are strongly correlated.
  * - Bounds by projection: the trial point is the step projected onto the box; a parameter sitting on a
  *   bound whose gradient points outward is held out of the step (an active-set variant of the projected
  *   LM of C. Kanzow, N. Yamashita & M. Fukushima, J. Comput. Appl. Math. 172 (2004) 375–397). The gain
@@ -172,7 +177,6 @@ export async function levenbergMarquardt(
 
     let accepted = false
     let tries = 0
-    let stepSmall = false
     let relPred = 0
     let relAct = 0
     while (!accepted) {
@@ -193,10 +197,8 @@ export async function levenbergMarquardt(
         dz[j] = zT[j] - z[j]
         stepRel = Math.max(stepRel, Math.abs(dz[j]) / (Math.abs(tr.isLog[j] ? 0 : z[j]) + typ[j]))
       }
-      if (stepRel <= xtol) {
-        stepSmall = true
-        break
-      }
+      // the step is negligible: converged by the step test (below, with no evaluation)
+      if (stepRel <= xtol) break
       // predicted reduction of the linear model for the projected step: −(2 rᵀq + qᵀq), q = J δ
       q.fill(0)
       for (let j = 0; j < n; j++) {
@@ -229,7 +231,6 @@ export async function levenbergMarquardt(
         lambda *= Math.max(1 / 3, 1 - Math.pow(2 * rho - 1, 3))
         nu = 2
         accepted = true
-        if (stepRel <= xtol) stepSmall = true
       } else {
         lambda *= nu
         nu *= 2
@@ -243,7 +244,6 @@ export async function levenbergMarquardt(
     if (relAct <= ftol && relPred <= ftol) {
       return done('converged', `relative cost change below ftol (${tolText(ftol)})`, iter, cost, 'cost-change')
     }
-    if (stepSmall) return done('converged', `relative step below xtol (${tolText(xtol)})`, iter, cost, 'step')
     if (iter % 4 === 0 && (opts.signal || opts.deadline !== undefined)) await yieldToEventLoop()
   }
 }

@@ -87,7 +87,8 @@ export function hessenbergEigenvalues(h: Float64Array, n: number): Eigenvalues {
   for (let i = 0; i < n; i++) for (let j = Math.max(i - 1, 0); j < n; j++) anorm += Math.abs(a(i, j))
   let nn = n - 1
   let t = 0
-  let p = 0, q = 0, r = 0, s = 0, w = 0, x = 0, y = 0, z = 0
+  let p = 0, q = 0, r = 0
+  let s: number, w: number, x: number, y: number, z: number
   while (nn >= 0) {
     let its = 0
     let l: number

@@ -14,7 +14,7 @@
  *   numerical rank, Golub & Van Loan, 4th ed. Sec. 5.4.1; the tolerance is ours, looser than
  *   n·eps because powers of A lose accuracy).
  */
-import { eigenvalues, type Eigenvalues } from './eigen'
+import type { Eigenvalues } from './eigen'
 import { matMul, solveMatrix } from './dense'
 import { svd } from '../stats/svd'
 

@@ -31,7 +31,6 @@ export class OdexSolver implements OdeSolver {
   private n = 0
   private zin: Float64Array = new Float64Array(0)
   private dz: Float64Array = new Float64Array(0)
-  private tOld = 0
   private denseFn: ((c: number, x: number) => number) | null = null
   private solver: Solver | null = null
 
@@ -47,7 +46,6 @@ export class OdexSolver implements OdeSolver {
     this.tol = tol
     this.limits = limits
     this.t = t
-    this.tOld = t
     this.z.set(z.subarray(0, sys.n))
     this.h = h
     this.denseFn = null
@@ -56,7 +54,6 @@ export class OdexSolver implements OdeSolver {
 
   restartAt(t: number, z: Float64Array, h: number): void {
     this.t = t
-    this.tOld = t
     this.z.set(z.subarray(0, this.n))
     this.h = h
     this.denseFn = null
@@ -117,7 +114,6 @@ export class OdexSolver implements OdeSolver {
       accepted++
       counters.steps++
       for (let i = 0; i < n; i++) this.z[i] = y[i]
-      this.tOld = xOld
       this.t = x
       this.h = x - xOld
       this.denseFn = dense ?? null

@@ -41,12 +41,14 @@ export const DP54 = {
     701980252875 / 199316789632, -1453857185 / 822651844, 69997945 / 29380423],
 } as const
 
-const SAFE = 0.9
+/** safety factor of the step-size controller (dopri5's SAFE) */
+const SAFETY = 0.9
 const FAC_MIN = 0.2 // shrink limit
 const FAC_MAX = 10 // growth limit
+/** weight of the previous error in the PI step-size controller (dopri5's BETA; Hairer et al. I, Sec. IV.2) */
 const BETA = 0.04
-/** exponent of err in the PI controller: 1/(p̂+1) − 0.75β (dopri5) */
-const EXPO1 = 1 / (DP54.embeddedOrder + 1) - BETA * 0.75
+/** exponent of err in the PI controller: 1/(p̂+1) − 0.75β (dopri5's EXPO1) */
+const ERR_EXPONENT = 1 / (DP54.embeddedOrder + 1) - BETA * 0.75
 /** DP5's stability region reaches about 3.3 on the negative real axis (Hairer et al. I, Sec. II.10) */
 export const DP5_STIFF_BOUND = 3.25
 /** dopri5's stiffness test: STIFF_RUN steps above the bound, CALM_RESET calmer ones in a row reset */
@@ -72,11 +74,16 @@ export class Rk45 extends OneStepSolver {
   readonly name = 'rk45'
   /** set when the stiffness test of Sec. II.10 fired */
   stiff = false
+  /** the seven stage derivatives k₁…k₇ */
   private k: Float64Array[] = []
+  /** the step's 5th-order result y₁ */
   private y1: Float64Array = new Float64Array(0)
-  private ysti: Float64Array = new Float64Array(0)
+  /** the stage-6 point, kept for the stiffness test's ρ ≈ ‖k₇ − k₆‖/‖y₁ − y_stage6‖ (dopri5's YSTI) */
+  private yStage6: Float64Array = new Float64Array(0)
   private ytmp: Float64Array = new Float64Array(0)
-  private r: Float64Array[] = []
+  /** coefficients of the dense-output polynomial of the last step (dopri5's RCONT) */
+  private denseCoef: Float64Array[] = []
+  /** the previous accepted step's error, for the PI controller (dopri5's FACOLD) */
   private facOld = 1e-4
   private fsal = false
   /** steps above DP5_STIFF_BOUND since the last calm run, and calm steps in a row */
@@ -92,10 +99,10 @@ export class Rk45 extends OneStepSolver {
     if (this.n === n && this.k.length === 7) return
     this.n = n
     this.k = Array.from({ length: 7 }, () => new Float64Array(n))
-    this.r = Array.from({ length: 5 }, () => new Float64Array(n))
+    this.denseCoef = Array.from({ length: 5 }, () => new Float64Array(n))
     this.z = new Float64Array(n)
     this.y1 = new Float64Array(n)
-    this.ysti = new Float64Array(n)
+    this.yStage6 = new Float64Array(n)
     this.ytmp = new Float64Array(n)
   }
 
@@ -127,7 +134,7 @@ export class Rk45 extends OneStepSolver {
   }
 
   step(tStop: number): void {
-    const { sys, n, k, ytmp, y1, ysti, counters, limits } = this
+    const { sys, n, k, ytmp, y1, yStage6, counters, limits } = this
     const A = DP54.a
     const C = DP54.c
     const E = DP54.e
@@ -147,7 +154,7 @@ export class Rk45 extends OneStepSolver {
       let bad = -1
       for (let s = 1; s < 7; s++) {
         const a = A[s]
-        const dst = s === 5 ? ysti : s === 6 ? y1 : ytmp
+        const dst = s === 5 ? yStage6 : s === 6 ? y1 : ytmp
         for (let i = 0; i < n; i++) {
           let acc = 0
           for (let j = 0; j < s; j++) acc += a[j] * k[j][i]
@@ -174,10 +181,10 @@ export class Rk45 extends OneStepSolver {
         errv[i] = h * (E[0] * k[0][i] + E[2] * k[2][i] + E[3] * k[3][i] + E[4] * k[4][i] + E[5] * k[5][i] + E[6] * k[6][i])
       }
       const err = limits.fixedStep > 0 ? 0 : errNorm(this.tol, sys.nBlock, n, errv, z, y1)
-      const errPow = Math.pow(err, EXPO1) // err^(1/5 − 0.75β), dopri5's fac11
+      const errPow = Math.pow(err, ERR_EXPONENT) // err^(1/5 − 0.75β), dopri5's FAC11
       if (err <= 1 || limits.fixedStep > 0) {
         let fac = errPow / Math.pow(this.facOld, BETA)
-        fac = Math.max(1 / FAC_MAX, Math.min(1 / FAC_MIN, fac / SAFE))
+        fac = Math.max(1 / FAC_MAX, Math.min(1 / FAC_MIN, fac / SAFETY))
         const hNew = h / fac
         this.facOld = Math.max(err, 1e-4)
         counters.steps++
@@ -185,7 +192,7 @@ export class Rk45 extends OneStepSolver {
         this.stiffnessTest(h)
         // dense output coefficients (CONTD5)
         const D = DP54.d
-        const r = this.r
+        const r = this.denseCoef
         const r1 = r[0], r2 = r[1], r3 = r[2], r4 = r[3], r5 = r[4]
         for (let i = 0; i < n; i++) {
           const y0 = z[i]
@@ -212,7 +219,7 @@ export class Rk45 extends OneStepSolver {
       }
       counters.rejected++
       this.lastRejected = true
-      this.h = h / Math.min(1 / FAC_MIN, errPow / SAFE)
+      this.h = h / Math.min(1 / FAC_MIN, errPow / SAFETY)
     }
   }
 
@@ -245,7 +252,7 @@ export class Rk45 extends OneStepSolver {
     let den = 0
     for (let i = 0; i < nb; i++) {
       const a = k7[i] - k6[i]
-      const b = this.y1[i] - this.ysti[i]
+      const b = this.y1[i] - this.yStage6[i]
       num += a * a
       den += b * b
     }
@@ -266,7 +273,7 @@ export class Rk45 extends OneStepSolver {
 
   dense(t: number, out: Float64Array): void {
     const n = this.n
-    const r = this.r
+    const r = this.denseCoef
     const r1 = r[0], r2 = r[1], r3 = r[2], r4 = r[3], r5 = r[4]
     if (this.hLast === 0) {
       out.set(this.z.subarray(0, n))

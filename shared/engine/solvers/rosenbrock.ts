@@ -95,15 +95,21 @@ const PRED_ERR_FLOOR = 1e-2
 const RETRY_SHRINK = 0.25
 export class Rosenbrock extends OneStepSolver {
   readonly name = 'stiff'
+  /** size of the leading state block the Jacobian covers (the rest are sensitivities, coupled through sys.couple) */
   private nb = 0
+  /** the stage vectors u₁…u_s of the transformed method (Hairer & Wanner II, Sec. IV.7, eq. (7.3')) */
   private u: Float64Array[] = []
+  /** f at the start and at the end of the step */
   private f0: Float64Array = new Float64Array(0)
   private f1: Float64Array = new Float64Array(0)
+  /** the step's result y₁ (swapped with z on acceptance) */
   private z1: Float64Array = new Float64Array(0)
   private ytmp: Float64Array = new Float64Array(0)
   /** nb zeros: the direction of a pure time derivative in sys.couple */
   private zeroX: Float64Array = new Float64Array(0)
+  /** ∂f/∂t at the step's start */
   private ft: Float64Array = new Float64Array(0)
+  /** Jacobian ∂f/∂z of the state block, the iteration matrix W = I/(hγ) − J, and W's LU pivots */
   private J: Float64Array = new Float64Array(0)
   private W: Float64Array = new Float64Array(0)
   private piv = new Int32Array(0)

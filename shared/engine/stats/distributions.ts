@@ -21,7 +21,7 @@ const LANCZOS = [
 
 export function lnGamma(xx: number): number {
   if (!(xx > 0)) throw new RangeError('lnGamma: argument must be positive')
-  let x = xx
+  const x = xx
   let y = xx
   let tmp = x + 5.24218750000000000 // 671/128
   tmp = (x + 0.5) * Math.log(tmp) - tmp

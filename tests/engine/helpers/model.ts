@@ -113,15 +113,15 @@ export function makeModel(spec: TestModelSpec): CompiledModel {
   const nd = delays.length
   const outputs = spec.outputs ?? spec.states.map((s) => ({ name: s.name }))
   const ny = outputs.length
-  const outputsFn: VecFn = spec.outputsFn ?? ((t, x, p, u, out) => {
+  const outputsFn: VecFn = spec.outputsFn ?? ((_t, x, _p, _u, out) => {
     for (let i = 0; i < nx; i++) out[i] = x[i]
   })
   const unit = { unit: '', scale: 1, offset: 0 }
-  const identity: VecFn = (t, x, p, u, out) => {
+  const identity: VecFn = (_t, _x, _p, _u, out) => {
     out.fill(0, 0, ny * nx)
     for (let i = 0; i < nx; i++) out[i * nx + i] = 1
   }
-  const zeros = (len: number): VecFn => (t, x, p, u, out) => {
+  const zeros = (len: number): VecFn => (_t, _x, _p, _u, out) => {
     out.fill(0, 0, len)
   }
   const dfdx = spec.dfdx ?? fdJac(spec.rhs, nx, 'x', nx)

@@ -1,5 +1,5 @@
 // Generated once by: npx tsc node_modules/odex/src/odex.ts --declaration --emitDeclarationOnly --outDir shared/engine/solvers/types
-// (the package ships TypeScript source that fails our strict type-check; see shared/STACK-NOTES.md).
+// (the package ships TypeScript source that fails our strict type-check, and skipLibCheck covers only .d.ts files).
 /**
  * An implementation of ODEX, by E. Hairer and G. Wanner, ported from the Fortran ODEX.F.
  * The original work carries the BSD 2-clause license, and so does this.
