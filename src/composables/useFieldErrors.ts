@@ -10,7 +10,7 @@
  */
 import { reactive, ref } from 'vue'
 import type { ZodError, ZodType } from 'zod'
-import { ApiError, type FieldIssue } from '@/api/client'
+import { ApiError, type FieldIssue } from '../api/client'
 
 /** Words for the segments of an issue path: field names, and per list the name of each row. */
 export interface FieldWords {

@@ -1,42 +1,9 @@
 /// <reference lib="dom" />
 /**
- * The one plot theme: Plotly colours read from the CSS variables of assets/main.css (`--pw-plot-*`), so
- * every chart follows the palette and no component repeats a colour. `readPlotTheme` takes the variable
- * reader, so it is tested against main.css itself.
+ * The one plot theme: every chart's colours come from the CSS variables of assets/main.css, read once
+ * from the page (plotTheme.ts holds the pure part), so no component repeats a colour.
  */
-export interface PlotTheme {
-  font: string
-  text: string
-  muted: string
-  paper: string
-  background: string
-  grid: string
-  /** the fill of a confidence band around the first series */
-  band: string
-  /** series colours in order (measured/simulated, validation, further series) */
-  palette: string[]
-  /** signal colours: warnings (ochre), limits and errors (oxide) */
-  warn: string
-  danger: string
-}
-
-export const PLOT_SERIES_COUNT = 6
-
-export function readPlotTheme(cssVar: (name: string) => string): PlotTheme {
-  const v = (name: string) => cssVar(name).trim()
-  return {
-    font: v('--pw-font') || 'sans-serif',
-    text: v('--pw-plot-text'),
-    muted: v('--pw-plot-muted'),
-    paper: v('--pw-plot-paper'),
-    background: v('--pw-plot-bg'),
-    grid: v('--pw-plot-grid'),
-    band: v('--pw-plot-band'),
-    palette: Array.from({ length: PLOT_SERIES_COUNT }, (_, i) => v(`--pw-plot-${i + 1}`)),
-    warn: v('--pw-ochre'),
-    danger: v('--pw-oxide'),
-  }
-}
+import { baseLayout, readPlotTheme, type PlotTheme } from './plotTheme'
 
 let cached: PlotTheme | null = null
 
@@ -46,21 +13,6 @@ function documentTheme(): PlotTheme {
     cached = readPlotTheme((name) => style.getPropertyValue(name))
   }
   return cached
-}
-
-/** The base layout every chart starts from (fonts, frame, grid, legend above the plotting area). */
-export function baseLayout(t: PlotTheme, height: number): Record<string, unknown> {
-  return {
-    height,
-    margin: { l: 64, r: 16, t: 36, b: 56 },
-    font: { family: t.font, size: 12, color: t.text },
-    paper_bgcolor: t.paper,
-    plot_bgcolor: t.background,
-    // a horizontal legend in the top margin, above the plotting area: never over the data or the x-axis title
-    legend: { orientation: 'h', x: 0, xanchor: 'left', y: 1.02, yanchor: 'bottom' },
-    xaxis: { gridcolor: t.grid, zeroline: false },
-    yaxis: { gridcolor: t.grid, zeroline: false },
-  }
 }
 
 export function usePlotTheme() {

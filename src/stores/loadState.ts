@@ -4,7 +4,7 @@
  * between two runs never shows the first one's data on the second one's page.
  */
 import { computed, ref } from 'vue'
-import { ApiError } from '@/api/client'
+import { ApiError } from '../api/client'
 
 export type LoadPhase = 'idle' | 'loading' | 'ready' | 'not-found' | 'error'
 

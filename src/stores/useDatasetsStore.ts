@@ -3,7 +3,7 @@ import { defineStore } from 'pinia'
 import { computed, shallowRef } from 'vue'
 import type { DatasetDataDto, DatasetDto, DatasetPurpose, DatasetSummaryDto, ConditioningStep } from '@shared/api/datasets'
 import type { ProjectDto } from '@shared/api/projects'
-import * as fits from '@/api/fits'
+import * as fits from '../api/fits'
 import { useLoadState } from './loadState'
 
 export const useDatasetsStore = defineStore('datasets', () => {

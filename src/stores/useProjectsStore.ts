@@ -7,7 +7,7 @@ import { shallowRef } from 'vue'
 import type { ProjectDto } from '@shared/api/projects'
 import type { BindingDto, DatasetPurpose, DatasetSummaryDto } from '@shared/api/datasets'
 import type { ParameterSetDto, RunSummaryDto } from '@shared/api/runs'
-import * as fits from '@/api/fits'
+import * as fits from '../api/fits'
 import { useLoadState } from './loadState'
 
 export const useProjectsStore = defineStore('projects', () => {

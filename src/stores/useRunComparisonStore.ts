@@ -2,7 +2,7 @@
 import { defineStore } from 'pinia'
 import { shallowRef } from 'vue'
 import type { RunDto } from '@shared/api/runs'
-import * as fits from '@/api/fits'
+import * as fits from '../api/fits'
 import { useLoadState } from './loadState'
 import { readRunResult } from './useRunsStore'
 

@@ -5,7 +5,7 @@
 import { defineStore } from 'pinia'
 import { computed, shallowRef } from 'vue'
 import { storedRunResult, type RunDto, type RunSummaryDto, type StoredRunResult } from '@shared/api/runs'
-import * as fits from '@/api/fits'
+import * as fits from '../api/fits'
 import { useLoadState } from './loadState'
 
 /** The result of a run, checked; `problem` says why a stored result cannot be shown (an older engine's shape). */

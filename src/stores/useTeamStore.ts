@@ -6,7 +6,7 @@ import { defineStore } from 'pinia'
 import { computed, ref, shallowRef } from 'vue'
 import type { Role } from '@shared/api/auth'
 import type { ApiTokenDto, AuditEntryDto, CreateTokenBody, InvitationDto, InviteBody, MemberDto } from '@shared/api/team'
-import * as team from '@/api/team'
+import * as team from '../api/team'
 import { useLoadState } from './loadState'
 
 export const useTeamStore = defineStore('team', () => {

@@ -6,7 +6,7 @@
 import { readFileSync, readdirSync } from 'node:fs'
 import path from 'node:path'
 import { describe, expect, it } from 'vitest'
-import { baseLayout, PLOT_SERIES_COUNT, readPlotTheme } from '../../src/composables/usePlotTheme'
+import { baseLayout, PLOT_SERIES_COUNT, readPlotTheme } from '../../src/composables/plotTheme'
 
 const css = readFileSync('src/assets/main.css', 'utf8')
 const root = css.slice(css.indexOf(':root {'), css.indexOf('\n}', css.indexOf(':root {')))

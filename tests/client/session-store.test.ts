@@ -4,58 +4,32 @@
  * follow shared/api/auth.ts. fetch is the Node one with a small cookie jar, standing in for the
  * browser (same origin, so the Origin header is the server's own).
  */
-import { afterAll, beforeAll, beforeEach, describe, expect, it, vi } from 'vitest'
-import type { Server } from 'node:http'
+import { afterAll, beforeAll, beforeEach, describe, expect, it } from 'vitest'
 import { createPinia, setActivePinia } from 'pinia'
 import { makeTestApp, demo, type TestApp } from '../helpers/app'
 import { eq } from 'drizzle-orm'
 import { DEMO_PASSWORD } from '../../server/db/seed'
 import { memberships, workspaces } from '../../server/db/schema'
-import { ApiError, api, setErrorNotifier } from '../../src/api/client'
+import { ApiError, api } from '../../src/api/client'
+import { clientFetch, type ClientFetch } from '../helpers/client-fetch'
 import { useSessionStore } from '../../src/stores/useSessionStore'
 import { capturedMail, mailTo, verificationToken } from '../helpers/signup'
 
 let t: TestApp
-let server: Server
-let base = ''
-let cookies = new Map<string, string>()
-const realFetch = globalThis.fetch
+let client: ClientFetch
 
 beforeAll(async () => {
   t = await makeTestApp('client_session')
-  server = await new Promise((resolve) => {
-    const s = t.app.listen(0, '127.0.0.1', () => resolve(s))
-  })
-  const addr = server.address()
-  base = `http://127.0.0.1:${typeof addr === 'object' && addr ? addr.port : 0}`
-  t.context.config.publicUrl = base
-  vi.stubGlobal('fetch', async (path: string, init: RequestInit = {}) => {
-    const headers = new Headers(init.headers)
-    if (cookies.size) headers.set('Cookie', [...cookies].map(([k, v]) => `${k}=${v}`).join('; '))
-    if (init.method && init.method !== 'GET') headers.set('Origin', base)
-    const res = await realFetch(base + path, { ...init, headers })
-    for (const c of res.headers.getSetCookie()) {
-      const [pair] = c.split(';')
-      const i = pair!.indexOf('=')
-      const name = pair!.slice(0, i)
-      const value = pair!.slice(i + 1)
-      if (value === '' || /expires=Thu, 01 Jan 1970/i.test(c)) cookies.delete(name)
-      else cookies.set(name, value)
-    }
-    return res
-  })
-  setErrorNotifier(() => {})
+  client = await clientFetch(t)
 })
 
 afterAll(async () => {
-  vi.unstubAllGlobals()
-  setErrorNotifier(null)
-  await new Promise<void>((resolve) => server.close(() => resolve()))
+  await client.close()
   await t.close()
 })
 
 beforeEach(() => {
-  cookies = new Map()
+  client.clearCookies()
   setActivePinia(createPinia())
 })
 
@@ -77,7 +51,7 @@ describe('session store against the server', () => {
       viewer: { canWrite: false, canApprove: false, isAdmin: false },
     } as const
     for (const role of ['admin', 'modeler', 'reviewer', 'viewer'] as const) {
-      cookies = new Map()
+      client.clearCookies()
       setActivePinia(createPinia())
       const session = useSessionStore()
       await session.signIn({ email: demo[role], password: DEMO_PASSWORD })
@@ -134,7 +108,7 @@ describe('session store against the server', () => {
     expect(reloaded.isAdmin).toBe(true)
 
     // A workspace the user is not a member of is refused and nothing changes.
-    cookies = new Map()
+    client.clearCookies()
     setActivePinia(createPinia())
     const modeler = useSessionStore()
     await modeler.signIn({ email: demo.modeler, password: DEMO_PASSWORD })

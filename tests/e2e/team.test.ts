@@ -65,7 +65,7 @@ describe('browser: team administration and mail', () => {
     await expect.poll(() => page.locator('[data-testid="members"]').getByText(demo.modeler).count(), { timeout: 20_000 }).toBeGreaterThan(0)
     await page.locator('input[name="invite-email"]').fill('browser.hire@example.org')
     await page.getByRole('button', { name: 'Send invitation' }).click()
-    await expect.poll(() => page.locator('[data-testid="invitations"]').getByText('browser.hire@example.org').count()).toBeGreaterThan(0)
+    await expect.poll(() => page.locator('[data-testid="invitations"]').getByText('browser.hire@example.org').count(), { timeout: 20_000 }).toBeGreaterThan(0)
     await rig.screenshot(page, 'team-page')
 
     const mail = await mailTo('browser.hire@example.org')

@@ -1,0 +1,193 @@
+/**
+ * The client's data layer against the real server (fresh seeded database with the demo project of the
+ * invented Tinmoor Works plant, its first fit executed): each area's store loads with the uniform
+ * states, a missing thing is "not found" without an error message, a stale load never overwrites a
+ * newer one, every reply passes its shared schema, and stored run results read without casts.
+ */
+import { afterAll, beforeAll, beforeEach, describe, expect, it } from 'vitest'
+import { createPinia, setActivePinia } from 'pinia'
+import { eq } from 'drizzle-orm'
+import { makeTestApp, demo, type TestApp } from '../helpers/app'
+import { clientFetch, type ClientFetch } from '../helpers/client-fetch'
+import { DEMO_PASSWORD } from '../../server/db/seed'
+import { datasets, projects, runs } from '../../server/db/schema'
+import { seedDemoProject } from '../../server/services/demo-project'
+import { ApiError } from '../../src/api/client'
+import { useSessionStore } from '../../src/stores/useSessionStore'
+import { useProjectsStore } from '../../src/stores/useProjectsStore'
+import { useDatasetsStore } from '../../src/stores/useDatasetsStore'
+import { readRunResult, useRunsStore } from '../../src/stores/useRunsStore'
+import { comparedIds, useRunComparisonStore } from '../../src/stores/useRunComparisonStore'
+import { useTeamStore } from '../../src/stores/useTeamStore'
+import { classifyLoadError, useLoadState } from '../../src/stores/loadState'
+import { parseRouteId } from '../../src/composables/useRouteId'
+import { describeIssuePath } from '../../src/composables/useFieldErrors'
+import type { RunDto } from '../../shared/api/runs'
+
+let t: TestApp
+let client: ClientFetch
+let demoProject: number
+let demoRun: number
+let demoDataset: number
+
+beforeAll(async () => {
+  t = await makeTestApp('client_stores')
+  await seedDemoProject(t.context.db)
+  const [p] = await t.context.db.select().from(projects).where(eq(projects.name, 'Buffer vessel B2 calibration (demo)'))
+  demoProject = p.id
+  const [r] = await t.context.db.select().from(runs).where(eq(runs.projectId, p.id))
+  demoRun = r.id
+  const [d] = await t.context.db.select().from(datasets).where(eq(datasets.projectId, p.id))
+  demoDataset = d.id
+  client = await clientFetch(t)
+})
+afterAll(async () => { await client.close(); await t.close() })
+
+beforeEach(async () => {
+  client.clearCookies()
+  client.notified.length = 0
+  setActivePinia(createPinia())
+  await useSessionStore().signIn({ email: demo.modeler, password: DEMO_PASSWORD })
+})
+
+describe('runs store', () => {
+  it('opens a finished run with its result read by the shared schema', async () => {
+    const store = useRunsStore()
+    const opening = store.open(demo.ws, demoRun)
+    expect(store.state.phase).toBe('loading')
+    expect(await opening).toBe(true)
+    expect(store.state.phase).toBe('ready')
+    expect(store.run?.status).toBe('succeeded')
+    expect(store.resultProblem).toBeNull()
+    expect(store.result?.parameters.length).toBeGreaterThan(0)
+    expect(store.result?.traces.length).toBeGreaterThan(0)
+    await store.fetchOthers()
+    expect(store.others.every((o) => o.id !== demoRun)).toBe(true)
+  })
+
+  it('answers "not found" for a missing run without an error message', async () => {
+    const store = useRunsStore()
+    expect(await store.open(demo.ws, 999_999)).toBe(false)
+    expect(store.state.phase).toBe('not-found')
+    expect(store.run).toBeNull()
+    expect(client.notified).toEqual([])
+  })
+
+  it('keeps the newer of two loads that overlap (moving quickly between runs)', async () => {
+    const store = useRunsStore()
+    const first = store.open(demo.ws, 999_998)
+    const second = store.open(demo.ws, demoRun)
+    expect(await first).toBe(false) // overtaken: its 404 is not applied
+    expect(await second).toBe(true)
+    expect(store.state.phase).toBe('ready')
+    expect(store.run?.id).toBe(demoRun)
+  })
+
+  it('lists the workspace runs', async () => {
+    const store = useRunsStore()
+    await store.fetchList(demo.ws)
+    expect(store.listState.phase).toBe('ready')
+    expect(store.list.map((r) => r.id)).toContain(demoRun)
+  })
+
+  it('says why a stored result of another shape cannot be shown', () => {
+    const odd = { result: { status: 'converged', parameters: 'not a list' } } as unknown as RunDto
+    const r = readRunResult(odd)
+    expect(r.result).toBeNull()
+    expect(r.problem).toMatch(/does not have the shape this version of Pewter reads/)
+    expect(readRunResult(null)).toEqual({ result: null, problem: null })
+  })
+})
+
+describe('projects, datasets, comparison and team stores', () => {
+  it('opens a project with its datasets, bindings and runs, and refuses a missing one as not found', async () => {
+    const store = useProjectsStore()
+    expect(await store.open(demo.ws, demoProject)).toBe(true)
+    expect(store.project?.name).toBe('Buffer vessel B2 calibration (demo)')
+    expect(store.datasets.length).toBeGreaterThanOrEqual(1)
+    expect(store.runs.map((r) => r.id)).toContain(demoRun)
+    await store.open(demo.ws, 999_999)
+    expect(store.state.phase).toBe('not-found')
+    expect(store.project).toBeNull()
+    await store.fetchList(demo.ws)
+    expect(store.list.some((p) => p.id === demoProject)).toBe(true)
+  })
+
+  it('places the server\'s refusal of a project name as an ApiError with field issues (the form shows it once)', async () => {
+    const store = useProjectsStore()
+    const err = await store.create(demo.ws, { name: '\u200b', description: '' }).catch((e: unknown) => e)
+    expect(err).toBeInstanceOf(ApiError)
+    expect((err as ApiError).status).toBe(400)
+    expect((err as ApiError).fieldIssues[0]?.path).toBe('name')
+    expect(client.notified).toEqual([]) // quiet: the form places it beside the field
+  })
+
+  it('opens a dataset with its traces', async () => {
+    const store = useDatasetsStore()
+    expect(await store.open(demo.ws, demoDataset)).toBe(true)
+    expect(store.dataset?.id).toBe(demoDataset)
+    expect(store.data?.t.length).toBeGreaterThan(10)
+    await store.fetchList(demo.ws)
+    expect(store.projectName.get(demoProject)).toBe('Buffer vessel B2 calibration (demo)')
+    await store.open(demo.ws, 999_999)
+    expect(store.state.phase).toBe('not-found')
+  })
+
+  it('loads two runs to compare, and reads the run ids of a compare address', async () => {
+    expect(comparedIds({ a: '3', b: '5' })).toEqual([3, 5])
+    expect(comparedIds({ a: '3', b: '3' })).toEqual([3])
+    expect(comparedIds({ a: '-1', b: 'x' })).toEqual([])
+    const store = useRunComparisonStore()
+    await store.load(demo.ws, [demoRun, demoRun + 10_000])
+    expect(store.state.phase).toBe('not-found')
+    await store.load(demo.ws, [])
+    expect(store.state.phase).toBe('idle')
+  })
+
+  it('loads the team as a modeler (no admin parts) and as an admin', async () => {
+    const store = useTeamStore()
+    expect(await store.load(demo.ws, false)).toBe(true)
+    expect(store.members.map((m) => m.email)).toContain(demo.modeler)
+    expect(store.audit).toEqual([])
+    client.clearCookies()
+    setActivePinia(createPinia())
+    await useSessionStore().signIn({ email: demo.admin, password: DEMO_PASSWORD })
+    const admin = useTeamStore()
+    expect(await admin.load(demo.ws, true)).toBe(true)
+    expect(admin.fourEyes).not.toBeNull()
+    expect(admin.audit.length).toBeGreaterThan(0)
+    expect(admin.isLastAdmin(admin.members.find((m) => m.role === 'admin')!)).toBe(true)
+  })
+})
+
+describe('pure parts', () => {
+  it('classifies failed loads', () => {
+    expect(classifyLoadError(new ApiError(404, 'not_found', 'Run not found'))).toEqual({ phase: 'not-found', message: 'Run not found' })
+    expect(classifyLoadError(new ApiError(500, 'internal', 'boom'))).toEqual({ phase: 'error', message: 'boom' })
+    expect(classifyLoadError(new Error('offline'))).toEqual({ phase: 'error', message: 'offline' })
+  })
+
+  it('applies a load only when no newer one started', async () => {
+    const s = useLoadState()
+    let applied = ''
+    let release!: () => void
+    const slow = s.track(() => new Promise<string>((r) => { release = () => r('slow') }), (v) => { applied = v })
+    await s.track(async () => 'fast', (v) => { applied = v })
+    release()
+    expect(await slow).toBe(false)
+    expect(applied).toBe('fast')
+    expect(s.phase.value).toBe('ready')
+  })
+
+  it('reads route ids', () => {
+    expect(parseRouteId('12')).toBe(12)
+    for (const bad of ['0', '-3', '1.5', 'abc', undefined, ['3']]) expect(parseRouteId(bad)).toBe(0)
+  })
+
+  it('says where a field problem is in words, not as a path', () => {
+    const words = { labels: { free: 'free parameters', lower: 'lower bound' }, rows: { free: ['Cv', 'UA'] } }
+    expect(describeIssuePath('free.1.lower', words)).toBe('free parameters, row 2 (UA), lower bound')
+    expect(describeIssuePath('free.3.start', words)).toBe('free parameters, row 4, start')
+    expect(describeIssuePath('name')).toBe('name')
+  })
+})
