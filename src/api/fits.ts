@@ -3,7 +3,7 @@ import { exampleProjectReply, type ProjectDto } from '@shared/api/projects'
 import type {
   BindingDto, ColumnMapping, ConditioningStep, DatasetDataDto, DatasetDto, DatasetPurpose, DatasetSummaryDto, MappingCheck,
 } from '@shared/api/datasets'
-import type { CreateRunBody, LandscapeDto, ParameterSetDto, RunDto, RunSummaryDto } from '@shared/api/runs'
+import type { CreateEvaluationBody, CreateRunBody, LandscapeDto, ParameterSetDto, RunDto, RunSummaryDto } from '@shared/api/runs'
 import type { VersionDto } from '@shared/api/models'
 import { api, request } from './client'
 
@@ -49,6 +49,7 @@ export const listRuns = (ws: string, pid?: number) =>
   api.get<{ runs: RunSummaryDto[] }>(pid ? `${w(ws)}/projects/${pid}/runs` : `${w(ws)}/runs`).then((r) => r.runs)
 export const getRun = (ws: string, rid: number) => api.get<RunDto>(`${w(ws)}/runs/${rid}`)
 export const startRun = (ws: string, pid: number, body: Partial<CreateRunBody>) => api.post<RunDto>(`${w(ws)}/projects/${pid}/runs`, body)
+export const startEvaluation = (ws: string, pid: number, body: Partial<CreateEvaluationBody>) => api.post<RunDto>(`${w(ws)}/projects/${pid}/evaluations`, body)
 export const cancelRun = (ws: string, rid: number) => api.post<RunDto>(`${w(ws)}/runs/${rid}/cancel`)
 export const deleteRun = (ws: string, rid: number) => api.delete(`${w(ws)}/runs/${rid}`)
 export const rerun = (ws: string, rid: number) => api.post<RunDto>(`${w(ws)}/runs/${rid}/rerun`)
