@@ -11,7 +11,7 @@ import { and, desc, eq, sql } from 'drizzle-orm'
 import type { Db } from '../db/client'
 import { bindings, datasets, models, modelVersions } from '../db/schema'
 import { badRequest, notFound } from '../errors'
-import { parseUnit, sameDims, formatDims } from '../../shared/sheet/units'
+import { conversionFor, normName as norm } from '../../shared/data/signal-columns'
 import type { BindingDto, BindingFollow, ColumnMapping, ColumnMeta, CreateBindingBody, MappingCheck, UpdateBindingBody } from '../../shared/api/datasets'
 import { getProjectRow } from './projects'
 import { columnsOf } from './datasets'
@@ -19,7 +19,6 @@ import { columnsOf } from './datasets'
 export interface SignalInfo { name: string; unit: string }
 export interface SheetSignals { inputs: SignalInfo[]; outputs: SignalInfo[] }
 
-const norm = (s: string) => s.toLowerCase().replace(/[\s_\-.]+/g, '')
 
 /** The inputs and outputs of a stored version (from its parsed summary). */
 export function signalsOf(summary: unknown): SheetSignals {
@@ -44,26 +43,7 @@ export function autoMatch(signals: SheetSignals, columns: string[], base?: Colum
   return { inputs, outputs }
 }
 
-export interface Conversion { scale: number; offset: number }
-
-/**
- * How a column's values become the sheet's internal (SI) values. `sheetUnit` is the sheet's declared unit.
- * Returns the conversion or a problem text.
- */
-export function conversionFor(sheetUnit: string, columnUnit: string): { conv: Conversion } | { problem: string } {
-  const su = sheetUnit.trim()
-  const cu = columnUnit.trim()
-  if (!su) return { conv: { scale: 1, offset: 0 } }
-  const s = parseUnit(su)
-  if (!s.ok) return { problem: `the sheet's unit '${su}' is not understood: ${s.message}` }
-  if (!cu) return { conv: { scale: s.unit.scale, offset: s.unit.offset } }
-  const c = parseUnit(cu)
-  if (!c.ok) return { problem: `the column's unit '${cu}' is not understood: ${c.message}` }
-  if (!sameDims(s.unit.dims, c.unit.dims)) {
-    return { problem: `the column's unit '${cu}' (${formatDims(c.unit.dims)}) does not convert to the sheet's unit '${su}' (${formatDims(s.unit.dims)})` }
-  }
-  return { conv: { scale: c.unit.scale, offset: c.unit.offset } }
-}
+export { conversionFor, type Conversion } from '../../shared/data/signal-columns'
 
 /** Checks a mapping against one dataset's columns: every bound column exists and its unit converts. */
 export function checkMapping(signals: SheetSignals, mapping: ColumnMapping, columns: ColumnMeta[] | null): MappingCheck[] {

@@ -1,3 +1,4 @@
+/// <reference lib="dom" />
 /** Saving a file the API sends as an attachment: fetched (so errors come back as ApiError), then handed to the browser. */
 import { ApiError } from './client'
 

@@ -9,7 +9,7 @@ import {
   bindingDto, columnMapping, datasetDataDto, datasetDto, datasetSummaryDto, mappingCheck,
   type BindingFollow, type ColumnMapping, type ConditioningStep, type DatasetPurpose, type UpdateBindingBody,
 } from '@shared/api/datasets'
-import { landscapeDto, parameterSetDto, runDto, runSummaryDto, type CreateRunBody } from '@shared/api/runs'
+import { landscapeDto, parameterSetDto, runDto, runSummaryDto, type CreateEvaluationBody, type CreateRunBody } from '@shared/api/runs'
 import { versionDto } from '@shared/api/models'
 import { downloadFrom } from './download'
 import { api, request } from './client'
@@ -71,6 +71,7 @@ export const getRun = (ws: string, rid: number) => api.get(`${w(ws)}/runs/${rid}
 /** 400 (field problems) is shown by the fit form beside its fields. */
 export const startRun = (ws: string, pid: number, body: Partial<CreateRunBody>) => api.post(`${w(ws)}/projects/${pid}/runs`, body, { schema: runDto, silent: [400] })
 export const cancelRun = (ws: string, rid: number) => api.post(`${w(ws)}/runs/${rid}/cancel`, undefined, { schema: runDto })
+export const startEvaluation = (ws: string, pid: number, body: Partial<CreateEvaluationBody>) => api.post(`${w(ws)}/projects/${pid}/evaluations`, body, { schema: runDto })
 export const deleteRun = (ws: string, rid: number) => api.delete(`${w(ws)}/runs/${rid}`)
 export const runEventsUrl = (ws: string, rid: number) => `${w(ws)}/runs/${rid}/events`
 export const exportUrl = (ws: string, rid: number, format: 'csv' | 'json') => `${w(ws)}/runs/${rid}/export?format=${format}`

@@ -1,3 +1,4 @@
+/// <reference lib="dom" />
 /**
  * Browser: the client's data layer, forms and fit progress. A missing run shows "not found" with a way
  * back, and moving from one run address to another reloads; the new-project form highlights the field

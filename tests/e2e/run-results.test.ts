@@ -2,8 +2,10 @@
  * Browser: the results of a finished run in Pewter's own look. The demo project's first fit (invented
  * plant, seeded synthetic data) is run, then its page shows each output inside its covariance band,
  * the verdict table of the residual checks with p-values, the cumulative periodogram, and the
- * correlation plots only on request, with lags in the sheet's time unit. Screenshots at 1440 and 390 px
- * go to test-artifacts/. Needs dist/ (`npx vite build`).
+ * correlation plots only on request, with lags in the sheet's time unit. Then the fit is evaluated on
+ * the record it never saw (nothing free), the two runs are compared with both simulations overlaid, and the
+ * run list shows the figure on unseen data beside the cost. Screenshots at 1440 and 390 px go to test-artifacts/.
+ * Needs dist/ (`npx vite build`).
  */
 import { afterAll, beforeAll, describe, expect, it } from 'vitest'
 import type { Page } from 'playwright-core'
@@ -75,4 +77,54 @@ describe('browser: run results', () => {
     await poll(() => page.getByTestId('verdict-table').count()).toBe(4)
     expect(errors).toEqual([])
   }, 240_000)
+
+  it('evaluates the fit on new data, compares the two runs and lists the unseen-data figure', async () => {
+    const page = await rig.newPage()
+    const errors: string[] = []
+    page.on('pageerror', (e) => errors.push(e.message))
+    await page.setViewportSize({ width: 1440, height: 900 })
+    await rig.signIn(page, demo.modeler)
+    await page.waitForURL(/\/w\/tinmoor\//)
+    await page.goto(`${rig.baseUrl}/w/tinmoor/runs/${runId}`)
+    await page.getByTestId('parameter-table').waitFor()
+    await page.getByTestId('evaluate').click().catch(async (e) => { await rig.screenshot(page, 'debug-evaluate'); throw e })
+    const dialog = page.getByTestId('evaluation-dialog')
+    // the record the fit never saw is suggested
+    await poll(() => dialog.locator('.el-select__selected-item').allTextContents()).toContain('b2-shift-validation')
+    await dialog.getByTestId('start-evaluation').click()
+    await page.waitForURL((u) => !u.pathname.endsWith(`/runs/${runId}`) && /\/runs\/\d+$/.test(u.pathname))
+    const evalId = Number(/\/runs\/(\d+)$/.exec(page.url())![1])
+    await page.getByTestId('evaluation-summary').waitFor({ timeout: 120_000 })
+    await expect(page.getByTestId('run-kind').textContent()).resolves.toBe('evaluation')
+    await expect(page.getByTestId('evaluation-summary').textContent()).resolves.toMatch(/values from B2 first calibration \(demo\).*initial states estimated/)
+    await poll(() => page.getByTestId('verdict-table').count()).toBe(2)
+    await expect(page.getByTestId('evaluation-values').textContent()).resolves.toMatch(/Cv.*the fit/)
+    await rig.screenshot(page, 'run-evaluation-1440')
+    await page.setViewportSize({ width: 390, height: 844 })
+    await page.waitForTimeout(300)
+    expect(await overflowing(page)).toEqual([])
+    await rig.screenshot(page, 'run-evaluation-390')
+
+    // the runs list: the evaluation figure beside the cost
+    await page.setViewportSize({ width: 1440, height: 900 })
+    await page.goto(`${rig.baseUrl}/w/tinmoor/runs`)
+    await poll(() => page.getByTestId('validation-figure').count()).toBeGreaterThanOrEqual(2)
+    await expect(page.getByTestId('validation-figure').allTextContents()).resolves.toEqual(expect.arrayContaining([expect.stringMatching(/evaluation NRMSE \d/), expect.stringMatching(/validation NRMSE \d/)]))
+
+    // compare: which versions, the settings that differ, both simulations over the measurements
+    await page.goto(`${rig.baseUrl}/w/tinmoor/runs/compare?a=${runId}&b=${evalId}`)
+    await poll(() => page.getByTestId('compare-versions').textContent()).toMatch(/Both ran Heated buffer vessel version 1/)
+    await expect(page.locator('[data-testid="compare-settings"] tr[data-differs="true"] th').allTextContents()).resolves.toEqual(expect.arrayContaining(['Kind', 'Estimation records']))
+    // level and temp on the estimation record (fit only) and on the validation record (both runs)
+    await poll(() => page.locator('figure[aria-label^="overlay "] .js-plotly-plot').count()).toBe(4)
+    await poll(() => page.locator('figure[aria-label="overlay level · b2-shift-validation"] .scatterlayer .trace').count()).toBe(3)
+    await rig.screenshot(page, 'run-compare-1440')
+    expect(await overflowing(page)).toEqual([])
+    await page.setViewportSize({ width: 390, height: 844 })
+    await page.waitForTimeout(300)
+    expect(await overflowing(page)).toEqual([])
+    await rig.screenshot(page, 'run-compare-390')
+
+    expect(errors).toEqual([])
+  }, 300_000)
 })
