@@ -1,12 +1,11 @@
 /**
- * Browser: handing a finished run on. The run page offers the calibrated sheet as a download; the
+ * Browser: handing a finished run on. The run page offers the calibrated sheet; the
  * printable report shows the residual checks and no legend lies over a plot or an axis title; a saved
  * parameter set fills the starts of a new fit and the values of the model's quick simulation.
  * The run is fitted beforehand over the API on seeded synthetic traces of the heated buffer vessel
  * template (invented constants). Needs dist/ (`npx vite build`).
  */
 import { afterAll, beforeAll, describe, expect, it } from 'vitest'
-import { readFileSync } from 'node:fs'
 import request from 'supertest'
 import { startBrowserRig, type BrowserRig } from '../helpers/browser'
 import { CSRF, demo } from '../helpers/app'
@@ -54,19 +53,15 @@ beforeAll(async () => {
 afterAll(async () => { await rig?.close() })
 
 describe('browser: handing a run on', () => {
-  it('downloads the calibrated sheet, reports residual checks without overlapping legends, applies a saved set', async () => {
+  it('offers the calibrated sheet, reports residual checks without overlapping legends, applies a saved set', async () => {
     const page = await rig.newPage()
     await rig.signIn(page, demo.modeler)
     await page.waitForURL(/\/w\/tinmoor\//)
 
-    // run page: the calibrated sheet carries the estimate in its param line
+    // run page: the calibrated sheet is offered (its contents: tests/api/run-exports.test.ts)
+    await page.waitForLoadState('networkidle')
     await page.goto(`${rig.baseUrl}/w/tinmoor/runs/${rid}`)
-    const [download] = await Promise.all([page.waitForEvent('download'), page.getByTestId('calibrated-sheet').click()])
-    expect(download.suggestedFilename()).toBe(`heated-buffer-vessel-v${tv.number}-run${rid}.sheet`)
-    const text = readFileSync((await download.path())!, 'utf8')
-    expect(text).toMatch(new RegExp(`^# Calibrated sheet: "Heated buffer vessel" version ${tv.number} with the estimates of Pewter fit run #${rid}`))
-    const line = text.split('\n').find((l) => /^\s*param\s+Cv\s*=/.test(l))!
-    expect(Number(/=\s*([^\s[#]+)/.exec(line)![1])).toBeCloseTo(Number(cv.toPrecision(8)), 12)
+    await page.getByTestId('calibrated-sheet').waitFor({ state: 'visible', timeout: 60_000 })
 
     // report: residual checks present; every legend clear of the plotting area and the axis titles
     await page.goto(`${rig.baseUrl}/w/tinmoor/runs/${rid}/report`)
