@@ -38,7 +38,7 @@ async function signedIn(): Promise<Page> {
 }
 
 /** Client-side navigation (the router reuses the view, as a link between two runs would). */
-const navigate = (page: Page, path: string) => page.evaluate((p) => { history.pushState({}, '', p); dispatchEvent(new PopStateEvent('popstate')) }, path)
+const navigate = (page: Page, path: string) => page.evaluate(`history.pushState({}, '', ${JSON.stringify(path)}); dispatchEvent(new PopStateEvent('popstate'))`)
 
 describe('browser: data layer, forms, progress', () => {
   it('shows a missing run as not found with a way back, and reloads when the run address changes', async () => {
