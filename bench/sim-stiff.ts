@@ -6,14 +6,12 @@
  * the error: max over output times and components of |y − ref| / (|ref| + atol).
  * The references come from the engine's RODAS4 at rtol 1e-13, restarted from t0 for every output
  * time (so no interpolation enters them); the stiff tests check that method against scipy Radau.
- * Then the cost of sensitivities on the stiff path and auto's switch (bench/sim-sens.ts).
  */
 import { spawnSync } from 'node:child_process'
 import { readFileSync } from 'node:fs'
 import { simulate, type SolverName, type SimulationRequest } from '../shared/engine'
 import { compileModel } from '../shared/sheet'
 import type { CompiledModel } from '../shared/sheet/compiled'
-import { autoSwitch, sensitivityCost } from './sim-sens'
 
 export interface StiffProblem {
   name: string
@@ -106,7 +104,8 @@ print(json.dumps(out))
 const pad = (s: string, n: number) => (s.length >= n ? s : s + ' '.repeat(n - s.length))
 const lpad = (s: string, n: number) => (s.length >= n ? s : ' '.repeat(n - s.length) + s)
 
-export function stiffWorkPrecision(): void {
+/** Prints the table; returns scipy's rows (or why they are missing) for the sensitivity figures. */
+export function stiffWorkPrecision(): Map<string, PyRow> | string {
   console.log('\nWork–precision on the stiff path (error = max |y − ref| / (|ref| + atol) over outputs and components)')
   const py = scipyRows()
   if (typeof py === 'string') console.log(`(${py})`)
@@ -135,8 +134,7 @@ export function stiffWorkPrecision(): void {
       }
     }
   }
-  sensitivityCost(py)
-  autoSwitch()
+  return py
 }
 
 /** Python's repr of a float as used in the result keys (1e-05, 0.0001, 1e-10) */

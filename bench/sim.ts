@@ -14,7 +14,7 @@ import { cpus, loadavg } from 'node:os'
 import { simulate, type SolverName } from '../shared/engine'
 import type { CompiledModel, VecFn } from '../shared/sheet/compiled'
 import { stiffWorkPrecision } from './sim-stiff'
-import { sensitivityBench } from './sim-sens'
+import { autoSwitch, sensitivityBench, sensitivityCost } from './sim-sens'
 
 interface Problem {
   name: string
@@ -221,4 +221,6 @@ if (ratios.length) {
   console.log(`\nscipy/ours time ratio: min ${Math.min(...ratios).toFixed(1)}×, median ${median(ratios).toFixed(1)}×, max ${Math.max(...ratios).toFixed(1)}× over ${ratios.length} pairs (> 1: Pewter faster)`)
 }
 
-stiffWorkPrecision()
+const scipyStiff = stiffWorkPrecision()
+sensitivityCost(scipyStiff)
+autoSwitch()

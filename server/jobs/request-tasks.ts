@@ -16,7 +16,7 @@ import { conditionDataset, uploadDataset } from '../services/datasets'
 import type { ConditionBody, DatasetDto, DatasetPurpose } from '../../shared/api/datasets'
 import type { ExportBody, HandoverBody, LinearAnalysis } from '../../shared/api/handover'
 import type { ExportFile } from '../../shared/export'
-import { exportLoaded, linearizeLoaded, type HandoverInput } from '../services/handover'
+import { exportLoaded, linearizeLoaded, type HandoverInput } from '../services/handover-analysis'
 
 export type RequestOutcome<T> = { ok: true; value: T } | { ok: false; status: number; code: string; message: string; details?: unknown }
 
