@@ -61,7 +61,7 @@ export function checkUnits(m: ParsedModel, diags: DiagnosticList): void {
   for (const ev of m.events) {
     ctx.line = ev.span.line
     const s: Cols | undefined = ev.lhs.s && ev.rhs.s ? [ev.lhs.s[0], ev.rhs.s[1]] : undefined
-    like(unitOf(ev.lhs, ctx), unitOf(ev.rhs, ctx), ev.lhs, ev.rhs, `the event condition '${ev.text}' compares values`, ctx, s)
+    like(unitOf(ev.lhs, ctx), unitOf(ev.rhs, ctx), ev.lhs, ev.rhs, `the event condition '${ev.text}' compares values of`, ctx, s)
     for (const r of ev.resets) {
       if (r.target !== 'state') continue
       const st = m.states[r.index]

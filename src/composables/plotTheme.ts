@@ -21,6 +21,21 @@ export interface PlotTheme {
 
 export const PLOT_SERIES_COUNT = 6
 
+/** A theme colour (#rrggbb, #rgb or rgb(r g b) / rgb(r, g, b)) at the given opacity, as rgba(). */
+export function translucent(colour: string, alpha: number): string {
+  const c = colour.trim()
+  let rgb: number[] | null = null
+  const hex = /^#([0-9a-f]{3}|[0-9a-f]{6})$/i.exec(c)
+  if (hex) {
+    const h = hex[1].length === 3 ? hex[1].split('').map((d) => d + d).join('') : hex[1]
+    rgb = [0, 2, 4].map((k) => parseInt(h.slice(k, k + 2), 16))
+  } else {
+    const m = /^rgba?\(\s*([\d.]+)[\s,]+([\d.]+)[\s,]+([\d.]+)/i.exec(c)
+    if (m) rgb = [m[1], m[2], m[3]].map(Number)
+  }
+  return rgb ? `rgba(${rgb.join(',')},${alpha})` : c
+}
+
 export function readPlotTheme(cssVar: (name: string) => string): PlotTheme {
   const v = (name: string) => cssVar(name).trim()
   return {

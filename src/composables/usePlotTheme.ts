@@ -3,7 +3,7 @@
  * The one plot theme: every chart's colours come from the CSS variables of assets/main.css, read once
  * from the page (plotTheme.ts holds the pure part), so no component repeats a colour.
  */
-import { baseLayout, readPlotTheme, type PlotTheme } from './plotTheme'
+import { baseLayout, readPlotTheme, translucent, type PlotTheme } from './plotTheme'
 
 let cached: PlotTheme | null = null
 
@@ -22,5 +22,7 @@ export function usePlotTheme() {
     /** the colour of series `i` (cycling through the palette) */
     series: (i: number) => t.palette[((i % t.palette.length) + t.palette.length) % t.palette.length],
     baseLayout: (height: number) => baseLayout(t, height),
+    /** a colour at the given opacity (bands, shaded areas) */
+    translucent,
   }
 }

@@ -237,8 +237,8 @@ describe('cancel', () => {
   }
 
   it('stops a running fit: its worker ends it cancelled; before any start finished nothing is kept', async () => {
-    // many starts on the same data keep the fit busy for many seconds
-    const r = await modeler.post(`${WS}/projects/${pid}/runs`).set(CSRF).send({ ...baseRun(), starts: 40, weighting: 'sheet' })
+    // many starts on the same data keep the fit busy for many seconds (it is cancelled long before the end)
+    const r = await modeler.post(`${WS}/projects/${pid}/runs`).set(CSRF).send({ ...baseRun(), starts: 64, weighting: 'sheet' })
     expect(r.status).toBe(201)
     const rid = r.body.id
     // under way in the first start: an iteration reported, with the live estimates of the free parameters

@@ -179,7 +179,7 @@ describe('browser: the model library', () => {
     await page.locator('.el-dialog:visible textarea').fill('Checked the level equation.')
     await page.locator('.el-dialog:visible').getByRole('button', { name: 'Approve', exact: true }).click()
     await poll(() => page.getByText('Version 2 approved.').count()).toBeGreaterThan(0)
-    await poll(() => page.locator('.version-history [data-version="2"] [data-test="review-history"]').textContent()).toMatch(/Rook Ashby.* approved.*Checked the level equation\./s)
+    await poll(() => page.locator('.version-history [data-version="2"] [data-testid="review-history"]').textContent()).toMatch(/Rook Ashby.* approved.*Checked the level equation\./s)
     await poll(() => page.locator('.version-history [data-version="2"]').textContent()).toMatch(/approved.*Approved by Rook Ashby/s)
     const id = Number(/\/library\/(\d+)$/.exec(modelUrl)![1])
     const v = await rig.context.database.pool.query('select status from model_versions where model_id = $1 and number = 2', [id])
