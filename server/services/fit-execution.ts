@@ -368,6 +368,11 @@ export async function executeRun(db: Db, runId: number, opts: ExecuteOptions = {
       })
     }
     const { model, est, val, versionText } = await loadRunInputs(db, row)
+    // a cancel may reach the fit through its thread (the pool's abort) before the poll sees the row's flag
+    const byRequest = async () => {
+      if (!cancelled) cancelled = await db.select({ c: runs.cancelRequested }).from(runs).where(eq(runs.id, runId)).then((r) => r[0]?.c === true, () => false)
+      return cancelled
+    }
     const spec = problemSpec(model, settings, est, val)
     // built once without the abort signal: its names pick the landscape, then it simulates the traces
     const probe = makeProblem(model, spec, simulate, fitOptions(settings))
@@ -408,7 +413,7 @@ export async function executeRun(db: Db, runId: number, opts: ExecuteOptions = {
       // cancelled after some starts finished: their best is kept on the cancelled run, with its traces
       const { finishedStarts, plannedStarts } = result.stoppedEarly
       const traces = tracesOf(result)
-      const why = cancelled ? 'Cancelled by request' : 'Stopped'
+      const why = (await byRequest()) ? 'Cancelled by request' : 'Stopped'
       return await finish('cancelled', {
         outcome: result.status, convergedBy: result.convergedBy,
         result: { ...result, traces } as unknown as Record<string, unknown>,
@@ -417,7 +422,8 @@ export async function executeRun(db: Db, runId: number, opts: ExecuteOptions = {
       })
     }
     if (cancelled || controller.signal.aborted || result.status === 'aborted') {
-      return await finish('cancelled', { error: cancelled ? 'Cancelled by request.' : 'Stopped: the fit was aborted.', progress: progress(0, best === Infinity ? null : best, 0, 'cancelled', 0) })
+      const error = `${(await byRequest()) ? 'Cancelled by request' : 'Stopped'} before any start had finished with an estimate: there is no result to keep.`
+      return await finish('cancelled', { error, progress: progress(0, best === Infinity ? null : best, 0, 'cancelled', 0) })
     }
     const outcome = { outcome: result.status, convergedBy: result.convergedBy }
     if (result.status === 'failed') {

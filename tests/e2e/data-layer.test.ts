@@ -108,7 +108,7 @@ describe('browser: data layer, forms, progress', () => {
     await page.getByTestId('cancel-run').click()
     await page.locator('.el-message-box').getByText(/The best result of the starts that have finished is kept/).waitFor()
     await page.getByRole('button', { name: 'Stop the fit' }).click()
-    await poll(() => page.getByTestId('run-cancelled').textContent(), 60_000).toMatch(/after \d+ of 64 starts: the result shown is the best of the finished starts/)
+    await poll(() => page.getByTestId('run-cancelled').textContent(), 60_000).toMatch(/^Cancelled by request after \d+ of 64 starts: the result shown is the best of the finished starts/)
     await page.getByTestId('parameter-table').waitFor()
     // the kept result's plots are drawn before the page is photographed
     await poll(() => page.locator('[data-testid="plot"] .main-svg').count(), 60_000).toBeGreaterThan(0)

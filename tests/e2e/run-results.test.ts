@@ -67,8 +67,8 @@ describe('browser: run results', () => {
     expect(await overflowing(page)).toEqual([])
 
     await page.setViewportSize({ width: 390, height: 844 })
-    await page.waitForTimeout(400)
-    expect(await overflowing(page)).toEqual([])
+    // the tables lay themselves out again after the resize (Element Plus observes their width)
+    await poll(() => overflowing(page)).toEqual([])
     await rig.screenshot(page, 'run-results-390')
 
     // the printable report carries the verdict tables too
@@ -101,8 +101,7 @@ describe('browser: run results', () => {
     await expect(page.getByTestId('evaluation-values').textContent()).resolves.toMatch(/Cv.*the fit/)
     await rig.screenshot(page, 'run-evaluation-1440')
     await page.setViewportSize({ width: 390, height: 844 })
-    await page.waitForTimeout(300)
-    expect(await overflowing(page)).toEqual([])
+    await poll(() => overflowing(page)).toEqual([])
     await rig.screenshot(page, 'run-evaluation-390')
 
     // the runs list: the evaluation figure beside the cost
@@ -121,8 +120,7 @@ describe('browser: run results', () => {
     await rig.screenshot(page, 'run-compare-1440')
     expect(await overflowing(page)).toEqual([])
     await page.setViewportSize({ width: 390, height: 844 })
-    await page.waitForTimeout(300)
-    expect(await overflowing(page)).toEqual([])
+    await poll(() => overflowing(page)).toEqual([])
     await rig.screenshot(page, 'run-compare-390')
 
     expect(errors).toEqual([])

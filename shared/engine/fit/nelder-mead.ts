@@ -1,17 +1,15 @@
 /**
  * Derivative-free fit for sheets that are not smooth: the simplex method of J. A. Nelder & R. Mead,
- * "A simplex method for function minimization", The Computer Journal 7 (1965) 308–313, as implemented
- * by the fmin package, run on the unconstrained coordinates w of transform.ts (θ = lo + (hi − lo)·sin² w,
- * Box 1966), so every trial point lies within the bounds.
+ * "A simplex method for function minimization", The Computer Journal 7 (1965) 308–313 (simplex.ts),
+ * run on the unconstrained coordinates w of transform.ts (θ = lo + (hi − lo)·sin² w, Box 1966), so
+ * every trial point lies within the bounds.
  *
- * fmin's own test stops when the simplex's cost spread is below minErrorDelta (we pass ftol·C₀) and
- * its vertex spread below the same number: reported as 'converged' by the cost-change test. fmin runs
- * at most maxIterations simplex iterations and says nothing about why it returned, so we count its
- * iterations (through its `history` hook) and check its test on the last simplex: not met means
- * 'iteration-limit'. The evaluation limit (2·maxIterations), the time budget ('time-budget') and the
- * abort signal are thrown out of the cost function and caught here.
+ * The simplex stops when its cost spread is below ftol·C₀ and its two best vertices are closer than the
+ * same number: reported as 'converged' by the cost-change test; otherwise at most maxIterations simplex
+ * iterations ('iteration-limit'). The evaluation limit (2·maxIterations), the time budget
+ * ('time-budget') and the abort signal are thrown out of the cost function and caught here.
  */
-import { nelderMead } from 'fmin/index.js'
+import { simplexMinimise } from './simplex'
 import { BoxTransform } from './transform'
 import { FitAborted, FitTimeout, sumSquares, type LsqProblem, type OptimiseOptions, type OptimiseResult } from './lsq'
 
@@ -27,7 +25,7 @@ export function nelderMeadFit(prob: LsqProblem, theta0: ArrayLike<number>, opts:
   let evaluations = 0
   const costHistory: number[] = []
   const maxEval = (opts.maxIterations ?? 400 * n) * 2
-  const cost = (w: number[]): number => {
+  const cost = (w: Float64Array): number => {
     if (opts.signal?.aborted) throw new FitAborted()
     if (opts.deadline !== undefined && Date.now() > opts.deadline) throw new BudgetExhausted()
     if (evaluations >= maxEval) throw new BudgetExhausted()
@@ -58,15 +56,15 @@ export function nelderMeadFit(prob: LsqProblem, theta0: ArrayLike<number>, opts:
   const ftol = opts.ftol ?? 1e-10
   const maxIterations = opts.maxIterations ?? 400 * n
   const minErrorDelta = Math.max(ftol * c0, 1e-300)
-  // fmin pushes a copy of the simplex at the top of every iteration: count them, keep the last
-  let simplexIterations = 0
-  let last: { simplex: (number[] & { fx: number })[] } | null = null
-  const history = { push(entry: { simplex: (number[] & { fx: number })[] }) { simplexIterations++; last = entry } }
+  let iterations = 0
   const result = (status: OptimiseResult['status'], reason: string, convergedBy: OptimiseResult['convergedBy'] = null): OptimiseResult => ({
-    theta: best, cost: bestCost, status, convergedBy, reason, iterations: simplexIterations, evaluations, costHistory,
+    theta: best, cost: bestCost, status, convergedBy, reason, iterations, evaluations, costHistory,
   })
+  let converged: boolean
   try {
-    nelderMead(cost, w0, { maxIterations, minErrorDelta, nonZeroDelta: 1.1, history: history as unknown as unknown[] })
+    const run = simplexMinimise(cost, w0, { maxIterations, tolerance: minErrorDelta, nonZeroDelta: 1.1, onIteration: (k) => { iterations = k } })
+    iterations = run.iterations
+    converged = run.converged
   } catch (e) {
     if (e instanceof FitAborted) return result('aborted', 'aborted by the caller')
     if (e instanceof BudgetExhausted || e instanceof FitTimeout) {
@@ -76,17 +74,6 @@ export function nelderMeadFit(prob: LsqProblem, theta0: ArrayLike<number>, opts:
     }
     throw e
   }
-  if (simplexIterations < maxIterations || (last !== null && simplexTestMet(last, minErrorDelta))) {
-    return result('converged', 'simplex cost spread below ftol·C₀', 'cost-change')
-  }
+  if (converged) return result('converged', 'simplex cost spread below ftol·C₀', 'cost-change')
   return result('iteration-limit', `iteration limit (${maxIterations}) reached before the simplex test passed`)
-}
-
-/** fmin's own test on a simplex: cost spread and first-to-second vertex spread below minErrorDelta. */
-function simplexTestMet(entry: { simplex: (number[] & { fx: number })[] }, minErrorDelta: number): boolean {
-  const sorted = [...entry.simplex].sort((a, b) => a.fx - b.fx)
-  const nv = sorted.length - 1
-  let maxDiff = 0
-  for (let i = 0; i < nv; i++) maxDiff = Math.max(maxDiff, Math.abs(sorted[0][i] - sorted[1][i]))
-  return Math.abs(sorted[0].fx - sorted[nv].fx) < minErrorDelta && maxDiff < minErrorDelta
 }
