@@ -8,6 +8,7 @@ import { compileModel, type ResolvePart, SheetError } from '../../shared/sheet'
 import type { CompiledModel } from '../../shared/sheet'
 import { runFit, FitInputError, type FitOptions, type ProblemSpec, type ExperimentData } from '../../shared/engine/fit'
 import { parseCsv, CsvError } from '../../shared/data/csv'
+import { splitNotes } from '../../shared/data/csv-notes'
 import { experimentFromTable } from '../../shared/data/experiment'
 import { describeOutcome, type FitResult, type EstimateRow } from '../../shared/api/fit'
 import { ArgError, folderLibrary, splitOption } from './args'
@@ -238,7 +239,9 @@ export async function run(argv: string[]): Promise<number> {
   try {
     const used = new Map<string, number>()
     const load = (file: string): ExperimentData => {
-      const table = parseCsv(texts.get(file)!, { file, strict: false })
+      // leading `# …` comment lines (notes) are skipped as an upload skips them; rows keep the file's numbers
+      const { text, skippedLines } = splitNotes(texts.get(file)!)
+      const table = parseCsv(text, { file, strict: false, rowOffset: skippedLines })
       const base = basename(file)
       const k = (used.get(base) ?? 0) + 1
       used.set(base, k)

@@ -18,6 +18,7 @@ import { simulate } from '../../shared/engine/simulate'
 import { SimulationError } from '../../shared/engine/errors'
 import type { InputTrace, SimulationRequest, SolverName } from '../../shared/engine/simulate-contract'
 import { CsvError, parseCsv } from '../../shared/data/csv'
+import { splitNotes } from '../../shared/data/csv-notes'
 import { unitConversion } from '../../shared/data/units'
 import { ArgError, folderLibrary, splitOption } from './args'
 
@@ -144,7 +145,8 @@ async function readInputs(file: string, model: CompiledModel, warnings: string[]
   }
   let table
   try {
-    table = parseCsv(text, { file })
+    const body = splitNotes(text)
+    table = parseCsv(body.text, { file, rowOffset: body.skippedLines })
   } catch (e) {
     if (e instanceof CsvError) throw new ArgError(e.message)
     throw e

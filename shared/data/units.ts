@@ -1,35 +1,33 @@
 /**
- * Unit conversion of measured columns with mathjs's unit system (mathjs.org, "Units"): every conversion
- * between two units is affine, v_to = a·v_from + b (b ≠ 0 only for offset units such as degC, which
- * are converted as absolute temperatures), so we ask mathjs twice and apply a and b in the loop.
+ * Unit conversion of measured columns: every conversion between two units is affine,
+ * v_to = a·v_from + b (b ≠ 0 only for offset units such as degC, converted as absolute temperatures).
+ * Both units are read by the sheet's own unit parser (shared/sheet/units.ts: mathjs units plus `%`, `1`
+ * and `-`), so a trace file converts the same way in the command line as in an upload's binding.
  */
-import { unit as mathUnit } from '../mathjs-lite'
+import { formatDims, parseUnit, sameDims } from '../sheet/units'
 
 export interface Affine {
   a: number
   b: number
 }
 
-const SAFE = /^[A-Za-z0-9_ .*/^()\-%]+$/
-
 /** The affine map from one unit to another, or a message saying why it does not exist. */
 export function unitConversion(from: string, to: string): { ok: true; map: Affine } | { ok: false; message: string } {
   const f = from.trim()
   const t = to.trim()
   if (f === t) return { ok: true, map: { a: 1, b: 0 } }
-  if (!SAFE.test(f)) return { ok: false, message: `unknown unit '${f}'` }
-  if (!SAFE.test(t)) return { ok: false, message: `unknown unit '${t}'` }
-  try {
-    const conv = (v: number) => (mathUnit(v, f) as unknown as { toNumber(u: string): number }).toNumber(t)
-    const b = conv(0)
-    const a = conv(1) - b
-    if (!Number.isFinite(a) || !Number.isFinite(b) || a === 0) return { ok: false, message: `cannot convert '${f}' to '${t}'` }
-    return { ok: true, map: { a, b } }
-  } catch (e) {
-    const msg = e instanceof Error ? e.message : String(e)
-    if (/not found|unit/i.test(msg) && /not found/i.test(msg)) return { ok: false, message: `unknown unit '${/"(.+?)"/.exec(msg)?.[1] ?? f}'` }
-    return { ok: false, message: `cannot convert '${f}' to '${t}' (${msg})` }
+  const pf = parseUnit(f)
+  if (!pf.ok) return { ok: false, message: pf.message }
+  const pt = parseUnit(t)
+  if (!pt.ok) return { ok: false, message: pt.message }
+  if (!sameDims(pf.unit.dims, pt.unit.dims)) {
+    return { ok: false, message: `cannot convert '${f}' (${formatDims(pf.unit.dims)}) to '${t}' (${formatDims(pt.unit.dims)})` }
   }
+  // SI value = scale·v + offset on both sides
+  const a = pf.unit.scale / pt.unit.scale
+  const b = (pf.unit.offset - pt.unit.offset) / pt.unit.scale
+  if (!Number.isFinite(a) || !Number.isFinite(b) || a === 0) return { ok: false, message: `cannot convert '${f}' to '${t}'` }
+  return { ok: true, map: { a, b } }
 }
 
 /** Seconds in one of the given time unit, or null when it is not a unit of time. */

@@ -2,6 +2,8 @@
 import { afterAll, beforeAll, describe, expect, it } from 'vitest'
 import { execFile } from 'node:child_process'
 import { mkdtemp, rm, writeFile } from 'node:fs/promises'
+import { readFileSync } from 'node:fs'
+import { bufferVesselCsv } from '../../server/services/demo-project'
 import { tmpdir } from 'node:os'
 import { join } from 'node:path'
 import { fitResult } from '../../shared/api/fit'
@@ -167,5 +169,26 @@ describe('pewter fit', () => {
     const b = await pewterHere(['misra.sheet', 'notime.csv'])
     expect(b.code).toBe(1)
     expect(b.stderr).toMatch(/notime.csv, row 2, column 'label': no time column/)
+  })
+
+  it('reads a trace file as an upload does: leading # notes skipped, % columns converted, rows counted in the file', async () => {
+    // the demo generator's file (invented, seeded synthetic data): two comment lines, units in the header, opening in %
+    const sheet = readFileSync(join(process.cwd(), 'models/heated-buffer-vessel.sheet'), 'utf8')
+    const csv = bufferVesselCsv(sheet, { seed: 3, samples: 61, label: 'cli' })
+    expect(csv.startsWith('# ')).toBe(true)
+    expect(csv).toMatch(/opening \[%\]/)
+    await writeFile(join(dir, 'b2.sheet'), sheet)
+    await writeFile(join(dir, 'b2.csv'), csv)
+    const ok = await pewterHere(['b2.sheet', 'b2.csv', '--max-iterations', '3'])
+    expect(ok.stderr).not.toMatch(/row|cannot convert/)
+    expect(ok.stdout).toMatch(/^fit (converged|stopped at the iteration limit)/)
+    // a bad value is reported at its row in the file, comment lines counted
+    const lines = csv.split('\n')
+    const header = lines.findIndex((l) => l.startsWith('time'))
+    lines[header + 3] = lines[header + 3].replace(/^[^,]+,[^,]+/, (m) => m.replace(/,.*/, ',lots'))
+    await writeFile(join(dir, 'b2-bad.csv'), lines.join('\n'))
+    const bad = await pewterHere(['b2.sheet', 'b2-bad.csv'])
+    expect(bad.code).toBe(1)
+    expect(bad.stderr).toMatch(new RegExp(`b2-bad.csv, row ${header + 4}, column 'q_in': 'lots' is not a number`))
   })
 })

@@ -28,6 +28,7 @@ import { sumSquares } from './lsq'
 import { linearisedCovariance } from '../stats/covariance'
 import { analyseIdentifiability } from '../stats/identifiability'
 import { estimateValidationStates } from './validation-start'
+import { intervalBoundWarnings } from './interval-checks'
 import { fitMetrics, aic, bic } from '../stats/metrics'
 import { autocorrelation, crossCorrelation, independenceTest, ljungBox, maxLagFor, medianStep, whiteBand } from '../stats/residuals'
 import { cumulativePeriodogram } from '../stats/whiteness'
@@ -203,6 +204,7 @@ export async function buildResult(a: BuildArgs): Promise<FitResult> {
   const parameters: EstimateRow[] = []
   const initialStates: EstimateRow[] = []
   for (let q = 0; q < n; q++) (prob.quantities[q].kind === 'param' ? parameters : initialStates).push(row(q))
+  warnings.push(...intervalBoundWarnings([...parameters, ...initialStates].filter((r) => !r.profileCi95)))
 
   // --- per output and experiment
   const outputs: OutputRow[] = []
