@@ -7,7 +7,7 @@ import { readFile } from 'node:fs/promises'
 import { basename } from 'node:path'
 import { compileModel, parseModel, SheetError, type CompiledModel, type ParsedModel } from '../../shared/sheet/index'
 import { fitResult, type FitResult } from '../../shared/api/fit'
-import { ArgError, splitOption } from './args'
+import { ArgError, namedNumberArg, numberArg, oneSheetFile, textArg, walkArgs } from './args'
 
 export interface HandoverArgs {
   sheet: string
@@ -21,75 +21,50 @@ export interface HandoverArgs {
   out: string | null
 }
 
-function num(flag: string, s: string | undefined): number {
-  if (s === undefined || s.trim() === '' || s.startsWith('--')) throw new ArgError(`${flag} needs a number`)
-  const v = Number(s)
-  if (!Number.isFinite(v)) throw new ArgError(`${flag}: '${s}' is not a number`)
-  return v
-}
-
-function pair(flag: string, s: string | undefined): [string, number] {
-  const m = s ? /^([A-Za-z_][A-Za-z0-9_]*)=(.+)$/.exec(s) : null
-  if (!m) throw new ArgError(`${flag} needs name=value, got '${s ?? ''}'`)
-  return [m[1], num(`${flag} ${m[1]}`, m[2])]
-}
-
 export function parseHandoverArgs(args: string[], withExport: boolean): HandoverArgs {
   const o: HandoverArgs = { sheet: '', set: {}, inputs: {}, at: 'steady', fit: null, json: false, frequencies: 50, format: null, out: null }
-  const files: string[] = []
   let atGiven = ''
-  for (let i = 0; i < args.length; i++) {
-    const a = args[i]
-    const { flag, inline } = splitOption(a)
-    const next = (): string | undefined => (inline !== undefined ? inline : args[++i])
+  const files = walkArgs(args, (flag, next, a) => {
     switch (flag) {
-      case '--': break
-      case '--set': { const [k, v] = pair('--set', next()); o.set[k] = v; break }
-      case '--input': { const [k, v] = pair('--input', next()); o.inputs[k] = v; break }
+      case '--set': { const [k, v] = namedNumberArg('--set', next()); o.set[k] = v; return true }
+      case '--input': { const [k, v] = namedNumberArg('--input', next()); o.inputs[k] = v; return true }
       case '--at-steady':
         if (atGiven === '--t') throw new ArgError('give either --at-steady or --t, not both')
         atGiven = flag
         o.at = 'steady'
-        break
+        return true
       case '--t': {
         if (atGiven === '--at-steady') throw new ArgError('give either --at-steady or --t, not both')
         atGiven = flag
-        const t = num('--t', next())
+        const t = numberArg('--t', next())
         if (t < 0) throw new ArgError(`--t must be >= 0, got ${t}`)
         o.at = t
-        break
+        return true
       }
-      case '--fit': {
-        const s = next()
-        if (!s || s.startsWith('--')) throw new ArgError('--fit needs the JSON file written by `pewter fit --json`')
-        o.fit = s
-        break
-      }
+      case '--fit': o.fit = textArg('--fit', next(), 'the JSON file written by `pewter fit --json`'); return true
       case '--frequencies': {
-        const n = num('--frequencies', next())
+        const n = numberArg('--frequencies', next())
         if (!Number.isInteger(n) || n < 0 || n > 2000) throw new ArgError(`--frequencies must be an integer in 0..2000, got ${n}`)
         o.frequencies = n
-        break
+        return true
       }
       case '--json':
         if (withExport) throw new ArgError(`unknown option '${a}'`)
         o.json = true
-        break
+        return true
       case '--format':
         if (!withExport) throw new ArgError(`unknown option '${a}'`)
         o.format = next() ?? null
-        break
+        return true
       case '--out':
         if (!withExport) throw new ArgError(`unknown option '${a}'`)
         o.out = next() ?? null
-        break
+        return true
       default:
-        if (a.startsWith('-')) throw new ArgError(`unknown option '${a}'`)
-        files.push(a)
+        return false
     }
-  }
-  if (files.length !== 1) throw new ArgError(files.length === 0 ? 'no sheet file given' : `expected one sheet file, got ${files.length}`)
-  o.sheet = files[0]
+  })
+  o.sheet = oneSheetFile(files)
   return o
 }
 

@@ -20,7 +20,7 @@ import type { InputTrace, SimulationRequest, SolverName } from '../../shared/eng
 import { CsvError, parseCsv } from '../../shared/data/csv'
 import { splitNotes } from '../../shared/data/csv-notes'
 import { unitConversion } from '../../shared/data/units'
-import { ArgError, folderLibrary, splitOption } from './args'
+import { ArgError, folderLibrary, namedNumberArg, numberArg, oneSheetFile, textArg, walkArgs } from './args'
 
 interface Options {
   sheet: string
@@ -39,73 +39,46 @@ interface Options {
   library: ResolvePart | null
 }
 
-function num(flag: string, s: string | undefined): number {
-  if (s === undefined || s.trim() === '' || s.startsWith('--')) throw new ArgError(`${flag} needs a number`)
-  const v = Number(s)
-  if (!Number.isFinite(v)) throw new ArgError(`${flag}: '${s}' is not a number`)
-  return v
-}
+/** --set's name=value: the name may hold '.', '[' and ']' besides an identifier's characters. */
+const SET_NAME = /^([A-Za-z_][A-Za-z0-9_.[\]]*)=(.+)$/
 
 export function parseArgs(args: string[]): Options {
   const o: Partial<Options> & { sets: Options['sets'] } = { sets: [], t0: 0, solver: 'auto', states: false, format: 'csv', step: null, at: null, inputs: null, library: null }
   let tEnd: number | undefined
-  const files: string[] = []
-  for (let i = 0; i < args.length; i++) {
-    const a = args[i]
-    const { flag, inline } = splitOption(a)
-    const next = (): string | undefined => (inline !== undefined ? inline : args[++i])
+  const files = walkArgs(args, (flag, next) => {
     switch (flag) {
-      case '--': break
-      case '--t-end': tEnd = num('--t-end', next()); break
-      case '--library': {
-        const dir = next()
-        if (!dir || dir.startsWith('--')) throw new ArgError('--library needs a folder')
-        o.library = folderLibrary(dir)
-        break
-      }
-      case '--t0': o.t0 = num('--t0', next()); break
-      case '--step': o.step = num('--step', next()); break
-      case '--at': {
-        const s = next()
-        if (!s || s.startsWith('--')) throw new ArgError('--at needs a comma-separated list of times')
-        o.at = s.split(',').map((x) => num('--at', x))
-        break
-      }
-      case '--inputs': {
-        const s = next()
-        if (!s || s.startsWith('--')) throw new ArgError('--inputs needs a CSV file')
-        o.inputs = s
-        break
-      }
+      case '--t-end': tEnd = numberArg('--t-end', next()); return true
+      case '--library': o.library = folderLibrary(textArg('--library', next(), 'a folder')); return true
+      case '--t0': o.t0 = numberArg('--t0', next()); return true
+      case '--step': o.step = numberArg('--step', next()); return true
+      case '--at': o.at = textArg('--at', next(), 'a comma-separated list of times').split(',').map((x) => numberArg('--at', x)); return true
+      case '--inputs': o.inputs = textArg('--inputs', next(), 'a CSV file'); return true
       case '--set': {
-        const s = next()
-        const m = s ? /^([A-Za-z_][A-Za-z0-9_.[\]]*)=(.+)$/.exec(s) : null
-        if (!m) throw new ArgError(`--set needs name=value, got '${s ?? ''}'`)
-        o.sets.push({ name: m[1], value: num(`--set ${m[1]}`, m[2]) })
-        break
+        const [name, value] = namedNumberArg('--set', next(), SET_NAME)
+        o.sets.push({ name, value })
+        return true
       }
       case '--solver': {
         const s = next()
         if (s !== 'auto' && s !== 'rk45' && s !== 'odex' && s !== 'stiff') throw new ArgError(`--solver must be auto, rk45, odex or stiff, got '${s ?? ''}'`)
         o.solver = s
-        break
+        return true
       }
-      case '--rtol': o.rtol = num('--rtol', next()); break
-      case '--atol': o.atol = num('--atol', next()); break
-      case '--max-steps': o.maxSteps = num('--max-steps', next()); break
-      case '--states': o.states = true; break
+      case '--rtol': o.rtol = numberArg('--rtol', next()); return true
+      case '--atol': o.atol = numberArg('--atol', next()); return true
+      case '--max-steps': o.maxSteps = numberArg('--max-steps', next()); return true
+      case '--states': o.states = true; return true
       case '--format': {
         const s = next()
         if (s !== 'csv' && s !== 'json') throw new ArgError(`--format must be csv or json, got '${s ?? ''}'`)
         o.format = s
-        break
+        return true
       }
       default:
-        if (a.startsWith('-')) throw new ArgError(`unknown option '${a}'`)
-        files.push(a)
+        return false
     }
-  }
-  if (files.length !== 1) throw new ArgError(files.length === 0 ? 'no sheet file given' : `expected one sheet file, got ${files.length}`)
+  })
+  const sheet = oneSheetFile(files)
   if (tEnd === undefined) throw new ArgError('--t-end is required')
   const t0 = o.t0 as number
   if (!(tEnd > t0)) throw new ArgError(`--t-end (${tEnd}) must be after --t0 (${t0})`)
@@ -121,7 +94,7 @@ export function parseArgs(args: string[]): Options {
   if (o.rtol !== undefined && !(o.rtol > 0 && o.rtol < 1)) throw new ArgError(`--rtol must be in (0, 1), got ${o.rtol}`)
   if (o.atol !== undefined && !(o.atol > 0)) throw new ArgError(`--atol must be > 0, got ${o.atol}`)
   if (o.maxSteps !== undefined && !(Number.isInteger(o.maxSteps) && o.maxSteps >= 1)) throw new ArgError(`--max-steps must be a positive integer, got ${o.maxSteps}`)
-  return { ...(o as Options), sheet: files[0], tEnd }
+  return { ...(o as Options), sheet, tEnd }
 }
 
 function outputTimes(o: Options): Float64Array {

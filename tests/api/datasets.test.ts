@@ -213,9 +213,10 @@ describe('roles and workspaces', () => {
   it('another workspace cannot see the project or its datasets (404)', async () => {
     const { agent: outsider, me } = await signUpVerified(t, { email: 'outsider@example.org', password: 'long-enough-1', name: 'Outsider' })
     const own = me.workspaces[0].slug
-    const list = (await modeler.get(`${WS}/projects/${pid}/datasets`)).body.datasets
+    const mine = await upload(modeler, pid, GOOD, 'private.csv')
+    expect(mine.status).toBe(201)
     expect((await outsider.get(`${WS}/projects/${pid}/datasets`)).status).toBe(404)
-    expect((await outsider.get(`/api/workspaces/${own}/datasets/${list[0].id}`)).status).toBe(404)
+    expect((await outsider.get(`/api/workspaces/${own}/datasets/${mine.body.id}`)).status).toBe(404)
     expect((await outsider.get(`/api/workspaces/${own}/projects/${pid}/datasets`)).status).toBe(404)
   })
 })

@@ -50,18 +50,24 @@ const evaluate = (body: Record<string, unknown>) => modeler.post(`${WS}/projects
   .send({ modelId: tv.modelId, version: tv.number, bindingId, datasets: [freshId], ...body })
 
 describe('evaluation runs', () => {
+  // the evaluation with the generating constants, made before any test: several tests read it
+  let created: Awaited<ReturnType<typeof evaluate>>
+  let run: Awaited<ReturnType<typeof waitForRun>>
   let evalId: number
+  beforeAll(async () => {
+    created = await evaluate({ parameterSetId: truthSet, start: 'estimate', name: 'truth on fresh record' })
+    expect(created.status).toBe(201)
+    run = await waitForRun(modeler, created.body.id)
+    evalId = run.id
+  }, 120_000)
 
   it('with the generating constants the errors are at the noise level; the records start from estimated states', async () => {
-    const r = await evaluate({ parameterSetId: truthSet, start: 'estimate', name: 'truth on fresh record' })
-    expect(r.status).toBe(201)
+    const r = created
     expect(r.body.kind).toBe('evaluation')
     expect(r.body.settings.values).toEqual({ Cv: BUFFER_TRUTH.Cv, UA: BUFFER_TRUTH.UA, tau: BUFFER_TRUTH.tau })
     expect(r.body.provenance.datasets.map((d: { role: string }) => d.role)).toEqual(['evaluation'])
-    const run = await waitForRun(modeler, r.body.id)
     expect(run.error).toBeNull()
     expect(run.status).toBe('succeeded')
-    evalId = run.id
     const { traces, ...rest } = run.result
     const res = evaluationResult.parse(rest)
     expect(res.start).toBe('estimated')

@@ -3,7 +3,7 @@
  * event loop. The executor is tests/helpers/test-executor.ts (a CPU-bound stand-in for executeRun,
  * synthetic work with a closed-form result).
  */
-import { afterAll, beforeAll, describe, expect, it } from 'vitest'
+import { afterAll, afterEach, beforeAll, describe, expect, it } from 'vitest'
 import request from 'supertest'
 import { makeTestApp, type TestApp } from '../helpers/app'
 import { TEST_EXECUTOR, executions, getRun, insertRun, runFixture, sumOfSquares, waitFor } from '../helpers/jobs'
@@ -45,19 +45,23 @@ describe('embedded worker-thread pool', () => {
       const rows = await t.context.db.select({ status: runs.status, progress: runs.progress }).from(runs).where(sql`${runs.id} in (${a}, ${b})`)
       return rows.length === 2 && rows.every((r) => r.status === 'running' && (r.progress as { iteration: number } | null)?.iteration)
     }
-    await waitFor('both fits to be running', bothRunning, 30_000)
-    let answered = 0
-    for (let i = 0; i < 10; i++) {
-      const h = await request(t.app).get('/api/health')
-      expect(h.status).toBe(200)
-      answered++
+    try {
+      await waitFor('both fits to be running', bothRunning, 30_000)
+      let answered = 0
+      for (let i = 0; i < 10; i++) {
+        const h = await request(t.app).get('/api/health')
+        expect(h.status).toBe(200)
+        answered++
+      }
+      // had the fits run on the event loop, no request could have been answered before they ended
+      expect(await bothRunning()).toBe(true)
+      expect(answered).toBe(10)
+    } finally {
+      // stopped even when a check failed, so the next test finds both threads free
+      await jobs().cancel(a)
+      await jobs().cancel(b)
+      await waitFor('both to stop', async () => (await getRun(t.context.db, a)).status === 'cancelled' && (await getRun(t.context.db, b)).status === 'cancelled')
     }
-    // had the fits run on the event loop, no request could have been answered before they ended
-    expect(await bothRunning()).toBe(true)
-    expect(answered).toBe(10)
-    await jobs().cancel(a)
-    await jobs().cancel(b)
-    await waitFor('both to stop', async () => (await getRun(t.context.db, a)).status === 'cancelled' && (await getRun(t.context.db, b)).status === 'cancelled')
   })
 
   it('cancels a running fit through its row and the thread stops early', async () => {
@@ -99,8 +103,12 @@ describe('embedded worker-thread pool', () => {
 })
 
 describe('time limit and recovery', () => {
+  // each test's own runner beside the app's, closed after it whatever the order, so none is left polling
   let runner: JobRunner | null = null
-  afterAll(async () => { await runner?.close() })
+  afterEach(async () => {
+    await runner?.close()
+    runner = null
+  })
 
   it('stops a fit that exceeds the time limit (terminating a thread that ignores cancellation) and says why', async () => {
     runner = await createJobRunner({ ...t.context, config: { ...t.context.config, jobTimeoutSeconds: 1 } }, { executor: TEST_EXECUTOR, stopGraceMs: 300 })
@@ -113,8 +121,6 @@ describe('time limit and recovery', () => {
     await new Promise((r) => setTimeout(r, 600))
     expect((await getRun(t.context.db, id)).progress).toEqual(before)
     expect((await getRun(t.context.db, id)).status).toBe('failed')
-    await runner.close()
-    runner = null
   })
 
   it('picks up, at start, a run whose previous worker died (stale heartbeat) and completes it as a second attempt', async () => {
@@ -129,7 +135,6 @@ describe('time limit and recovery', () => {
   it('fails, with the reason, a run whose workers died too often', async () => {
     const id = await insertRun(t.context.db, fx, { steps: 6, stepMs: 5 })
     await t.context.db.update(runs).set({ status: 'running', workerId: 'pool@gone:1:dead', attempts: t.context.config.jobMaxAttempts, heartbeatAt: sql`now() - interval '10 minutes'` }).where(eq(runs.id, id))
-    await runner?.close()
     runner = await createJobRunner(t.context, { executor: TEST_EXECUTOR })
     const run = await waitFor('failed', async () => { const r = await getRun(t.context.db, id); return r.status === 'failed' && r })
     expect(run.error).toMatch(/stopped responding.*pool@gone:1:dead.*3 attempt/)

@@ -1,5 +1,5 @@
 /** Forks with lineage both ways, diffs between versions and against a fork's origin, and deletion. */
-import { afterAll, beforeAll, describe, expect, it } from 'vitest'
+import { afterAll, beforeAll, beforeEach, describe, expect, it } from 'vitest'
 import { CSRF, demo, makeTestApp, signedIn, type Agent, type TestApp } from '../helpers/app'
 import { drainSheet, drainSheetV2, lagSheet } from './library-sheets'
 import { diffReply, modelDetailDto } from '../../shared/api/models'
@@ -9,27 +9,44 @@ const as = {} as Record<'admin' | 'modeler' | 'modeler2' | 'reviewer' | 'viewer'
 const base = `/api/workspaces/${demo.ws}/models`
 let originId: number
 
+/** A new origin model by the modeler: version 1 (drainSheet) and version 2 (drainSheetV2). */
+async function newOrigin(): Promise<{ id: number; slug: string }> {
+  const r = await as.modeler.post(base).set(CSRF).send({ title: 'Draining buffer vessel', description: 'invented', tags: ['vessel'], text: drainSheet })
+  expect(r.status).toBe(201)
+  const v2 = await as.modeler.post(`${base}/${r.body.id}/versions`).set(CSRF).send({ text: drainSheetV2, note: 'leak term', baseVersion: 1 })
+  expect(v2.status).toBe(201)
+  return { id: r.body.id, slug: r.body.slug }
+}
+
 beforeAll(async () => {
   t = await makeTestApp('library_fork')
   for (const k of ['admin', 'modeler', 'modeler2', 'reviewer', 'viewer'] as const) as[k] = await signedIn(t.app, demo[k])
-  const r = await as.modeler.post(base).set(CSRF).send({ title: 'Draining buffer vessel', description: 'invented', tags: ['vessel'], text: drainSheet })
-  originId = r.body.id
-  const v2 = await as.modeler.post(`${base}/${originId}/versions`).set(CSRF).send({ text: drainSheetV2, note: 'leak term', baseVersion: 1 })
-  expect(v2.status).toBe(201)
+  originId = (await newOrigin()).id
 })
 afterAll(async () => { await t.close() })
 
 describe('forks', () => {
+  // each test has its own origin and modeler2's fork of its version 1, so none depends on another's forks
+  let origin: { id: number; slug: string }
+  let originId: number
+  let forkReply: { status: number; body: unknown }
   let forkId: number
 
+  beforeEach(async () => {
+    origin = await newOrigin()
+    originId = origin.id
+    forkReply = await as.modeler2.post(`${base}/${originId}/fork`).set(CSRF).send({ title: 'Vessel B-3 drain', version: 1 })
+    expect(forkReply.status).toBe(201)
+    forkId = (forkReply.body as { id: number }).id
+  })
+
   it('forks a given version into a new model owned by the forking modeler, recording its origin', async () => {
-    const r = await as.modeler2.post(`${base}/${originId}/fork`).set(CSRF).send({ title: 'Vessel B-3 drain', version: 1 })
-    expect(r.status).toBe(201)
-    const f = modelDetailDto.parse(r.body)
-    forkId = f.id
+    const f = modelDetailDto.parse(forkReply.body)
+    expect(f.id).toBe(forkId)
     expect(f.owner.email).toBe(demo.modeler2)
     expect(f.maintainers.map((p) => p.email)).toEqual([demo.modeler2])
-    expect(f.forkOf).toEqual({ id: originId, slug: 'draining-buffer-vessel', title: 'Draining buffer vessel', version: 1 })
+    expect(origin.slug).toMatch(/^draining-buffer-vessel(-\d+)?$/)
+    expect(f.forkOf).toEqual({ id: originId, slug: origin.slug, title: 'Draining buffer vessel', version: 1 })
     expect(f.originLatestVersion).toBe(2)
     expect(f.tags).toEqual(['vessel'])
     expect(f.latestVersion).toBe(1)

@@ -1,13 +1,17 @@
 /**
  * Browser: the library and the sheet editor. A modeler starts a model from a template, types an
  * unknown name and sees the marker on that line, fixes it, changes a parameter, publishes version 2
- * with a note; another modeler forks it and compares the fork with its origin.
+ * with a note; another modeler forks it and compares the fork with its origin; a reviewer approves; a
+ * publish on an outdated base. Each test after the first starts from its own model made through the API
+ * (the same template fork and version 2 the first test makes in the browser), so any one runs alone.
  * Needs dist/ (`npx vite build`).
  */
 import { afterAll, beforeAll, describe, expect, it } from 'vitest'
+import request from 'supertest'
 import type { Page } from 'playwright-core'
 import { startBrowserRig, type BrowserRig } from '../helpers/browser'
-import { demo } from '../helpers/app'
+import { CSRF, demo } from '../helpers/app'
+import { DEMO_PASSWORD } from '../../server/db/seed'
 
 let rig: BrowserRig
 beforeAll(async () => { rig = await startBrowserRig('e2e_library') })
@@ -24,6 +28,29 @@ async function templateText(title: string): Promise<string> {
   return r.rows[0].text as string
 }
 
+/** The sheet with its heat-loss coefficient UA changed from 150 to 180 W/K, as the first test types it. */
+function withUa180(text: string): string {
+  return text.split('\n').map((l) => (/^param\s+UA\s*=/.test(l) ? l.replace('150', '180') : l)).join('\n')
+}
+
+/**
+ * The modeler's "Buffer B-7 (invented)" made through the API as the first test makes it in the browser:
+ * a fork of the heated buffer vessel template, then version 2 with UA 180 W/K. Returns its page URL.
+ */
+async function publishedModel(): Promise<string> {
+  const api = request.agent(rig.baseUrl)
+  expect((await api.post('/api/auth/signin').set(CSRF).send({ email: demo.modeler, password: DEMO_PASSWORD })).status).toBe(200)
+  const base = `/api/workspaces/${demo.ws}/models`
+  const tpl = await rig.context.database.pool.query("select id from models where title = 'Heated buffer vessel' and template is not null")
+  const fork = await api.post(`${base}/${tpl.rows[0].id}/fork`).set(CSRF).send({ title: 'Buffer B-7 (invented)' })
+  expect(fork.status).toBe(201)
+  const v1 = await api.get(`${base}/${fork.body.id}/versions/1`)
+  const v2 = await api.post(`${base}/${fork.body.id}/versions`).set(CSRF)
+    .send({ text: withUa180(v1.body.text), note: 'UA raised to 180 W/K after the insulation survey (invented)', baseVersion: 1 })
+  expect(v2.status).toBe(201)
+  return `${rig.baseUrl}/w/${demo.ws}/library/${fork.body.id}`
+}
+
 /** Puts the cursor at the start of a 1-based line of the focused Monaco editor. */
 async function goToLine(page: Page, line: number) {
   await page.keyboard.press('Control+Home')
@@ -38,8 +65,6 @@ async function pickOption(page: Page, selectIndexInDialog: number, optionText: s
 }
 
 describe('browser: the model library', () => {
-  let modelUrl = ''
-
   it('starts a model from a template, shows a marker for an unknown name on its line, and publishes version 2', async () => {
     const page = await rig.newPage()
     const requested: string[] = []
@@ -55,7 +80,7 @@ describe('browser: the model library', () => {
     await page.getByLabel('Title').fill('Buffer B-7 (invented)')
     await page.locator('[data-testid="create-model"]').click()
     await page.waitForURL(/\/w\/tinmoor\/library\/\d+$/)
-    modelUrl = page.url()
+    const modelUrl = page.url()
     await page.locator('.monaco-editor .view-lines').waitFor()
     await poll(() => page.locator('[data-testid="problem-count"]').textContent()).toMatch(/checks clean/)
     expect(requested.some((u) => /register\.all/.test(u))).toBe(true)
@@ -132,11 +157,13 @@ describe('browser: the model library', () => {
     expect(v.rows.map((r) => r.number)).toEqual([1, 2])
     expect(v.rows[1].text).toMatch(/param\s+UA\s+=\s+180\s/)
     expect(v.rows[1].text).not.toContain('q_drain')
+    // the API-made starting point of the later tests is this same text
+    expect(withUa180(text)).toBe(v.rows[1].text)
     await page.close()
   }, 240_000)
 
   it('lets another modeler fork it from version 1 and compare the fork with its origin', async () => {
-    expect(modelUrl).not.toBe('')
+    const modelUrl = await publishedModel()
     const page = await rig.newPage()
     await rig.signIn(page, demo.modeler2)
     await page.waitForURL(/\/w\/tinmoor\/library/)
@@ -165,6 +192,7 @@ describe('browser: the model library', () => {
   }, 180_000)
 
   it('lets a reviewer approve version 2, and shows the sheet read-only to them', async () => {
+    const modelUrl = await publishedModel()
     const page = await rig.newPage()
     await rig.signIn(page, demo.reviewer)
     await page.waitForURL(/\/w\/tinmoor\/library/)
@@ -188,6 +216,7 @@ describe('browser: the model library', () => {
   }, 120_000)
 
   it('answers a publish on an outdated base with the newer version, and publishes on top of it after review', async () => {
+    const modelUrl = await publishedModel()
     const id = Number(/\/library\/(\d+)$/.exec(modelUrl)![1])
     const page = await rig.newPage()
     await rig.signIn(page, demo.modeler)

@@ -47,20 +47,23 @@ async function cursorAt(page: Page, line: number, column: number) {
 }
 
 describe('browser: parts, review and bindings', () => {
-  let modeler: Page
-  let reviewer: Page
-  let partId = 0
-  let hostId = 0
-  let slug = ''
+  // signed-in pages, opened by whichever test needs one first
+  let modelerPage: Promise<Page> | undefined
+  let reviewerPage: Promise<Page> | undefined
+  const asModeler = () => (modelerPage ??= signedInPage(demo.modeler))
+  const asReviewer = () => (reviewerPage ??= signedInPage(demo.reviewer))
+
+  /** The modeler's own part (the gravity tank) and a host sheet (the tank cascade) using its version 1: each test's own. */
+  async function partAndHost(page: Page) {
+    const part = await call(page.request, 'post', `${WS}/models`, { title: 'Syrup tank part', text: tank })
+    const cascade = readFileSync(join(MODELS, 'tank-cascade.sheet'), 'utf8').replace(/^(part\s+\w+\s*=\s*)gravity-tank@1/gm, `$1${part.slug}@1`)
+    const host = await call(page.request, 'post', `${WS}/models`, { title: 'Syrup cascade', text: cascade })
+    return { partId: part.id as number, slug: part.slug as string, hostId: host.id as number, cascade }
+  }
 
   it('the editor resolves parts from the library, hovers a part and completes part handles', { timeout: 180_000 }, async () => {
-    modeler = await signedInPage(demo.modeler)
-    const part = await call(modeler.request, 'post', `${WS}/models`, { title: 'Syrup tank part', text: tank })
-    partId = part.id
-    slug = part.slug
-    const cascade = readFileSync(join(MODELS, 'tank-cascade.sheet'), 'utf8').replace(/^(part\s+\w+\s*=\s*)gravity-tank@1/gm, `$1${slug}@1`)
-    const host = await call(modeler.request, 'post', `${WS}/models`, { title: 'Syrup cascade', text: cascade })
-    hostId = host.id
+    const modeler = await asModeler()
+    const { slug, hostId, cascade } = await partAndHost(modeler)
 
     const asked: string[] = []
     modeler.on('request', (r) => { if (r.url().includes('/parts/texts')) asked.push(r.url()) })
@@ -96,7 +99,11 @@ describe('browser: parts, review and bindings', () => {
   })
 
   it('offers a newer approved part version with the flattened diff and a before/after simulation, and puts it into the draft', { timeout: 180_000 }, async () => {
-    reviewer = await signedInPage(demo.reviewer)
+    const modeler = await asModeler()
+    const reviewer = await asReviewer()
+    const { partId, slug, hostId, cascade } = await partAndHost(modeler)
+    // a draft of the modeler's own on the host, which accepting the update replaces after asking
+    await call(modeler.request, 'put', `${WS}/models/${hostId}/draft`, { text: `${cascade}# draft note (invented)\n`, baseVersion: 1 })
     await call(modeler.request, 'post', `${WS}/models/${partId}/versions`, { text: tank.replace('param  Cd   = 2e-3', 'param  Cd   = 3e-3'), note: 'Cd from the drain test', baseVersion: 1 })
     await call(reviewer.request, 'post', `${WS}/models/${partId}/versions/2/approve`, { comment: 'checked against the drain test' })
 
@@ -110,13 +117,16 @@ describe('browser: parts, review and bindings', () => {
     await poll(() => dialog.locator('.monaco-diff-editor').count()).toBeGreaterThan(0)
     await rig.screenshot(modeler, 'parts-update-offer')
     await dialog.locator('[data-testid="accept-part-update"]').click()
-    // the edits of the first test left a draft: it is replaced after asking
+    // the draft made above is replaced after asking
     await modeler.locator('.el-message-box').getByRole('button', { name: 'Replace my draft' }).click()
     await poll(async () => (await call(modeler.request, 'get', `${WS}/models/${hostId}`)).draft?.text ?? '').toMatch(new RegExp(`part\\s+upper = ${slug}@2`))
     await poll(() => modeler.locator('[data-testid="editor-status"]').textContent()).toMatch(/Draft saved/)
   })
 
   it('asks for a review, gets changes requested with a comment, and is approved from the queue', { timeout: 180_000 }, async () => {
+    const modeler = await asModeler()
+    const reviewer = await asReviewer()
+    const { partId } = await partAndHost(modeler)
     await modeler.goto(`${rig.baseUrl}/w/tinmoor/library/${partId}?tab=history`)
     const v2 = modeler.locator('[data-version="1"]')
     await v2.locator('[data-testid="request-review"]').click()
@@ -148,7 +158,7 @@ describe('browser: parts, review and bindings', () => {
   })
 
   it('edits and deletes bindings, picks the version in the fit form, and runs again from a filled-in form', { timeout: 300_000 }, async () => {
-    modeler ??= await signedInPage(demo.modeler)
+    const modeler = await asModeler()
     const lag = (tau: number) => `model "Browser lag"\ntime [s]\ninput u = 0 [1]\nparam tau = ${tau} [s] in [1, 300]\nstate x = 0 [1]\nx' = (u - x) / tau\noutput y = x [1] sigma 0.01\n`
     const m = await call(modeler.request, 'post', `${WS}/models`, { title: 'Browser lag', text: lag(30) })
     await call(modeler.request, 'post', `${WS}/models/${m.id}/versions`, { text: lag(25), note: 'start nearer', baseVersion: 1 })

@@ -13,7 +13,7 @@ import { FitProblem, type ProblemSpec, type Simulate } from './problem'
 import type { ProgressInfo, StopStatus } from './lsq'
 import type { LandscapeRequest } from '../landscape'
 import type { SegmentRequest } from './multiple-shooting/segments'
-import type { SegmentEvaluatorFactory } from './multiple-shooting/evaluator'
+import type { SegmentEvaluatorFactory } from './multiple-shooting/lanes'
 
 export interface FitOptions {
   method?: FitMethod

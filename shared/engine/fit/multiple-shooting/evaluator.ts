@@ -16,9 +16,14 @@
 import type { CompiledModel } from '../../../sheet/compiled'
 import { simulate } from '../../simulate'
 import { FitAborted, FitTimeout } from '../lsq'
-import { makeProblem, type FitOptions } from '../driver'
+import { makeProblem, type FitOptions } from '../options'
 import type { ProblemSpec } from '../problem'
 import { MultipleShootingProblem } from './problem'
+import type { SegmentBatch, SegmentEvaluator, SegmentRows, SegmentShape } from './lanes'
+import { blockSize, forEachRow, segmentColumns } from './layout'
+
+export type { SegmentShape, SegmentBatch, SegmentRows, SegmentEvaluator, SegmentEvaluatorFactory } from './lanes'
+export { splitSegments, mergeRows } from './layout'
 
 /** What a helper needs to build the fit's segmented problem (structured-cloneable). */
 export interface SegmentSetup {
@@ -32,59 +37,6 @@ export interface SegmentSetup {
   deadline?: number
 }
 
-/** The shape a helper's problem must have to serve a fit (checked once a helper is up). */
-export interface SegmentShape {
-  n: number
-  m: number
-  segments: number
-}
-
-/** One block of one evaluation, fit thread → helper. */
-export interface SegmentBatch {
-  /** evaluation number: a reply to an older evaluation is dropped */
-  id: number
-  w: Float64Array
-  mu: number
-  lambda: Float64Array
-  stateScale: Float64Array
-  withJac: boolean
-  /** segment indices of this block */
-  segments: Int32Array
-}
-
-/**
- * A block's rows, helper → fit thread (the arrays are transferable). Rows and Jacobian columns are
- * implicit: segment by segment (the batch's order), its output rows then its defect rows; per row the
- * columns a segment can touch (the parameters, its own initial state, its successor's).
- */
-export interface SegmentRows {
-  id: number
-  ok: boolean
-  /** the engine's message when a segment could not be simulated */
-  error: string | null
-  /** the fit's time budget ran out or the helper was stopped inside a simulation */
-  interrupted: 'aborted' | 'time-budget' | null
-  simulations: number
-  r: Float64Array
-  /** scaled defect per row (NaN on output rows) */
-  defects: Float64Array
-  /** with the Jacobian: each row's entries in its segment's columns */
-  jac: Float64Array | null
-}
-
-/** Helper lanes offered by the host for one fit. */
-export interface SegmentEvaluator {
-  /** helpers up and checked so far (lanes 0 … ready − 1); an evaluation uses these and the fit's thread */
-  readonly ready: number
-  /** helpers still starting for this fit: while any is, the fit yields to the event loop once per evaluation to hear from them */
-  readonly starting: number
-  evaluate(lane: number, batch: SegmentBatch): Promise<SegmentRows>
-  close(): Promise<void>
-}
-
-/** The host's factory, called once the fit knows its segment count; null: evaluate in the fit's thread. */
-export type SegmentEvaluatorFactory = (fit: { segments: number; shape: SegmentShape; deadline: number | undefined }) => SegmentEvaluator | null
-
 /** The segmented problem a helper serves, from its setup and the sheet it compiled once. */
 export function buildSegmentProblem(model: CompiledModel, setup: SegmentSetup): MultipleShootingProblem {
   const base = makeProblem(model, setup.spec, simulate, setup.options, setup.deadline)
@@ -93,49 +45,6 @@ export function buildSegmentProblem(model: CompiledModel, setup: SegmentSetup): 
 
 export function shapeOf(ms: MultipleShootingProblem): SegmentShape {
   return { n: ms.n, m: ms.m, segments: ms.segmentCount }
-}
-
-/** Rows a segment writes: its output rows and its defect rows. */
-function forEachRow(ms: MultipleShootingProblem, s: number, f: (row: number) => void): void {
-  const seg = ms.segments[s]
-  const offset = ms.base.experiments[seg.experiment].obs.offset
-  for (let i = seg.obs0; i < seg.obs1; i++) f(offset + i)
-  if (seg.dRow >= 0) for (let j = 0; j < ms.base.model.nx; j++) f(ms.mOut + seg.dRow + j)
-}
-
-/** Columns of w a segment's rows can depend on: θ, its own initial state, its successor's initial state. */
-function columnsOf(ms: MultipleShootingProblem, s: number): Int32Array {
-  const seg = ms.segments[s]
-  const nx = ms.base.model.nx
-  const cols: number[] = []
-  for (let q = 0; q < ms.nTheta; q++) cols.push(q)
-  if (seg.sCol >= 0) for (let j = 0; j < nx; j++) cols.push(seg.sCol + j)
-  if (seg.nextCol >= 0) for (let j = 0; j < nx; j++) cols.push(seg.nextCol + j)
-  return Int32Array.from(cols)
-}
-
-/** Sizes of a block's reply: rows, and Jacobian entries. */
-function blockSize(ms: MultipleShootingProblem, cols: Int32Array[], segments: Int32Array): { rows: number; entries: number } {
-  let rows = 0
-  let entries = 0
-  for (const s of segments) {
-    const seg = ms.segments[s]
-    const k = seg.obs1 - seg.obs0 + (seg.dRow >= 0 ? ms.base.model.nx : 0)
-    rows += k
-    entries += k * cols[s].length
-  }
-  return { rows, entries }
-}
-
-/** Each segment's columns, computed once per problem. */
-const columnCache = new WeakMap<MultipleShootingProblem, Int32Array[]>()
-function segmentColumns(ms: MultipleShootingProblem): Int32Array[] {
-  let c = columnCache.get(ms)
-  if (!c) {
-    c = ms.segments.map((_, s) => columnsOf(ms, s))
-    columnCache.set(ms, c)
-  }
-  return c
 }
 
 /**
@@ -197,41 +106,6 @@ export class SegmentServer {
       })
     }
     return out
-  }
-}
-
-/** Contiguous blocks of segments with about equal sample counts, one per lane (some may be empty). */
-export function splitSegments(ms: MultipleShootingProblem, lanes: number): Int32Array[] {
-  const nSeg = ms.segmentCount
-  const weight = (s: number) => ms.segments[s].k1 - ms.segments[s].k0 + 1
-  let total = 0
-  for (let s = 0; s < nSeg; s++) total += weight(s)
-  const blocks: Int32Array[] = []
-  let s = 0
-  let done = 0
-  for (let l = 0; l < lanes; l++) {
-    const target = ((l + 1) * total) / lanes
-    const from = s
-    while (s < nSeg && (l === lanes - 1 || done + weight(s) / 2 <= target)) done += weight(s++)
-    blocks.push(Int32Array.from({ length: s - from }, (_, k) => from + k))
-  }
-  return blocks
-}
-
-/** Copies a helper's rows of the block `segments` into the fit thread's residual, Jacobian (column-major) and defects. */
-export function mergeRows(ms: MultipleShootingProblem, segments: Int32Array, rows: SegmentRows, r: Float64Array, jac: Float64Array | null): void {
-  const m = ms.m
-  const all = segmentColumns(ms)
-  let k = 0
-  let e = 0
-  for (const s of segments) {
-    const cols = all[s]
-    forEachRow(ms, s, (row) => {
-      r[row] = rows.r[k]
-      if (row >= ms.mOut) ms.defects[row - ms.mOut] = rows.defects[k]
-      k++
-      if (jac && rows.jac) for (const c of cols) jac[c * m + row] = rows.jac[e++]
-    })
   }
 }
 

@@ -26,27 +26,8 @@ import type { LsqProblem } from '../lsq'
 import type { FitProblem, PreparedExperiment } from '../problem'
 import { segmentStarts, type SegmentRequest } from './segments'
 import { FitAborted, FitTimeout, yieldToEventLoop } from '../lsq'
-import { mergeRows, splitSegments, type SegmentEvaluator, type SegmentRows } from './evaluator'
-
-export interface Segment {
-  experiment: number
-  /** index of the segment within its experiment */
-  index: number
-  /** first sample index (into the experiment's tOut) and one past its last */
-  k0: number
-  k1: number
-  /** the experiment seen by this segment's simulation (t0, output times, sensitivities) */
-  prep: PreparedExperiment
-  /** first observation of the segment in the experiment's observation list, and one past the last */
-  obs0: number
-  obs1: number
-  /** column of s_i's first state in w, −1 for segment 0 */
-  sCol: number
-  /** row of the first defect row at the segment's end, −1 for an experiment's last segment */
-  dRow: number
-  /** column of the successor's s in w, −1 when none */
-  nextCol: number
-}
+import { mergeRows, splitSegments, type Segment } from './layout'
+import type { SegmentEvaluator, SegmentRows } from './lanes'
 
 export class MultipleShootingProblem implements LsqProblem {
   readonly n: number
