@@ -36,7 +36,7 @@ export const olderDerivativeFixes: QuickFixProvider = (ctx) => {
   if (!out.length) return out
   const every = ctx.all.filter(older)
   const lines = [...new Map(every.map((m) => [m.line, rewrite(m)])).values()].filter((x): x is { line: number; text: string } => x !== null)
-  if (lines.length > 1) out.push({ title: `Rewrite every x' line as dx/dt = … (${lines.length} lines)`, preferred: false, lines, markers: every })
+  if (lines.length > 1) out.push({ title: `Rewrite all ${lines.length} x' lines as dx/dt`, preferred: false, lines, markers: every })
   return out
 }
 

@@ -37,7 +37,7 @@ function rhs(text: string): number[] {
 describe('quick fix: the older derivative form', () => {
   it('is offered on a warned line: this line, and every such line of the sheet', () => {
     const fixes = olderDerivativeFixes(context(OLDER, 6))
-    expect(fixes.map((f) => f.title)).toEqual(['Rewrite as dh2/dt = …', "Rewrite every x' line as dx/dt = … (2 lines)"])
+    expect(fixes.map((f) => f.title)).toEqual(['Rewrite as dh2/dt = …', "Rewrite all 2 x' lines as dx/dt"])
     expect(fixes[0].preferred).toBe(true)
     expect(fixes[0].lines).toEqual([{ line: 6, text: '  dh2/dt = k * (h1 - h2)   # fed by the first' }])
     expect(fixes[1].lines.map((l) => l.line)).toEqual([5, 6])
