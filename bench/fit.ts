@@ -193,9 +193,9 @@ param k3 = 0.004 [m^2/s] in [1e-4, 1] "outlet coefficient 3"
 state h1 = 0.3 [m]
 state h2 = 0.3 [m]
 state h3 = 0.3 [m]
-h1' = (q - k1 * h1) / A
-h2' = (k1 * h1 - k2 * h2) / A
-h3' = (k2 * h2 - k3 * h3) / A
+dh1/dt = (q - k1 * h1) / A
+dh2/dt = (k1 * h1 - k2 * h2) / A
+dh3/dt = (k2 * h2 - k3 * h3) / A
 output l1 = h1 [m]
 output l3 = h3 [m]
 `

@@ -14,8 +14,8 @@ const BALL = `param e_r = 0.8 [1] in [0.1, 0.99]
 const g = 9.80665 [m/s^2]
 state y = 1 [m]
 state v = 0 [m/s]
-y' = v
-v' = -g
+dy/dt = v
+dv/dt = -g
 event y falls below 0 then v = -e_r * v
 output height = y [m]
 `
@@ -28,7 +28,7 @@ const T_lo = 18 [degC]
 const T_hi = 22 [degC]
 state T = 20 [degC]
 mode heater = off
-T' = (heater * P_h - UA * (T - T_amb)) / C
+dT/dt = (heater * P_h - UA * (T - T_amb)) / C
 event T falls below T_lo then heater = on
 event T rises above T_hi then heater = off
 output temp = T [degC]

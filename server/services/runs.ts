@@ -24,6 +24,7 @@ import { ENGINE_VERSION } from './fit-execution'
 import { assertNotTemplate, getModelRow, publishVersion, type Actor } from './models'
 import { workspacePartTexts } from './part-library'
 import { toDeclared } from '../../shared/sheet/compiled'
+import { rewriteOlderDerivatives } from '../../shared/sheet/leibniz'
 
 type RunRow = typeof runs.$inferSelect
 
@@ -420,16 +421,27 @@ export async function calibratedSheet(db: Db, workspaceId: number, runId: number
   const row = await getRunRow(db, workspaceId, runId)
   const result = finishedResult(row)
   const sheet = await fittedSheet(db, workspaceId, runId)
-  const { text, changed } = sheetWithEstimates(sheet.text, result)
+  const { text, changed, rewritten } = calibratedBody(sheet.text, result)
   const local = result.parameters.filter((p) => p.experiment !== null).map((p) => p.name)
   const head = [
     `# Calibrated sheet: "${sheet.title}" version ${sheet.version} with the estimates of Pewter fit run #${row.id}`,
     `# written into the param lines: ${changed.length ? changed.join(', ') : 'none'} (8 significant digits; the full values stay on the run)`,
+    ...(rewritten.length ? [`# derivative lines written dx/dt = … (line${rewritten.length > 1 ? 's' : ''} ${rewritten.join(', ')} of the version had the older form x' = …)`] : []),
     ...(local.length ? [`# per-record estimates are not written here: ${[...new Set(local)].join(', ')}`] : []),
     `# ${RESULT_CAUTION}`,
   ]
   const slug = sheet.title.toLowerCase().replace(/[^a-z0-9]+/g, '-').replace(/^-|-$/g, '') || 'model'
   return { fileName: `${slug}-v${sheet.version}-run${row.id}.sheet`, text: `${head.join('\n')}\n${text}`, changed }
+}
+
+/**
+ * The body of the calibrated sheet: the estimates written in (sheetWithEstimates) and the derivative
+ * lines of the older form `x' = …` written `dx/dt = …` (`rewritten`: their 1-based lines).
+ */
+export function calibratedBody(text: string, result: FitResult): { text: string; changed: string[]; rewritten: number[] } {
+  const est = sheetWithEstimates(text, result)
+  const r = rewriteOlderDerivatives(est.text)
+  return { text: r.text, changed: est.changed, rewritten: r.lines }
 }
 
 /**

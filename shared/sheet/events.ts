@@ -18,9 +18,8 @@
 import { type Expr, walk } from './ast'
 import type { DiagnosticList, Span } from './diagnostics'
 import { didYouMean } from '../did-you-mean'
-import { LineScanner, type Tok } from './line-scanner'
+import { LineScanner, type RawExpr, type Tok } from './line-scanner'
 import type { EventDecl, ModeDecl, ResetDecl, StateDecl } from './model'
-import type { RawExpr } from './parser'
 
 /** position words of a mode and their numbers */
 export const POSITIONS: Readonly<Record<string, number>> = { off: 0, on: 1, closed: 0, open: 1 }

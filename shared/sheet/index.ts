@@ -22,6 +22,7 @@ export interface SheetOptions {
   resolvePart?: ResolvePart | null
 }
 
+export { derivativeName, rewriteOlderDerivatives, rewriteOlderLine } from './leibniz'
 export type { Diagnostic } from './diagnostics'
 export { SheetError } from './diagnostics'
 export type { ParsedModel } from './model'

@@ -7,6 +7,9 @@ const IDENT_RE = /^[A-Za-z_][A-Za-z0-9_]*/
 
 export interface Tok { text: string; span: Span }
 
+/** An expression's text as written, with its line and the 1-based column where it starts. */
+export interface RawExpr { text: string; line: number; col0: number }
+
 export class LineScanner {
   pos = 0
   constructor(readonly text: string, readonly line: number) {}

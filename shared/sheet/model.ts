@@ -67,7 +67,7 @@ export interface EquationDecl {
   expr: Expr
   text: string
   span: Span
-  /** 'derivative' for x' = …, 'next' for next x = … */
+  /** 'derivative' for dx/dt = … (or the older x' = …), 'next' for next x = … */
   form: 'derivative' | 'next'
   /**
    * factor turning the SI value of the right side into the compiled rhs:

@@ -8,7 +8,8 @@ import type { DelayInfo, TimeUnit } from './compiled'
 import { type Diagnostic, DiagnosticList, type Span } from './diagnostics'
 import { buildExpr, type ExprContext } from './expression'
 import { hashText } from './hash'
-import { LineScanner, NUMBER_RE, stripComment, type Tok } from './line-scanner'
+import { type DerivativeHead, derivativeHead, derivativeName, olderFormMessage } from './leibniz'
+import { LineScanner, NUMBER_RE, type RawExpr, stripComment, type Tok } from './line-scanner'
 import type { ConstDecl, EquationDecl, InputDecl, LetDecl, LookupDecl, ModeDecl, OutputDecl, ParamDecl, ParsedModel, StateDecl } from './model'
 import { didYouMean } from '../did-you-mean'
 import { checkUnits } from './unit-check'
@@ -53,7 +54,7 @@ function unitBracket(t: string, from: number): number {
 type Kind = 'state' | 'param' | 'const' | 'input' | 'lookup' | 'let' | 'mode'
 interface Entry { kind: Kind; index: number; span: Span }
 
-export interface RawExpr { text: string; line: number; col0: number }
+export type { RawExpr }
 /** an index range written after a name: `[lo..hi]`, `[i in lo..hi]` or a single index `[k]` */
 interface Range { v: string | null; lo: number; hi: number; single: boolean; span: Span }
 /** the value of the index variable while an expression of a ranged statement is built */
@@ -161,22 +162,12 @@ class SheetParser {
     const s = new LineScanner(code, lineNo)
     if (s.atEnd()) return i
     this.statements++
+    const dh = derivativeHead(code)
+    if (dh) { this.derivativeLine(s, dh); return i }
     const head = this.name(s)
     if (!head) {
       const w = s.word()
-      d.error(w.span, `a line must start with a keyword (${KEYWORDS.join(', ')}) or an equation x' = …; found '${w.text.slice(0, 40)}'`)
-      return i
-    }
-    if (s.text[s.pos] === '[' && s.text.slice(s.pos).match(/^\[[^\]]*\]'/)) {
-      const r = this.rangeAfter(s, head.text)
-      if (!r) return i
-      s.pos++
-      this.equation(s, head, 'derivative', r)
-      return i
-    }
-    if (s.text[s.pos] === "'") {
-      s.pos++
-      this.equation(s, head, 'derivative')
+      d.error(w.span, `a line must start with a keyword (${KEYWORDS.join(', ')}) or an equation dx/dt = …; found '${w.text.slice(0, 40)}'`)
       return i
     }
     switch (head.text) {
@@ -212,9 +203,11 @@ class SheetParser {
         return i
       default: {
         if (s.peek() === '=') {
-          d.error(head.span, `unknown statement: to define '${head.text}' write let ${head.text} = …, or ${head.text}' = … for a state's derivative`)
+          d.error(head.span, `unknown statement: to define '${head.text}' write let ${head.text} = …, or ${derivativeName(head.text)} = … for a state's derivative`)
+        } else if (s.peek() === '/' && head.text.length > 1 && head.text.startsWith('d')) {
+          d.error(s.span(head.span.column - 1, s.text.indexOf('=') > 0 ? s.text.indexOf('=') : s.text.length), `a derivative is taken with respect to the time t: write ${derivativeName(head.text.slice(1))} = …`)
         } else {
-          d.error(head.span, `unknown keyword '${head.text}'${didYouMean(head.text, KEYWORDS)}; a line starts with ${KEYWORDS.join(', ')} or is an equation x' = …`)
+          d.error(head.span, `unknown keyword '${head.text}'${didYouMean(head.text, KEYWORDS)}; a line starts with ${KEYWORDS.join(', ')} or is an equation dx/dt = …`)
         }
         return i
       }
@@ -682,13 +675,37 @@ class SheetParser {
     })
   }
 
-  private equation(s: LineScanner, name: Tok, form: 'derivative' | 'next', range?: Range): void {
-    const lhs = form === 'derivative' ? `${name.text}'` : `next ${name.text}`
+  /**
+   * A derivative line `dh/dt = …` (or the older `h' = …`, read with a warning); the head was found
+   * by derivativeHead (leibniz.ts).
+   */
+  private derivativeLine(s: LineScanner, h: DerivativeHead): void {
+    const lead = s.pos
+    s.pos = h.nameAt
+    const before = this.diags.items.length
+    const name = this.name(s)
+    if (!name || name.text !== h.name) {
+      // name() has reported a qualified name outside a sheet with parts
+      if (this.diags.items.length === before) this.diags.error(s.span(lead, h.end), `expected a state name in ${s.text.slice(lead, h.end).trim()}`)
+      return
+    }
+    let r: Range | null = null
+    if (h.index) {
+      r = this.rangeAfter(s, name.text)
+      if (!r) return
+    }
+    const head = s.span(lead, h.end)
+    if (h.older) this.diags.warning(head, olderFormMessage(name.text + h.index))
+    s.pos = h.end
+    this.equation(s, name, 'derivative', r ?? undefined, head)
+  }
+
+  private equation(s: LineScanner, name: Tok, form: 'derivative' | 'next', range?: Range, head?: Span): void {
+    const lhs = head ? s.text.slice(head.column - 1, head.endColumn - 1) : `next ${name.text}`
     if (!s.eat('=')) { this.diags.error(s.restSpan(), `expected '=' after ${lhs}`); return }
     const raw = this.rawExpr(s, this.exprEnd(s, false))
     if (!s.atEnd()) this.trailing(s, 'the equation')
-    const end = range ? range.span.endColumn : name.span.endColumn
-    const span = { ...name.span, endColumn: form === 'derivative' ? end + 1 : end }
+    const span = head ?? { ...name.span, endColumn: range ? range.span.endColumn : name.span.endColumn }
     if (!range) { this.eqs.push({ name: name.text, span, form, raw, env: null }); return }
     if (!this.ranges.has(name.text)) {
       this.diags.error(name.span, `${name.text} is not an indexed state: declare state ${name.text}[1..N] = …`)
@@ -824,6 +841,9 @@ class SheetParser {
       if (b) return `index ${m[2]} is outside ${m[1]}[${b.lo}..${b.hi}]`
       if (this.names.has(m[1])) return `${m[1]} is not indexed: write ${m[1]} without [..]`
     }
+    if (name.length > 1 && name.startsWith('d') && this.names.get(name.slice(1))?.kind === 'state') {
+      return `unknown name '${name}': on a right side ${name}/dt would be ${name} divided by dt; the derivative of ${name.slice(1)} is written only at the head of its own line, ${derivativeName(name.slice(1))} = …`
+    }
     return `unknown name '${name}'${didYouMean(name, all())}`
   }
 
@@ -858,9 +878,10 @@ class SheetParser {
     const equations: (EquationDecl | null)[] = this.states.map(() => null)
     for (const q of this.eqs) {
       const ent = this.names.get(q.name)
-      const lhs = q.form === 'derivative' ? `${q.name}'` : `next ${q.name}`
+      const lhs = q.form === 'derivative' ? derivativeName(q.name) : `next ${q.name}`
       if (!ent) {
-        d.error(q.span, `${lhs}: there is no state named '${q.name}'${didYouMean(q.name, this.states.map((x) => x.name))}`)
+        const dState = this.names.get(`d${q.name}`)?.kind === 'state' ? ` (the state d${q.name} is written ${derivativeName(`d${q.name}`)})` : ''
+        d.error(q.span, `${lhs}: there is no state named '${q.name}'${dState || didYouMean(q.name, this.states.map((x) => x.name))}`)
         continue
       }
       if (ent.kind !== 'state') {
@@ -868,7 +889,7 @@ class SheetParser {
         continue
       }
       if (discrete && q.form === 'derivative') { d.error(q.span, `${lhs}: this sheet is discrete-time (it has a sample line): write next ${q.name} = …`); continue }
-      if (!discrete && q.form === 'next') { d.error(q.span, `${lhs}: next-equations need a sample line (sample 1 [s]); a continuous sheet writes ${q.name}' = …`); continue }
+      if (!discrete && q.form === 'next') { d.error(q.span, `${lhs}: next-equations need a sample line (sample 1 [s]); a continuous sheet writes ${derivativeName(q.name)} = …`); continue }
       const prev = equations[ent.index]
       if (prev) { d.error(q.span, `second equation for ${q.name} (the first is at line ${prev.span.line})`); continue }
       const e = failedRaw.has(q.raw) ? null : this.build(q.raw, ctx, q.env)
@@ -882,7 +903,7 @@ class SheetParser {
     this.states.forEach((st, i) => {
       if (equations[i] || missing.has(st.span)) return
       missing.add(st.span)
-      d.error(st.span, discrete ? `state ${st.name} has no next-equation: add next ${st.name} = …` : `state ${st.name} has no derivative: add ${st.name}' = …`)
+      d.error(st.span, discrete ? `state ${st.name} has no next-equation: add next ${st.name} = …` : `state ${st.name} has no derivative: add ${derivativeName(st.name)} = …`)
     })
     const outputs: OutputDecl[] = []
     for (const o of this.outs) {

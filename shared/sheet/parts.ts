@@ -13,6 +13,7 @@
  * every part a sheet needs through an asynchronous loader first.
  */
 import type { Diagnostic } from './diagnostics'
+import { derivativeHead, derivativeName } from './leibniz'
 import { stripComment } from './line-scanner'
 import { parseSheet } from './parser'
 import { parseUnit, sameDims, type UnitInfo } from './units'
@@ -322,6 +323,12 @@ function rewritePart(
         return null
       }
       out.push(`let ${P}.${decl.name} = ${prefix(decl.text)}${decl.unit ? ` [${decl.unit.text}]` : ''}${decl.description ? ` "${decl.description}"` : ''}`)
+      continue
+    }
+    const dh = derivativeHead(code)
+    if (dh) {
+      // the part's state under its name, in the form that takes a qualified name: d(P.h)/dt
+      out.push(`${code.slice(0, code.length - code.trimStart().length)}${derivativeName(prefix(dh.name + dh.index))}${prefix(code.slice(dh.end))}`)
       continue
     }
     out.push(prefix(code))

@@ -8,6 +8,7 @@
 import { type Cols, type Expr, constValue } from './ast'
 import type { DiagnosticList } from './diagnostics'
 import type { ParsedModel } from './model'
+import { derivativeName } from './leibniz'
 import { addDims, DIMENSIONLESS, type Dims, formatDims, isDimensionless, sameDims, scaleDims, TIME_DIMS, type UnitInfo } from './units'
 
 /** 'any': a bare number (adapts); 'unknown': involves a symbol without unit */
@@ -41,7 +42,7 @@ export function checkUnits(m: ParsedModel, diags: DiagnosticList): void {
       if (st.unit && u.k === 'dims') {
         const want = addDims(st.unit.dims, TIME_DIMS, -1)
         if (!sameDims(u.d, want)) {
-          diags.error(eqSpan(eq.expr, eq.span.line, eq.span), `${st.name}' has unit ${formatDims(u.d)} but should have ${formatDims(want)} (the unit of ${st.name}, ${st.unit.text || '1'}, per ${timeName})`)
+          diags.error(eqSpan(eq.expr, eq.span.line, eq.span), `${derivativeName(st.name)} has unit ${formatDims(u.d)} but should have ${formatDims(want)} (the unit of ${st.name}, ${st.unit.text || '1'}, per ${timeName})`)
         }
       }
     } else {

@@ -7,7 +7,7 @@ input  u = 1 [1] hold "input signal"
 param  k = 1 [1] in [0.01, 100] "gain"
 param  tau = 10 [s] in [0.1, 1000] "time constant"
 state  x = 0 [1] "state"
-x' = (k * u - x) / tau
+dx/dt = (k * u - x) / tau
 output y = x [1]
 `
 }

@@ -11,6 +11,7 @@ import { FUNCTIONS } from '@shared/sheet/ast'
 import type { CheckReply } from '@shared/api/models'
 import type { PartCatalogueEntry } from '@shared/api/parts'
 import { stripComment } from '@shared/sheet/line-scanner'
+import { derivativeHead, derivativeName } from '@shared/sheet/leibniz'
 
 export { stripComment }
 
@@ -128,6 +129,8 @@ export const EVENT_HELP: Record<string, string> = {
   mode: 'mode m = off — a switch position the equations read as a number (off/closed 0, on/open 1, or a whole number); only events change it',
 }
 
+const DERIVATIVE_HELP = 'dx/dt = … — the derivative of the state x with respect to the time t, written at the head of its line (on a right side dx/dt is a division)'
+
 const fmt = (v: number) => (Math.abs(v) >= 1e5 || (Math.abs(v) < 1e-3 && v !== 0) ? v.toExponential(3).replace(/\.?0+e/, 'e') : String(Number(v.toPrecision(6))))
 
 /** Markdown shown when hovering a declared name. */
@@ -190,7 +193,10 @@ export function registerSheetLanguage(monaco: typeof Monaco): void {
         [/"[^"]*"/, 'string'],
         [/"[^"]*$/, 'string.invalid'],
         [/\[/, { token: 'unit.bracket', next: '@unit' }],
-        [/[A-Za-z_][A-Za-z0-9_]*'/, 'derivative'],
+        // dh/dt = …, dT[i in 2..N]/dt = …, d(h)/dt = … (only before '='; elsewhere it is a division)
+        [/d(?:\([A-Za-z_][\w.]*(?:\[[^\]]*\])?\)|[A-Za-z_]\w*(?:\[[^\]]*\])?)\s*\/\s*dt(?![\w.])(?=\s*=(?!=))/, 'derivative'],
+        // the older form h' = … (read with a warning)
+        [/[A-Za-z_][A-Za-z0-9_]*(?:\[[^\]]*\])?'/, 'derivative.older'],
         [/[A-Za-z_][A-Za-z0-9_]*(?=\s*\()/, { cases: { '@functions': 'predefined', '@default': 'identifier' } }],
         [/[A-Za-z_][A-Za-z0-9_]*/, { cases: { '@keywords': 'keyword', '@modifiers': 'keyword.modifier', '@eventWords': 'keyword.modifier', '@builtins': 'constant', '@default': 'identifier' } }],
         [/(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?/, 'number'],
@@ -224,6 +230,7 @@ export function registerSheetLanguage(monaco: typeof Monaco): void {
       { token: 'predefined', foreground: '2a5d8a' },
       { token: 'constant', foreground: '2a5d8a' },
       { token: 'derivative', foreground: '0d4441', fontStyle: 'bold' },
+      { token: 'derivative.older', foreground: '0d4441', fontStyle: 'italic' },
       { token: 'operator', foreground: '454d4f' },
     ],
     colors: {
@@ -258,6 +265,11 @@ export function registerSheetLanguage(monaco: typeof Monaco): void {
       }
       if ((FUNCTIONS as readonly string[]).includes(word.word) || word.word === 'delay' || REDUCERS.includes(word.word)) {
         return { range, contents: [{ value: `**${word.word}** — function\n\n${FUNCTION_HELP[word.word] ?? `${word.word}(x)`}` }] }
+      }
+      const head = derivativeHead(model.getLineContent(position.lineNumber))
+      if (head && !head.older && word.startColumn <= head.nameAt + 1 && word.endColumn > head.nameAt) {
+        const state = syms.find((s) => s.kind === 'state' && s.name === head.name)
+        return { range, contents: [{ value: `**${derivativeName(head.name + head.index)}** — the derivative of ${state ? 'the state ' : ''}${head.name}${head.index} with respect to the time t${state?.unit ? ` [${state.unit}/time unit]` : ''}` }] }
       }
       if (word.word in EVENT_HELP) return { range, contents: [{ value: `**${word.word}**\n\n${EVENT_HELP[word.word]}` }] }
       if (word.word === 't') return { range, contents: [{ value: '**t** — the time, in the sheet\'s time unit' }] }
@@ -308,6 +320,20 @@ export function registerSheetLanguage(monaco: typeof Monaco): void {
       }
       for (const k of [...SHEET_KEYWORDS, ...SHEET_MODIFIERS, ...EVENT_WORDS]) suggestions.push({ label: k, kind: K.Keyword, insertText: k, range, sortText: `2${k}`, documentation: EVENT_HELP[k] })
       for (const k of MODE_POSITIONS) suggestions.push({ label: k, kind: K.EnumMember, insertText: k, range, sortText: `2${k}`, detail: 'mode position' })
+      // a derivative line for each state (at the head of a line)
+      for (const s of sheetSymbols.get(model.uri.toString()) ?? []) {
+        if (s.kind !== 'state') continue
+        const lhs = s.range ? `d${s.name}[\${1:i in ${s.range}}]/dt` : derivativeName(s.name)
+        suggestions.push({
+          label: `${s.range ? `d${s.name}[…]/dt` : derivativeName(s.name)} = …`, kind: K.Snippet, range, sortText: `3d${s.name}`,
+          detail: `derivative of the state ${s.name}`, documentation: DERIVATIVE_HELP,
+          insertText: `${lhs} = \${${s.range ? 2 : 1}:expression}`, insertTextRules: monaco.languages.CompletionItemInsertTextRule.InsertAsSnippet,
+        })
+      }
+      suggestions.push({
+        label: 'dx/dt = …', kind: K.Snippet, range, sortText: '3dx', detail: 'a derivative line', documentation: DERIVATIVE_HELP,
+        insertText: 'd${1:x}/dt = ${2:expression}', insertTextRules: monaco.languages.CompletionItemInsertTextRule.InsertAsSnippet,
+      })
       suggestions.push({
         label: 'event … then …', kind: K.Snippet, range, sortText: '3event', detail: 'an event line', documentation: EVENT_HELP.event,
         insertText: 'event ${1:x} ${2|falls below,rises above,crosses|} ${3:threshold} then ${4:target} = ${5:on}',

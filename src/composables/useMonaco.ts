@@ -5,7 +5,8 @@
  */
 import { shallowRef } from 'vue'
 import type * as Monaco from 'monaco-editor/editor'
-import { registerSheetLanguage } from './sheetLanguage'
+import { registerSheetLanguage, SHEET_LANGUAGE } from './sheetLanguage'
+import { registerSheetQuickFixes } from './sheetQuickFixes'
 
 export type MonacoApi = typeof Monaco
 
@@ -21,6 +22,7 @@ export function loadMonaco(): Promise<MonacoApi> {
     const EditorWorker = worker.default
     ;(self as unknown as { MonacoEnvironment: { getWorker: () => Worker } }).MonacoEnvironment = { getWorker: () => new EditorWorker() }
     registerSheetLanguage(monaco)
+    registerSheetQuickFixes(monaco, SHEET_LANGUAGE)
     return monaco
   })()
   loading.catch(() => { loading = null })

@@ -17,7 +17,7 @@ time [s]
 input u = 0 [1]
 param tau = ${tau} [s] in [1, 300]
 state x = 0 [1]
-x' = (u - x) / tau
+dx/dt = (u - x) / tau
 output y = x [1] sigma 0.01
 `
 // synthetic samples of a unit step through a 20 s lag (invented data, for the mapping only)

@@ -23,7 +23,7 @@ time [s]
 input u = 0 [1]
 param tau = 30 [s] in [1, 300]
 state x = 0 [1]
-x' = (u - x) / tau
+dx/dt = (u - x) / tau
 output y = x [1] sigma 0.01
 `
 

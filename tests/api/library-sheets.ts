@@ -9,7 +9,7 @@ input q_in = 1e-3 [m^3/s] linear "feed flow"
 param A = 1.5 [m^2] fixed "cross-section"
 param k = 2e-3 [m^2.5/s] in [1e-4, 1e-1] "outlet coefficient"
 state h = 0.5 [m] "level"
-h' = (q_in - k * sqrt(max(h, 0))) / A
+dh/dt = (q_in - k * sqrt(max(h, 0))) / A
 output level = h [m] sigma 0.01
 `
 
@@ -22,7 +22,7 @@ param A = 15000 [cm^2] fixed "cross-section"
 param k = 3e-3 [m^2.5/s] in [1e-4, 5e-2] "outlet coefficient"
 param leak = 1e-5 [m^3/s] in [0, 1e-3] "leak flow"
 state h = 0.5 [m] "level"
-h' = (q_in - leak - k * sqrt(max(h, 0))) / A
+dh/dt = (q_in - leak - k * sqrt(max(h, 0))) / A
 output level = h [m] sigma 0.01
 `
 
@@ -36,6 +36,6 @@ time [s]
 input T_in = 290 [K] linear "process temperature"
 param tau = 12 [s] in [0.5, 120] "probe time constant"
 state T = 290 [K] "probe reading"
-T' = (T_in - T) / tau
+dT/dt = (T_in - T) / tau
 output reading = T [K]
 `

@@ -51,7 +51,7 @@ describe('quick simulation (worker side)', () => {
   })
 
   it('refuses a sheet with errors and a non-positive end time, saying why', () => {
-    const bad = compileQuick(text.replace("h' = (q_in - q_out) / A", "h' = (q_in - q_out) / Area"))
+    const bad = compileQuick(text.replace("dh/dt = (q_in - q_out) / A", "dh/dt = (q_in - q_out) / Area"))
     expect(bad.compiled).toBeNull()
     if (!bad.compiled) expect(bad.message).toMatch(/^line \d+: .*Area/)
     const r = simulateQuick(compiled().compiled, { values: {}, tEnd: 0, stepInput: '', stepTime: 0, stepValue: 0, show: 'outputs' })

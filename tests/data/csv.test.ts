@@ -112,7 +112,7 @@ time [min]
 input Q = 0 [kW] hold
 param C = 2e5 [J/K] in [1e3, 1e7]
 state T = 275 [K]
-T' = Q / C
+dT/dt = Q / C
 output temp = T [degC]
 `)
     const table = parseCsv('t [s],temp [degF],Q [W],note\n0,32,100,a1\n60,41,200,2\n', { strict: false })
@@ -129,7 +129,7 @@ output temp = T [degC]
 time [s]
 param k = 1 [1/s] in [0.1, 10]
 state x = 1 [m]
-x' = -k * x
+dx/dt = -k * x
 output pos = x [m]
 `)
     const table = parseCsv('t,pos [K]\n0,1\n1,2\n')

@@ -89,7 +89,7 @@ describe('browser: the model library', () => {
     // type an unknown name into the level equation
     const text = await templateText('Heated buffer vessel')
     const lines = text.split('\n')
-    const hLine = lines.findIndex((l) => l.startsWith("h' =")) + 1
+    const hLine = lines.findIndex((l) => l.startsWith("dh/dt =")) + 1
     expect(hLine).toBeGreaterThan(1)
     await page.locator('.monaco-editor .view-lines').click()
     await goToLine(page, hLine)

@@ -159,7 +159,7 @@ describe('browser: parts, review and bindings', () => {
 
   it('edits and deletes bindings, picks the version in the fit form, and runs again from a filled-in form', { timeout: 300_000 }, async () => {
     const modeler = await asModeler()
-    const lag = (tau: number) => `model "Browser lag"\ntime [s]\ninput u = 0 [1]\nparam tau = ${tau} [s] in [1, 300]\nstate x = 0 [1]\nx' = (u - x) / tau\noutput y = x [1] sigma 0.01\n`
+    const lag = (tau: number) => `model "Browser lag"\ntime [s]\ninput u = 0 [1]\nparam tau = ${tau} [s] in [1, 300]\nstate x = 0 [1]\ndx/dt = (u - x) / tau\noutput y = x [1] sigma 0.01\n`
     const m = await call(modeler.request, 'post', `${WS}/models`, { title: 'Browser lag', text: lag(30) })
     await call(modeler.request, 'post', `${WS}/models/${m.id}/versions`, { text: lag(25), note: 'start nearer', baseVersion: 1 })
     const project = await call(modeler.request, 'post', `${WS}/projects`, { name: 'Browser bindings', description: 'made by a test' })

@@ -11,7 +11,7 @@ input w = 0 [1/s] hold
 param tau = 0.35 [s] in [0, 2]
 param k = 1 [1/s] fixed
 state x = 0 [1]
-x' = u + delay(w, tau) - k * x
+dx/dt = u + delay(w, tau) - k * x
 output y = x [1]
 `
 

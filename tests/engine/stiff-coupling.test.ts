@@ -209,8 +209,8 @@ describe('auto: the switch at tight tolerances', () => {
 
   it('non-stiff problems do not switch at rtol 1e-3 … 1e-12: Arenstorf (one period), a harmonic oscillator, exponential decay', () => {
     // Arenstorf orbit: Hairer, Nørsett & Wanner I, Sec. II.0, period 17.0652165601579625588917206249
-    const osc = compileModel(`model "oscillator"\ntime [s]\nstate x = 1\nstate v = 0\nx' = v\nv' = -6.25 * x - 0.75 * v\noutput y = x\n`)
-    const decay = compileModel(`model "decay"\ntime [s]\nstate x = 1\nx' = -x\noutput y = x\n`)
+    const osc = compileModel(`model "oscillator"\ntime [s]\nstate x = 1\nstate v = 0\ndx/dt = v\ndv/dt = -6.25 * x - 0.75 * v\noutput y = x\n`)
+    const decay = compileModel(`model "decay"\ntime [s]\nstate x = 1\ndx/dt = -x\noutput y = x\n`)
     const runs: [CompiledModel, number][] = [[arenstorf, 17.0652165601579625588917206249], [osc, 20], [decay, 10]]
     for (const [m, T] of runs) {
       for (const rtol of [1e-3, 1e-6, 1e-9, 1e-12]) {

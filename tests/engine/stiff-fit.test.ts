@@ -18,9 +18,9 @@ param k3 = 1e4 [1/s] fixed "middle step"
 state a = 1 [1]
 state b = 0 [1]
 state c = 0 [1]
-a' = -k1 * a + k3 * b * c
-b' = k1 * a - k3 * b * c - k2 * b^2
-c' = k2 * b^2
+da/dt = -k1 * a + k3 * b * c
+db/dt = k1 * a - k3 * b * c - k2 * b^2
+dc/dt = k2 * b^2
 output ya = a [1]
 output yc = c [1]
 `

@@ -18,7 +18,7 @@ time [s]
 param a = 0.3 [1/s] in [0.01, 10] "rate factor"
 param b = 2 [1] in [0.01, 10] "gain factor"
 state x = 1 [1]
-x' = -a * b * x
+dx/dt = -a * b * x
 output y = x [1] sigma 0.01
 `
 
@@ -30,8 +30,8 @@ param Y_xs = 0.5 [1] in [0.05, 1] fixed "yield"
 state X = 0.2 [g/L] "biomass"
 state S = 10 [g/L] "substrate"
 let mu = mu_max * max(S, 0) / (K_s + max(S, 0))
-X' = mu * X
-S' = -mu * X / Y_xs
+dX/dt = mu * X
+dS/dt = -mu * X / Y_xs
 output biomass = X [g/L] sigma 0.02
 output substrate = S [g/L] sigma 0.05
 `
@@ -78,7 +78,7 @@ describe('outcome words', () => {
 })
 
 describe('unidentifiable parameters', () => {
-  it("x' = -a·b·x: a and b get no standard error or interval, a·b is named, profiles shown where asked", async () => {
+  it("dx/dt = -a·b·x: a and b get no standard error or interval, a·b is named, profiles shown where asked", async () => {
     const { model, outputs } = synthetic(PRODUCT_SHEET, { a: 0.5, b: 1 }, tDecay, 7, { y: 0.01 })
     const res = await runFit(model, { experiments: [{ name: 'decay', time: tDecay, outputs, inputs: {} }] }, { profile: ['a'] })
     expect(fitResult.safeParse(JSON.parse(JSON.stringify(res))).success).toBe(true)
@@ -119,7 +119,7 @@ describe('failure causes', () => {
 time [s]
 param k = 1 [1/s] in [0.5, 5]
 state h = 1 [1]
-h' = -k * sqrt(h)
+dh/dt = -k * sqrt(h)
 output level = h [1]
 `
     const model = compileModel(sheet)
@@ -162,7 +162,7 @@ describe('validation initial states', () => {
 time [s]
 param k = 0.3 [1/s] in [0.01, 5]
 state x = 1 [1] estimate in [0, 10]
-x' = -k * x
+dx/dt = -k * x
 output y = x [1] sigma 0.01
 `
     const fitData = synthetic(sheet, { k: 0.8 }, tDecay, 3, { y: 0.01 })

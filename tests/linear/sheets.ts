@@ -11,8 +11,8 @@ param a21 = 0.25
 param a22 = -3
 state x1 = 0
 state x2 = 0
-x1' = a11 * x1 + a12 * x2 + 1.5 * u1
-x2' = a21 * x1 + a22 * x2 + 0.7 * u2 - 0.2 * u1
+dx1/dt = a11 * x1 + a12 * x2 + 1.5 * u1
+dx2/dt = a21 * x1 + a22 * x2 + 0.7 * u2 - 0.2 * u1
 output y1 = x1 + 0.1 * u1
 output y2 = 2 * x2 - x1 + 0.3 * u2
 `
@@ -29,7 +29,7 @@ param  A = 0.8 [m^2] in [0.1, 5] "cross-section"
 param  a = 0.001 [m^2] in [1e-5, 0.1] "outlet area"
 const  g = 9.81 [m/s^2]
 state  h = 1 [m] in [0, 20] "level"
-h' = (q - a * sqrt(2 * g * h)) / A
+dh/dt = (q - a * sqrt(2 * g * h)) / A
 output level = h [m]
 `
 
@@ -40,7 +40,7 @@ input u = 0 [1]
 param K = 2.5 [1]
 param tau = 4 [min]
 state x = 0 [1]
-x' = (K * u - x) / tau
+dx/dt = (K * u - x) / tau
 output y = x [1]
 `
 
@@ -53,8 +53,8 @@ param wn = 3 [1/s]
 param zeta = 0.2
 state x1 = 0
 state x2 = 0
-x1' = x2
-x2' = -wn^2 * x1 - 2 * zeta * wn * x2 + K * wn^2 * u
+dx1/dt = x2
+dx2/dt = -wn^2 * x1 - 2 * zeta * wn * x2 + K * wn^2 * u
 output y = x1
 `
 
@@ -63,7 +63,7 @@ export const THREE_ROOTS = `model "Three equilibria"
 time [s]
 input u = 0
 state x = 0.5 in [0, 4]
-x' = -(x - 1) * (x - 2) * (x - 3) + u
+dx/dt = -(x - 1) * (x - 2) * (x - 3) + u
 output y = x
 `
 
@@ -72,7 +72,7 @@ export const NO_ROOT = `model "No equilibrium"
 time [s]
 input u = 1
 state x = 0
-x' = u + x^2
+dx/dt = u + x^2
 output y = x
 `
 
@@ -85,6 +85,6 @@ export const FOLD_START = `model "Start beyond a fold"
 time [s]
 input u = 0.5
 state x = 2
-x' = u - x * (x - 2)^2
+dx/dt = u - x * (x - 2)^2
 output y = x
 `

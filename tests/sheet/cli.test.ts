@@ -52,12 +52,12 @@ describe('pewter check', () => {
   it('a sheet with errors: exit 1 and the diagnostics with their places', () => {
     const dir = mkdtempSync(join(tmpdir(), 'pewter-check-'))
     const f = join(dir, 'bad.sheet')
-    writeFileSync(f, "state h = 1 [m]\nh' = -kk * h\noutput y = h\n")
+    writeFileSync(f, "state h = 1 [m]\ndh/dt = -kk * h\noutput y = h\n")
     const r = pewter('check', f)
     expect(r.code).toBe(1)
     const j = JSON.parse(r.out)
     expect(j.ok).toBe(false)
-    expect(j.diagnostics).toEqual([{ line: 2, column: 7, endColumn: 9, severity: 'error', message: "unknown name 'kk'" }])
+    expect(j.diagnostics).toEqual([{ line: 2, column: 10, endColumn: 12, severity: 'error', message: "unknown name 'kk'" }])
   }, 120_000)
 
   it('bad arguments or an unreadable file: exit 2 (through the real command line)', () => {

@@ -65,7 +65,7 @@ describe('generated code agrees with mathjs evaluate', () => {
   }
 
   it('out-of-domain values give NaN, not complex numbers (our NaN rule)', () => {
-    const c = compileModel("state x = 1\nx' = sqrt(x) + x^0.5 + log(x)\noutput y = x")
+    const c = compileModel("state x = 1\ndx/dt = sqrt(x) + x^0.5 + log(x)\noutput y = x")
     const out = new Float64Array(1)
     c.rhs(0, new Float64Array([-1]), new Float64Array(0), new Float64Array(0), out)
     expect(Number.isNaN(out[0])).toBe(true)
@@ -104,7 +104,7 @@ describe('compiled model', () => {
     const c = compileModel(`param process_rate = 1 [1/s] in [0, 2]
 input constructor_like = 1 [1]
 state fs_require = 1 [m]
-fs_require' = -process_rate * fs_require * constructor_like
+dfs_require/dt = -process_rate * fs_require * constructor_like
 output globalThis_level = fs_require [m]`)
     for (const n of ['process_rate', 'constructor_like', 'fs_require', 'globalThis_level']) expect(c.source).not.toContain(n)
   })
@@ -124,9 +124,9 @@ output globalThis_level = fs_require [m]`)
   })
 
   it('compileModel throws a SheetError with the diagnostics; tryCompileModel does not throw', () => {
-    expect(() => compileModel("state x = 1\nx' = y")).toThrow(SheetError)
-    try { compileModel("state x = 1\nx' = y") } catch (e) { expect((e as SheetError).diagnostics.find((d) => d.severity === 'error')).toMatchObject({ line: 2, message: "unknown name 'y'" }) }
-    const r = tryCompileModel("state x = 1\nx' = y")
+    expect(() => compileModel("state x = 1\ndx/dt = y")).toThrow(SheetError)
+    try { compileModel("state x = 1\ndx/dt = y") } catch (e) { expect((e as SheetError).diagnostics.find((d) => d.severity === 'error')).toMatchObject({ line: 2, message: "unknown name 'y'" }) }
+    const r = tryCompileModel("state x = 1\ndx/dt = y")
     expect(r.compiled).toBeNull()
     expect(r.diagnostics.length).toBeGreaterThan(0)
   })
@@ -156,7 +156,7 @@ input b = 2 [1]
 param tau = 3 [s] in [0, 10]
 const tau2 = 5 [min]
 state x = 0 [1]
-x' = (delay(a, tau) + delay(a, tau) + delay(b, tau) + delay(a, tau2) + a) / tau
+dx/dt = (delay(a, tau) + delay(a, tau) + delay(b, tau) + delay(a, tau2) + a) / tau
 output y = x`)
     expect(c.delays).toEqual([{ input: 0, param: 0, constValue: 3 }, { input: 1, param: 0, constValue: 3 }, { input: 0, param: null, constValue: 300 }])
     const out = new Float64Array(1)

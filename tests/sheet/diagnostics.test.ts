@@ -7,7 +7,7 @@ import { errors } from './helpers'
 const OK = `model "tank"
 param k = 0.1 [1/s] in [0, 1]
 state h = 1 [m]
-h' = -k * h
+dh/dt = -k * h
 output level = h [m]`
 
 function expectError(text: string, line: number, message: RegExp, column?: number) {
@@ -28,14 +28,14 @@ describe('sheet diagnostics', () => {
   })
 
   it('unknown name, with a did-you-mean', () => {
-    const text = OK.replace("h' = -k * h", "h' = -kk * h")
-    expectError(text, 4, /unknown name 'kk' \(did you mean 'k'\?\)/, 7)
+    const text = OK.replace("dh/dt = -k * h", "dh/dt = -kk * h")
+    expectError(text, 4, /unknown name 'kk' \(did you mean 'k'\?\)/, 10)
     const d = errors(text).find((x) => /kk/.test(x.message))!
-    expect(d.endColumn).toBe(9)
+    expect(d.endColumn).toBe(12)
   })
 
   it('unknown name far from everything gets no suggestion', () => {
-    expectError(OK.replace("h' = -k * h", "h' = -zeta_long * h"), 4, /^unknown name 'zeta_long'$/)
+    expectError(OK.replace("dh/dt = -k * h", "dh/dt = -zeta_long * h"), 4, /^unknown name 'zeta_long'$/)
   })
 
   it('duplicate name', () => {
@@ -43,20 +43,20 @@ describe('sheet diagnostics', () => {
   })
 
   it('state without derivative', () => {
-    expectError(OK.replace('state h = 1 [m]', 'state h = 1 [m]\nstate v = 0 [m/s]'), 4, /state v has no derivative: add v' = /, 7)
+    expectError(OK.replace('state h = 1 [m]', 'state h = 1 [m]\nstate v = 0 [m/s]'), 4, /state v has no derivative: add dv\/dt = /, 7)
   })
 
   it('derivative of a non-state', () => {
-    expectError(OK + "\nk' = 0", 6, /k': 'k' is a param, not a state/, 1)
-    expectError(OK + "\nq' = 0", 6, /there is no state named 'q'/)
+    expectError(OK + "\ndk/dt = 0", 6, /dk\/dt: 'k' is a param, not a state/, 1)
+    expectError(OK + "\ndq/dt = 0", 6, /there is no state named 'q'/)
   })
 
   it('second equation for a state', () => {
-    expectError(OK + "\nh' = 0", 6, /second equation for h \(the first is at line 4\)/)
+    expectError(OK + "\ndh/dt = 0", 6, /second equation for h \(the first is at line 4\)/)
   })
 
   it('let cycle, naming the cycle', () => {
-    const text = OK.replace("h' = -k * h", "let a = b + h\nlet b = c * 2\nlet c = a - 1\nh' = -k * a")
+    const text = OK.replace("dh/dt = -k * h", "let a = b + h\nlet b = c * 2\nlet c = a - 1\ndh/dt = -k * a")
     expectError(text, 4, /let cycle: a -> b -> c -> a/, 5)
   })
 
@@ -86,11 +86,11 @@ describe('sheet diagnostics', () => {
   })
 
   it('unknown function, with a did-you-mean', () => {
-    expectError(OK.replace("h' = -k * h", "h' = -k * sqr(h)"), 4, /unknown function 'sqr' \(did you mean 'sqrt'\?\)/, 11)
+    expectError(OK.replace("dh/dt = -k * h", "dh/dt = -k * sqr(h)"), 4, /unknown function 'sqr' \(did you mean 'sqrt'\?\)/, 14)
   })
 
   it('calling something that is not a function', () => {
-    expectError(OK.replace("h' = -k * h", "h' = -k(h)"), 4, /k is a param, not a function/)
+    expectError(OK.replace("dh/dt = -k * h", "dh/dt = -k(h)"), 4, /k is a param, not a function/)
   })
 
   it('reserved word used as a name', () => {
@@ -100,17 +100,17 @@ describe('sheet diagnostics', () => {
   })
 
   it('lookup points not increasing', () => {
-    const text = OK.replace("h' = -k * h", "lookup f [m] -> [1] = { 0: 0, 2: 1, 1: 3 }\nh' = -k * h * f(h)")
+    const text = OK.replace("dh/dt = -k * h", "lookup f [m] -> [1] = { 0: 0, 2: 1, 1: 3 }\ndh/dt = -k * h * f(h)")
     expectError(text, 4, /lookup points must increase: 1 follows 2/, 37)
   })
 
   it('delay of a non-input', () => {
-    const text = OK.replace("h' = -k * h", "param tau = 1 [s] in [0, 10]\nh' = -k * delay(h, tau)")
-    expectError(text, 5, /delay applies only to inputs: 'h' is a state/, 17)
+    const text = OK.replace("dh/dt = -k * h", "param tau = 1 [s] in [0, 10]\ndh/dt = -k * delay(h, tau)")
+    expectError(text, 5, /delay applies only to inputs: 'h' is a state/, 20)
   })
 
   it('delay whose tau is not a param or const, or may go negative', () => {
-    const base = OK.replace("h' = -k * h", "input q = 1 [m/s]\nh' = delay(q, TAU)")
+    const base = OK.replace("dh/dt = -k * h", "input q = 1 [m/s]\ndh/dt = delay(q, TAU)")
     expectError(base.replace('TAU', '3'), 5, /the delay tau must be the name of a param or const/)
     expectError(base.replace('TAU', 'h'), 5, /the delay tau must be a param or const; 'h' is a state/)
     expectError(base.replace('input q', 'param tau = 1 [s] in [-1, 10]\ninput q').replace('TAU', 'tau'), 6, /the delay tau must stay >= 0/)
@@ -148,28 +148,28 @@ describe('sheet diagnostics', () => {
   })
 
   it('syntax errors point into the expression', () => {
-    expectError(OK.replace("h' = -k * h", "h' = -k * "), 4, /syntax error/)
-    expectError(OK.replace("h' = -k * h", "h' = -k * (h"), 4, /unclosed '\('/)
-    expectError(OK.replace("h' = -k * h", "h' = -k * h)"), 4, /unmatched '\)'/, 12)
+    expectError(OK.replace("dh/dt = -k * h", "dh/dt = -k * "), 4, /syntax error/)
+    expectError(OK.replace("dh/dt = -k * h", "dh/dt = -k * (h"), 4, /unclosed '\('/)
+    expectError(OK.replace("dh/dt = -k * h", "dh/dt = -k * h)"), 4, /unmatched '\)'/, 15)
   })
 
   it('implicit multiplication is refused', () => {
-    expectError(OK.replace("h' = -k * h", "h' = -2 k * h"), 4, /missing operator/)
+    expectError(OK.replace("dh/dt = -k * h", "dh/dt = -2 k * h"), 4, /missing operator/)
   })
 
   it('operators outside the whitelist are refused', () => {
-    expectError(OK.replace("h' = -k * h", "h' = -k * h mod 2"), 4, /operator 'mod' is not allowed/)
-    expectError(OK.replace("h' = -k * h", "h' = -k * h!"), 4, /operator '!' is not allowed/)
-    expectError(OK.replace("h' = -k * h", "h' = -k * h < 1 < 2"), 4, /chained comparisons/)
+    expectError(OK.replace("dh/dt = -k * h", "dh/dt = -k * h mod 2"), 4, /operator 'mod' is not allowed/)
+    expectError(OK.replace("dh/dt = -k * h", "dh/dt = -k * h!"), 4, /operator '!' is not allowed/)
+    expectError(OK.replace("dh/dt = -k * h", "dh/dt = -k * h < 1 < 2"), 4, /chained comparisons/)
   })
 
   it('wrong number of arguments', () => {
-    expectError(OK.replace("h' = -k * h", "h' = -k * atan2(h)"), 4, /atan2 takes 2 arguments, got 1/)
-    expectError(OK.replace("h' = -k * h", "h' = -k * max(h)"), 4, /max needs at least two arguments/)
+    expectError(OK.replace("dh/dt = -k * h", "dh/dt = -k * atan2(h)"), 4, /atan2 takes 2 arguments, got 1/)
+    expectError(OK.replace("dh/dt = -k * h", "dh/dt = -k * max(h)"), 4, /max needs at least two arguments/)
   })
 
   it('discrete and continuous forms do not mix', () => {
-    expectError(OK.replace("h' = -k * h", 'next h = h * 0.9'), 4, /next-equations need a sample line/)
+    expectError(OK.replace("dh/dt = -k * h", 'next h = h * 0.9'), 4, /next-equations need a sample line/)
     expectError(OK.replace('model "tank"', 'model "tank"\nsample 1 [s]'), 5, /this sheet is discrete-time/)
   })
 
@@ -182,7 +182,7 @@ describe('sheet diagnostics', () => {
   })
 
   it('several problems are all reported, in line order, without throwing', () => {
-    const text = "state h = 1 [m]\nh' = -kk * h\nparam k = 2 [1/s] in [3, 1]\nbogus line here"
+    const text = "state h = 1 [m]\ndh/dt = -kk * h\nparam k = 2 [1/s] in [3, 1]\nbogus line here"
     const errs = errors(text)
     expect(errs.map((e) => e.line)).toEqual([2, 3, 4])
   })

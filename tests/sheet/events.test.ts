@@ -12,8 +12,8 @@ state T = 300 [K]
 param k = 1 [1/s] fixed
 const h_set = 1 [m]
 mode pump = off
-h' = -k * h * (1 - pump)
-T' = -k * (T - 290)
+dh/dt = -k * h * (1 - pump)
+dT/dt = -k * (T - 290)
 `
 const at8 = (line: string) => checkModel(BASE + line + '\n').diagnostics.filter((d) => d.line === 8)
 
@@ -67,8 +67,8 @@ state x = 1 [m]
 state v = 3 [m/s]
 mode  gate = closed
 const tau = 4 [s]
-x' = v * (1 - gate)
-v' = -x / tau^2
+dx/dt = v * (1 - gate)
+dv/dt = -x / tau^2
 event x * v crosses b * sin(t / tau) then v = -a * v * x * v / b, gate = open
 output y = x [m]
 `
@@ -131,7 +131,7 @@ param A = 1.5 [m^2] in [0.5, 5]
 const q_p = 1.2e-2 [m^3/s]
 state h = 0.5 [m]
 mode pump = off
-h' = (q_in - pump * q_p) / A
+dh/dt = (q_in - pump * q_p) / A
 event h rises above 0.9 then pump = on
 event h falls below 0.3 then pump = off
 output level = h [m]

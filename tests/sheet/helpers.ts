@@ -132,9 +132,9 @@ state x3 = 0.8
 let s = sin(x1) + cos(x2) + tan(0.3*x3)
 let h = asin(0.5*x1/(1+x1)) + acos(0.4*x3/(1+x3)) + atan(x2) + atan2(x1, x2)
 let hy = sinh(0.2*x1) + cosh(0.1*x2) + tanh(x3) + hypot(x1, x2, a)
-x1' = -a*x1 + exp(-x2) + log(1+x3) + log10(2+x1) + sqrt(x2) + s*c1 + pow(x3, b) + x1^2.5 + x2^b + a^x3
-x2' = abs(x1 - 0.5) - max(x1, x2) + min(x3, u1, 2) + sign(x1 - 1) + floor(3*x2) + ceil(x3) + (x1 > x2 ? h : hy) + tab(x2)
-x3' = delay(u2, tau) * (x1 <= x3) - b*x3/(1 + x1*x2) + t*0.01 + pi/10 + e/10 + (x1 >= 0.3) + (x2 == x2) - (x1 != x1) + (x2 < 1) - -x3
+dx1/dt = -a*x1 + exp(-x2) + log(1+x3) + log10(2+x1) + sqrt(x2) + s*c1 + pow(x3, b) + x1^2.5 + x2^b + a^x3
+dx2/dt = abs(x1 - 0.5) - max(x1, x2) + min(x3, u1, 2) + sign(x1 - 1) + floor(3*x2) + ceil(x3) + (x1 > x2 ? h : hy) + tab(x2)
+dx3/dt = delay(u2, tau) * (x1 <= x3) - b*x3/(1 + x1*x2) + t*0.01 + pi/10 + e/10 + (x1 >= 0.3) + (x2 == x2) - (x1 != x1) + (x2 < 1) - -x3
 output y1 = x1 + hy
 output y2 = h * u1 * delay(u2, tau)
 output y3 = t`

@@ -17,7 +17,7 @@ function hostile(text: string): ReturnType<typeof checkModel> {
   return r
 }
 
-const wrap = (expr: string) => `state x = 1 [m]\nx' = ${expr}\noutput y = x`
+const wrap = (expr: string) => `state x = 1 [m]\ndx/dt = ${expr}\noutput y = x`
 
 describe('hostile sheets', () => {
   const exprs: [string, RegExp][] = [
@@ -45,7 +45,7 @@ describe('hostile sheets', () => {
     ['x.__proto__', /unknown name 'x.__proto__'/],
   ]
   for (const [e, msg] of exprs) {
-    it(`x' = ${e}`, () => {
+    it(`dx/dt = ${e}`, () => {
       const r = hostile(wrap(e))
       expect(r.ok).toBe(false)
       expect(r.diagnostics.some((d) => d.severity === 'error' && d.line === 2 && msg.test(d.message)), JSON.stringify(r.diagnostics)).toBe(true)
@@ -54,7 +54,7 @@ describe('hostile sheets', () => {
 
   it('reserved and host words cannot be declared', () => {
     for (const w of ['constructor', '__proto__', 'prototype', 'Infinity', 'NaN', 'true', 'mod', 'e', 'pi']) {
-      const r = hostile(`param ${w} = 1 [1] in [0, 2]\nstate x = 1 [m]\nx' = 0\noutput y = x`)
+      const r = hostile(`param ${w} = 1 [1] in [0, 2]\nstate x = 1 [m]\ndx/dt = 0\noutput y = x`)
       expect(r.diagnostics.some((d) => d.line === 1 && /reserved word/.test(d.message)), w).toBe(true)
     }
   })
@@ -83,7 +83,7 @@ describe('hostile sheets', () => {
   })
 
   it('a long but legal sum compiles', () => {
-    const r = tryCompileModel(`param k = 1 [1/s] in [0, 2]\nstate x = 1 [m]\nx' = ${Array(600).fill('k*x').join(' - ')}\noutput y = x`)
+    const r = tryCompileModel(`param k = 1 [1/s] in [0, 2]\nstate x = 1 [m]\ndx/dt = ${Array(600).fill('k*x').join(' - ')}\noutput y = x`)
     expect(r.compiled).not.toBeNull()
   })
 
@@ -99,7 +99,7 @@ describe('hostile sheets', () => {
 
   it('a chain of powers counts one level per ^ and is refused past the depth limit at its line and column', () => {
     // dimensionless state so that x^x is a legal power: only the depth refuses it
-    const sheet = (n: number) => `param k = 1 [1/s] in [0, 2]\nstate x = 1 [1]\nx' = k*(${Array(n).fill('x').join('^')})\noutput y = x`
+    const sheet = (n: number) => `param k = 1 [1/s] in [0, 2]\nstate x = 1 [1]\ndx/dt = k*(${Array(n).fill('x').join('^')})\noutput y = x`
     expect(tryCompileModel(sheet(MAX_DEPTH)).compiled).not.toBeNull()
     for (const n of [MAX_DEPTH + 1, 1000, 1990]) {
       const r = hostile(sheet(n))
@@ -107,15 +107,15 @@ describe('hostile sheets', () => {
       const d = r.diagnostics.find((x) => /nested too deeply/.test(x.message))
       expect(d, JSON.stringify(r.diagnostics)).toBeDefined()
       expect(d!.message).toContain(`more than ${MAX_DEPTH} levels`)
-      // line 3, at the x where the chain passes the limit: "x' = k*(" is 8 characters, the i-th x is at 9 + 2(i-1)
+      // line 3, at the x where the chain passes the limit: "dx/dt = k*(" is 11 characters, the i-th x is at 12 + 2(i-1)
       expect(d!.line).toBe(3)
-      expect(d!.column).toBe(9 + 2 * (MAX_DEPTH - 1))
+      expect(d!.column).toBe(12 + 2 * (MAX_DEPTH - 1))
       expect(tryCompileModel(sheet(n)).compiled).toBeNull()
     }
   })
 
   it('a chain of + or * is one level but at most MAX_CHAIN operators', () => {
-    const sum = (n: number) => `param k = 1 [1/s] in [0, 2]\nstate x = 1 [1]\nx' = k*(${Array(n).fill('x').join('+')})\noutput y = x`
+    const sum = (n: number) => `param k = 1 [1/s] in [0, 2]\nstate x = 1 [1]\ndx/dt = k*(${Array(n).fill('x').join('+')})\noutput y = x`
     expect(checkModel(sum(MAX_CHAIN + 1)).ok).toBe(true)
     const r = hostile(sum(MAX_CHAIN + 2))
     expect(r.diagnostics.some((d) => d.line === 3 && /more than 1000\)/.test(d.message) && /chain of \+ -/.test(d.message)), JSON.stringify(r.diagnostics)).toBe(true)
@@ -137,7 +137,7 @@ describe('hostile sheets', () => {
   })
 
   it('10 000 declarations', () => {
-    const text = Array.from({ length: 10_000 }, (_, i) => `param p${i} = ${i} [1/s] in [0, 1e6]`).join('\n') + "\nstate x = 1 [m]\nx' = -p1 * x\noutput y = x"
+    const text = Array.from({ length: 10_000 }, (_, i) => `param p${i} = ${i} [1/s] in [0, 1e6]`).join('\n') + "\nstate x = 1 [m]\ndx/dt = -p1 * x\noutput y = x"
     const r = hostile(text)
     expect(r.ok).toBe(true)
     expect(r.summary.parameters).toHaveLength(10_000)
@@ -152,7 +152,7 @@ describe('hostile sheets', () => {
   })
 
   it('10 000 chained lets', () => {
-    const text = 'state x = 1 [m]\nlet a0 = x\n' + Array.from({ length: 10_000 }, (_, i) => `let a${i + 1} = a${i} * 0.999`).join('\n') + "\nparam k = 1 [1/s] in [0, 2]\nx' = -k * a10000\noutput y = x"
+    const text = 'state x = 1 [m]\nlet a0 = x\n' + Array.from({ length: 10_000 }, (_, i) => `let a${i + 1} = a${i} * 0.999`).join('\n') + "\nparam k = 1 [1/s] in [0, 2]\ndx/dt = -k * a10000\noutput y = x"
     const r = hostile(text)
     expect(r.ok).toBe(true)
   })
@@ -176,8 +176,8 @@ describe('hostile sheets', () => {
 
   it('unicode look-alikes and control characters are refused with their place', () => {
     const r = hostile(wrap('x \u2212 1'))
-    expect(r.diagnostics.some((d) => d.line === 2 && d.column === 8 && /unexpected character/.test(d.message))).toBe(true)
-    const r2 = hostile("state x = 1 [m]\nx' = x\u0000\noutput y = x")
-    expect(r2.diagnostics.some((d) => d.line === 2 && d.column === 7 && /control or binary/.test(d.message))).toBe(true)
+    expect(r.diagnostics.some((d) => d.line === 2 && d.column === 11 && /unexpected character/.test(d.message))).toBe(true)
+    const r2 = hostile("state x = 1 [m]\ndx/dt = x\u0000\noutput y = x")
+    expect(r2.diagnostics.some((d) => d.line === 2 && d.column === 10 && /control or binary/.test(d.message))).toBe(true)
   })
 })

@@ -76,7 +76,7 @@ describe('indexed states and lets', () => {
     const c = compileModel([
       'const N = 4 [1]', 'const M = 2 [1]',
       'state x[1..N+M] = 1', 'let w[i in 1..N+M] = i * x[i]',
-      "x[i in 1..N+M]' = -x[i]",
+      "dx[i in 1..N+M]/dt = -x[i]",
       'output s = sum(i in 1..N+M, w[i])', 'output r = prod(k in 2..3, x[k] + k)',
     ].join('\n'))
     expect(c.nx).toBe(6)
@@ -89,18 +89,18 @@ describe('indexed states and lets', () => {
 
   it('reports index mistakes with their place', () => {
     const base = 'const N = 3 [1]\nstate x[1..N] = 1 [m]\n'
-    expect(errors(base + "x[i in 1..N]' = -x[i-1]")[0].message).toBe('index 0 is outside x[1..3]')
-    const e1 = errors(base + "x[i in 1..N]' = (x[i+1] - x[i]) / 1")
+    expect(errors(base + "dx[i in 1..N]/dt = -x[i-1]")[0].message).toBe('index 0 is outside x[1..3]')
+    const e1 = errors(base + "dx[i in 1..N]/dt = (x[i+1] - x[i]) / 1")
     expect(e1[0].message).toBe('index 4 is outside x[1..3]')
     expect(e1[0].line).toBe(3)
     expect(e1.length).toBe(1) // once per statement, not once per index
-    expect(errors(base + "x[i in 1..N]' = x * 0")[0].message).toMatch(/x is indexed over 1..3: write x\[i\]/)
-    expect(errors(base + "x[i in 1..N]' = x[i/2]")[0].message).toMatch(/whole number/)
-    expect(errors(base + "x[i in 1..N]' = x[t]")[0].message).toMatch(/an index must be computed/)
+    expect(errors(base + "dx[i in 1..N]/dt = x * 0")[0].message).toMatch(/x is indexed over 1..3: write x\[i\]/)
+    expect(errors(base + "dx[i in 1..N]/dt = x[i/2]")[0].message).toMatch(/whole number/)
+    expect(errors(base + "dx[i in 1..N]/dt = x[t]")[0].message).toMatch(/an index must be computed/)
     expect(errors('state x[1..K] = 1 [m]\nx[1]\' = 0').some((d) => /unknown name 'K' in an index bound/.test(d.message))).toBe(true)
-    expect(errors("const N = 2.5 [1]\nstate x[1..N] = 1\nx[1]' = 0").some((d) => /const N = 2.5 is not a whole number/.test(d.message))).toBe(true)
-    expect(errors("const N = 3 [1]\nstate x[1..N] = 1 [m]\nx[i in 1..2]' = 0")[0].message).toBe("state x[3] has no derivative: add x[3]' = …")
-    expect(checkModel("const N = 3 [1]\nconst tau = 2 [s]\nstate x[1..N] = 1 [m]\nx[i in 1..N]' = -x[i] / tau").ok).toBe(true)
-    expect(errors("const N = 3 [1]\nstate x[1..N] = 1 [m]\nx[i in 1..N]' = -x[i]")[0].message).toMatch(/x\[1\]' has unit m but should have m\/s/)
+    expect(errors("const N = 2.5 [1]\nstate x[1..N] = 1\ndx[1]/dt = 0").some((d) => /const N = 2.5 is not a whole number/.test(d.message))).toBe(true)
+    expect(errors("const N = 3 [1]\nstate x[1..N] = 1 [m]\ndx[i in 1..2]/dt = 0")[0].message).toBe("state x[3] has no derivative: add dx[3]/dt = …")
+    expect(checkModel("const N = 3 [1]\nconst tau = 2 [s]\nstate x[1..N] = 1 [m]\ndx[i in 1..N]/dt = -x[i] / tau").ok).toBe(true)
+    expect(errors("const N = 3 [1]\nstate x[1..N] = 1 [m]\ndx[i in 1..N]/dt = -x[i]")[0].message).toMatch(/dx\[1\]\/dt has unit m but should have m\/s/)
   })
 })

@@ -53,7 +53,7 @@ describe('Jacobians agree with central finite differences', () => {
 })
 
 describe('our own derivative rules', () => {
-  const one = (expr: string) => compileModel(`state x = 1\nstate y = 1\nx' = ${expr}\ny' = 0\noutput o = x`)
+  const one = (expr: string) => compileModel(`state x = 1\nstate y = 1\ndx/dt = ${expr}\ndy/dt = 0\noutput o = x`)
   const dfdx = (c: CompiledModel, x: number, y: number) => {
     const out = new Float64Array(4)
     c.dfdx(0, new Float64Array([x, y]), new Float64Array(0), new Float64Array(0), out)
@@ -103,7 +103,7 @@ describe('our own derivative rules', () => {
   })
 
   it('a lookup has the slope of its active segment and 0 outside the table', () => {
-    const c = compileModel(`lookup f = { 0: 0, 1: 2, 3: 3 }\nstate x = 1\nstate y = 1\nx' = f(x)\ny' = 0\noutput o = x`)
+    const c = compileModel(`lookup f = { 0: 0, 1: 2, 3: 3 }\nstate x = 1\nstate y = 1\ndx/dt = f(x)\ndy/dt = 0\noutput o = x`)
     expect(dfdx(c, 0.5, 0)[0]).toBe(2)
     expect(dfdx(c, 2, 0)[0]).toBe(0.5)
     expect(dfdx(c, -1, 0)[0]).toBe(0)

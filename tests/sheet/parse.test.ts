@@ -35,7 +35,7 @@ describe('parseModel', () => {
       '   20: 4 }',
       'state T = 5 [degC] "room # temperature"',
       'let q = f(T) "heat load"',
-      "T' = -q / C",
+      "dT/dt = -q / C",
       'const C = 1 [MJ/K]',
       'output y = T',
     ].join('\r\n')
@@ -58,7 +58,7 @@ describe('parseModel', () => {
   })
 
   it('orders lets by use, whatever their order in the sheet', () => {
-    const { model } = parseModel("state x = 1 [m]\nlet c = b * 2\nlet b = a + x\nlet a = x\nparam k = 1 [1/s] in [0, 2]\nx' = -k * c\noutput y = x")
+    const { model } = parseModel("state x = 1 [m]\nlet c = b * 2\nlet b = a + x\nlet a = x\nparam k = 1 [1/s] in [0, 2]\ndx/dt = -k * c\noutput y = x")
     const names = model!.letOrder.map((i) => model!.lets[i].name)
     expect(names).toEqual(['a', 'b', 'c'])
   })

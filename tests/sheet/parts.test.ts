@@ -23,8 +23,8 @@ state  upper_h  = 0.5  [m]
 state  lower_h  = 0.3  [m]
 let    upper_out = upper_Cd * sqrt(max(upper_h, 0))
 let    lower_out = lower_Cd * sqrt(max(lower_h, 0))
-upper_h' = (q_feed - upper_out) / upper_A
-lower_h' = (upper_out - lower_out) / lower_A
+dupper_h/dt = (q_feed - upper_out) / upper_A
+dlower_h/dt = (upper_out - lower_out) / lower_A
 output level_up  = upper_h [m] sigma 0.005
 output level_low = lower_h [m] sigma 0.005`
 
@@ -105,11 +105,11 @@ describe('parts', () => {
     expect(r.summary.states.map((s) => s.name)).toEqual(['p.t1.h'])
     expect(r.summary.partsUsed).toEqual([{ handle: 'tank-pair', version: 3 }, { handle: 'gravity-tank', version: 1 }])
     const f = flatText('model "top"\ntime [s]\npart p = tank-pair@3\nfeed p.f = 2e-3\noutput y = p.lvl [m]', { resolvePart: lib })
-    expect(f.text).toMatch(/p\.t1\.h' = \(p\.t1\.q_in - p\.t1\.q_out\) \/ p\.t1\.A/)
+    expect(f.text).toMatch(/d\(p\.t1\.h\)\/dt = \(p\.t1\.q_in - p\.t1\.q_out\) \/ p\.t1\.A/)
   })
 
   it('qualified names outside parts are refused', () => {
-    const r = checkModel("param a.k = 1 [1] fixed\nstate x = 1\nx' = -x\noutput y = x")
+    const r = checkModel("param a.k = 1 [1] fixed\nstate x = 1\ndx/dt = -x\noutput y = x")
     expect(r.ok).toBe(false)
     expect(r.diagnostics[0].message).toMatch(/there is no part named 'a'/)
   })

@@ -17,12 +17,12 @@ input q = 0.1 [m/s]
 state x = 0.4 [m]
 state y = 0.9 [m]
 let gate = soft_step(x, h, w)
-x' = q * soft_switch(y, h, w, 0.5, 2) - k * soft_clamp(x, lo, hi, w) + k * gate * m1
-y' = k * (soft_max(x, h, w) - soft_min(y, lo, w))
+dx/dt = q * soft_switch(y, h, w, 0.5, 2) - k * soft_clamp(x, lo, hi, w) + k * gate * m1
+dy/dt = k * (soft_max(x, h, w) - soft_min(y, lo, w))
 output level = soft_clamp(y, lo, hi, w) [m]`
 
 function valueOf(expr: string, x: number): number {
-  const c = compileModel(`state x = 1 [m]\nconst c0 = 0 [m]\nconst c1 = 1 [m]\nconst w = 0.2 [m]\nx' = 0 [m/s]\noutput o = ${expr} [1]`.replace('x\' = 0 [m/s]', 'x\' = 0'))
+  const c = compileModel(`state x = 1 [m]\nconst c0 = 0 [m]\nconst c1 = 1 [m]\nconst w = 0.2 [m]\ndx/dt = 0\noutput o = ${expr} [1]`)
   const y = new Float64Array(1)
   c.outputsFn(0, new Float64Array([x]), new Float64Array(0), new Float64Array(0), y)
   return y[0]
@@ -69,7 +69,7 @@ describe('smooth switches and limits', () => {
   })
 
   it('give a nonzero slope with respect to the threshold, where a comparison gives none', () => {
-    const sheet = (rhs: string) => `param h = 0.5 [m] in [0, 1]\nconst w = 0.1 [m]\nconst r = 1 [m/s]\nstate x = 0.45 [m]\nx' = ${rhs}\noutput o = x [m]`
+    const sheet = (rhs: string) => `param h = 0.5 [m] in [0, 1]\nconst w = 0.1 [m]\nconst r = 1 [m/s]\nstate x = 0.45 [m]\ndx/dt = ${rhs}\noutput o = x [m]`
     const slope = (text: string) => {
       const c = compileModel(text)
       const out = new Float64Array(1)
@@ -91,7 +91,7 @@ describe('smooth switches and limits', () => {
 
 describe('the warning on fitted parameters inside comparisons', () => {
   it('points at the comparison, through lets too, and names the smooth alternatives', () => {
-    const text = `param h = 0.5 [m] in [0, 1]\nparam k = 1 [1/s] in [0, 5]\nparam z = 0.1 [m] fixed\nstate x = 0.2 [m]\nlet hh = 2 * h\nlet on = x >= hh ? 1 : 0\nx' = k * (on * z - x) + (x < z) * k * z\noutput o = x [m]`
+    const text = `param h = 0.5 [m] in [0, 1]\nparam k = 1 [1/s] in [0, 5]\nparam z = 0.1 [m] fixed\nstate x = 0.2 [m]\nlet hh = 2 * h\nlet on = x >= hh ? 1 : 0\ndx/dt = k * (on * z - x) + (x < z) * k * z\noutput o = x [m]`
     const r = checkModel(text)
     expect(r.ok).toBe(true)
     const warnings = r.diagnostics.filter((d) => /comparison has zero slope/.test(d.message))

@@ -36,7 +36,7 @@ input T_in = 20 [degC]
 param k = 0.5 [1/min] in [0, 10]
 param V = 200 [L] fixed
 state T = 68 [degF]
-T' = k * (T_in - T)
+dT/dt = k * (T_in - T)
 output temp = T [degC]
 output vol = V [m^3]`)
     expect(c.secondsPerTimeUnit).toBe(60)
@@ -54,7 +54,7 @@ describe('derivatives are per sheet time unit', () => {
     const c = compileModel(`time [h]
 param mu = 0.5 [1/h] in [0, 2]
 state X = 1 [g/L]
-X' = mu * X
+dX/dt = mu * X
 output b = X`)
     const out = new Float64Array(1)
     c.rhs(0, new Float64Array([1]), new Float64Array([c.params[0].value]), new Float64Array(0), out)
@@ -68,7 +68,7 @@ output b = X`)
     const c = compileModel(`time [min]
 param k = 0.1 [1/s] in [0, 2]
 state x = 1 [m]
-x' = -k * x
+dx/dt = -k * x
 output y = x`)
     const out = new Float64Array(1)
     c.rhs(0, new Float64Array([2]), new Float64Array([0.1]), new Float64Array(0), out)
@@ -80,7 +80,7 @@ output y = x`)
 const s_one = 1 [s]
 param a = 1 [m/s^2] fixed
 state v = 0 [m/s]
-v' = a * t / s_one
+dv/dt = a * t / s_one
 output y = v`)
     const out = new Float64Array(1)
     c.rhs(2, new Float64Array([0]), new Float64Array([1]), new Float64Array(0), out)
@@ -95,7 +95,7 @@ output y = v`)
     const c = compileModel(`time [h]
 param k = 0.5 in [0, 1]
 state x = 1
-x' = -k * x
+dx/dt = -k * x
 output y = x`)
     const out = new Float64Array(1)
     c.rhs(0, new Float64Array([1]), new Float64Array([0.5]), new Float64Array(0), out)
@@ -109,28 +109,28 @@ param A = 1.2 [m^2] fixed
 param Cv = 4e-3 [m^2.5/s] in [1e-4, 1e-1]
 input q_in = 2e-3 [m^3/s]
 state h = 0.8 [m]
-h' = q_in - Cv * sqrt(max(h, 0))
+dh/dt = q_in - Cv * sqrt(max(h, 0))
 output level = h [m]`
-  const right = wrong.replace("h' = q_in - Cv * sqrt(max(h, 0))", "h' = (q_in - Cv * sqrt(max(h, 0))) / A")
+  const right = wrong.replace("dh/dt = q_in - Cv * sqrt(max(h, 0))", "dh/dt = (q_in - Cv * sqrt(max(h, 0))) / A")
 
   it('a unit-wrong sheet fails with the unit found and the unit expected; its corrected twin passes', () => {
     const errs = errors(wrong)
     expect(errs).toHaveLength(1)
-    expect(errs[0]).toMatchObject({ line: 6, column: 6 })
-    expect(errs[0].message).toBe("h' has unit m^3/s but should have m/s (the unit of h, m, per s)")
+    expect(errs[0]).toMatchObject({ line: 6, column: 9 })
+    expect(errs[0].message).toBe("dh/dt has unit m^3/s but should have m/s (the unit of h, m, per s)")
     const ok = checkModel(right)
     expect(ok.ok).toBe(true)
     expect(ok.diagnostics).toEqual([])
   })
 
   it('a sum of unlike units', () => {
-    const errs = errors(wrong.replace("h' = q_in - Cv * sqrt(max(h, 0))", "h' = (q_in - h) / A"))
+    const errs = errors(wrong.replace("dh/dt = q_in - Cv * sqrt(max(h, 0))", "dh/dt = (q_in - h) / A"))
     expect(errs.some((e) => e.line === 6 && /difference of unlike units: m\^3\/s and m/.test(e.message))).toBe(true)
   })
 
   it('exp, log and trig need dimensionless arguments', () => {
     for (const f of ['exp', 'log', 'sin', 'tanh']) {
-      const errs = errors(wrong.replace("h' = q_in - Cv * sqrt(max(h, 0))", `h' = q_in / A * ${f}(h)`))
+      const errs = errors(wrong.replace("dh/dt = q_in - Cv * sqrt(max(h, 0))", `dh/dt = q_in / A * ${f}(h)`))
       expect(errs.some((e) => new RegExp(`argument of ${f} must be dimensionless, found m`).test(e.message)), f).toBe(true)
     }
     // h / 1.5 still has unit m; h / h0 is dimensionless
@@ -160,7 +160,7 @@ output level = h [m]`
   })
 
   it('symbols declared without a unit skip the check', () => {
-    const text = wrong.replace('param Cv = 4e-3 [m^2.5/s]', 'param Cv = 4e-3').replace("h' = q_in - Cv * sqrt(max(h, 0))", "h' = (q_in - Cv * sqrt(max(h, 0))) / A")
+    const text = wrong.replace('param Cv = 4e-3 [m^2.5/s]', 'param Cv = 4e-3').replace("dh/dt = q_in - Cv * sqrt(max(h, 0))", "dh/dt = (q_in - Cv * sqrt(max(h, 0))) / A")
     expect(errors(text)).toEqual([])
   })
 
@@ -168,7 +168,7 @@ output level = h [m]`
     const base = `lookup f [m] -> [m^3/s] = { 0: 0, 1: 1e-3 }
 param A = 1 [m^2] fixed
 state h = 1 [m]
-h' = (1e-3 - f(ARG)) / A
+dh/dt = (1e-3 - f(ARG)) / A
 output y = h`
     expect(errors(base.replace('ARG', 'h'))).toEqual([])
     expect(errors(base.replace('ARG', 'A')).some((e) => /lookup f expects an argument in m \(m\), found m\^2/.test(e.message))).toBe(true)
@@ -177,7 +177,7 @@ output y = h`
   it('a literal meeting a non-SI quantity is flagged as read in SI', () => {
     const r = checkModel(`state T = 20 [degC]
 param k = 0.01 [1/s] in [0, 1]
-T' = k * (max(T, 300) - T)
+dT/dt = k * (max(T, 300) - T)
 output y = T`)
     expect(r.ok).toBe(true)
     expect(r.diagnostics.some((d) => d.severity === 'warning' && /read in SI units/.test(d.message))).toBe(true)
