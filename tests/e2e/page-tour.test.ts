@@ -13,7 +13,7 @@ import type { Page } from 'playwright-core'
 import { startBrowserRig, type BrowserRig } from '../helpers/browser'
 import { CSRF, demo } from '../helpers/app'
 import { capturedMail, mailTo } from '../helpers/signup'
-import { overflowing } from '../helpers/layout'
+import { legendOverlaps, overflowing } from '../helpers/layout'
 import { DEMO_PASSWORD } from '../../server/db/seed'
 import { seedDemoProject } from '../../server/services/demo-project'
 
@@ -189,6 +189,8 @@ async function check(page: Page, stop: Stop, shot: string, phone: boolean, error
       await nav.waitFor({ state: 'hidden' })
     }
   }
+  // no legend over a plotting area or a title (Plotly places the legends when it draws)
+  await expect.poll(async () => (await legendOverlaps(page)).found, { timeout: 10_000, interval: 250, message: `${shot}: legends` }).toEqual([])
   const controls = await outsideControls(page)
   expect(controls.visible, `${shot}: a way on`).toBeGreaterThan(0)
   if (phone) expect(controls.outside, `${shot}: links or buttons outside the window`).toEqual([])
@@ -228,7 +230,7 @@ describe('browser: a tour of every page at 1440 and 390 px', () => {
     errors.take()
     for (const stop of workspacePages) await tour(page, stop, errors)
     await page.close()
-  }, 420_000)
+  }, 600_000)
 
   it('an account without a workspace', async () => {
     const page = await rig.newPage()

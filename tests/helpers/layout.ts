@@ -16,3 +16,23 @@ export const overflowing = (page: Page) => page.evaluate(`(() => {
     .slice(0, 8)
     .map((el) => el.tagName.toLowerCase() + '.' + [...el.classList].join('.') + ' (' + Math.round(el.getBoundingClientRect().right) + ' px)')
 })()`) as Promise<string[]>
+
+/**
+ * Legends lying over a chart's plotting area, an axis title or the chart title, for every Plotly chart
+ * of the page (`found` names each, empty when clear), and how many legends were looked at.
+ */
+export const legendOverlaps = (page: Page) => page.evaluate(`(() => {
+  const hit = (a, b) => Math.min(a.right, b.right) - Math.max(a.left, b.left) > 1 && Math.min(a.bottom, b.bottom) - Math.max(a.top, b.top) > 1
+  const found = []
+  let legends = 0
+  document.querySelectorAll('.plotly-chart').forEach((chart, k) => {
+    const legend = chart.querySelector('g.legend')
+    if (!legend) return
+    legends++
+    const lr = legend.getBoundingClientRect()
+    chart.querySelectorAll('.draglayer .nsewdrag, .g-xtitle, .g-ytitle, .gtitle').forEach((el) => {
+      if (hit(lr, el.getBoundingClientRect())) found.push((chart.getAttribute('aria-label') || 'chart ' + k) + ': legend over ' + el.getAttribute('class'))
+    })
+  })
+  return { found, legends }
+})()`) as Promise<{ found: string[]; legends: number }>
