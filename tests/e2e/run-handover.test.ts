@@ -9,6 +9,7 @@ import { afterAll, beforeAll, describe, expect, it } from 'vitest'
 import request from 'supertest'
 import { startBrowserRig, type BrowserRig } from '../helpers/browser'
 import { CSRF, demo } from '../helpers/app'
+import { legendOverlaps } from '../helpers/layout'
 import { DEMO_PASSWORD } from '../../server/db/seed'
 import { bufferVesselCsv, BUFFER_TEMPLATE, templateVersion } from '../../server/services/demo-project'
 import { workspaces } from '../../server/db/schema'
@@ -69,22 +70,7 @@ describe('browser: handing a run on', () => {
     await poll(() => page.locator('section[aria-label="Residual checks"] .plotly-chart .main-svg').count()).toBeGreaterThan(2)
     await poll(() => page.locator('section[aria-label="Measured and simulated outputs"] .plotly-chart g.legend').count()).toBeGreaterThan(0)
     await page.waitForTimeout(500)
-    // evaluated in the page (a string: the tests are type-checked without the DOM library)
-    const overlaps = await page.evaluate(`(() => {
-      const hit = (a, b) => Math.min(a.right, b.right) - Math.max(a.left, b.left) > 1 && Math.min(a.bottom, b.bottom) - Math.max(a.top, b.top) > 1
-      const found = []
-      let legends = 0
-      document.querySelectorAll('.plotly-chart').forEach((chart, k) => {
-        const legend = chart.querySelector('g.legend')
-        if (!legend) return
-        legends++
-        const lr = legend.getBoundingClientRect()
-        chart.querySelectorAll('.draglayer .nsewdrag, .g-xtitle, .g-ytitle, .gtitle').forEach((el) => {
-          if (hit(lr, el.getBoundingClientRect())) found.push('chart ' + k + ': legend over ' + el.getAttribute('class'))
-        })
-      })
-      return { found, legends }
-    })()`) as { found: string[]; legends: number }
+    const overlaps = await legendOverlaps(page)
     expect(overlaps.legends).toBeGreaterThan(0)
     expect(overlaps.found).toEqual([])
     await rig.screenshot(page, 'run-report-residuals')

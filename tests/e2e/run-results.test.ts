@@ -8,9 +8,9 @@
  * Needs dist/ (`npx vite build`).
  */
 import { afterAll, beforeAll, describe, expect, it } from 'vitest'
-import type { Page } from 'playwright-core'
 import { startBrowserRig, type BrowserRig } from '../helpers/browser'
 import { demo } from '../helpers/app'
+import { overflowing } from '../helpers/layout'
 import { seedDemoProject } from '../../server/services/demo-project'
 
 let rig: BrowserRig
@@ -24,12 +24,6 @@ beforeAll(async () => {
 afterAll(async () => { await rig?.close() })
 
 const poll = <T>(fn: () => Promise<T> | T) => expect.poll(fn, { timeout: 60_000, interval: 200 })
-/** elements reaching past the right edge of the window (empty: no sideways scroll) */
-const overflowing = (page: Page) => page.evaluate(`(() => {
-  if (document.documentElement.scrollWidth <= window.innerWidth) return []
-  return [...document.querySelectorAll('body *')].filter((el) => el.getBoundingClientRect().right > window.innerWidth + 1)
-    .slice(0, 8).map((el) => el.tagName.toLowerCase() + '.' + [...el.classList].join('.') + ' (' + Math.round(el.getBoundingClientRect().right) + ' px)')
-})()`) as Promise<string[]>
 
 describe('browser: run results', () => {
   it('draws the band, the verdict table and the periodogram; correlations on demand', async () => {
