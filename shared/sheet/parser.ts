@@ -335,7 +335,7 @@ class SheetParser {
   private ownUnits: string[] | null = null
   /** the unit names the sheet's own `[…]` texts use, for spelling help */
   private sheetUnits(): string[] {
-    this.ownUnits ??= sheetUnitNames([...this.text.matchAll(/\[([^\[\]\n,]{1,80})\]/g)].slice(0, 2000).map((m) => m[1].trim()))
+    this.ownUnits ??= sheetUnitNames([...this.text.matchAll(/\[([^[\]\n,]{1,80})\]/g)].slice(0, 2000).map((m) => m[1].trim()))
     return this.ownUnits
   }
 
