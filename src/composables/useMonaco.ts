@@ -1,11 +1,12 @@
 /**
  * Loads Monaco on demand (a dynamic import, so the first page stays light): the lean editor entry,
  * its features (hover, completion, find …) and the editor worker, all bundled by Vite — nothing
- * comes from a CDN. Registers the sheet language once.
+ * comes from a CDN. Registers the sheet language and its quick fixes once.
  */
 import { shallowRef } from 'vue'
 import type * as Monaco from 'monaco-editor/editor'
 import { registerSheetLanguage } from './sheetLanguage'
+import { registerDiagnosticFixes } from './sheetDiagnosticFixes'
 
 export type MonacoApi = typeof Monaco
 
@@ -21,6 +22,7 @@ export function loadMonaco(): Promise<MonacoApi> {
     const EditorWorker = worker.default
     ;(self as unknown as { MonacoEnvironment: { getWorker: () => Worker } }).MonacoEnvironment = { getWorker: () => new EditorWorker() }
     registerSheetLanguage(monaco)
+    registerDiagnosticFixes(monaco)
     return monaco
   })()
   loading.catch(() => { loading = null })
