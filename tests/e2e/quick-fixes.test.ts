@@ -1,7 +1,8 @@
 /**
  * Browser: diagnostics a newcomer can act on. A modeler starts a model from a template, types a
  * parameter line with a misspelt unit, sees the marker on that line and applies the quick fix
- * (Ctrl+.), then does the same for a misspelt keyword; the sheet checks clean again. The fixes come
+ * (Ctrl+.), then does the same for a misspelt keyword, and fixes a misspelt name from the problems
+ * list; the sheet checks clean again. The fixes come
  * from the check's diagnostics (shared checker); the editor only applies them.
  * Needs dist/ (`npx vite build`).
  */
@@ -88,6 +89,15 @@ describe('browser: quick fixes in the sheet editor', () => {
     await goTo(page, kwLine, 2)
     await applyQuickFix(page, "Change to 'param'", 'quick-fix-keyword')
     await poll(() => shownLines(page)).toContain('param P_spare2 = 1 [kW] fixed')
+    await poll(() => page.locator('.sheet-editor').getAttribute('data-marker-lines')).toBe('')
+
+    // a misspelt name: the problems list offers the same kind of fix beside the message
+    lines += 1
+    const nameLine = await appendLine(page, lines, 'let spare_total = P_spar + P_spare2 [kW]')
+    await poll(() => page.locator('.sheet-editor').getAttribute('data-marker-lines')).toBe(String(nameLine))
+    await poll(() => page.locator('[data-testid="problems"]').textContent()).toContain("unknown name 'P_spar' (did you mean 'P_spare'?)")
+    await page.locator('[data-testid="problem-fix"]', { hasText: "Change to 'P_spare'" }).click()
+    await poll(() => shownLines(page)).toContain('let spare_total = P_spare + P_spare2 [kW]')
     await poll(() => page.locator('.sheet-editor').getAttribute('data-marker-lines')).toBe('')
     await poll(() => page.locator('[data-testid="problem-count"]').textContent()).toMatch(/checks clean/)
     await rig.screenshot(page, 'quick-fix-applied')
