@@ -96,6 +96,7 @@ describe('browser: quick fixes in the sheet editor', () => {
     const nameLine = await appendLine(page, lines, 'let spare_total = P_spar + P_spare2 [kW]')
     await poll(() => page.locator('.sheet-editor').getAttribute('data-marker-lines')).toBe(String(nameLine))
     await poll(() => page.locator('[data-testid="problems"]').textContent()).toContain("unknown name 'P_spar' (did you mean 'P_spare'?)")
+    await rig.screenshot(page, 'quick-fix-problems-list')
     await page.locator('[data-testid="problem-fix"]', { hasText: "Change to 'P_spare'" }).click()
     await poll(() => shownLines(page)).toContain('let spare_total = P_spare + P_spare2 [kW]')
     await poll(() => page.locator('.sheet-editor').getAttribute('data-marker-lines')).toBe('')
