@@ -9,3 +9,9 @@ const math = create({ parseDependencies, unitDependencies })
 
 export const parse = math.parse
 export const unit = math.unit
+
+/** The names mathjs knows, for spelling help: each unit with the prefixes it takes. */
+export function unitNames(): { name: string; prefixes: string[] }[] {
+  const U = (math as unknown as { Unit: { UNITS: Record<string, { prefixes?: Record<string, unknown> }> } }).Unit
+  return Object.entries(U.UNITS).map(([name, u]) => ({ name, prefixes: Object.keys(u.prefixes ?? {}) }))
+}

@@ -18,12 +18,22 @@ const tag = z.string().trim().toLowerCase().min(1, 'a tag may not be empty').max
   .regex(/^[a-z0-9][a-z0-9 _-]*$/, 'a tag uses letters, digits, spaces, - and _')
 
 // ── the parsed summary of a sheet (what checkModel reports) ─────────────────────────────────────
+/** A place on one line of a sheet: 1-based line and columns, endColumn exclusive. */
+export const sheetRange = z.object({ line: z.number().int().min(1), column: z.number().int().min(1), endColumn: z.number().int().min(1) })
+/** The one obvious repair of a diagnostic: replace the text at `range` by `text` (the editor's quick fix). */
+export const diagnosticFix = z.object({
+  title: z.string(),
+  range: sheetRange,
+  text: z.string(),
+})
+export type DiagnosticFixDto = z.infer<typeof diagnosticFix>
 export const diagnosticDto = z.object({
   line: z.number(),
   column: z.number(),
   endColumn: z.number(),
   severity: z.enum(['error', 'warning']),
   message: z.string(),
+  fix: diagnosticFix.optional(),
 })
 export type DiagnosticDto = z.infer<typeof diagnosticDto>
 

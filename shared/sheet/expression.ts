@@ -6,8 +6,8 @@
 import { parse } from '../mathjs-lite'
 import type { MathNode } from 'mathjs'
 import { type Cols, type Expr, type FnName, type CmpOp, FUNCTIONS, constValue, fold } from './ast'
-import type { DiagnosticList } from './diagnostics'
-import { didYouMean } from '../did-you-mean'
+import { type DiagnosticList, replaceFix } from './diagnostics'
+import { closest } from '../did-you-mean'
 import { expandSmooth, isSmoothName, SMOOTH_FUNCTIONS, smoothSignature } from './smooth'
 
 export const MAX_EXPRESSION_LENGTH = 4000
@@ -151,9 +151,10 @@ class Converter {
     return [this.col0 + l.start, this.col0 + l.end]
   }
   private wholeCols(): Cols { return [this.col0, this.col0 + Math.max(1, this.text.length)] }
-  private fail(cols: Cols | undefined, msg: string): null {
+  private fail(cols: Cols | undefined, msg: string, fixText?: string | null): null {
     const c = cols ?? this.wholeCols()
-    this.ctx.diags.error({ line: this.line, column: c[0], endColumn: c[1] }, msg)
+    const span = { line: this.line, column: c[0], endColumn: c[1] }
+    this.ctx.diags.error(span, msg, fixText ? replaceFix(span, fixText) : null)
     this.failed = true
     return null
   }
@@ -362,7 +363,8 @@ class Converter {
     if (!FUNCTIONS.includes(name)) {
       const kind = this.ctx.kindOf(name)
       if (kind) return this.fail(nameCols, `${name} is a ${kind}, not a function`)
-      return this.fail(nameCols, `unknown function '${name}'${didYouMean(name, this.ctx.callables())}`)
+      const near = closest(name, this.ctx.callables())
+      return this.fail(nameCols, `unknown function '${name}'${near ? ` (did you mean '${near}'?)` : ''}`, nameCols && near)
     }
     if (bad) return null
     const s = this.span([nameCols, ...args.map((a) => a.s)])

@@ -5,17 +5,18 @@
  */
 import { type Cols, type Expr, FUNCTIONS, walk } from './ast'
 import type { DelayInfo, TimeUnit } from './compiled'
-import { type Diagnostic, DiagnosticList, type Span } from './diagnostics'
+import { type Diagnostic, type DiagnosticFix, DiagnosticList, replaceFix, type Span } from './diagnostics'
 import { buildExpr, type ExprContext } from './expression'
 import { hashText } from './hash'
 import { type DerivativeHead, derivativeHead, derivativeName, olderFormMessage } from './leibniz'
 import { LineScanner, NUMBER_RE, type RawExpr, stripComment, type Tok } from './line-scanner'
 import type { ConstDecl, EquationDecl, InputDecl, LetDecl, LookupDecl, ModeDecl, OutputDecl, ParamDecl, ParsedModel, StateDecl } from './model'
-import { didYouMean } from '../did-you-mean'
+import { closest, didYouMean } from '../did-you-mean'
 import { checkUnits } from './unit-check'
 import { checkComparisons } from './comparison-check'
 import { buildEvents, type RawEvent, readEventLine, readModeLine } from './events'
 import { parseUnit, SECONDS_PER, sameDims, TIME_DIMS, type UnitInfo } from './units'
+import { plainPowerForm, sheetUnitNames, unknownUnitProblem } from './unit-suggest'
 
 export const MAX_SHEET_CHARS = 2_000_000
 export const MAX_LINE_CHARS = 10_000
@@ -112,6 +113,8 @@ class SheetParser {
   /** index variables bound while an expression is built (innermost last) */
   private indexEnv: IndexEnv[] = []
 
+  private text = ''
+
   run(text: unknown): ParseResult {
     const d = this.diags
     const first = { line: 1, column: 1, endColumn: 2 }
@@ -123,6 +126,7 @@ class SheetParser {
       d.error(first, `the sheet is too large (${text.length} characters, at most ${MAX_SHEET_CHARS})`)
       return { model: null, diagnostics: d.sorted() }
     }
+    this.text = text
     const lines = text.split(/\r\n|\n|\r/)
     for (let i = 0; i < lines.length; i++) {
       if (d.items.length >= MAX_DIAGNOSTICS) break
@@ -142,8 +146,11 @@ class SheetParser {
   }
 
   // ---------------------------------------------------------------- lines
-  /** reads the statement starting at lines[i]; returns the index of its last line */
-  private line(lines: string[], i: number): number {
+  /**
+   * reads the statement starting at lines[i]; returns the index of its last line. `asKeyword`:
+   * read the line as if it started with that keyword (after a misspelt one).
+   */
+  private line(lines: string[], i: number, asKeyword?: string): number {
     const raw = lines[i]
     const lineNo = i + 1
     const d = this.diags
@@ -170,11 +177,11 @@ class SheetParser {
       d.error(w.span, `a line must start with a keyword (${KEYWORDS.join(', ')}) or an equation dx/dt = …; found '${w.text.slice(0, 40)}'`)
       return i
     }
-    switch (head.text) {
+    switch (asKeyword ?? head.text) {
       case 'model': this.model(s, head); return i
       case 'time': this.time(s, head); return i
       case 'sample': this.sampleLine(s, head); return i
-      case 'input': case 'param': case 'const': case 'state': this.declaration(s, head.text); return i
+      case 'input': case 'param': case 'const': case 'state': this.declaration(s, asKeyword ?? head.text); return i
       case 'lookup': return this.lookup(s, lines, i)
       case 'let': this.letLine(s); return i
       case 'next': {
@@ -203,14 +210,35 @@ class SheetParser {
         return i
       default: {
         if (s.peek() === '=') {
-          d.error(head.span, `unknown statement: to define '${head.text}' write let ${head.text} = …, or ${derivativeName(head.text)} = … for a state's derivative`)
-        } else if (s.peek() === '/' && head.text.length > 1 && head.text.startsWith('d')) {
-          d.error(s.span(head.span.column - 1, s.text.indexOf('=') > 0 ? s.text.indexOf('=') : s.text.length), `a derivative is taken with respect to the time t: write ${derivativeName(head.text.slice(1))} = …`)
-        } else {
-          d.error(head.span, `unknown keyword '${head.text}'${didYouMean(head.text, KEYWORDS)}; a line starts with ${KEYWORDS.join(', ')} or is an equation dx/dt = …`)
+          d.error(head.span, `unknown statement: to define '${head.text}' write let ${head.text} = …, or ${derivativeName(head.text)} = … for a state's derivative`, replaceFix(head.span, `let ${head.text}`, `Make it let ${head.text} = …`))
+          return i
         }
-        return i
+        if (s.peek() === '/' && head.text.length > 1 && head.text.startsWith('d')) {
+          d.error(s.span(head.span.column - 1, s.text.indexOf('=') > 0 ? s.text.indexOf('=') : s.text.length), `a derivative is taken with respect to the time t: write ${derivativeName(head.text.slice(1))} = …`)
+          return i
+        }
+        const kw = asKeyword ? null : closest(head.text, KEYWORDS)
+        if (!kw) {
+          d.error(head.span, `unknown keyword '${head.text}'; a line starts with ${KEYWORDS.join(', ')} or is an equation dx/dt = …`)
+          return i
+        }
+        d.error(head.span, `unknown keyword '${head.text}'; did you mean '${kw}'?`, replaceFix(head.span, kw))
+        return this.readAsKeyword(lines, i, kw)
       }
+    }
+  }
+
+  /**
+   * After a misspelt keyword: read the line as the keyword meant, so what it declares counts as
+   * declared, keeping its own problems back (the misspelling is the one reported at that line).
+   */
+  private readAsKeyword(lines: string[], i: number, kw: string): number {
+    const real = this.diags
+    this.diags = new DiagnosticList()
+    try {
+      return this.line(lines, i, kw)
+    } finally {
+      this.diags = real
     }
   }
 
@@ -285,12 +313,25 @@ class SheetParser {
   }
 
   private unitAt(b: { tok: Tok; inner: string; innerCol: number }): UnitInfo | false {
-    const r = parseUnit(b.inner.trim())
+    const text = b.inner.trim()
+    const r = parseUnit(text)
+    const lead = b.inner.length - b.inner.trimStart().length
+    const inner = { line: b.tok.span.line, column: b.innerCol + lead, endColumn: b.innerCol + lead + Math.max(1, text.length) }
     if (!r.ok) {
-      this.diags.error(b.tok.span, r.message)
+      const p = unknownUnitProblem(text, r.message, r.unknown, this.sheetUnits())
+      this.diags.error(b.tok.span, p.message, p.replacement === null ? null : replaceFix(inner, p.replacement))
       return false
     }
+    const plain = plainPowerForm(text)
+    if (plain) this.diags.warning(b.tok.span, `unit '${text}': write powers with ^; did you mean '${plain}'?`, replaceFix(inner, plain))
     return r.unit
+  }
+
+  private ownUnits: string[] | null = null
+  /** the unit names the sheet's own `[…]` texts use, for spelling help */
+  private sheetUnits(): string[] {
+    this.ownUnits ??= sheetUnitNames([...this.text.matchAll(/\[([^[\]\n,]{1,80})\]/g)].slice(0, 2000).map((m) => m[1].trim()))
+    return this.ownUnits
   }
 
   /** an optional `[unit]` here: null when there is none, false after reporting an error */
@@ -362,8 +403,8 @@ class SheetParser {
     }
     const v = this.number(s, `value of ${name.text}`, example)
     if (!v) return
-    const unit = this.optionalUnit(s)
-    if (unit === false) return
+    // a unit in error is reported; the name still counts as declared (no knock-on errors)
+    const unit = this.optionalUnit(s) || null
     let fixed = false, estimate = false, steady = false
     let interp: 'linear' | 'hold' = 'linear'
     let bounds: { lo: number; hi: number; span: Span; loSpan: Span; hiSpan: Span } | null = null
@@ -383,16 +424,20 @@ class SheetParser {
         else d.error(t.span, `unexpected '${t.text.slice(0, 40)}' in the ${kw} declaration`)
         return
       }
-      if (!allowed[kw].includes(w.text)) {
+      let word = w.text
+      if (!allowed[kw].includes(word)) {
         const opts = allowed[kw]
-        d.error(w.span, `unexpected '${w.text}' in a ${kw} declaration${opts.length ? ` (allowed: ${opts.join(', ')}, then "description")` : ' (allowed: a "description")'}${didYouMean(w.text, opts)}`)
-        return
+        const near = closest(word, opts)
+        d.error(w.span, `unexpected '${word}' in a ${kw} declaration${opts.length ? ` (allowed: ${opts.join(', ')}, then "description")` : ' (allowed: a "description")'}${near ? ` (did you mean '${near}'?)` : ''}`, near ? replaceFix(w.span, near) : null)
+        if (!near) return
+        // read on as the word meant, so the declaration still counts (no knock-on errors)
+        word = near
       }
-      if (w.text === 'fixed') fixed = true
-      else if (w.text === 'estimate') estimate = true
-      else if (w.text === 'steady') steady = true
-      else if (w.text === 'linear' || w.text === 'hold') interp = w.text
-      else if (w.text === 'in') {
+      if (word === 'fixed') fixed = true
+      else if (word === 'estimate') estimate = true
+      else if (word === 'steady') steady = true
+      else if (word === 'linear' || word === 'hold') interp = word
+      else if (word === 'in') {
         const bb = s.bracket()
         if (bb === 'unclosed') { d.error(s.restSpan(), "bounds have no closing ']'"); return }
         if (!bb) { d.error(s.restSpan(), 'expected bounds after in: in [lower, upper]'); return }
@@ -663,8 +708,7 @@ class SheetParser {
     }
     if (!s.eat('=')) { this.diags.error(s.restSpan(), `missing value: write let ${name.text} = <expression>`); return }
     const raw = this.rawExpr(s, this.exprEnd(s, true))
-    const unit = this.optionalUnit(s)
-    if (unit === false) return
+    const unit = this.optionalUnit(s) || null
     const description = this.description(s)
     if (!s.atEnd()) { this.trailing(s, 'the let'); return }
     const names = range ? this.expandRange(name, 'let', range) : [name]
@@ -732,8 +776,7 @@ class SheetParser {
       d.error(name.span, `output ${name.text} names nothing: write output ${name.text} = <expression> [unit]`)
       return
     }
-    const unit = this.optionalUnit(s)
-    if (unit === false) return
+    const unit = this.optionalUnit(s) || null
     let sigma: number | null = null
     if (s.peekIdent() === 'sigma') {
       s.ident()
@@ -760,7 +803,7 @@ class SheetParser {
         if (name === 'e') return { k: 'num', v: Math.E }
         const ent = this.names.get(name)
         if (!ent) {
-          this.pendingError(cols, this.unknownName(name, all))
+          this.pendingError(cols, this.unknownName(name, all), this.nameFix(name, all, cols))
           return null
         }
         switch (ent.kind) {
@@ -847,9 +890,16 @@ class SheetParser {
     return `unknown name '${name}'${didYouMean(name, all())}`
   }
 
+  /** the fix of an unknown name that is a near miss of a declared one */
+  private nameFix(name: string, all: () => string[], cols: Cols): DiagnosticFix | null {
+    if (this.ranges.has(name) || /\[/.test(name)) return null
+    const near = closest(name, all())
+    return near ? replaceFix({ line: this.curLine, column: cols[0], endColumn: cols[1] }, near) : null
+  }
+
   private curLine = 0
-  private pendingError(cols: Cols, msg: string): void {
-    this.diags.error({ line: this.curLine, column: cols[0], endColumn: cols[1] }, msg)
+  private pendingError(cols: Cols, msg: string, fix?: DiagnosticFix | null): void {
+    this.diags.error({ line: this.curLine, column: cols[0], endColumn: cols[1] }, msg, fix)
   }
 
   private build(raw: RawExpr, ctx: ExprContext, env: IndexEnv | null = null): Expr | null {

@@ -378,7 +378,9 @@ export function mapDiagnostics(f: FlattenResult, diags: Diagnostic[]): Diagnosti
     const key = `${o.line}|${msg}`
     if (seen.has(key)) continue
     seen.add(key)
-    out.push({ ...d, line: o.line, column: 1, endColumn: 2, message: msg })
+    // a fix names a place inside the part's text: it does not apply at the part line
+    const { fix: _inside, ...rest } = d
+    out.push({ ...rest, line: o.line, column: 1, endColumn: 2, message: msg })
   }
   return out.sort((a, b) => a.line - b.line || a.column - b.column)
 }

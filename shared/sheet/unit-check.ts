@@ -4,34 +4,63 @@
  * branches of ?: need like units; exp/log/trig/hyperbolic arguments are dimensionless; a power of a
  * quantity needs a plain-number exponent; a bare number adapts to the unit it meets; a symbol
  * without a unit makes its part of the check unknown (skipped).
+ *
+ * Beside its dimensions, each unit carries the form the sheet declared it in (the unit names as
+ * written, with powers: `V`, `m^3/s`), so a mismatch is reported in the sheet's own units
+ * ("the left side is in V, the right side in V^1.5"); SI base units only when no declared form is
+ * known.
  */
 import { type Cols, type Expr, constValue } from './ast'
 import type { DiagnosticList } from './diagnostics'
 import type { ParsedModel } from './model'
 import { derivativeName } from './leibniz'
-import { addDims, DIMENSIONLESS, type Dims, formatDims, isDimensionless, sameDims, scaleDims, TIME_DIMS, type UnitInfo } from './units'
+import { addDims, type Atoms, DIMENSIONLESS, type Dims, formatAtoms, formatDims, isDimensionless, sameDims, scaleDims, TIME_DIMS, type UnitInfo } from './units'
 
-/** 'any': a bare number (adapts); 'unknown': involves a symbol without unit */
-type U = { k: 'dims'; d: Dims } | { k: 'any' } | { k: 'unknown' }
+/** 'any': a bare number (adapts); 'unknown': involves a symbol without unit; `a`: the declared form, null when not known */
+type D = { k: 'dims'; d: Dims; a: Atoms | null }
+type U = D | { k: 'any' } | { k: 'unknown' }
 const ANY: U = { k: 'any' }
 const UNKNOWN: U = { k: 'unknown' }
-const dims = (d: Dims): U => ({ k: 'dims', d })
-const DL = dims(DIMENSIONLESS)
+const dims = (d: Dims, a: Atoms | null): D => ({ k: 'dims', d, a })
+const DL = dims(DIMENSIONLESS, {})
+
+/** the declared forms of a product (sign 1) or quotient (sign -1), or a power (k) */
+function mulAtoms(a: Atoms | null, b: Atoms | null, sign = 1): Atoms | null {
+  if (!a || !b) return null
+  const out: Record<string, number> = { ...a }
+  for (const [n, p] of Object.entries(b)) out[n] = (out[n] ?? 0) + sign * p
+  return out
+}
+function powAtoms(a: Atoms | null, k: number): Atoms | null {
+  if (!a) return null
+  const out: Record<string, number> = {}
+  for (const [n, p] of Object.entries(a)) out[n] = p * k
+  return out
+}
+const mul = (a: D, b: D, sign = 1): D => dims(addDims(a.d, b.d, sign), mulAtoms(a.a, b.a, sign))
+const pow = (a: D, k: number): D => dims(scaleDims(a.d, k), powAtoms(a.a, k))
+/** a unit in the sheet's own terms (SI base units when no declared form is known) */
+const show = (u: D): string => (u.a ? formatAtoms(u.a) : formatDims(u.d))
+const declared = (u: UnitInfo): D => dims(u.dims, u.atoms ?? null)
 
 export function checkUnits(m: ParsedModel, diags: DiagnosticList): void {
   const letUnits: U[] = m.lets.map(() => UNKNOWN)
-  const symUnit = (u: UnitInfo | null): U => (u ? dims(u.dims) : UNKNOWN)
-  const ctx: Ctx = { m, diags, line: 0, letUnits, symUnit }
+  const symUnit = (u: UnitInfo | null): U => (u ? declared(u) : UNKNOWN)
+  const timeName = m.timeUnit
+  const time = dims(TIME_DIMS, { [timeName]: 1 })
+  const ctx: Ctx = { m, diags, line: 0, letUnits, symUnit, time }
+  /** a left side in `want` whose right side has unit `u` */
+  const mismatch = (lhs: string, want: D, note: string, u: U, e: Expr, span: { line: number; column: number; endColumn: number }) => {
+    if (u.k !== 'dims' || sameDims(u.d, want.d)) return
+    diags.error(eqSpan(e, span.line, span), `unit mismatch: the left side ${lhs} is in ${show(want)}${note}, the right side in ${show(u)}`)
+  }
   for (const i of m.letOrder) {
     ctx.line = m.lets[i].span.line
     const l = m.lets[i]
     const u = unitOf(l.expr, ctx)
-    if (l.unit && u.k === 'dims' && !sameDims(u.d, l.unit.dims)) {
-      diags.error(eqSpan(l.expr, l.span.line, l.span), `let ${l.name} has unit ${formatDims(u.d)} but is declared in ${l.unit.text || '1'} (${formatDims(l.unit.dims)})`)
-    }
+    if (l.unit) mismatch(`let ${l.name}`, declared(l.unit), ' (as declared)', u, l.expr, l.span)
     letUnits[i] = l.unit ? symUnit(l.unit) : u
   }
-  const timeName = m.timeUnit
   for (const eq of m.equations) {
     const st = m.states[eq.state]
     ctx.line = eq.span.line
@@ -39,25 +68,16 @@ export function checkUnits(m: ParsedModel, diags: DiagnosticList): void {
     if (eq.form === 'derivative') {
       // the SI value of a right side with known unit is per second: scale it to per sheet time unit
       eq.timeFactor = u.k === 'dims' || (u.k === 'any' && st.unit !== null) ? m.secondsPerTimeUnit : 1
-      if (st.unit && u.k === 'dims') {
-        const want = addDims(st.unit.dims, TIME_DIMS, -1)
-        if (!sameDims(u.d, want)) {
-          diags.error(eqSpan(eq.expr, eq.span.line, eq.span), `${derivativeName(st.name)} has unit ${formatDims(u.d)} but should have ${formatDims(want)} (the unit of ${st.name}, ${st.unit.text || '1'}, per ${timeName})`)
-        }
-      }
+      if (st.unit) mismatch(derivativeName(st.name), mul(declared(st.unit), time, -1), ` (${st.name} in ${st.unit.text || '1'}, per ${timeName})`, u, eq.expr, eq.span)
     } else {
       eq.timeFactor = 1
-      if (st.unit && u.k === 'dims' && !sameDims(u.d, st.unit.dims)) {
-        diags.error(eqSpan(eq.expr, eq.span.line, eq.span), `next ${st.name} has unit ${formatDims(u.d)} but should have ${formatDims(st.unit.dims)} (the unit of ${st.name})`)
-      }
+      if (st.unit) mismatch(`next ${st.name}`, declared(st.unit), '', u, eq.expr, eq.span)
     }
   }
   for (const o of m.outputs) {
     ctx.line = o.span.line
     const u = unitOf(o.expr, ctx)
-    if (o.unit && u.k === 'dims' && !sameDims(u.d, o.unit.dims)) {
-      diags.error(eqSpan(o.expr, o.span.line, o.span), `output ${o.name} has unit ${formatDims(u.d)} but is declared in ${o.unit.text} (${formatDims(o.unit.dims)})`)
-    }
+    if (o.unit) mismatch(`output ${o.name}`, declared(o.unit), ' (as declared)', u, o.expr, o.span)
   }
   for (const ev of m.events) {
     ctx.line = ev.span.line
@@ -68,7 +88,7 @@ export function checkUnits(m: ParsedModel, diags: DiagnosticList): void {
       const st = m.states[r.index]
       const u = unitOf(r.expr, ctx)
       if (st.unit && u.k === 'dims' && !sameDims(u.d, st.unit.dims)) {
-        diags.error(r.span, `the event sets ${st.name} to a value in ${formatDims(u.d)}, but ${st.name} is in ${st.unit.text || '1'} (${formatDims(st.unit.dims)})`)
+        diags.error(r.span, `the event sets ${st.name} to a value in ${show(u)}, but ${st.name} is in ${st.unit.text || '1'}`)
       }
     }
   }
@@ -80,6 +100,8 @@ interface Ctx {
   line: number
   letUnits: U[]
   symUnit(u: UnitInfo | null): U
+  /** the time t, in the sheet's time unit */
+  time: D
 }
 
 function eqSpan(e: Expr, line: number, fallback: { line: number; column: number; endColumn: number }) {
@@ -121,14 +143,14 @@ function like(a: U, b: U, ea: Expr, eb: Expr, lead: string, ctx: Ctx, s: Cols | 
   if (a.k === 'any') return b
   if (b.k === 'any') return a
   if (!sameDims(a.d, b.d)) {
-    ctx.diags.error(where(ctx, s), `${lead} unlike units: ${formatDims(a.d)} and ${formatDims(b.d)}`)
+    ctx.diags.error(where(ctx, s), `${lead} unlike units: ${show(a)} and ${show(b)}`)
   }
   return a
 }
 
 function needDimensionless(u: U, e: Expr, what: string, ctx: Ctx): void {
   if (u.k === 'dims' && !isDimensionless(u.d)) {
-    ctx.diags.error(where(ctx, e.s), `the argument of ${what} must be dimensionless, found ${formatDims(u.d)}`)
+    ctx.diags.error(where(ctx, e.s), `the argument of ${what} must be dimensionless, found ${show(u)}`)
   }
 }
 
@@ -143,7 +165,7 @@ function unitOf(e: Expr, ctx: Ctx): U {
     case 'let': return ctx.letUnits[e.i]
     case 'tmp': return UNKNOWN
     case 'm': return DL
-    case 't': return dims(TIME_DIMS)
+    case 't': return ctx.time
     case 'neg': return unitOf(e.a, ctx)
     case 'delay': return ctx.symUnit(m.inputs[e.input].unit)
     case 'bin': {
@@ -156,13 +178,13 @@ function unitOf(e: Expr, ctx: Ctx): U {
           if (a.k === 'unknown' || b.k === 'unknown') return UNKNOWN
           if (a.k === 'any') return b
           if (b.k === 'any') return a
-          return dims(addDims(a.d, b.d))
+          return mul(a, b)
         case '/':
           if (a.k === 'unknown' || b.k === 'unknown') return UNKNOWN
           if (a.k === 'any' && b.k === 'any') return ANY
-          if (a.k === 'any') return dims(scaleDims((b as { d: Dims }).d, -1))
+          if (a.k === 'any') return pow(b as D, -1)
           if (b.k === 'any') return a
-          return dims(addDims(a.d, b.d, -1))
+          return mul(a, b, -1)
         case '^': return power(a, b, e.b, ctx)
       }
       return UNKNOWN
@@ -179,9 +201,9 @@ function unitOf(e: Expr, ctx: Ctx): U {
       const lk = m.lookups[e.i]
       const a = unitOf(e.a, ctx)
       if (lk.argUnit && a.k === 'dims' && !sameDims(a.d, lk.argUnit.dims)) {
-        ctx.diags.error(where(ctx, e.a.s, e.s), `lookup ${lk.name} expects an argument in ${lk.argUnit.text || '1'} (${formatDims(lk.argUnit.dims)}), found ${formatDims(a.d)}`)
+        ctx.diags.error(where(ctx, e.a.s, e.s), `lookup ${lk.name} expects an argument in ${lk.argUnit.text || '1'}, found ${show(a)}`)
       }
-      return lk.unit ? dims(lk.unit.dims) : UNKNOWN
+      return lk.unit ? declared(lk.unit) : UNKNOWN
     }
     case 'fn': {
       const args = e.args.map((a) => unitOf(a, ctx))
@@ -192,7 +214,7 @@ function unitOf(e: Expr, ctx: Ctx): U {
           needDimensionless(a0, e.args[0], e.f, ctx)
           return a0.k === 'any' ? ANY : a0.k === 'unknown' ? UNKNOWN : DL
         case 'sqrt':
-          return a0.k === 'dims' ? dims(scaleDims(a0.d, 0.5)) : a0
+          return a0.k === 'dims' ? pow(a0, 0.5) : a0
         case 'abs': case 'floor': case 'ceil':
           return a0
         case 'sign':
@@ -220,8 +242,8 @@ function power(a: U, b: U, eb: Expr, ctx: Ctx): U {
   if (a.k !== 'dims' || isDimensionless(a.d)) return a.k === 'dims' ? DL : a
   const n = constValue(eb)
   if (n === null) {
-    ctx.diags.error(where(ctx, eb.s), `the exponent of a quantity with unit ${formatDims(a.d)} must be a plain number`)
+    ctx.diags.error(where(ctx, eb.s), `the exponent of a quantity with unit ${show(a)} must be a plain number`)
     return UNKNOWN
   }
-  return dims(scaleDims(a.d, n))
+  return pow(a, n)
 }

@@ -21,12 +21,19 @@ export interface UnitInfo {
   scale: number
   /** non-zero for an offset unit such as degC (allowed only on its own, for an absolute quantity) */
   offset: number
+  /** the unit as a product of the unit names written, with their powers (`kW/m^2` → kW: 1, m: -2) */
+  atoms?: Atoms
 }
+
+/** A unit as the sheet wrote it: each unit name (with its prefix) and its power. */
+export type Atoms = Readonly<Record<string, number>>
+const NO_ATOMS: Atoms = Object.freeze({})
 
 export const DIMENSIONLESS: Dims = Object.freeze(new Array<number>(N_DIMS).fill(0))
 export const TIME_DIMS: Dims = Object.freeze(DIMENSIONLESS.map((_, i) => (i === TIME ? 1 : 0)))
 
-export type UnitResult = { ok: true; unit: UnitInfo } | { ok: false; message: string; offsetInCompound?: boolean }
+/** `unknown`: the unit name mathjs does not know (see unit-suggest.ts for a did-you-mean) */
+export type UnitResult = { ok: true; unit: UnitInfo } | { ok: false; message: string; offsetInCompound?: boolean; unknown?: string }
 
 const cache = new Map<string, UnitResult>()
 
@@ -42,8 +49,8 @@ export function parseUnit(text: string): UnitResult {
 }
 
 function parseUncached(text: string): UnitResult {
-  if (text === '' || text === '1' || text === '-') return { ok: true, unit: { text, dims: DIMENSIONLESS, scale: 1, offset: 0 } }
-  if (text === '%') return { ok: true, unit: { text, dims: DIMENSIONLESS, scale: 0.01, offset: 0 } }
+  if (text === '' || text === '1' || text === '-') return { ok: true, unit: { text, dims: DIMENSIONLESS, scale: 1, offset: 0, atoms: NO_ATOMS } }
+  if (text === '%') return { ok: true, unit: { text, dims: DIMENSIONLESS, scale: 0.01, offset: 0, atoms: Object.freeze({ '%': 1 }) } }
   if (text.length > 200) return { ok: false, message: 'unit text is too long' }
   if (!/^[A-Za-z0-9_ .*/^()-]+$/.test(text)) return { ok: false, message: `unknown unit '${text}'` }
   try {
@@ -57,11 +64,16 @@ function parseUncached(text: string): UnitResult {
       return { ok: false, message: `offset unit '${offsetParts[0].unit.name}' is allowed only on its own, for an absolute quantity: write K in compound units such as W/K`, offsetInCompound: true }
     }
     if (!Number.isFinite(si1) || !Number.isFinite(si0) || si1 - si0 === 0) return { ok: false, message: `unknown unit '${text}'` }
-    return { ok: true, unit: { text, dims: Object.freeze(dims), scale: si1 - si0, offset: si0 } }
+    const atoms: Record<string, number> = {}
+    for (const u of one.units) {
+      const name = (u.prefix?.name ?? '') + u.unit.name
+      atoms[name] = (atoms[name] ?? 0) + u.power
+    }
+    return { ok: true, unit: { text, dims: Object.freeze(dims), scale: si1 - si0, offset: si0, atoms: Object.freeze(atoms) } }
   } catch (e) {
     const msg = e instanceof Error ? e.message : String(e)
     const m = /Unit "([^"]*)" not found/.exec(msg)
-    if (m) return { ok: false, message: `unknown unit '${m[1]}'` + suggestUnit(m[1]) }
+    if (m) return { ok: false, message: `unknown unit '${m[1]}'`, unknown: m[1] }
     return { ok: false, message: `unknown unit '${text}'` }
   }
 }
@@ -69,15 +81,8 @@ function parseUncached(text: string): UnitResult {
 interface MathUnitLike {
   value: number
   dimensions: number[]
-  units: { unit: { name: string; offset: number }; power: number }[]
+  units: { unit: { name: string; offset: number }; prefix?: { name: string }; power: number }[]
   toSI(): unknown
-}
-
-const COMMON = ['s', 'min', 'h', 'm', 'kg', 'g', 'K', 'degC', 'W', 'J', 'Pa', 'bar', 'N', 'V', 'A', 'ohm', 'mol', 'L', 'Ah', 'Hz', 'rad']
-function suggestUnit(name: string): string {
-  const lower = name.toLowerCase()
-  const hit = COMMON.find((c) => c.toLowerCase() === lower && c !== name)
-  return hit ? ` (did you mean '${hit}'?)` : ''
 }
 
 export function sameDims(a: Dims, b: Dims): boolean {
@@ -98,18 +103,28 @@ function fmtPow(p: number): string {
   const r = Math.round(p * 1000) / 1000
   return r === 1 ? '' : `^${r}`
 }
-/** Coherent SI form of a dimension vector, e.g. `kg*m^2/s^3`; `1` when dimensionless. */
-export function formatDims(d: Dims): string {
+/**
+ * A unit written as the sheet wrote its parts, e.g. `V^1.5`, `kW/(m^2*K)`; `1` when nothing is
+ * left. Names keep their order of first appearance; powers are rounded to 3 decimals.
+ */
+export function formatAtoms(a: Atoms): string {
   const num: string[] = []
   const den: string[] = []
-  for (let i = 0; i < N_DIMS; i++) {
-    if (Math.abs(d[i]) < 1e-9) continue
-    if (d[i] > 0) num.push(SI_SYMBOLS[i] + fmtPow(d[i]))
-    else den.push(SI_SYMBOLS[i] + fmtPow(-d[i]))
+  for (const [name, p] of Object.entries(a)) {
+    if (Math.abs(p) < 1e-9) continue
+    if (p > 0) num.push(name + fmtPow(p))
+    else den.push(name + fmtPow(-p))
   }
   const n = num.length ? num.join('*') : '1'
   if (!den.length) return n
   return `${n}/${den.length > 1 ? '(' + den.join('*') + ')' : den[0]}`
+}
+
+/** Coherent SI form of a dimension vector, e.g. `kg*m^2/s^3`; `1` when dimensionless. */
+export function formatDims(d: Dims): string {
+  const a: Record<string, number> = {}
+  for (let i = 0; i < N_DIMS; i++) a[SI_SYMBOLS[i]] = d[i]
+  return formatAtoms(a)
 }
 
 export const SECONDS_PER: Record<'s' | 'min' | 'h', number> = { s: 1, min: 60, h: 3600 }

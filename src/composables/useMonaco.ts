@@ -1,12 +1,13 @@
 /**
  * Loads Monaco on demand (a dynamic import, so the first page stays light): the lean editor entry,
  * its features (hover, completion, find …) and the editor worker, all bundled by Vite — nothing
- * comes from a CDN. Registers the sheet language once.
+ * comes from a CDN. Registers the sheet language and its quick fixes once.
  */
 import { shallowRef } from 'vue'
 import type * as Monaco from 'monaco-editor/editor'
 import { registerSheetLanguage, SHEET_LANGUAGE } from './sheetLanguage'
 import { registerSheetQuickFixes } from './sheetQuickFixes'
+import { registerDiagnosticFixes } from './sheetDiagnosticFixes'
 
 export type MonacoApi = typeof Monaco
 
@@ -23,6 +24,7 @@ export function loadMonaco(): Promise<MonacoApi> {
     ;(self as unknown as { MonacoEnvironment: { getWorker: () => Worker } }).MonacoEnvironment = { getWorker: () => new EditorWorker() }
     registerSheetLanguage(monaco)
     registerSheetQuickFixes(monaco, SHEET_LANGUAGE)
+    registerDiagnosticFixes(monaco)
     return monaco
   })()
   loading.catch(() => { loading = null })

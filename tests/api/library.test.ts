@@ -193,7 +193,10 @@ describe('publishing, maintainers and approval', () => {
     const r = await as.modeler.post(`${base}/${modelId}/versions`).set(CSRF).send({ text: drainSheetWithError, note: 'typo', baseVersion: 2 })
     expect(r.status).toBe(400)
     expect(r.body.error.details.diagnostics).toEqual([
-      { line: 8, column: 7, endColumn: 12, severity: 'error', message: "unknown name 'q_inn' (did you mean 'q_in'?)" },
+      {
+        line: 8, column: 7, endColumn: 12, severity: 'error', message: "unknown name 'q_inn' (did you mean 'q_in'?)",
+        fix: { title: "Change to 'q_in'", range: { line: 8, column: 7, endColumn: 12 }, text: 'q_in' },
+      },
     ])
     expect((await as.viewer.get(`${base}/${modelId}`)).body.latestVersion).toBe(2)
   })
@@ -311,6 +314,23 @@ describe('POST /api/check', () => {
     expect(bad.diagnostics[0]).toMatchObject({ line: 8, column: 7, severity: 'error' })
     const after = await t.context.database.pool.query('select (select count(*) from models)::int as m, (select count(*) from model_versions)::int as v')
     expect(after.rows[0]).toEqual(before.rows[0])
+  })
+
+  it('carries the fix of a problem with one obvious repair (range and replacement text)', async () => {
+    // invented sheet of the Tinmoor Works demo: a misspelt unit, a misspelt keyword
+    const text = 'model "sump"\nparam k = 0.2 [1/s] in [0, 1]\nstat h = 1 [m]\nh\' = -k * h\noutput level = h [kw]'
+    const r = await as.viewer.post('/api/check').set(CSRF).send({ text })
+    expect(r.status).toBe(200)
+    const reply = checkReply.parse(r.body)
+    expect(reply.ok).toBe(false)
+    expect(reply.diagnostics).toEqual([
+      { line: 3, column: 1, endColumn: 5, severity: 'error', message: "unknown keyword 'stat'; did you mean 'state'?", fix: { title: "Change to 'state'", range: { line: 3, column: 1, endColumn: 5 }, text: 'state' } },
+      { line: 5, column: 18, endColumn: 22, severity: 'error', message: "unknown unit 'kw'; did you mean 'kW'?", fix: { title: "Change to 'kW'", range: { line: 5, column: 19, endColumn: 21 }, text: 'kW' } },
+    ])
+    // a diagnostic without an obvious repair has no fix
+    const plain = checkReply.parse((await as.viewer.post('/api/check').set(CSRF).send({ text: text.replace('[kw]', '[furlongs]').replace('stat ', 'state ') })).body)
+    expect(plain.diagnostics).toEqual([expect.objectContaining({ line: 5, message: "unknown unit 'furlongs'" })])
+    expect(plain.diagnostics[0].fix).toBeUndefined()
   })
 
   it('needs a sign-in and a text', async () => {

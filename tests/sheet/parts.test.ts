@@ -72,7 +72,7 @@ describe('parts', () => {
     expect(r.ok).toBe(false)
     const d = r.diagnostics.find((x) => x.severity === 'error')!
     expect(d.line).toBe(6)
-    expect(d.message).toMatch(/part a: let a.q_in has unit kg\/s but is declared in m\^3\/s/)
+    expect(d.message).toBe('part a: unit mismatch: the left side let a.q_in is in m^3/s (as declared), the right side in kg/s')
   })
 
   it('refuses cycles with the chain named, missing parts, unknown inputs and wrong overrides', () => {
