@@ -63,8 +63,8 @@ describe('creating a model', () => {
     const before = (await as.admin.get(base)).body.total
     const r = await as.modeler.post(base).set(CSRF).send({ title: 'Broken', text: drainSheetWithError })
     expect(r.status).toBe(400)
-    expect(r.body.error.message).toMatch(/line 8, column 7: unknown name 'q_inn'/)
-    expect(r.body.error.details.diagnostics).toContainEqual(expect.objectContaining({ line: 8, column: 7, endColumn: 12, severity: 'error' }))
+    expect(r.body.error.message).toMatch(/line 8, column 10: unknown name 'q_inn'/)
+    expect(r.body.error.details.diagnostics).toContainEqual(expect.objectContaining({ line: 8, column: 10, endColumn: 15, severity: 'error' }))
     expect((await as.admin.get(base)).body.total).toBe(before)
   })
 
@@ -194,8 +194,8 @@ describe('publishing, maintainers and approval', () => {
     expect(r.status).toBe(400)
     expect(r.body.error.details.diagnostics).toEqual([
       {
-        line: 8, column: 7, endColumn: 12, severity: 'error', message: "unknown name 'q_inn' (did you mean 'q_in'?)",
-        fix: { title: "Change to 'q_in'", range: { line: 8, column: 7, endColumn: 12 }, text: 'q_in' },
+        line: 8, column: 10, endColumn: 15, severity: 'error', message: "unknown name 'q_inn' (did you mean 'q_in'?)",
+        fix: { title: "Change to 'q_in'", range: { line: 8, column: 10, endColumn: 15 }, text: 'q_in' },
       },
     ])
     expect((await as.viewer.get(`${base}/${modelId}`)).body.latestVersion).toBe(2)
@@ -311,14 +311,14 @@ describe('POST /api/check', () => {
     expect(ok.summary?.parameters.map((p) => p.name)).toEqual(['A', 'k', 'leak'])
     const bad = checkReply.parse((await as.viewer.post('/api/check').set(CSRF).send({ text: drainSheetWithError })).body)
     expect(bad.ok).toBe(false)
-    expect(bad.diagnostics[0]).toMatchObject({ line: 8, column: 7, severity: 'error' })
+    expect(bad.diagnostics[0]).toMatchObject({ line: 8, column: 10, severity: 'error' })
     const after = await t.context.database.pool.query('select (select count(*) from models)::int as m, (select count(*) from model_versions)::int as v')
     expect(after.rows[0]).toEqual(before.rows[0])
   })
 
   it('carries the fix of a problem with one obvious repair (range and replacement text)', async () => {
     // invented sheet of the Tinmoor Works demo: a misspelt unit, a misspelt keyword
-    const text = 'model "sump"\nparam k = 0.2 [1/s] in [0, 1]\nstat h = 1 [m]\nh\' = -k * h\noutput level = h [kw]'
+    const text = 'model "sump"\nparam k = 0.2 [1/s] in [0, 1]\nstat h = 1 [m]\ndh/dt = -k * h\noutput level = h [kw]'
     const r = await as.viewer.post('/api/check').set(CSRF).send({ text })
     expect(r.status).toBe(200)
     const reply = checkReply.parse(r.body)

@@ -25,7 +25,7 @@ const CHARGER = `model "charger"
 param k = 0.2 [1/s] in [0, 1]
 state v = 1 [V]
 let w = v * sqrt(v) [V]
-v' = -k * (v - w)
+dv/dt = -k * (v - w)
 output y = v`
 
 describe('unit mismatches in the declared units', () => {
@@ -41,20 +41,20 @@ time [min]
 param UA = 0.4 [kW/K] in [0, 5]
 input T_in = 20 [degC]
 state T = 20 [degC]
-T' = UA * (T_in - T)
+dT/dt = UA * (T_in - T)
 output temp = T`
     const d = only(text)
-    expect(d).toMatchObject({ line: 6, column: 6, endColumn: 21 })
-    expect(d.message).toBe("unit mismatch: the left side T' is in degC/min (T in degC, per min), the right side in kW*degC/K")
+    expect(d).toMatchObject({ line: 6, column: 9, endColumn: 24 })
+    expect(d.message).toBe("unit mismatch: the left side dT/dt is in degC/min (T in degC, per min), the right side in kW*degC/K")
     // with a heat capacity in kJ/K the sheet checks (kW*degC/K / (kJ/K) = degC/s)
-    expect(checkModel(text.replace("T' = UA * (T_in - T)", "T' = UA * (T_in - T) / C").replace('state T', 'param C = 80 [kJ/K] fixed\nstate T')).diagnostics).toEqual([])
+    expect(checkModel(text.replace("dT/dt = UA * (T_in - T)", "dT/dt = UA * (T_in - T) / C").replace('state T', 'param C = 80 [kJ/K] fixed\nstate T')).diagnostics).toEqual([])
   })
 
   it('the time t counts in the sheet time unit; sums name both sides as declared', () => {
-    const d = only(`time [h]\nconst tau = 1 [h]\nstate x = 0 [m]\nlet a = t [m]\nx' = a / tau\noutput y = x`)
+    const d = only(`time [h]\nconst tau = 1 [h]\nstate x = 0 [m]\nlet a = t [m]\ndx/dt = a / tau\noutput y = x`)
     expect(d.message).toBe('unit mismatch: the left side let a is in m (as declared), the right side in h')
-    const s = only(`input P = 1 [kW]\nparam k = 1 [1/s] in [0, 2]\nstate E = 0 [kWh]\nE' = P - k\noutput y = E`)
-    expect(s).toMatchObject({ line: 4, column: 6, endColumn: 11, message: 'difference of unlike units: kW and 1/s' })
+    const s = only(`input P = 1 [kW]\nparam k = 1 [1/s] in [0, 2]\nstate E = 0 [kWh]\ndE/dt = P - k\noutput y = E`)
+    expect(s).toMatchObject({ line: 4, column: 9, endColumn: 14, message: 'difference of unlike units: kW and 1/s' })
   })
 
   it('falls back to SI base units only where no declared form is known', () => {
@@ -87,7 +87,7 @@ describe('did you mean, for units', () => {
   ]
   for (const [written, message, fixed] of cases) {
     it(`[${written}] → [${fixed}]`, () => {
-      const text = `model "m"\nparam c = 1 [${written}] fixed\nstate x = 1\nx' = -x\noutput y = x`
+      const text = `model "m"\nparam c = 1 [${written}] fixed\nstate x = 1\ndx/dt = -x\noutput y = x`
       const d = only(text)
       expect(d).toMatchObject({ line: 2, column: 13, endColumn: 15 + written.length, severity: 'error', message })
       expect(d.fix).toEqual({ title: `Change to '${fixed}'`, range: { line: 2, column: 14, endColumn: 14 + written.length }, text: fixed })
@@ -98,18 +98,18 @@ describe('did you mean, for units', () => {
   it('the sheet’s own units come first', () => {
     expect(suggestUnit('gall', ['gal'])).toBe('gal')
     expect(suggestUnit('gall')).not.toBe('gal')
-    const text = `model "m"\ninput q = 1 [gal/min]\nparam c = 1 [gall/min] fixed\nstate x = 1\nx' = -x\noutput y = x`
+    const text = `model "m"\ninput q = 1 [gal/min]\nparam c = 1 [gall/min] fixed\nstate x = 1\ndx/dt = -x\noutput y = x`
     expect(only(text).message).toBe("unknown unit 'gall' in 'gall/min'; did you mean 'gal/min'?")
   })
 
   it('no guess for a unit far from every known one', () => {
-    const d = only(`model "m"\nparam c = 1 [furlongs] fixed\nstate x = 1\nx' = -x\noutput y = x`)
+    const d = only(`model "m"\nparam c = 1 [furlongs] fixed\nstate x = 1\ndx/dt = -x\noutput y = x`)
     expect(d.message).toBe("unknown unit 'furlongs'")
     expect(d.fix).toBeUndefined()
   })
 
   it('a power written as a digit (m3/s) is read, with a warning and the ^ form as its fix', () => {
-    const text = `model "m"\ninput q = 1 [m3/s]\nparam A = 2 [m^2] fixed\nstate h = 1 [m]\nh' = q / A\noutput y = h`
+    const text = `model "m"\ninput q = 1 [m3/s]\nparam A = 2 [m^2] fixed\nstate h = 1 [m]\ndh/dt = q / A\noutput y = h`
     const r = checkModel(text)
     expect(r.ok).toBe(true)
     expect(r.diagnostics).toEqual([{
@@ -126,7 +126,7 @@ param k = 0.2 [1/s] in [0, 1]
 input q = 1e-3 [m^3/s] hold
 param A = 2 [m^2] fixed
 state h = 1 [m]
-h' = q / A - k * h
+dh/dt = q / A - k * h
 output level = h [m]`
   const cases: [string, string, string][] = [
     ['param k', 'parm k', 'param'],
@@ -162,12 +162,12 @@ output level = h [m]`
 })
 
 describe('other problems with one obvious fix', () => {
-  const OK = `model "tank"\nparam k = 0.1 [1/s] in [0, 1]\nstate h = 1 [m]\nh' = -k * h\noutput level = h [m]`
+  const OK = `model "tank"\nparam k = 0.1 [1/s] in [0, 1]\nstate h = 1 [m]\ndh/dt = -k * h\noutput level = h [m]`
   const fixes: [string, string, string, string][] = [
     // [from, to, message, fix text]
-    ["h' = -k * h", "h' = -kk * h", "unknown name 'kk' (did you mean 'k'?)", 'k'],
-    ["h' = -k * h", "h' = -k * sqr(h) / sqrt(1 [m])".replace(' / sqrt(1 [m])', ''), "unknown function 'sqr' (did you mean 'sqrt'?)", 'sqrt'],
-    ['output level = h [m]', 'level = h', "unknown statement: to define 'level' write let level = …, or level' = … for a state's derivative", 'let level'],
+    ["dh/dt = -k * h", "dh/dt = -kk * h", "unknown name 'kk' (did you mean 'k'?)", 'k'],
+    ["dh/dt = -k * h", "dh/dt = -k * sqr(h) / sqrt(1 [m])".replace(' / sqrt(1 [m])', ''), "unknown function 'sqr' (did you mean 'sqrt'?)", 'sqrt'],
+    ['output level = h [m]', 'level = h', "unknown statement: to define 'level' write let level = …, or dlevel/dt = … for a state's derivative", 'let level'],
   ]
   for (const [from, to, message, fix] of fixes) {
     it(message, () => {
