@@ -51,7 +51,7 @@ import { OneStepSolver } from './one-step'
 // transform that runs the server and the benches (tsx), a call of an imported name reads a property
 // getter each time, which V8 does not inline (measured: about a tenth of a Robertson run with
 // three sensitivities).
-const { checkLimits, checkStepSize, clipStep, errNorm, firstNonFinite, initialStep, nextStep, stepEnd, throwNonFinite } = control
+const { errNorm, firstNonFinite, initialStep, throwNonFinite } = control
 const { luFactor, luSolve, luSolveBlocks } = lu
 
 /** RODAS4 in transformed form: Hairer & Wanner, RODAS code, ROCOE (METH = 1). */
@@ -211,13 +211,9 @@ export class Rosenbrock extends OneStepSolver {
       this.h = initialStep(sys, this.tol, this.t, this.z, this.f0, ytmp, this.z1, RODAS4.order, Math.abs(tStop - this.t), counters, this.normSize())
     }
     for (;;) {
-      checkLimits(limits, counters, this.t)
+      const h = this.attempt(tStop)
       const t = this.t
       const z = this.z
-      const hWanted = limits.fixedStep > 0 ? limits.fixedStep : this.h
-      const h = clipStep(t, hWanted, tStop)
-      const clipped = h < hWanted
-      checkStepSize(t, h, this.nonFinite, limits, nb)
       if (!this.haveJ) this.evalJacobian(t, z)
       const d = 1 / (h * RODAS4.gamma)
       for (let i = 0; i < nb * nb; i++) W[i] = -J[i]
@@ -283,9 +279,7 @@ export class Rosenbrock extends OneStepSolver {
         if (!Number.isFinite(err) || firstNonFinite(z1, n) >= 0) ok = false
       }
       if (!ok) {
-        counters.rejected++
-        this.lastRejected = true
-        this.h = RETRY_SHRINK * h
+        this.reject(RETRY_SHRINK * h)
         continue
       }
       // h_new = h / fac, fac = err^{1/(p̂+1)} / SAFETY within [1/MAX_RATIO, 1/MIN_RATIO]
@@ -302,32 +296,23 @@ export class Rosenbrock extends OneStepSolver {
         counters.rhsEvals++
         const bad = firstNonFinite(this.f1, n)
         if (bad < 0) {
-          const hNew = nextStep(h / fac, h, hWanted, clipped, this.lastRejected)
-          this.accept(t, h, tStop, clipped)
-          this.h = hNew
-          this.lastRejected = false
+          this.accept(t, h, tStop, h / fac)
           return
         }
         this.nonFinite.note(bad, t + h, this.f1[bad])
-        counters.rejected++
-        this.lastRejected = true
-        this.h = RETRY_SHRINK * h
+        this.reject(RETRY_SHRINK * h)
         continue
       }
-      counters.rejected++
-      this.lastRejected = true
-      this.h = h / fac
+      this.reject(h / fac)
     }
   }
 
-  /** shift to the new point and keep the step's stages for the dense output of [t, t + h] */
-  private accept(t: number, h: number, tStop: number, clipped: boolean): void {
+  /** shift to the new point (the next step tries hNew) and keep the step's stages for the dense output of [t, t + h] */
+  private accept(t: number, h: number, tStop: number, hNew: number): void {
     const u = this.u
     this.u = this.uAcc
     this.uAcc = u
     this.haveW = false
-    this.counters.steps++
-    this.nonFinite.at = -1
     const old = this.zOld
     this.zOld = this.z
     this.z = this.z1
@@ -335,9 +320,7 @@ export class Rosenbrock extends OneStepSolver {
     const f = this.f0
     this.f0 = this.f1
     this.f1 = f
-    this.tOld = t
-    this.t = stepEnd(t, h, tStop, clipped)
-    this.hLast = this.t - t
+    this.moveOn(t, h, tStop, hNew)
     this.haveJ = false
   }
 
@@ -363,12 +346,9 @@ export class Rosenbrock extends OneStepSolver {
 
   /** RODAS continuous extension (order 3) on [tOld, t] */
   dense(t: number, out: Float64Array): void {
+    if (this.denseAtStart(out)) return
     const n = this.n
     const h = this.hLast
-    if (h === 0) {
-      out.set(this.z.subarray(0, n))
-      return
-    }
     if (!this.haveW) this.formW()
     const th = (t - this.tOld) / h
     const th1 = 1 - th
