@@ -37,10 +37,19 @@ export class ModelSystem implements OdeSystem {
   readonly Fu: Float64Array
   private readonly needFp: boolean
   private readonly needFu: boolean
-  /** packed arguments of model.d2f: [x, s, v, vt], [p, q], [u, r, ν] */
-  private readonly X: Float64Array
-  private readonly P: Float64Array
-  private readonly U: Float64Array
+  /** per sensitivity: its parameter index (−1: none) and whether it moves delayed input slots */
+  private readonly paramOf: Int32Array
+  private readonly delayed: Uint8Array
+  /**
+   * per sensitivity j, the packed arguments of model.d2f at the point fixed by `coupleAt`:
+   * X_j = [x, s_j, v, vt], P_j = [p, q_j], U_j = [u, r_j, ν]; `couple` writes only v, vt and ν
+   */
+  private readonly Xj: Float64Array[]
+  private readonly Pj: Float64Array[]
+  private readonly Uj: Float64Array[]
+  /** t and the input slopes at that point */
+  private tAt = 0
+  private readonly duAt: Float64Array
   private readonly d2: Float64Array
 
   constructor(model: CompiledModel, sens: SensSpec[]) {
@@ -58,9 +67,12 @@ export class ModelSystem implements OdeSystem {
     this.Fu = new Float64Array(Math.max(1, model.nx * this.nuu))
     this.needFp = sens.some((s) => s.param >= 0)
     this.needFu = sens.some((s) => s.delaySlots.length > 0)
-    this.X = new Float64Array(3 * model.nx + 1)
-    this.P = new Float64Array(2 * model.np)
-    this.U = new Float64Array(3 * this.nuu)
+    this.paramOf = Int32Array.from(sens, (s) => s.param)
+    this.delayed = Uint8Array.from(sens, (s) => (s.delaySlots.length > 0 ? 1 : 0))
+    this.Xj = sens.map(() => new Float64Array(3 * model.nx + 1))
+    this.Pj = sens.map(() => new Float64Array(2 * model.np))
+    this.Uj = sens.map(() => new Float64Array(3 * this.nuu))
+    this.duAt = new Float64Array(Math.max(1, this.nuu))
     this.d2 = new Float64Array(model.nx)
   }
 
@@ -79,19 +91,31 @@ export class ModelSystem implements OdeSystem {
     }
     const np = model.np
     const spt = model.secondsPerTimeUnit
-    for (let j = 0; j < this.ns; j++) {
-      const sj = this.sens[j]
+    const Fp = this.Fp
+    const ns = this.ns
+    const end = (ns + 1) * nx
+    // s_j' = ∂f/∂θ_j + J s_j for all j at once: each Jacobian entry read once, zero ones skipped
+    for (let j = 0; j < ns; j++) {
       const off = (j + 1) * nx
-      for (let i = 0; i < nx; i++) {
-        let acc = 0
-        const r = i * nx
-        for (let k = 0; k < nx; k++) acc += J[r + k] * z[off + k]
-        if (sj.param >= 0) acc += this.Fp[i * np + sj.param]
-        for (let q = 0; q < sj.delaySlots.length; q++) {
-          const slot = sj.delaySlots[q]
-          acc -= (this.Fu[i * this.nuu + slot] * this.du[slot]) / spt
+      const pj = this.paramOf[j]
+      for (let i = 0; i < nx; i++) dz[off + i] = pj >= 0 ? Fp[i * np + pj] : 0
+    }
+    for (let i = 0; i < nx; i++) {
+      const r = i * nx
+      for (let k = 0; k < nx; k++) {
+        const Jik = J[r + k]
+        if (Jik !== 0) for (let o = nx; o < end; o += nx) dz[o + i] += Jik * z[o + k]
+      }
+    }
+    for (let j = 0; j < ns; j++) {
+      const off = (j + 1) * nx
+      if (this.delayed[j] === 1) {
+        const slots = this.sens[j].delaySlots
+        for (let i = 0; i < nx; i++) {
+          let acc = 0
+          for (let q = 0; q < slots.length; q++) acc += this.Fu[i * this.nuu + slots[q]] * this.du[slots[q]]
+          dz[off + i] -= acc / spt
         }
-        dz[off + i] = acc
       }
     }
   }
@@ -114,40 +138,61 @@ export class ModelSystem implements OdeSystem {
   }
 
   /**
-   * M_j·v + (∂/∂t of block j)·vt for each sensitivity j, exactly, from the sheet's generated
-   * second directional derivative d2f (coupling-codegen.ts): w = (s_j, e_θj, r_j) with
-   * r_j = −u'/s on a delay parameter's slots (the ∂f/∂tau term of f above), and the second
-   * direction (v, vt, vt·u') in (x, t, u): the inputs move with t at their interval's slope.
+   * Packs d2f's arguments at (t, z) for every sensitivity j: w = (s_j, e_θj, r_j) with r_j = −u'/s
+   * on a delay parameter's slots (the ∂f/∂tau term of f above). Called once per step.
    */
-  couple(t: number, z: Float64Array, v: Float64Array, vt: number, out: Float64Array): void {
+  coupleAt(t: number, z: Float64Array): void {
     const ns = this.ns
     if (ns === 0) return
-    const { model, X, P, U, d2, nuu } = this
+    const { model, nuu, duAt } = this
     const nx = this.nBlock
     const np = model.np
+    this.tAt = t
     this.inputs.eval(t, this.u)
-    if (nuu > 0) this.inputs.slope(this.du)
-    for (let i = 0; i < nx; i++) {
-      X[i] = z[i]
-      X[2 * nx + i] = v[i]
-    }
-    X[3 * nx] = vt
-    for (let k = 0; k < np; k++) P[k] = this.p[k]
-    for (let k = 0; k < nuu; k++) {
-      U[k] = this.u[k]
-      U[nuu + k] = 0
-      U[2 * nuu + k] = vt * this.du[k]
-    }
+    if (nuu > 0) this.inputs.slope(duAt)
     const spt = model.secondsPerTimeUnit
     for (let j = 0; j < ns; j++) {
-      const sj = this.sens[j]
+      const X = this.Xj[j]
+      const P = this.Pj[j]
+      const U = this.Uj[j]
       const off = (j + 1) * nx
-      for (let i = 0; i < nx; i++) X[nx + i] = z[off + i]
-      if (sj.param >= 0) P[np + sj.param] = 1
-      for (let q = 0; q < sj.delaySlots.length; q++) U[nuu + sj.delaySlots[q]] = -this.du[sj.delaySlots[q]] / spt
-      model.d2f(t, X, P, U, d2)
-      if (sj.param >= 0) P[np + sj.param] = 0
-      for (let q = 0; q < sj.delaySlots.length; q++) U[nuu + sj.delaySlots[q]] = 0
+      for (let i = 0; i < nx; i++) {
+        X[i] = z[i]
+        X[nx + i] = z[off + i]
+      }
+      for (let k = 0; k < np; k++) {
+        P[k] = this.p[k]
+        P[np + k] = 0
+      }
+      if (this.paramOf[j] >= 0) P[np + this.paramOf[j]] = 1
+      for (let k = 0; k < nuu; k++) {
+        U[k] = this.u[k]
+        U[nuu + k] = 0
+      }
+      const slots = this.sens[j].delaySlots
+      for (let q = 0; q < slots.length; q++) U[nuu + slots[q]] = -duAt[slots[q]] / spt
+    }
+  }
+
+  /**
+   * M_j·v + (∂/∂t of block j)·vt for each sensitivity j at the point of `coupleAt`, exactly, from
+   * the sheet's generated second directional derivative d2f (coupling-codegen.ts): the second
+   * direction is (v, vt, vt·u') in (x, t, u): the inputs move with t at their interval's slope.
+   */
+  couple(v: Float64Array, vt: number, out: Float64Array): void {
+    const ns = this.ns
+    if (ns === 0) return
+    const { model, d2, nuu, duAt } = this
+    const nx = this.nBlock
+    const t = this.tAt
+    for (let j = 0; j < ns; j++) {
+      const X = this.Xj[j]
+      const U = this.Uj[j]
+      for (let i = 0; i < nx; i++) X[2 * nx + i] = v[i]
+      X[3 * nx] = vt
+      for (let k = 0; k < nuu; k++) U[2 * nuu + k] = vt * duAt[k]
+      model.d2f(t, X, this.Pj[j], U, d2)
+      const off = (j + 1) * nx
       for (let i = 0; i < nx; i++) out[off + i] += d2[i]
     }
   }

@@ -9,7 +9,8 @@
  */
 import type { CompiledModel } from '../sheet/compiled'
 import type { ParsedModel } from '../sheet/model'
-import { GENERATED, generateFunctions, type Dialect } from '../sheet/codegen'
+import { GENERATED, generateFunctions } from '../sheet/codegen'
+import type { Dialect } from '../sheet/emitter'
 import type { CmpOp, FnName } from '../sheet/ast'
 import { blockComment, metaLines, refuseEvents, type ExportMeta } from './meta'
 

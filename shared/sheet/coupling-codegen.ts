@@ -22,7 +22,7 @@
  *                          U = [u (nu+nd), r (nu+nd), ν (nu+nd)],  out: nx values.
  */
 import { type Expr, isNum, ZERO } from './ast'
-import type { Dialect, Emitter, SizeBudget } from './codegen'
+import type { Dialect, Emitter, SizeBudget } from './emitter'
 import { diff, type DiffContext, type Direction } from './derivative'
 import type { Span } from './diagnostics'
 import type { ParsedModel } from './model'

@@ -2,7 +2,7 @@
 import { afterEach, describe, expect, it } from 'vitest'
 import { checkModel, parseModel, tryCompileModel } from '../../shared/sheet/index'
 import { MAX_CHAIN, MAX_DEPTH } from '../../shared/sheet/expression'
-import { MAX_GENERATED_CHARS } from '../../shared/sheet/codegen'
+import { MAX_GENERATED_CHARS } from '../../shared/sheet/emitter'
 
 const g = globalThis as unknown as Record<string, unknown>
 afterEach(() => { delete g.__pewterPwned })

@@ -62,3 +62,40 @@ export function luSolve(a: Float64Array, n: number, piv: Int32Array, b: Float64A
     b[off + i] = s / a[ri + i]
   }
 }
+
+/**
+ * Solves (LU) x = b in place for `count` right-hand sides stored one after another from b[off]
+ * (n values each): one pass over the factors serves them all, each factor entry read once for
+ * every right-hand side (the forward and back substitutions of Golub & Van Loan, Sec. 3.1, with
+ * the loop over right-hand sides innermost; their Sec. 3.1.5 on multiple right-hand sides).
+ * Divides by each pivot through its reciprocal, so the results may differ from luSolve's in the
+ * last bit.
+ */
+export function luSolveBlocks(a: Float64Array, n: number, piv: Int32Array, b: Float64Array, off: number, count: number): void {
+  const end = off + count * n
+  for (let k = 0; k < n; k++) {
+    const p = piv[k]
+    if (p === k) continue
+    for (let o = off; o < end; o += n) {
+      const tmp = b[o + k]
+      b[o + k] = b[o + p]
+      b[o + p] = tmp
+    }
+  }
+  for (let i = 1; i < n; i++) {
+    const ri = i * n
+    for (let j = 0; j < i; j++) {
+      const l = a[ri + j]
+      if (l !== 0) for (let o = off; o < end; o += n) b[o + i] -= l * b[o + j]
+    }
+  }
+  for (let i = n - 1; i >= 0; i--) {
+    const ri = i * n
+    for (let j = i + 1; j < n; j++) {
+      const v = a[ri + j]
+      if (v !== 0) for (let o = off; o < end; o += n) b[o + i] -= v * b[o + j]
+    }
+    const inv = 1 / a[ri + i]
+    for (let o = off; o < end; o += n) b[o + i] *= inv
+  }
+}

@@ -17,45 +17,26 @@
 import { AbortedError, StepLimitError, TimeBudgetError } from '../errors'
 import { firstNonFinite, throwNonFinite } from './control'
 import { Outcome, Solver } from './odex-lib'
-import { newCounters, now, resetCounters, type OdeSolver, type OdeSystem, type SolverLimits, type StepObserver, type Tolerances } from './types'
+import { OneStepSolver } from './one-step'
+import { now, type StepObserver } from './types'
 
-export class OdexSolver implements OdeSolver {
+export class OdexSolver extends OneStepSolver {
   readonly name = 'odex'
-  readonly counters = newCounters()
-  t = 0
-  h = 0
-  z: Float64Array = new Float64Array(0)
-  private sys!: OdeSystem
-  private tol!: Tolerances
-  private limits!: SolverLimits
-  private n = 0
   private zin: Float64Array = new Float64Array(0)
   private dz: Float64Array = new Float64Array(0)
   private denseFn: ((c: number, x: number) => number) | null = null
   private solver: Solver | null = null
 
-  start(sys: OdeSystem, tol: Tolerances, limits: SolverLimits, t: number, z: Float64Array, h: number): void {
-    if (this.n !== sys.n) {
-      this.n = sys.n
-      this.z = new Float64Array(sys.n)
-      this.zin = new Float64Array(sys.n)
-      this.dz = new Float64Array(sys.n)
-      this.solver = new Solver(sys.n)
-    }
-    this.sys = sys
-    this.tol = tol
-    this.limits = limits
-    this.t = t
-    this.z.set(z.subarray(0, sys.n))
-    this.h = h
-    this.denseFn = null
-    resetCounters(this.counters)
+  protected alloc(n: number): void {
+    if (this.n === n) return
+    this.n = n
+    this.z = new Float64Array(n)
+    this.zin = new Float64Array(n)
+    this.dz = new Float64Array(n)
+    this.solver = new Solver(n)
   }
 
-  restartAt(t: number, z: Float64Array, h: number): void {
-    this.t = t
-    this.z.set(z.subarray(0, this.n))
-    this.h = h
+  protected reset(): void {
     this.denseFn = null
   }
 

@@ -1,9 +1,11 @@
 /**
  * The bookkeeping every one-step method repeats: the current point, the last step's interval for
- * dense output, counters, tolerances and limits, (re)starting and the advance loop. A method adds
- * its work arrays (`alloc`), what it carries from step to step (`reset`), and `step`/`dense`.
+ * dense output, counters, tolerances and limits, (re)starting, the advance loop, and around each
+ * step attempt the limit checks, the size of the attempt, a rejection and the move to an accepted
+ * step's end. A method adds its work arrays (`alloc`), what it carries from step to step (`reset`),
+ * and `step`/`dense`.
  */
-import { NonFiniteSeen } from './control'
+import { checkLimits, checkStepSize, clipStep, NonFiniteSeen, nextStep, stepEnd } from './control'
 import { newCounters, resetCounters, type OdeSolver, type OdeSystem, type SolverLimits, type StepObserver, type Tolerances } from './types'
 
 export abstract class OneStepSolver implements OdeSolver {
@@ -22,6 +24,9 @@ export abstract class OneStepSolver implements OdeSolver {
   protected hLast = 0
   protected lastRejected = false
   protected readonly nonFinite = new NonFiniteSeen()
+  /** the attempt being made: the step size it wanted, and whether it was cut short to land on tStop */
+  protected hWanted = 0
+  protected clipped = false
 
   /** size the work arrays (and `z`) for n components in blocks of nBlock; sets `n` */
   protected abstract alloc(n: number, nBlock: number): void
@@ -58,6 +63,50 @@ export abstract class OneStepSolver implements OdeSolver {
 
   setLimits(limits: SolverLimits): void {
     this.limits = limits
+  }
+
+  /**
+   * Starts an attempt from t: checks the limits and returns its step size, the fixed step or h, cut
+   * to land exactly on tStop when it comes within 1 % of it (sets hWanted and clipped).
+   */
+  protected attempt(tStop: number): number {
+    const { limits, t } = this
+    checkLimits(limits, this.counters, t)
+    const hWanted = limits.fixedStep > 0 ? limits.fixedStep : this.h
+    const h = clipStep(t, hWanted, tStop)
+    this.hWanted = hWanted
+    this.clipped = h < hWanted
+    checkStepSize(t, h, this.nonFinite, limits, this.sys.nBlock)
+    return h
+  }
+
+  /** the attempt was rejected: the next one tries hNext */
+  protected reject(hNext: number): void {
+    this.counters.rejected++
+    this.lastRejected = true
+    this.h = hNext
+  }
+
+  /**
+   * The attempt [t, t + h] was accepted (the method has its result in z): t moves to the step's end,
+   * exactly tStop when it was aimed at it, and the next step tries hNew (no growth right after a
+   * rejection, see control.ts nextStep).
+   */
+  protected moveOn(t: number, h: number, tStop: number, hNew: number): void {
+    this.counters.steps++
+    this.nonFinite.at = -1
+    this.tOld = t
+    this.t = stepEnd(t, h, tStop, this.clipped)
+    this.hLast = this.t - t
+    this.h = nextStep(hNew, h, this.hWanted, this.clipped, this.lastRejected)
+    this.lastRejected = false
+  }
+
+  /** before any accepted step the dense output is the current point: writes it and says so */
+  protected denseAtStart(out: Float64Array): boolean {
+    if (this.hLast !== 0) return false
+    out.set(this.z.subarray(0, this.n))
+    return true
   }
 
   advance(tStop: number, obs: StepObserver | null): void {

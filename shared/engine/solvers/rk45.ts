@@ -11,7 +11,7 @@
  *   factor 0.9, growth limit 10 and shrink limit 0.2, and the PI stabilisation β = 0.04 of dopri5
  *   (Sec. IV.2 of Vol. II); Sec. II.10 (dopri5 "stiffness detection") for the stiffness test.
  */
-import { checkLimits, checkStepSize, clipStep, errNorm, firstNonFinite, initialStep, nextStep, stepEnd, throwNonFinite } from './control'
+import { errNorm, firstNonFinite, initialStep, throwNonFinite } from './control'
 import { OneStepSolver } from './one-step'
 
 /** Dormand–Prince 5(4) tableau, Dormand & Prince (1980) Table 2. Rows of A are stages 2..7. */
@@ -143,13 +143,9 @@ export class Rk45 extends OneStepSolver {
       this.h = initialStep(sys, this.tol, this.t, this.z, k[0], ytmp, k[1], DP54.order, Math.abs(tStop - this.t), counters)
     }
     for (;;) {
-      checkLimits(limits, counters, this.t)
+      const h = this.attempt(tStop)
       const t = this.t
       const z = this.z
-      const hWanted = limits.fixedStep > 0 ? limits.fixedStep : this.h
-      const h = clipStep(t, hWanted, tStop)
-      const clipped = h < hWanted
-      checkStepSize(t, h, this.nonFinite, limits, sys.nBlock)
       // stages 2..7
       let bad = -1
       for (let s = 1; s < 7; s++) {
@@ -170,9 +166,7 @@ export class Rk45 extends OneStepSolver {
         }
       }
       if (bad >= 0) {
-        counters.rejected++
-        this.h = 0.25 * h
-        this.lastRejected = true
+        this.reject(0.25 * h)
         continue
       }
       // error estimate
@@ -187,8 +181,6 @@ export class Rk45 extends OneStepSolver {
         fac = Math.max(1 / FAC_MAX, Math.min(1 / FAC_MIN, fac / SAFETY))
         const hNew = h / fac
         this.facOld = Math.max(err, 1e-4)
-        counters.steps++
-        this.nonFinite.at = -1
         this.stiffnessTest(h)
         // dense output coefficients (CONTD5)
         const D = DP54.d
@@ -210,16 +202,10 @@ export class Rk45 extends OneStepSolver {
         const k1 = k[0]
         k[0] = k[6]
         k[6] = k1
-        this.tOld = t
-        this.t = stepEnd(t, h, tStop, clipped)
-        this.hLast = this.t - t
-        this.h = nextStep(hNew, h, hWanted, clipped, this.lastRejected)
-        this.lastRejected = false
+        this.moveOn(t, h, tStop, hNew)
         return
       }
-      counters.rejected++
-      this.lastRejected = true
-      this.h = h / Math.min(1 / FAC_MIN, errPow / SAFETY)
+      this.reject(h / Math.min(1 / FAC_MIN, errPow / SAFETY))
     }
   }
 
@@ -272,13 +258,10 @@ export class Rk45 extends OneStepSolver {
   }
 
   dense(t: number, out: Float64Array): void {
+    if (this.denseAtStart(out)) return
     const n = this.n
     const r = this.denseCoef
     const r1 = r[0], r2 = r[1], r3 = r[2], r4 = r[3], r5 = r[4]
-    if (this.hLast === 0) {
-      out.set(this.z.subarray(0, n))
-      return
-    }
     const th = (t - this.tOld) / this.hLast
     const th1 = 1 - th
     for (let i = 0; i < n; i++) out[i] = r1[i] + th * (r2[i] + th1 * (r3[i] + th * (r4[i] + th1 * r5[i])))

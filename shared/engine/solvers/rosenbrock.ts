@@ -23,8 +23,10 @@
  * Sensitivities: the system z = [x, s_1, …] (system.ts) has the block lower-triangular Jacobian
  *   [[J, 0], [M_j, J]],   M_j = ∂(J s_j + ∂f/∂θ_j)/∂x,
  * and a Rosenbrock method of order 4 needs it exactly (it is not a W-method; Hairer & Wanner II,
- * Sec. IV.7). Each stage solves the state block first, u_x = W⁻¹ r_x, then each sensitivity block
- * u_j = W⁻¹ (r_j + M_j u_x): one LU of the nx×nx matrix serves all blocks (the simultaneous
+ * Sec. IV.7). Each stage solves the state block first, u_x = W⁻¹ r_x, then the sensitivity blocks
+ * u_j = W⁻¹ (r_j + M_j u_x), all of them in one pass over W's factors (lu.ts, luSolveBlocks), with
+ * M_j taken at the step's start (sys.coupleAt once per step): one LU of the nx×nx matrix serves all
+ * blocks (the simultaneous
  * treatment of the sensitivity system with the states' matrix, T. Maly & L. R. Petzold,
  * "Numerical methods and software for sensitivity analysis of differential-algebraic systems",
  * Appl. Numer. Math. 20 (1996) 57–79, their "simultaneous corrector"; cited from memory). M_j u_x
@@ -41,9 +43,16 @@
  * Hindmarsh & Serban, CVODES guide, Sec. 2.6 and CVodeSetSensErrCon); `tol.stiffSensitivities`
  * puts the sensitivities in the norm too (full error control).
  */
-import { checkLimits, checkStepSize, clipStep, errNorm, firstNonFinite, initialStep, nextStep, stepEnd, throwNonFinite } from './control'
-import { luFactor, luSolve } from './lu'
+import * as control from './control'
+import * as lu from './lu'
 import { OneStepSolver } from './one-step'
+
+// Module-level references to the imported functions the step loop calls: under the CommonJS
+// transform that runs the server and the benches (tsx), a call of an imported name reads a property
+// getter each time, which V8 does not inline (measured: about a tenth of a Robertson run with
+// three sensitivities).
+const { errNorm, firstNonFinite, initialStep, throwNonFinite } = control
+const { luFactor, luSolve, luSolveBlocks } = lu
 
 /** RODAS4 in transformed form: Hairer & Wanner, RODAS code, ROCOE (METH = 1). */
 export const RODAS4 = {
@@ -93,12 +102,19 @@ const MAX_RATIO = 6
 const PRED_ERR_FLOOR = 1e-2
 /** a step whose stages are not finite or whose matrix is singular is retried with h × this */
 const RETRY_SHRINK = 0.25
+/** x^{1/(p̂+1)} for the embedded order p̂ = 3: two square roots cost less than Math.pow */
+const root4 = (x: number): number => Math.sqrt(Math.sqrt(x))
+
 export class Rosenbrock extends OneStepSolver {
   readonly name = 'stiff'
   /** size of the leading state block the Jacobian covers (the rest are sensitivities, coupled through sys.couple) */
   private nb = 0
   /** the stage vectors u₁…u_s of the transformed method (Hairer & Wanner II, Sec. IV.7, eq. (7.3')) */
   private u: Float64Array[] = []
+  /** the last accepted step's stages (swapped with u on acceptance), read by the dense output */
+  private uAcc: Float64Array[] = []
+  /** Σ_j (c_ij/h) u_j + γ_i h f_t of the stage being formed */
+  private csum: Float64Array = new Float64Array(0)
   /** f at the start and at the end of the step */
   private f0: Float64Array = new Float64Array(0)
   private f1: Float64Array = new Float64Array(0)
@@ -113,10 +129,11 @@ export class Rosenbrock extends OneStepSolver {
   private J: Float64Array = new Float64Array(0)
   private W: Float64Array = new Float64Array(0)
   private piv = new Int32Array(0)
-  /** dense output of the last accepted step: y₀, w₂, w₃ (y₁ is z) */
+  /** dense output of the last accepted step: y₀, w₂, w₃ (y₁ is z); w₂, w₃ formed at its first use */
   private zOld: Float64Array = new Float64Array(0)
   private w2: Float64Array = new Float64Array(0)
   private w3: Float64Array = new Float64Array(0)
+  private haveW = false
   private haveF0 = false
   private haveJ = false
   /** Gustafsson's predictive controller: the last accepted step and its error */
@@ -128,6 +145,8 @@ export class Rosenbrock extends OneStepSolver {
     this.n = n
     this.nb = nb
     this.u = Array.from({ length: RODAS4.stages }, () => new Float64Array(n))
+    this.uAcc = Array.from({ length: RODAS4.stages }, () => new Float64Array(n))
+    this.csum = new Float64Array(n)
     this.f0 = new Float64Array(n)
     this.f1 = new Float64Array(n)
     this.zOld = new Float64Array(n)
@@ -175,14 +194,15 @@ export class Rosenbrock extends OneStepSolver {
     sys.jac(t, z, this.J, ft)
     counters.jacEvals++
     if (n > nb) {
+      sys.coupleAt(t, z)
       ft.fill(0, nb, n)
-      sys.couple(t, z, this.zeroX, 1, ft)
+      sys.couple(this.zeroX, 1, ft)
     }
     this.haveJ = true
   }
 
   step(tStop: number): void {
-    const { sys, n, nb, u, counters, limits, ytmp, ft, J, W, piv } = this
+    const { sys, n, nb, u, counters, limits, ytmp, csum, ft, J, W, piv } = this
     const s = RODAS4.stages
     const coupled = n > nb
     const nBlocks = n / nb
@@ -191,13 +211,9 @@ export class Rosenbrock extends OneStepSolver {
       this.h = initialStep(sys, this.tol, this.t, this.z, this.f0, ytmp, this.z1, RODAS4.order, Math.abs(tStop - this.t), counters, this.normSize())
     }
     for (;;) {
-      checkLimits(limits, counters, this.t)
+      const h = this.attempt(tStop)
       const t = this.t
       const z = this.z
-      const hWanted = limits.fixedStep > 0 ? limits.fixedStep : this.h
-      const h = clipStep(t, hWanted, tStop)
-      const clipped = h < hWanted
-      checkStepSize(t, h, this.nonFinite, limits, nb)
       if (!this.haveJ) this.evalJacobian(t, z)
       const d = 1 / (h * RODAS4.gamma)
       for (let i = 0; i < nb * nb; i++) W[i] = -J[i]
@@ -206,40 +222,51 @@ export class Rosenbrock extends OneStepSolver {
       let ok = luFactor(W, nb, piv)
       for (let st = 0; st < s && ok; st++) {
         const ui = u[st]
+        const gh = RODAS4.gammaSum[st] * h
         if (st === 0) {
-          ui.set(this.f0)
+          const f0 = this.f0
+          for (let i = 0; i < n; i++) ui[i] = f0[i] + gh * ft[i]
         } else {
-          // the stage argument z + Σ_j a_ij u_j, one stage vector at a time (contiguous loops)
+          // one pass over the earlier stages: the stage argument z + Σ_j a_ij u_j into ytmp, and
+          // γ_i h f_t + Σ_j (c_ij/h) u_j into csum (contiguous loops, each u_j read once)
           const a = RODAS4.a[st]
-          for (let i = 0; i < n; i++) ytmp[i] = z[i]
+          const c = RODAS4.c[st]
+          for (let i = 0; i < n; i++) {
+            ytmp[i] = z[i]
+            csum[i] = gh * ft[i]
+          }
           for (let j = 0; j < st; j++) {
             const aj = a[j]
+            const cj = c[j] / h
             const uj = u[j]
-            for (let i = 0; i < n; i++) ytmp[i] += aj * uj[i]
+            for (let i = 0; i < n; i++) {
+              const v = uj[i]
+              ytmp[i] += aj * v
+              csum[i] += cj * v
+            }
           }
           const ts = t + RODAS4.alpha[st] * h
           sys.f(ts, ytmp, ui)
           counters.rhsEvals++
-          const bad = firstNonFinite(ui, n)
+          // csum is finite (earlier stages were), so a non-finite f stays non-finite in the sum
+          let bad = -1
+          for (let i = 0; i < n; i++) {
+            const v = ui[i] + csum[i]
+            ui[i] = v
+            if (v - v !== 0 && bad < 0) bad = i
+          }
           if (bad >= 0) {
             this.nonFinite.note(bad, ts, ui[bad])
             ok = false
             break
           }
-          const c = RODAS4.c[st]
-          for (let j = 0; j < st; j++) {
-            const cj = c[j] / h
-            const uj = u[j]
-            for (let i = 0; i < n; i++) ui[i] += cj * uj[i]
-          }
         }
-        const gh = RODAS4.gammaSum[st] * h
-        if (gh !== 0) for (let i = 0; i < n; i++) ui[i] += gh * ft[i]
         luSolve(W, nb, piv, ui, 0)
         if (coupled) {
-          // r_j += M_j·u_x (u_x, the state block of ui, is solved already)
-          sys.couple(t, z, ui, 0, ui)
-          for (let b = 1; b < nBlocks; b++) luSolve(W, nb, piv, ui, b * nb)
+          // r_j += M_j·u_x (u_x, the state block of ui, is solved already), then all sensitivity
+          // blocks through W's factors in one pass
+          sys.couple(ui, 0, ui)
+          luSolveBlocks(W, nb, piv, ui, nb, nBlocks - 1)
         }
       }
       let err = Infinity
@@ -252,17 +279,14 @@ export class Rosenbrock extends OneStepSolver {
         if (!Number.isFinite(err) || firstNonFinite(z1, n) >= 0) ok = false
       }
       if (!ok) {
-        counters.rejected++
-        this.lastRejected = true
-        this.h = RETRY_SHRINK * h
+        this.reject(RETRY_SHRINK * h)
         continue
       }
       // h_new = h / fac, fac = err^{1/(p̂+1)} / SAFETY within [1/MAX_RATIO, 1/MIN_RATIO]
-      const expo = 1 / (RODAS4.embeddedOrder + 1)
-      let fac = Math.max(1 / MAX_RATIO, Math.min(1 / MIN_RATIO, Math.pow(err, expo) / SAFETY))
+      let fac = Math.max(1 / MAX_RATIO, Math.min(1 / MIN_RATIO, root4(err) / SAFETY))
       if (err <= 1) {
         if (this.hAcc > 0) {
-          const gus = (this.hAcc / h) * Math.pow((err * err) / this.errAcc, expo) / SAFETY
+          const gus = (this.hAcc / h) * root4((err * err) / this.errAcc) / SAFETY
           fac = Math.max(fac, Math.max(1 / MAX_RATIO, Math.min(1 / MIN_RATIO, gus)))
         }
         this.hAcc = h
@@ -272,43 +296,23 @@ export class Rosenbrock extends OneStepSolver {
         counters.rhsEvals++
         const bad = firstNonFinite(this.f1, n)
         if (bad < 0) {
-          const hNew = nextStep(h / fac, h, hWanted, clipped, this.lastRejected)
-          this.accept(t, h, tStop, clipped)
-          this.h = hNew
-          this.lastRejected = false
+          this.accept(t, h, tStop, h / fac)
           return
         }
         this.nonFinite.note(bad, t + h, this.f1[bad])
-        counters.rejected++
-        this.lastRejected = true
-        this.h = RETRY_SHRINK * h
+        this.reject(RETRY_SHRINK * h)
         continue
       }
-      counters.rejected++
-      this.lastRejected = true
-      this.h = h / fac
+      this.reject(h / fac)
     }
   }
 
-  /** shift to the new point and keep the dense-output coefficients of [t, t + h] */
-  private accept(t: number, h: number, tStop: number, clipped: boolean): void {
-    const { n, u, w2, w3 } = this
-    const { d2, d3 } = RODAS4
-    for (let i = 0; i < n; i++) {
-      w2[i] = 0
-      w3[i] = 0
-    }
-    for (let j = 0; j < 5; j++) {
-      const uj = u[j]
-      const a = d2[j]
-      const b = d3[j]
-      for (let i = 0; i < n; i++) {
-        w2[i] += a * uj[i]
-        w3[i] += b * uj[i]
-      }
-    }
-    this.counters.steps++
-    this.nonFinite.at = -1
+  /** shift to the new point (the next step tries hNew) and keep the step's stages for the dense output of [t, t + h] */
+  private accept(t: number, h: number, tStop: number, hNew: number): void {
+    const u = this.u
+    this.u = this.uAcc
+    this.uAcc = u
+    this.haveW = false
     const old = this.zOld
     this.zOld = this.z
     this.z = this.z1
@@ -316,20 +320,36 @@ export class Rosenbrock extends OneStepSolver {
     const f = this.f0
     this.f0 = this.f1
     this.f1 = f
-    this.tOld = t
-    this.t = stepEnd(t, h, tStop, clipped)
-    this.hLast = this.t - t
+    this.moveOn(t, h, tStop, hNew)
     this.haveJ = false
+  }
+
+  /** w₂, w₃ of the last accepted step from its stages (formed once, at the first dense output in it) */
+  private formW(): void {
+    const { n, uAcc, w2, w3 } = this
+    const { d2, d3 } = RODAS4
+    for (let i = 0; i < n; i++) {
+      w2[i] = 0
+      w3[i] = 0
+    }
+    for (let j = 0; j < 5; j++) {
+      const uj = uAcc[j]
+      const a = d2[j]
+      const b = d3[j]
+      for (let i = 0; i < n; i++) {
+        w2[i] += a * uj[i]
+        w3[i] += b * uj[i]
+      }
+    }
+    this.haveW = true
   }
 
   /** RODAS continuous extension (order 3) on [tOld, t] */
   dense(t: number, out: Float64Array): void {
+    if (this.denseAtStart(out)) return
     const n = this.n
     const h = this.hLast
-    if (h === 0) {
-      out.set(this.z.subarray(0, n))
-      return
-    }
+    if (!this.haveW) this.formW()
     const th = (t - this.tOld) / h
     const th1 = 1 - th
     const y0 = this.zOld

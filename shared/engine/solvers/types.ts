@@ -15,12 +15,18 @@ export interface OdeSystem {
   /** state-block Jacobian ∂f/∂x (nBlock², row-major) and ∂f/∂t of the state block (ft[0..nBlock)) */
   jac(t: number, z: Float64Array, J: Float64Array, ft: Float64Array): void
   /**
-   * The sensitivity blocks' dependence on the states and the time: for every block b ≥ 1 adds
+   * Fixes the point (t, z) at which `couple` takes the sensitivity blocks' partial derivatives (the
+   * stiff method calls it once per step, at the step's start, then `couple` once per stage).
+   */
+  coupleAt(t: number, z: Float64Array): void
+  /**
+   * The sensitivity blocks' dependence on the states and the time at the point fixed by `coupleAt`:
+   * for every block b ≥ 1 adds
    *   (∂f_b/∂x)·v + (∂f_b/∂t)·vt      (v = v[0..nBlock); the partials hold block b itself fixed)
    * to out[b·nBlock … (b+1)·nBlock). Reads all of v before writing, so out may be v's own array.
    * Nothing to do without sensitivity blocks.
    */
-  couple(t: number, z: Float64Array, v: Float64Array, vt: number, out: Float64Array): void
+  couple(v: Float64Array, vt: number, out: Float64Array): void
 }
 
 /**
