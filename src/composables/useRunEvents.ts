@@ -5,7 +5,7 @@
  */
 import { onBeforeUnmount, ref } from 'vue'
 import type { RunProgress, RunStatus } from '@shared/api/runs'
-import { runEventsUrl } from '@/api/fits'
+import { runEventsUrl } from '@/api/runs'
 
 export interface RunState { status: RunStatus; progress: RunProgress | null; error: string | null; cancelRequested: boolean }
 
