@@ -233,6 +233,10 @@ export const runSummaryDto = z.object({
 })
 export type RunSummaryDto = z.infer<typeof runSummaryDto>
 
+/** The `progress` event of GET …/runs/:rid/events: the run's state as it changes (sent again on reconnect). */
+export const runStateEvent = runSummaryDto.pick({ status: true, progress: true, error: true, cancelRequested: true })
+export type RunStateEvent = z.infer<typeof runStateEvent>
+
 /** GET …/runs and …/projects/:pid/runs */
 export const runListReply = z.object({ runs: z.array(runSummaryDto) })
 

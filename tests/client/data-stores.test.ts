@@ -21,6 +21,7 @@ import { comparedIds, useRunComparisonStore } from '../../src/stores/useRunCompa
 import { useTeamStore } from '../../src/stores/useTeamStore'
 import { classifyLoadError, useLoadState } from '../../src/stores/loadState'
 import { parseRouteId } from '../../src/composables/useRouteId'
+import { readRunState } from '../../src/composables/useRunEvents'
 import { describeIssuePath } from '../../src/composables/useFieldErrors'
 import { startEvaluation, getRun } from '../../src/api/runs'
 import { originalUrl, uploadDataset } from '../../src/api/datasets'
@@ -83,6 +84,14 @@ describe('runs store', () => {
     expect(await second).toBe(true)
     expect(store.state.phase).toBe('ready')
     expect(store.run?.id).toBe(demoRun)
+  })
+
+  it('reads a progress event by the shared schema and passes over one of another shape', async () => {
+    const { status, progress, error, cancelRequested } = await getRun(demo.ws, demoRun)
+    expect(readRunState(JSON.stringify({ status, progress, error, cancelRequested }))).toEqual({ status, progress, error, cancelRequested })
+    expect(readRunState(JSON.stringify({ status: 'sleeping', progress: null, error: null, cancelRequested: false }))).toBeNull()
+    expect(readRunState('{not json')).toBeNull()
+    expect(readRunState(undefined)).toBeNull()
   })
 
   it('lists the workspace runs', async () => {
