@@ -126,6 +126,9 @@ export const datasetSummaryDto = z.object({
 })
 export type DatasetSummaryDto = z.infer<typeof datasetSummaryDto>
 
+/** GET …/datasets and …/projects/:pid/datasets */
+export const datasetListReply = z.object({ datasets: z.array(datasetSummaryDto) })
+
 export const datasetDto = datasetSummaryDto.extend({
   /** every column with its statistics */
   columns: z.array(columnMeta),
@@ -213,6 +216,9 @@ export const bindingDto = z.object({
 })
 export type BindingDto = z.infer<typeof bindingDto>
 
+/** GET …/projects/:pid/bindings */
+export const bindingListReply = z.object({ bindings: z.array(bindingDto) })
+
 /** POST …/projects/:pid/bindings/match: the automatic mapping for a model version and a dataset. */
 export const matchBody = z.object({
   modelId: z.coerce.number().int().positive(),
@@ -220,6 +226,9 @@ export const matchBody = z.object({
   datasetId: z.coerce.number().int().positive(),
   mapping: columnMapping.optional(),
 })
+/** its reply: the mapping and how each signal meets its column */
+export const matchReply = z.object({ mapping: columnMapping, checks: z.array(mappingCheck) })
+export type MatchReply = z.infer<typeof matchReply>
 
 /** What an upload may hold, stated in the upload form and checked there before a file is sent. */
 export const uploadLimits = z.object({

@@ -23,6 +23,9 @@ export const projectDto = z.object({
 })
 export type ProjectDto = z.infer<typeof projectDto>
 
+/** GET /api/workspaces/:ws/projects */
+export const projectListReply = z.object({ projects: z.array(projectDto) })
+
 /** POST /api/workspaces/:ws/projects/example: the example project made and its first fit queued. */
 export const exampleProjectReply = z.object({ projectId: z.number().int(), runId: z.number().int() })
 export type ExampleProjectReply = z.infer<typeof exampleProjectReply>

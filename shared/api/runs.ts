@@ -6,6 +6,8 @@ import { z } from 'zod'
 import { nameProblem, visibleText } from './text'
 import { columnMapping } from './datasets'
 import { convergenceTest, fitMethod, fitResult, fitStatus, fitWeighting, landscapeResult } from './fit'
+import { evaluationResult } from './evaluation'
+import { versionDto } from './models'
 
 /**
  * The run's lifecycle. 'succeeded' means the fit ran to its end and stored a result ("finished" on the
@@ -231,6 +233,13 @@ export const runSummaryDto = z.object({
 })
 export type RunSummaryDto = z.infer<typeof runSummaryDto>
 
+/** The `progress` event of GET …/runs/:rid/events: the run's state as it changes (sent again on reconnect). */
+export const runStateEvent = runSummaryDto.pick({ status: true, progress: true, error: true, cancelRequested: true })
+export type RunStateEvent = z.infer<typeof runStateEvent>
+
+/** GET …/runs and …/projects/:pid/runs */
+export const runListReply = z.object({ runs: z.array(runSummaryDto) })
+
 export const runDto = runSummaryDto.extend({
   settings: runSettings,
   provenance,
@@ -247,6 +256,10 @@ export type RunDto = z.infer<typeof runDto>
 export const storedRunResult = fitResult.extend({ traces: z.array(outputTrace).default([]) }).loose()
 export type StoredRunResult = z.infer<typeof storedRunResult>
 
+/** A stored evaluation result (a run of kind 'evaluation': nothing free) with the traces the server simulated. */
+export const storedEvaluationResult = evaluationResult.extend({ traces: z.array(outputTrace).default([]) }).loose()
+export type StoredEvaluationResult = z.infer<typeof storedEvaluationResult>
+
 export const saveParameterSetBody = z.object({ name: visibleText('the parameter set name', 200) })
 export const publishFromRunBody = z.object({ note: z.string().trim().max(2000).optional() })
 
@@ -261,8 +274,12 @@ export const parameterSetDto = z.object({
 })
 export type ParameterSetDto = z.infer<typeof parameterSetDto>
 
-/**
- * Shown on every result and written into every export (issue 7, item 6).
- */
+/** GET …/projects/:pid/parameter-sets and …/models/:id/parameter-sets */
+export const parameterSetListReply = z.object({ parameterSets: z.array(parameterSetDto) })
+
+/** POST …/runs/:rid/publish: the new model version and the parameters set to the estimates */
+export const publishFromRunReply = versionDto.extend({ changed: z.array(z.string()) })
+
+/** Shown on every result and written into every export. */
 export const RESULT_CAUTION =
   'Caution: a fitted model holds only within the range of the data it was fitted to. Verify it before using it for control, protection or safety decisions, and follow your site\'s procedures and the applicable codes.'

@@ -21,7 +21,8 @@ export function loadMonaco(): Promise<MonacoApi> {
       import('monaco-editor/editor/editor.worker?worker'),
     ])
     const EditorWorker = worker.default
-    ;(self as unknown as { MonacoEnvironment: { getWorker: () => Worker } }).MonacoEnvironment = { getWorker: () => new EditorWorker() }
+    // the global is declared by monaco-editor's own typings
+    self.MonacoEnvironment = { getWorker: () => new EditorWorker() }
     registerSheetLanguage(monaco)
     registerSheetQuickFixes(monaco, SHEET_LANGUAGE)
     registerDiagnosticFixes(monaco)

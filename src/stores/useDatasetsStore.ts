@@ -3,7 +3,8 @@ import { defineStore } from 'pinia'
 import { computed, shallowRef } from 'vue'
 import type { DatasetDataDto, DatasetDto, DatasetPurpose, DatasetSummaryDto, ConditioningStep } from '@shared/api/datasets'
 import type { ProjectDto } from '@shared/api/projects'
-import * as fits from '../api/fits'
+import * as datasetsApi from '../api/datasets'
+import { listProjects } from '../api/projects'
 import { useLoadState } from './loadState'
 
 export const useDatasetsStore = defineStore('datasets', () => {
@@ -13,7 +14,7 @@ export const useDatasetsStore = defineStore('datasets', () => {
   const listState = useLoadState()
   const projectName = computed(() => new Map(projects.value.map((p) => [p.id, p.name])))
   async function fetchList(ws: string): Promise<void> {
-    await listState.track(() => Promise.all([fits.listDatasets(ws), fits.listProjects(ws)]), ([d, p]) => {
+    await listState.track(() => Promise.all([datasetsApi.listDatasets(ws), listProjects(ws)]), ([d, p]) => {
       list.value = d
       projects.value = p
     })
@@ -29,7 +30,7 @@ export const useDatasetsStore = defineStore('datasets', () => {
     const same = dataset.value?.id === did && openWs === ws
     if (!same) { dataset.value = null; data.value = null }
     openWs = ws
-    return state.track(() => Promise.all([fits.getDataset(ws, did), fits.getDatasetData(ws, did, maxPoints)]), ([d, v]) => {
+    return state.track(() => Promise.all([datasetsApi.getDataset(ws, did), datasetsApi.getDatasetData(ws, did, maxPoints)]), ([d, v]) => {
       dataset.value = d
       data.value = v
     }, { quiet: same })
@@ -37,14 +38,14 @@ export const useDatasetsStore = defineStore('datasets', () => {
 
   async function mark(purpose: DatasetPurpose | null): Promise<void> {
     const d = dataset.value
-    if (d) dataset.value = await fits.markDataset(openWs, d.id, purpose)
+    if (d) dataset.value = await datasetsApi.markDataset(openWs, d.id, purpose)
   }
 
   /** A new dataset made by conditioning the open one. */
   function condition(body: { name?: string; steps: ConditioningStep[] }): Promise<DatasetDto> {
     const d = dataset.value
     if (!d) return Promise.reject(new Error('no dataset is open'))
-    return fits.conditionDataset(openWs, d.id, body)
+    return datasetsApi.conditionDataset(openWs, d.id, body)
   }
 
   return { list, projects, projectName, listState, fetchList, dataset, data, state, open, mark, condition }

@@ -7,7 +7,10 @@ import { shallowRef } from 'vue'
 import type { ProjectDto } from '@shared/api/projects'
 import type { BindingDto, DatasetPurpose, DatasetSummaryDto } from '@shared/api/datasets'
 import type { ParameterSetDto, RunSummaryDto } from '@shared/api/runs'
-import * as fits from '../api/fits'
+import * as projectsApi from '../api/projects'
+import { listDatasets, markDataset as markDatasetPurpose } from '../api/datasets'
+import { listBindings } from '../api/bindings'
+import { listParameterSets, listRuns } from '../api/runs'
 import { useLoadState } from './loadState'
 
 export const useProjectsStore = defineStore('projects', () => {
@@ -15,11 +18,11 @@ export const useProjectsStore = defineStore('projects', () => {
   const list = shallowRef<ProjectDto[]>([])
   const listState = useLoadState()
   async function fetchList(ws: string): Promise<void> {
-    await listState.track(() => fits.listProjects(ws), (p) => { list.value = p })
+    await listState.track(() => projectsApi.listProjects(ws), (p) => { list.value = p })
   }
   /** Throws the ApiError of a 400 for the form to place beside its fields. */
   async function create(ws: string, body: { name: string; description: string }): Promise<ProjectDto> {
-    const p = await fits.createProject(ws, body)
+    const p = await projectsApi.createProject(ws, body)
     list.value = [...list.value, p]
     return p
   }
@@ -45,7 +48,7 @@ export const useProjectsStore = defineStore('projects', () => {
     }
     openWs = ws
     return state.track(
-      () => Promise.all([fits.getProject(ws, pid), fits.listDatasets(ws, pid), fits.listBindings(ws, pid), fits.listRuns(ws, pid), fits.listParameterSets(ws, pid)]),
+      () => Promise.all([projectsApi.getProject(ws, pid), listDatasets(ws, pid), listBindings(ws, pid), listRuns(ws, pid), listParameterSets(ws, pid)]),
       ([p, d, b, r, s]) => {
         project.value = p
         datasets.value = d
@@ -62,7 +65,7 @@ export const useProjectsStore = defineStore('projects', () => {
   }
 
   async function markDataset(did: number, purpose: DatasetPurpose | null): Promise<void> {
-    const d = await fits.markDataset(openWs, did, purpose)
+    const d = await markDatasetPurpose(openWs, did, purpose)
     datasets.value = datasets.value.map((x) => (x.id === did ? { ...x, purpose: d.purpose } : x))
   }
 

@@ -4,7 +4,7 @@
  * states, a missing thing is "not found" without an error message, a stale load never overwrites a
  * newer one, every reply passes its shared schema, and stored run results read without casts.
  */
-import { afterAll, beforeAll, beforeEach, describe, expect, it } from 'vitest'
+import { afterAll, beforeAll, beforeEach, describe, expect, it, vi } from 'vitest'
 import { createPinia, setActivePinia } from 'pinia'
 import { eq } from 'drizzle-orm'
 import { makeTestApp, demo, type TestApp } from '../helpers/app'
@@ -21,8 +21,11 @@ import { comparedIds, useRunComparisonStore } from '../../src/stores/useRunCompa
 import { useTeamStore } from '../../src/stores/useTeamStore'
 import { classifyLoadError, useLoadState } from '../../src/stores/loadState'
 import { parseRouteId } from '../../src/composables/useRouteId'
+import { readRunState } from '../../src/composables/useRunEvents'
 import { describeIssuePath } from '../../src/composables/useFieldErrors'
-import type { RunDto } from '../../shared/api/runs'
+import { startEvaluation, getRun } from '../../src/api/runs'
+import { originalUrl, uploadDataset } from '../../src/api/datasets'
+import { terminalStatuses, type RunDto } from '../../shared/api/runs'
 
 let t: TestApp
 let client: ClientFetch
@@ -83,6 +86,14 @@ describe('runs store', () => {
     expect(store.run?.id).toBe(demoRun)
   })
 
+  it('reads a progress event by the shared schema and passes over one of another shape', async () => {
+    const { status, progress, error, cancelRequested } = await getRun(demo.ws, demoRun)
+    expect(readRunState(JSON.stringify({ status, progress, error, cancelRequested }))).toEqual({ status, progress, error, cancelRequested })
+    expect(readRunState(JSON.stringify({ status: 'sleeping', progress: null, error: null, cancelRequested: false }))).toBeNull()
+    expect(readRunState('{not json')).toBeNull()
+    expect(readRunState(undefined)).toBeNull()
+  })
+
   it('lists the workspace runs', async () => {
     const store = useRunsStore()
     await store.fetchList(demo.ws)
@@ -95,7 +106,7 @@ describe('runs store', () => {
     const r = readRunResult(odd)
     expect(r.result).toBeNull()
     expect(r.problem).toMatch(/does not have the shape this version of Pewter reads/)
-    expect(readRunResult(null)).toEqual({ result: null, problem: null })
+    expect(readRunResult(null)).toEqual({ result: null, evaluation: null, problem: null })
   })
 })
 
@@ -133,17 +144,6 @@ describe('projects, datasets, comparison and team stores', () => {
     expect(store.state.phase).toBe('not-found')
   })
 
-  it('loads two runs to compare, and reads the run ids of a compare address', async () => {
-    expect(comparedIds({ a: '3', b: '5' })).toEqual([3, 5])
-    expect(comparedIds({ a: '3', b: '3' })).toEqual([3])
-    expect(comparedIds({ a: '-1', b: 'x' })).toEqual([])
-    const store = useRunComparisonStore()
-    await store.load(demo.ws, [demoRun, demoRun + 10_000])
-    expect(store.state.phase).toBe('not-found')
-    await store.load(demo.ws, [])
-    expect(store.state.phase).toBe('idle')
-  })
-
   it('loads the team as a modeler (no admin parts) and as an admin', async () => {
     const store = useTeamStore()
     expect(await store.load(demo.ws, false)).toBe(true)
@@ -157,6 +157,122 @@ describe('projects, datasets, comparison and team stores', () => {
     expect(admin.fourEyes).not.toBeNull()
     expect(admin.audit.length).toBeGreaterThan(0)
     expect(admin.isLastAdmin(admin.members.find((m) => m.role === 'admin')!)).toBe(true)
+  })
+})
+
+/**
+ * Wraps the client's fetch for one test: `answer` may reply to a request itself (a Response, or throw as
+ * a failed connection does) or pass it on to the server (undefined). `seen` lists "METHOD path" of every call.
+ */
+function intercept(answer: (path: string, init: RequestInit) => Response | undefined = () => undefined) {
+  const inner = globalThis.fetch
+  const seen: string[] = []
+  vi.stubGlobal('fetch', async (path: string, init: RequestInit = {}) => {
+    seen.push(`${init.method ?? 'GET'} ${path}`)
+    return answer(path, init) ?? inner(path, init)
+  })
+  return { seen, restore: () => { vi.stubGlobal('fetch', inner) } }
+}
+const json = (status: number, body: unknown) => new Response(JSON.stringify(body), { status, headers: { 'Content-Type': 'application/json' } })
+const runPath = (rid: number) => `/api/workspaces/${demo.ws}/runs/${rid}`
+
+describe('comparison store', () => {
+  it('reads the run ids of a compare address in slot order, the same id twice included', () => {
+    expect(comparedIds({ a: '3', b: '5' })).toEqual([3, 5])
+    expect(comparedIds({ a: '5', b: '3' })).toEqual([5, 3])
+    expect(comparedIds({ a: '3', b: '3' })).toEqual([3, 3])
+    expect(comparedIds({ a: '3' })).toEqual([3])
+    expect(comparedIds({ a: '-1', b: 'x' })).toEqual([])
+    expect(comparedIds({ a: ['3'], b: '1.5' })).toEqual([])
+  })
+
+  it('keeps both slots for the same run twice, fetching it once', async () => {
+    const calls = intercept()
+    const store = useRunComparisonStore()
+    const loaded = await store.load(demo.ws, comparedIds({ a: String(demoRun), b: String(demoRun) })).finally(calls.restore)
+    expect(loaded).toBe(true)
+    expect(store.state.phase).toBe('ready')
+    expect(store.runs.map((r) => r.id)).toEqual([demoRun, demoRun])
+    expect(calls.seen.filter((c) => c === `GET ${runPath(demoRun)}`)).toHaveLength(1)
+    const [a, b] = store.reads
+    expect(a?.result?.parameters.length).toBeGreaterThan(0)
+    expect(b?.result?.parameters).toEqual(a?.result?.parameters)
+    expect(store.diff).toBeNull() // one version: nothing to diff
+  })
+
+  it('answers "not found" when either run is missing, without an error message', async () => {
+    const store = useRunComparisonStore()
+    expect(await store.load(demo.ws, [demoRun, 999_999])).toBe(false)
+    expect(store.state.phase).toBe('not-found')
+    expect(store.runs).toEqual([])
+    expect(client.notified).toEqual([])
+  })
+
+  it('shows a failed connection and a reply of the wrong shape as errors, and loads again when asked', async () => {
+    const store = useRunComparisonStore()
+    const offline = intercept((path) => {
+      if (path.startsWith(runPath(demoRun))) throw new TypeError('fetch failed')
+      return undefined
+    })
+    expect(await store.load(demo.ws, [demoRun, demoRun]).finally(offline.restore)).toBe(false)
+    expect(store.state.phase).toBe('error')
+    expect(store.state.error).toMatch(/cannot be reached/)
+    const odd = intercept((path) => (path === runPath(demoRun) ? json(200, { id: demoRun, name: 'no settings' }) : undefined))
+    expect(await store.load(demo.ws, [demoRun, demoRun]).finally(odd.restore)).toBe(false)
+    expect(store.state.phase).toBe('error')
+    expect(store.state.error).toMatch(/unexpected shape/)
+    expect(await store.load(demo.ws, [demoRun, demoRun])).toBe(true) // "Try again"
+    expect(store.state.phase).toBe('ready')
+  })
+
+  it('goes back to idle when the address names fewer than two runs', async () => {
+    const store = useRunComparisonStore()
+    await store.load(demo.ws, [demoRun, demoRun])
+    expect(await store.load(demo.ws, [demoRun])).toBe(false)
+    expect(store.state.phase).toBe('idle')
+    expect(store.runs).toEqual([])
+  })
+
+  it('reads an evaluation run by its own schema, on the run page and beside its fit', async () => {
+    const projectsStore = useProjectsStore()
+    await projectsStore.open(demo.ws, demoProject)
+    const fit = await getRun(demo.ws, demoRun)
+    const started = await startEvaluation(demo.ws, demoProject, {
+      modelId: fit.modelId, version: fit.modelVersion, bindingId: projectsStore.bindings[0]!.id, datasets: [demoDataset], sourceRunId: demoRun,
+    })
+    let evaluation = started
+    while (!terminalStatuses.includes(evaluation.status)) {
+      await new Promise((r) => setTimeout(r, 100))
+      evaluation = await getRun(demo.ws, started.id)
+    }
+    expect(evaluation.status).toBe('succeeded')
+    const runsStore = useRunsStore()
+    await runsStore.open(demo.ws, evaluation.id)
+    expect(runsStore.resultProblem).toBeNull()
+    expect(runsStore.result).toBeNull()
+    expect(runsStore.evaluation?.parameters.find((p) => p.name === 'Cv')?.source).toBe('run')
+    expect(runsStore.evaluation?.traces.length).toBeGreaterThan(0)
+    const compare = useRunComparisonStore()
+    await compare.load(demo.ws, [demoRun, evaluation.id])
+    expect(compare.reads.map((r) => [!!r.result, !!r.evaluation, r.problem])).toEqual([[true, false, null], [false, true, null]])
+  }, 120_000)
+})
+
+describe('dataset upload', () => {
+  it('checks the upload reply against the dataset schema', async () => {
+    // the demo record (seeded synthetic data) uploaded again as a new dataset of the project
+    const original = await fetch(originalUrl(demo.ws, demoDataset))
+    const file = new File([await original.arrayBuffer()], 'b2-again.csv', { type: 'text/csv' })
+    const d = await uploadDataset(demo.ws, demoProject, file, { name: 'b2 again', purpose: 'validation' })
+    expect(d.name).toBe('b2 again')
+    expect(d.purpose).toBe('validation')
+    expect(d.columns.length).toBeGreaterThan(1)
+    expect(d.preview.length).toBeGreaterThan(0)
+    // a reply without the dataset's fields is refused as a bad reply, not passed on to the page
+    const odd = intercept((path, init) => (init.method === 'POST' && path.endsWith(`/projects/${demoProject}/datasets`) ? json(201, { id: 1, name: 'half' }) : undefined))
+    const err = await uploadDataset(demo.ws, demoProject, file).catch((e: unknown) => e).finally(odd.restore)
+    expect(err).toBeInstanceOf(ApiError)
+    expect((err as ApiError).code).toBe('bad_reply')
   })
 })
 

@@ -1,7 +1,8 @@
 /// <reference lib="dom" />
 /**
  * Browser: the client's data layer, forms and fit progress. A missing run shows "not found" with a way
- * back, and moving from one run address to another reloads; the new-project form highlights the field
+ * back, and moving from one run address to another reloads; the compare page keeps both slots for one
+ * run given twice and states a missing run of its pair; the new-project form highlights the field
  * its rule refuses before anything is sent; the fit form places the server's refusal on the row it
  * names, in words and once; a running fit draws its live cost curve and current estimates, and a cancel
  * asks first and keeps the best finished start; the quick simulation runs in a Web Worker. The demo
@@ -56,6 +57,21 @@ describe('browser: data layer, forms, progress', () => {
     await page.getByTestId('not-found-back').click()
     await page.waitForURL(/\/w\/tinmoor\/runs$/)
     await poll(() => page.getByRole('link', { name: new RegExp(`#${rid} `) }).count()).toBeGreaterThan(0)
+  }, 120_000)
+
+  it('compares a run with itself in both slots, shows a missing run of a pair as not found, and reloads another pair', async () => {
+    const page = await signedIn()
+    await page.goto(`${rig.baseUrl}/w/tinmoor/runs/compare?a=${rid}&b=${rid}`)
+    await poll(() => page.getByTestId('parameter-table').count()).toBe(2)
+    await expect(page.locator('[data-testid="compare-settings"] thead th a').allTextContents()).resolves.toHaveLength(2)
+    await navigate(page, `/w/tinmoor/runs/compare?a=${rid}&b=999999`)
+    await poll(() => page.getByTestId('not-found').textContent()).toMatch(new RegExp(`Not found: run #${rid} or #999999`))
+    expect(await page.locator('.el-message--error').count()).toBe(0)
+    await navigate(page, `/w/tinmoor/runs/compare?a=${rid}&b=${rid}`)
+    await poll(() => page.getByTestId('parameter-table').count()).toBe(2)
+    await navigate(page, `/w/tinmoor/runs/compare?a=${rid}`)
+    await poll(() => page.getByTestId('compare-needs-two').count()).toBe(1)
+    await rig.screenshot(page, 'data-layer-compare-needs-two')
   }, 120_000)
 
   it('highlights a refused field before sending, and places the server\'s refusal on its row in words, once', async () => {

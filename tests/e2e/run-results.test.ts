@@ -92,6 +92,7 @@ describe('browser: run results', () => {
     await expect(page.getByTestId('run-kind').textContent()).resolves.toBe('evaluation')
     await expect(page.getByTestId('evaluation-summary').textContent()).resolves.toMatch(/values from B2 first calibration \(demo\).*initial states estimated/)
     await poll(() => page.getByTestId('verdict-table').count()).toBe(2)
+    expect(await page.getByTestId('result-problem').count()).toBe(0) // read by the evaluation's own schema
     await expect(page.getByTestId('evaluation-values').textContent()).resolves.toMatch(/Cv.*the fit/)
     await rig.screenshot(page, 'run-evaluation-1440')
     await page.setViewportSize({ width: 390, height: 844 })
@@ -111,6 +112,9 @@ describe('browser: run results', () => {
     // level and temp on the estimation record (fit only) and on the validation record (both runs)
     await poll(() => page.locator('figure[aria-label^="overlay "] .js-plotly-plot').count()).toBe(4)
     await poll(() => page.locator('figure[aria-label="overlay level · b2-shift-validation"] .scatterlayer .trace').count()).toBe(3)
+    // each slot shows its run's own part: the fit's estimates, the evaluation's values
+    await expect(page.getByTestId('parameter-table').count()).resolves.toBe(1)
+    await expect(page.getByTestId('compare-values').textContent()).resolves.toMatch(/Nothing free; values from/)
     await rig.screenshot(page, 'run-compare-1440')
     expect(await overflowing(page)).toEqual([])
     await page.setViewportSize({ width: 390, height: 844 })
