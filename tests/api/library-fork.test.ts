@@ -113,8 +113,8 @@ describe('the diff of a known pair', () => {
       '+_:6 param k = 3e-3 [m^2.5/s] in [1e-4, 5e-2] "outlet coefficient"',
       '+_:7 param leak = 1e-5 [m^3/s] in [0, 1e-3] "leak flow"',
       ' 7:8 state h = 0.5 [m] "level"',
-      "-8:_ h' = (q_in - k * sqrt(max(h, 0))) / A",
-      "+_:9 h' = (q_in - leak - k * sqrt(max(h, 0))) / A",
+      '-8:_ dh/dt = (q_in - k * sqrt(max(h, 0))) / A',
+      '+_:9 dh/dt = (q_in - leak - k * sqrt(max(h, 0))) / A',
       ' 9:10 output level = h [m] sigma 0.01',
     ])
     expect(d.added).toBe(4)
