@@ -4,11 +4,11 @@ import {
   type BindingFollow, type ColumnMapping, type UpdateBindingBody,
 } from '@shared/api/datasets'
 import { api } from './client'
-import { workspacePath as w } from './paths'
+import { quietNotFound, workspacePath as w } from './paths'
 
 const bindingsOf = (ws: string, pid: number) => `${w(ws)}/projects/${pid}/bindings`
 
-export const listBindings = (ws: string, pid: number) => api.get(bindingsOf(ws, pid), { schema: bindingListReply }).then((r) => r.bindings)
+export const listBindings = (ws: string, pid: number) => api.get(bindingsOf(ws, pid), { schema: bindingListReply, ...quietNotFound }).then((r) => r.bindings)
 /** The automatic mapping of a model version's signals to a dataset's columns, each checked. */
 export const matchMapping = (ws: string, pid: number, body: { modelId: number; version: number; datasetId: number; mapping?: ColumnMapping }) =>
   api.post(`${bindingsOf(ws, pid)}/match`, body, { schema: matchReply })

@@ -11,7 +11,7 @@ import { quietNotFound, workspacePath as w } from './paths'
 
 /** The workspace's datasets, or one project's. */
 export const listDatasets = (ws: string, pid?: number) =>
-  api.get(pid ? `${w(ws)}/projects/${pid}/datasets` : `${w(ws)}/datasets`, { schema: datasetListReply }).then((r) => r.datasets)
+  api.get(pid ? `${w(ws)}/projects/${pid}/datasets` : `${w(ws)}/datasets`, { schema: datasetListReply, ...(pid ? quietNotFound : {}) }).then((r) => r.datasets)
 export const getDataset = (ws: string, did: number) => api.get(`${w(ws)}/datasets/${did}`, { schema: datasetDto, ...quietNotFound })
 export const getDatasetData = (ws: string, did: number, maxPoints = 5000) =>
   api.get(`${w(ws)}/datasets/${did}/data`, { query: { maxPoints }, schema: datasetDataDto, ...quietNotFound })

@@ -12,7 +12,7 @@ import { quietNotFound, workspacePath as w } from './paths'
 
 /** The workspace's runs, or one project's. */
 export const listRuns = (ws: string, pid?: number) =>
-  api.get(pid ? `${w(ws)}/projects/${pid}/runs` : `${w(ws)}/runs`, { schema: runListReply }).then((r) => r.runs)
+  api.get(pid ? `${w(ws)}/projects/${pid}/runs` : `${w(ws)}/runs`, { schema: runListReply, ...(pid ? quietNotFound : {}) }).then((r) => r.runs)
 export const getRun = (ws: string, rid: number) => api.get(`${w(ws)}/runs/${rid}`, { schema: runDto, ...quietNotFound })
 /** 400 (field problems) is shown by the fit form beside its fields. */
 export const startRun = (ws: string, pid: number, body: Partial<CreateRunBody>) => api.post(`${w(ws)}/projects/${pid}/runs`, body, { schema: runDto, silent: [400] })
@@ -29,7 +29,7 @@ export const getLandscape = (ws: string, rid: number, a: string, b: string, n = 
 // parameter sets (saved from a run's estimates) and publishing the estimates as a new model version
 export const saveParameterSet = (ws: string, rid: number, name: string) => api.post(`${w(ws)}/runs/${rid}/parameter-sets`, { name }, { schema: parameterSetDto })
 export const listParameterSets = (ws: string, pid: number) =>
-  api.get(`${w(ws)}/projects/${pid}/parameter-sets`, { schema: parameterSetListReply }).then((r) => r.parameterSets)
+  api.get(`${w(ws)}/projects/${pid}/parameter-sets`, { schema: parameterSetListReply, ...quietNotFound }).then((r) => r.parameterSets)
 export const listModelParameterSets = (ws: string, modelId: number) =>
   api.get(`${w(ws)}/models/${modelId}/parameter-sets`, { schema: parameterSetListReply }).then((r) => r.parameterSets)
 export const publishFromRun = (ws: string, rid: number, note: string) => api.post(`${w(ws)}/runs/${rid}/publish`, { note }, { schema: publishFromRunReply })

@@ -120,6 +120,9 @@ describe('projects, datasets, comparison and team stores', () => {
     await store.open(demo.ws, 999_999)
     expect(store.state.phase).toBe('not-found')
     expect(store.project).toBeNull()
+    // the page says "not found" itself: neither the project's nor its lists' 404s raise a message
+    await new Promise((r) => setTimeout(r, 50))
+    expect(client.notified).toEqual([])
     await store.fetchList(demo.ws)
     expect(store.list.some((p) => p.id === demoProject)).toBe(true)
   })
