@@ -35,6 +35,9 @@ export const listDatasets = (ws: string, pid?: number) =>
 export const getDataset = (ws: string, did: number) => api.get(`${w(ws)}/datasets/${did}`, { schema: datasetDto, ...quiet404 })
 export const getDatasetData = (ws: string, did: number, maxPoints = 5000) =>
   api.get(`${w(ws)}/datasets/${did}/data`, { query: { maxPoints }, schema: datasetDataDto, ...quiet404 })
+/** Every sample, unthinned (the quick simulation compares and scores on all of them). */
+export const getDatasetSamples = (ws: string, did: number) =>
+  api.get(`${w(ws)}/datasets/${did}/data`, { schema: datasetDataDto, ...quiet404 })
 export const markDataset = (ws: string, did: number, purpose: DatasetPurpose | null) => api.patch(`${w(ws)}/datasets/${did}`, { purpose }, { schema: datasetDto })
 export const conditionDataset = (ws: string, did: number, body: { name?: string; steps: ConditioningStep[] }) =>
   api.post(`${w(ws)}/datasets/${did}/condition`, body, { schema: datasetDto })
