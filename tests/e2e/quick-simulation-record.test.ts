@@ -60,7 +60,7 @@ describe('browser: quick simulation on a dataset record', () => {
     await expect(page.locator('[data-testid="quick-sim-rmse"] tr[data-output="level"]').textContent()).resolves.toMatch(/level\s*level\s*[\d.e-]+ m\s*241/)
     await expect(page.locator('[data-testid="quick-sim-rmse"] tr[data-output="temp"]').textContent()).resolves.toMatch(/ K/)
     // measured markers and a simulated line for each output, in one row per output
-    await expect(page.getByTestId('quick-sim-key').textContent()).resolves.toMatch(/measured \(markers.*simulated \(line\)/)
+    await expect(page.getByTestId('quick-sim-key').textContent()).resolves.toMatch(/measured \(markers.*level simulated \(line\).*temp simulated \(line\)/)
     expect(await page.locator('[data-testid="quick-sim-plot"] .scatterlayer .trace').count()).toBe(4)
     expect(await page.locator('[data-testid="quick-sim-plot"] .scatterlayer .trace .points path').count()).toBe(2 * 241)
     expect(await page.locator('[data-testid="quick-sim-plot"] .scatterlayer .trace .js-line').count()).toBe(2)
