@@ -11,14 +11,13 @@ import { and, desc, eq, sql } from 'drizzle-orm'
 import type { Db } from '../db/client'
 import { bindings, datasets, models, modelVersions } from '../db/schema'
 import { badRequest, notFound } from '../errors'
-import { conversionFor, normName as norm } from '../../shared/data/signal-columns'
+import { autoMatch, checkMapping, type SheetSignals } from '../../shared/data/column-mapping'
 import type { BindingDto, BindingFollow, ColumnMapping, ColumnMeta, CreateBindingBody, MappingCheck, UpdateBindingBody } from '../../shared/api/datasets'
 import { getProjectRow } from './projects'
 import { columnsOf } from './datasets'
 
-export interface SignalInfo { name: string; unit: string }
-export interface SheetSignals { inputs: SignalInfo[]; outputs: SignalInfo[] }
-
+export { autoMatch, checkMapping, type SheetSignals, type SignalInfo } from '../../shared/data/column-mapping'
+export { conversionFor, type Conversion } from '../../shared/data/signal-columns'
 
 /** The inputs and outputs of a stored version (from its parsed summary). */
 export function signalsOf(summary: unknown): SheetSignals {
@@ -27,45 +26,6 @@ export function signalsOf(summary: unknown): SheetSignals {
     inputs: (s.inputs ?? []).map((i) => ({ name: i.name, unit: i.unit ?? '' })),
     outputs: (s.outputs ?? []).map((o) => ({ name: o.name, unit: o.unit ?? '' })),
   }
-}
-
-/** Matches columns to signals by name; an existing mapping's entries win where they name a column. */
-export function autoMatch(signals: SheetSignals, columns: string[], base?: ColumnMapping): ColumnMapping {
-  const byNorm = new Map(columns.map((c) => [norm(c), c]))
-  const pick = (name: string, given: string | null | undefined) => {
-    if (given !== undefined) return given
-    return byNorm.get(norm(name)) ?? null
-  }
-  const inputs: Record<string, string | null> = {}
-  const outputs: Record<string, string | null> = {}
-  for (const i of signals.inputs) inputs[i.name] = pick(i.name, base?.inputs?.[i.name])
-  for (const o of signals.outputs) outputs[o.name] = pick(o.name, base?.outputs?.[o.name])
-  return { inputs, outputs }
-}
-
-export { conversionFor, type Conversion } from '../../shared/data/signal-columns'
-
-/** Checks a mapping against one dataset's columns: every bound column exists and its unit converts. */
-export function checkMapping(signals: SheetSignals, mapping: ColumnMapping, columns: ColumnMeta[] | null): MappingCheck[] {
-  const byName = new Map((columns ?? []).map((c) => [c.name, c]))
-  const out: MappingCheck[] = []
-  const one = (kind: 'input' | 'output', s: SignalInfo, column: string | null | undefined) => {
-    const col = column ?? null
-    const meta = col ? byName.get(col) : undefined
-    let problem: string | null = null
-    let scale: number | null = null
-    let offset: number | null = null
-    if (col && columns && !meta) problem = `no column named '${col}' in the dataset (columns: ${columns.map((c) => c.name).join(', ')})`
-    else if (col) {
-      const r = conversionFor(s.unit, meta?.unit ?? '')
-      if ('problem' in r) problem = r.problem
-      else { scale = r.conv.scale; offset = r.conv.offset }
-    } else if (kind === 'output') problem = null
-    out.push({ kind, signal: s.name, sheetUnit: s.unit, column: col, columnUnit: meta ? meta.unit : null, scale, offset, problem })
-  }
-  for (const i of signals.inputs) one('input', i, mapping.inputs[i.name])
-  for (const o of signals.outputs) one('output', o, mapping.outputs[o.name])
-  return out
 }
 
 /** Rejects mapping keys that name no signal of the sheet. */

@@ -34,7 +34,7 @@ import { covarianceFrom, outputBandHalfWidth } from '../../shared/engine/stats/o
 import { describeOutcome, type FitResult, type LandscapeResult } from '../../shared/api/fit'
 import type { ColumnMapping, ColumnMeta } from '../../shared/api/datasets'
 import type { LiveSegmentLine, OutputTrace, ProgressEstimate, RunProgress, RunSettings } from '../../shared/api/runs'
-import { conversionFor } from './bindings'
+import { experimentFromRecord, RecordMappingError } from '../../shared/data/column-mapping'
 import { columnsOf, type StoredData } from './datasets'
 
 const pkg = JSON.parse(readFileSync(new URL('../../package.json', import.meta.url), 'utf8')) as { version: string }
@@ -65,34 +65,12 @@ export class RunInputError extends Error {
 
 /** One dataset as a fit experiment: time in the sheet's unit, signals converted to internal units. */
 export function experimentFrom(model: CompiledModel, ds: LoadedDataset, mapping: ColumnMapping): ExperimentData {
-  const unitOf = new Map(ds.columns.map((c) => [c.name, c.unit]))
-  const time = Float64Array.from(ds.data.time, (t) => t / model.secondsPerTimeUnit)
-  const column = (kind: string, signal: string, sheetUnit: string, col: string) => {
-    const values = ds.data.columns[col]
-    if (!values) throw new RunInputError(`dataset '${ds.name}': no column '${col}' for ${kind} '${signal}'`)
-    const conv = conversionFor(sheetUnit, unitOf.get(col) ?? '')
-    if ('problem' in conv) throw new RunInputError(`dataset '${ds.name}', column '${col}' for ${kind} '${signal}': ${conv.problem}`)
-    return { values, conv: conv.conv }
+  try {
+    return experimentFromRecord(model, ds, mapping)
+  } catch (e) {
+    if (e instanceof RecordMappingError) throw new RunInputError(e.message)
+    throw e
   }
-  const outputs: Record<string, Float64Array> = {}
-  for (const o of model.outputs) {
-    const col = mapping.outputs[o.name]
-    if (!col) continue
-    const { values, conv } = column('output', o.name, o.unit, col)
-    outputs[o.name] = Float64Array.from(values, (v) => (v === null ? NaN : toInternal(conv, v)))
-  }
-  const inputs: ExperimentData['inputs'] = {}
-  for (const i of model.inputs) {
-    const col = mapping.inputs[i.name]
-    if (!col) continue
-    const { values, conv } = column('input', i.name, i.unit, col)
-    const t: number[] = []
-    const v: number[] = []
-    values.forEach((x, k) => { if (x !== null && Number.isFinite(x)) { t.push(time[k]); v.push(toInternal(conv, x)) } })
-    if (!t.length) throw new RunInputError(`dataset '${ds.name}', column '${col}' for input '${i.name}' has no values`)
-    inputs[i.name] = { t: Float64Array.from(t), v: Float64Array.from(v) }
-  }
-  return { name: ds.name, source: ds.name, time, outputs, inputs }
 }
 
 /** The engine's problem spec from a run's settings (declared units → internal units). */

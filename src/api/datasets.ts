@@ -13,6 +13,9 @@ import { quietNotFound, workspacePath as w } from './paths'
 export const listDatasets = (ws: string, pid?: number) =>
   api.get(pid ? `${w(ws)}/projects/${pid}/datasets` : `${w(ws)}/datasets`, { schema: datasetListReply, ...(pid ? quietNotFound : {}) }).then((r) => r.datasets)
 export const getDataset = (ws: string, did: number) => api.get(`${w(ws)}/datasets/${did}`, { schema: datasetDto, ...quietNotFound })
+/** Every sample, unthinned (the quick simulation compares and scores on all of them). */
+export const getDatasetSamples = (ws: string, did: number) =>
+  api.get(`${w(ws)}/datasets/${did}/data`, { schema: datasetDataDto, ...quietNotFound })
 export const getDatasetData = (ws: string, did: number, maxPoints = 5000) =>
   api.get(`${w(ws)}/datasets/${did}/data`, { query: { maxPoints }, schema: datasetDataDto, ...quietNotFound })
 export const markDataset = (ws: string, did: number, purpose: DatasetPurpose | null) => api.patch(`${w(ws)}/datasets/${did}`, { purpose }, { schema: datasetDto })

@@ -1,12 +1,22 @@
 /**
  * The page's side of the quick simulation: a module Web Worker (src/workers/quickSimulation.worker.ts)
  * compiles and integrates, so typing and dragging sliders never block. Only the newest answer of each
- * kind counts; the worker ends with the component.
+ * kind counts; the worker ends with the component. A dataset's record goes to the worker once, its
+ * typed arrays transferred (not copied); each simulation on it then sends only the slider values.
  */
 import { onBeforeUnmount } from 'vue'
 import type { QuickModelInfo, QuickReply, QuickRequest } from '@/workers/quickSimulation'
+import { recordBuffers, type QuickRecord, type QuickRecordReply, type QuickRecordRequest } from '@/workers/quickRecordSimulation'
+import type { QuickMessageIn } from '@/workers/quickSimulation.worker'
 
-type Answer = { id: number; type: 'compiled'; info: QuickModelInfo } | { id: number; type: 'result'; reply: QuickReply } | { id: number; type: 'error'; message: string }
+type Answer =
+  | { id: number; type: 'compiled'; info: QuickModelInfo }
+  | { id: number; type: 'result'; reply: QuickReply }
+  | { id: number; type: 'record-held' }
+  | { id: number; type: 'record-result'; reply: QuickRecordReply }
+  | { id: number; type: 'error'; message: string }
+
+type Message = QuickMessageIn extends infer M ? (M extends { id: number } ? Omit<M, 'id'> : never) : never
 
 export function useQuickSimulation() {
   let worker: Worker | null = null
@@ -32,11 +42,11 @@ export function useQuickSimulation() {
     return worker
   }
 
-  function ask(msg: { type: 'compile'; text: string; parts?: Record<string, string> } | { type: 'simulate'; request: QuickRequest }): { id: number; answer: Promise<Answer> } {
+  function ask(msg: Message, transfer: Transferable[] = []): { id: number; answer: Promise<Answer> } {
     const id = ++next
     const answer = new Promise<Answer>((resolve) => {
       waiting.set(id, resolve)
-      ensure().postMessage({ id, ...msg })
+      ensure().postMessage({ id, ...msg }, { transfer })
     })
     return { id, answer }
   }
@@ -62,6 +72,21 @@ export function useQuickSimulation() {
     return { ok: false, message: a.type === 'error' ? a.message : 'unexpected answer' }
   }
 
+  /** Hands a record to the worker; its arrays are transferred, so `record` is unusable afterwards. */
+  async function holdRecord(record: QuickRecord): Promise<void> {
+    await ask({ type: 'record', record }, recordBuffers(record)).answer
+  }
+
+  /** One simulation on the held record; null when a newer simulation of either kind was asked meanwhile. */
+  async function runRecord(request: QuickRecordRequest): Promise<QuickRecordReply | null> {
+    const q = ask({ type: 'simulate-record', request: JSON.parse(JSON.stringify(request)) as QuickRecordRequest })
+    newestSimulate = q.id
+    const a = await q.answer
+    if (a.id !== newestSimulate) return null
+    if (a.type === 'record-result') return a.reply
+    return { ok: false, message: a.type === 'error' ? a.message : 'unexpected answer' }
+  }
+
   function stop() {
     worker?.terminate()
     worker = null
@@ -69,5 +94,5 @@ export function useQuickSimulation() {
   }
   onBeforeUnmount(stop)
 
-  return { compile, run, stop }
+  return { compile, run, holdRecord, runRecord, stop }
 }

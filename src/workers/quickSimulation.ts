@@ -18,6 +18,8 @@ export interface QuickModelInfo {
   inputs: { name: string; unit: string; value: number }[]
   outputs: string[]
   states: string[]
+  /** inputs and outputs with their declared units, for a record's column mapping */
+  signals: { inputs: { name: string; unit: string }[]; outputs: { name: string; unit: string }[] }
 }
 
 export interface QuickRequest {
@@ -49,6 +51,7 @@ export function describeModel(c: CompiledModel): QuickModelInfo {
     inputs: c.inputs.map((u) => ({ name: u.name, unit: u.unit, value: round(toDeclared(u, u.value)) })),
     outputs: c.outputs.map((o) => o.name),
     states: c.states.map((s) => s.name),
+    signals: { inputs: c.inputs.map((u) => ({ name: u.name, unit: u.unit })), outputs: c.outputs.map((o) => ({ name: o.name, unit: o.unit })) },
   }
 }
 
