@@ -41,7 +41,7 @@ describe('templates from models/', () => {
     const logs: string[] = []
     const first = await loadTemplates(t.context.db, t.context.database.pool, { folder, log: (m) => logs.push(m) })
     expect(first).toEqual(['drain.sheet', 'probe.sheet'])
-    expect(logs.join('\n')).toMatch(/broken\.sheet not loaded: line 8, column 7: unknown name 'q_inn'/)
+    expect(logs.join('\n')).toMatch(/broken\.sheet not loaded: line 8, column 10: unknown name 'q_inn'/)
     // concurrent later starts never duplicate
     const again = await Promise.all([1, 2, 3].map(() => loadTemplates(t.context.db, t.context.database.pool, { folder, log: () => undefined })))
     expect(again).toEqual([[], [], []])
