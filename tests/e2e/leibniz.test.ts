@@ -10,6 +10,7 @@ import { startBrowserRig, type BrowserRig } from '../helpers/browser'
 import { demo } from '../helpers/app'
 import { insertLibraryModel } from '../../server/services/models'
 import { checkModel } from '../../shared/sheet/index'
+import { cursorAt } from '../helpers/monaco'
 
 let rig: BrowserRig
 beforeAll(async () => { rig = await startBrowserRig('e2e_leibniz') })
@@ -40,13 +41,6 @@ async function storeOlderModel(): Promise<number> {
     text: OLDER, note: 'stored before Leibniz notation', summary: check.summary, ownerId: user.rows[0].id as number,
   })
   return m.id
-}
-
-/** Puts the cursor at the start of a 1-based line of the focused Monaco editor. */
-async function goToLine(page: Page, line: number) {
-  await page.keyboard.press('Control+Home')
-  for (let i = 1; i < line; i++) await page.keyboard.press('ArrowDown')
-  await page.keyboard.press('Home')
 }
 
 async function lineText(page: Page, line: number): Promise<string> {
@@ -82,13 +76,13 @@ describe('browser: derivative lines in the older form', () => {
 
     // the quick fix of one line
     await page.locator('.monaco-editor .view-lines').click()
-    await goToLine(page, 8)
+    await cursorAt(page, 8)
     await quickFix(page, 'Rewrite as dh2/dt = …')
     await poll(() => lineText(page, 8)).toBe('dh2/dt = k * (h1 - h2)')
     await poll(() => page.locator('.sheet-editor').getAttribute('data-marker-lines')).toBe('7 9')
 
     // the quick fix of every remaining line
-    await goToLine(page, 9)
+    await cursorAt(page, 9)
     await page.keyboard.press('Control+.')
     await poll(() => page.locator('.action-widget').first().textContent()).toMatch(/Rewrite as dh3\/dt = ….*Rewrite all 2 x' lines as dx\/dt/s)
     await rig.screenshot(page, 'leibniz-quick-fix-menu-1440')

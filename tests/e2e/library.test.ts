@@ -12,6 +12,7 @@ import type { Page } from 'playwright-core'
 import { startBrowserRig, type BrowserRig } from '../helpers/browser'
 import { CSRF, demo } from '../helpers/app'
 import { DEMO_PASSWORD } from '../../server/db/seed'
+import { cursorAt } from '../helpers/monaco'
 
 let rig: BrowserRig
 beforeAll(async () => { rig = await startBrowserRig('e2e_library') })
@@ -51,14 +52,6 @@ async function publishedModel(): Promise<string> {
   return `${rig.baseUrl}/w/${demo.ws}/library/${fork.body.id}`
 }
 
-/** Puts the cursor at the start of a 1-based line of the focused Monaco editor. */
-async function goToLine(page: Page, line: number) {
-  await page.keyboard.press('Control+Home')
-  for (let i = 1; i < line; i++) await page.keyboard.press('ArrowDown')
-  await page.keyboard.press('Home')
-  await page.keyboard.press('Home') // twice: Monaco's first Home stops at the first non-blank
-}
-
 async function pickOption(page: Page, selectIndexInDialog: number, optionText: string | RegExp) {
   await page.locator('.el-dialog:visible .el-select').nth(selectIndexInDialog).click()
   await page.locator('.el-select-dropdown__item:visible', { hasText: optionText }).first().click()
@@ -92,7 +85,7 @@ describe('browser: the model library', () => {
     const hLine = lines.findIndex((l) => l.startsWith("dh/dt =")) + 1
     expect(hLine).toBeGreaterThan(1)
     await page.locator('.monaco-editor .view-lines').click()
-    await goToLine(page, hLine)
+    await cursorAt(page, hLine)
     await page.keyboard.press('End')
     await page.keyboard.type(' - q_drain')
     await poll(() => page.locator('.sheet-editor').getAttribute('data-marker-lines')).toBe(String(hLine))
@@ -123,7 +116,7 @@ describe('browser: the model library', () => {
     // a real change: the heat-loss coefficient UA from 150 to 180 W/K
     const uaLine = lines.findIndex((l) => /^param\s+UA\s*=/.test(l)) + 1
     const uaCol = lines[uaLine - 1].indexOf('150')
-    await goToLine(page, uaLine)
+    await cursorAt(page, uaLine)
     for (let i = 0; i < uaCol; i++) await page.keyboard.press('ArrowRight')
     for (let i = 0; i < 3; i++) await page.keyboard.press('Shift+ArrowRight')
     await page.keyboard.type('180')
@@ -230,7 +223,7 @@ describe('browser: the model library', () => {
     const lines = v2.split('\n')
     const tauLine = lines.findIndex((l) => /^param\s+tau\s*=/.test(l)) + 1
     await page.locator('.monaco-editor .view-lines').click()
-    await goToLine(page, tauLine)
+    await cursorAt(page, tauLine)
     for (let i = 0; i < lines[tauLine - 1].indexOf('20'); i++) await page.keyboard.press('ArrowRight')
     await page.keyboard.press('Shift+ArrowRight')
     await page.keyboard.press('Shift+ArrowRight')

@@ -12,6 +12,7 @@ import { afterAll, beforeAll, describe, expect, it } from 'vitest'
 import type { APIRequestContext, Page } from 'playwright-core'
 import { startBrowserRig, type BrowserRig } from '../helpers/browser'
 import { demo } from '../helpers/app'
+import { cursorAt } from '../helpers/monaco'
 
 let rig: BrowserRig
 beforeAll(async () => { rig = await startBrowserRig('e2e_parts_review') })
@@ -35,15 +36,6 @@ async function signedInPage(email: string): Promise<Page> {
   await rig.signIn(page, email)
   await page.waitForURL(/\/w\/tinmoor\//)
   return page
-}
-
-/** Puts the cursor on a 1-based line and column of the focused Monaco editor. */
-async function cursorAt(page: Page, line: number, column: number) {
-  await page.keyboard.press('Control+Home')
-  for (let i = 1; i < line; i++) await page.keyboard.press('ArrowDown')
-  await page.keyboard.press('Home')
-  await page.keyboard.press('Home')
-  for (let i = 1; i < column; i++) await page.keyboard.press('ArrowRight')
 }
 
 describe('browser: parts, review and bindings', () => {

@@ -10,6 +10,7 @@ import { afterAll, beforeAll, describe, expect, it } from 'vitest'
 import type { Page } from 'playwright-core'
 import { startBrowserRig, type BrowserRig } from '../helpers/browser'
 import { demo } from '../helpers/app'
+import { cursorAt } from '../helpers/monaco'
 
 let rig: BrowserRig
 beforeAll(async () => { rig = await startBrowserRig('e2e_quick_fixes') })
@@ -26,15 +27,6 @@ async function templateLines(title: string): Promise<number> {
   const r = await rig.context.database.pool.query(
     'select v.text from model_versions v join models m on m.id = v.model_id where m.title = $1 and m.template is not null and v.number = 1', [title])
   return (r.rows[0].text as string).split('\n').length
-}
-
-/** Puts the cursor on a 1-based line and column of the focused Monaco editor. */
-async function goTo(page: Page, line: number, column: number) {
-  await page.keyboard.press('Control+Home')
-  for (let i = 1; i < line; i++) await page.keyboard.press('ArrowDown')
-  await page.keyboard.press('Home')
-  await page.keyboard.press('Home') // twice: Monaco's first Home stops at the first non-blank
-  for (let i = 1; i < column; i++) await page.keyboard.press('ArrowRight')
 }
 
 /** Opens the quick fixes at the cursor (Ctrl+.), shows them in a screenshot and applies the one titled `title`. */
@@ -78,7 +70,7 @@ describe('browser: quick fixes in the sheet editor', () => {
     const unitLine = await appendLine(page, lines++, 'param P_spare = 2 [kw] fixed "standby heater (invented)"')
     await poll(() => page.locator('.sheet-editor').getAttribute('data-marker-lines')).toBe(String(unitLine))
     await poll(() => page.locator('.monaco-editor .squiggly-error').count()).toBeGreaterThan(0)
-    await goTo(page, unitLine, 'param P_spare = 2 [k'.length)
+    await cursorAt(page, unitLine, 'param P_spare = 2 [k'.length)
     await applyQuickFix(page, "Change to 'kW'", 'quick-fix-unit')
     await poll(() => shownLines(page)).toContain('param P_spare = 2 [kW] fixed "standby heater (invented)"')
     await poll(() => page.locator('.sheet-editor').getAttribute('data-marker-lines')).toBe('')
@@ -86,7 +78,7 @@ describe('browser: quick fixes in the sheet editor', () => {
     // a misspelt keyword: one marker only (P_spare2 is still declared), fixed the same way
     const kwLine = await appendLine(page, lines, 'parm P_spare2 = 1 [kW] fixed')
     await poll(() => page.locator('.sheet-editor').getAttribute('data-marker-lines')).toBe(String(kwLine))
-    await goTo(page, kwLine, 2)
+    await cursorAt(page, kwLine, 2)
     await applyQuickFix(page, "Change to 'param'", 'quick-fix-keyword')
     await poll(() => shownLines(page)).toContain('param P_spare2 = 1 [kW] fixed')
     await poll(() => page.locator('.sheet-editor').getAttribute('data-marker-lines')).toBe('')
