@@ -55,6 +55,13 @@ async function publishedModel(): Promise<string> {
 async function pickOption(page: Page, selectIndexInDialog: number, optionText: string | RegExp) {
   await page.locator('.el-dialog:visible .el-select').nth(selectIndexInDialog).click()
   await page.locator('.el-select-dropdown__item:visible', { hasText: optionText }).first().click()
+  // a list left open (the click landed while it was still opening) would cover the dialog's buttons:
+  // a click on the dialog's title closes it, as a user would
+  await expect.poll(async () => {
+    const open = await page.locator('.el-select-dropdown:visible').count()
+    if (open) await page.locator('.el-dialog:visible .el-dialog__header').first().click()
+    return open
+  }, { timeout: 10_000, interval: 200 }).toBe(0)
 }
 
 describe('browser: the model library', () => {
