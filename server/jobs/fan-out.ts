@@ -9,10 +9,11 @@
  * Messages on a MessagePort (thread → parent): { type: 'starts', plans } | { type: 'next' } |
  * { type: 'outcome', outcome, threadId } | { type: 'progress', info } (a helper's iterations, passed on
  * to the run's thread, which writes the live cost curve and estimates); (parent → thread):
- * { type: 'plan', plan } | { type: 'outcomes', outcomes } | { type: 'progress', info } | { abort }.
+ * { type: 'plan', plan } | { type: 'outcomes', outcomes } | { type: 'progress', info } |
+ * { type: 'finished', withEstimate, planned } (after each outcome: the starts ended with an estimate) | { abort }.
  */
 import type { MessagePort } from 'node:worker_threads'
-import type { StartOutcome, StartPlan } from '../../shared/engine/fit/driver'
+import { hasEstimate, type StartOutcome, type StartPlan } from '../../shared/engine/fit/driver'
 import type { ProgressInfo } from '../../shared/engine/fit/lsq'
 
 export type ThreadMessage =
@@ -59,6 +60,7 @@ export class FanOut {
     this.held.set(port, null)
     this.threadIds.add(threadId)
     this.outcomes.push(o)
+    if (!this.done) this.runPort.postMessage({ type: 'finished', withEstimate: this.outcomes.filter(hasEstimate).length, planned: this.total })
     const best = this.outcomes.reduce<number | null>((b, x) => (Number.isFinite(x.cost) && (b === null || x.cost < b) ? x.cost : b), null)
     if (this.outcomes.length < this.total) this.onOutcome(this.outcomes.length, this.total, best)
     this.maybeFinish()
@@ -144,13 +146,14 @@ export function threadRunStarts(
   port: MessagePort, fit: (plan: StartPlan, onProgress?: (info: ProgressInfo) => void) => Promise<StartOutcome>, threadId: number,
   deadline: () => number | null = () => null,
 ) {
-  return async (plans: StartPlan[], onProgress?: (info: ProgressInfo) => void): Promise<StartOutcome[]> => {
+  return async (plans: StartPlan[], onProgress?: (info: ProgressInfo) => void, onStartFinished?: (withEstimate: number, planned: number) => void): Promise<StartOutcome[]> => {
     const requests = planRequests(port)
     let resolveAll!: (o: StartOutcome[]) => void
     const all = new Promise<StartOutcome[]>((r) => { resolveAll = r })
-    const onMessage = (m: { type?: string; plan?: StartPlan | null; outcomes?: StartOutcome[]; info?: ProgressInfo }) => {
+    const onMessage = (m: { type?: string; plan?: StartPlan | null; outcomes?: StartOutcome[]; info?: ProgressInfo; withEstimate?: number; planned?: number }) => {
       if (m?.type === 'plan') requests.deliver(m.plan ?? null)
       if (m?.type === 'progress' && m.info) onProgress?.(m.info)
+      if (m?.type === 'finished') onStartFinished?.(m.withEstimate ?? 0, m.planned ?? plans.length)
       if (m?.type === 'outcomes') { requests.end(); resolveAll(m.outcomes ?? []) }
     }
     port.on('message', onMessage)

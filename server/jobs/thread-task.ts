@@ -84,10 +84,10 @@ export default async function runTask(task: RunTask): Promise<{ ok: true }> {
     await (await exec)(db.db, task.runId, {
       signal: controller.signal,
       workerId: task.workerId,
-      runStarts: async (plans, onProgress) => {
+      runStarts: async (plans, onProgress, onStartFinished) => {
         const [row] = await db.db.select({ settings: runs.settings }).from(runs).where(eq(runs.id, task.runId))
         deadline = deadlineOf(row?.settings)
-        return runStarts(plans, onProgress)
+        return runStarts(plans, onProgress, onStartFinished)
       },
     })
     return { ok: true }

@@ -24,7 +24,7 @@ import { toDeclared, toInternal } from '../../shared/sheet/compiled'
 import { simulate } from '../../shared/engine'
 import { makeProblem, type FitOptions } from '../../shared/engine/fit/driver'
 import { declaredEstimates } from '../../shared/engine/fit/result'
-import { runFit } from '../../shared/engine/fit'
+import { FitAborted, runFit } from '../../shared/engine/fit'
 import type { ExperimentData, FitProblem, PreparedExperiment, ProblemSpec } from '../../shared/engine/fit/problem'
 import { BoxTransform } from '../../shared/engine/fit/transform'
 import { costLandscape } from '../../shared/engine/landscape'
@@ -322,6 +322,8 @@ export async function executeRun(db: Db, runId: number, opts: ExecuteOptions = {
     writing = writing.then(() => db.update(runs).set({ progress: p }).where(and(eq(runs.id, runId), eq(runs.status, 'running')))).catch(() => undefined)
   }
   let estimates: ProgressEstimate[] = []
+  /** starts of a multi-start fit that have ended with an estimate (a cancel keeps their best) */
+  let withEstimate = 0
   const progress = (iteration: number, cost: number | null, start: number, message: string, fraction: number): RunProgress => ({
     iteration, cost, costHistory: thin(history, 500), fraction, start, starts: settings.starts, message, updatedAt: new Date().toISOString(), estimates,
   })
@@ -335,22 +337,24 @@ export async function executeRun(db: Db, runId: number, opts: ExecuteOptions = {
     return status
   }
 
+  // a cancel may reach the fit through its thread (the pool's abort) before the poll sees the row's flag
+  const byRequest = async () => {
+    if (!cancelled) cancelled = await db.select({ c: runs.cancelRequested }).from(runs).where(eq(runs.id, runId)).then((r) => r[0]?.c === true, () => false)
+    return cancelled
+  }
+  const noResult = async () => `${(await byRequest()) ? 'Cancelled by request' : 'Stopped'} before any start had finished with an estimate: there is no result to keep.`
+
   try {
     if (settings.kind === 'evaluation') {
       writeProgress(progress(0, null, 0, 'simulating the records', 0.2))
       const result = await runEvaluation(db, row, controller.signal)
-      if (cancelled || controller.signal.aborted) return await finish('cancelled', { error: cancelled ? 'Cancelled by request.' : 'Stopped: the evaluation was aborted.' })
+      if (cancelled || controller.signal.aborted) return await finish('cancelled', { error: (await byRequest()) ? 'Cancelled by request.' : 'Stopped: the evaluation was aborted.' })
       return await finish('succeeded', {
         result: result as unknown as Record<string, unknown>, error: null,
         progress: progress(0, null, 0, `finished: ${result.outputs.length} output${result.outputs.length === 1 ? '' : 's'} evaluated`, 1),
       })
     }
     const { model, est, val, versionText } = await loadRunInputs(db, row)
-    // a cancel may reach the fit through its thread (the pool's abort) before the poll sees the row's flag
-    const byRequest = async () => {
-      if (!cancelled) cancelled = await db.select({ c: runs.cancelRequested }).from(runs).where(eq(runs.id, runId)).then((r) => r[0]?.c === true, () => false)
-      return cancelled
-    }
     const spec = problemSpec(model, settings, est, val)
     // built once without the abort signal: its names pick the landscape, then it simulates the traces
     const probe = makeProblem(model, spec, simulate, fitOptions(settings))
@@ -359,6 +363,7 @@ export async function executeRun(db: Db, runId: number, opts: ExecuteOptions = {
       signal: controller.signal,
       landscape,
       ...(opts.runStarts ? { runStarts: opts.runStarts } : {}),
+      onStartFinished: (n) => { withEstimate = n },
       onProgress: (info) => {
         if (info.cost <= best && info.parameters.length === probe.n) estimates = declaredEstimates(model, probe, info.parameters)
         if (info.cost < best) best = info.cost
@@ -372,7 +377,8 @@ export async function executeRun(db: Db, runId: number, opts: ExecuteOptions = {
           linesAt = now
           lines = { segmentLines: info.segmentLines(), segmentIteration: info.iteration }
         }
-        pending = { ...progress(info.iteration, info.cost, start, `${how}start ${start + 1} of ${settings.starts}, iteration ${info.iteration}`, fraction), ...lines }
+        const done = withEstimate > 0 ? ` (${withEstimate} finished)` : ''
+        pending = { ...progress(info.iteration, info.cost, start, `${how}start ${start + 1} of ${settings.starts}, iteration ${info.iteration}${done}`, fraction), ...lines }
         if (now - lastWrite >= PROGRESS_INTERVAL_MS) { lastWrite = now; writeProgress(pending); pending = null }
       },
     })
@@ -400,8 +406,7 @@ export async function executeRun(db: Db, runId: number, opts: ExecuteOptions = {
       })
     }
     if (cancelled || controller.signal.aborted || result.status === 'aborted') {
-      const error = `${(await byRequest()) ? 'Cancelled by request' : 'Stopped'} before any start had finished with an estimate: there is no result to keep.`
-      return await finish('cancelled', { error, progress: progress(0, best === Infinity ? null : best, 0, 'cancelled', 0) })
+      return await finish('cancelled', { error: await noResult(), progress: progress(0, best === Infinity ? null : best, 0, 'cancelled', 0) })
     }
     const outcome = { outcome: result.status, convergedBy: result.convergedBy }
     if (result.status === 'failed') {
@@ -418,8 +423,14 @@ export async function executeRun(db: Db, runId: number, opts: ExecuteOptions = {
       progress: { ...progress(result.iterations, result.sse, settings.starts - 1, `finished, ${describeOutcome(result.status, result.convergedBy)}: ${result.reason}`, 1), costHistory: thin(lastHistory, 500), ...lines },
     })
   } catch (e) {
-    if (cancelled || controller.signal.aborted) return await finish('cancelled', { error: cancelled ? 'Cancelled by request.' : 'Stopped: the fit was aborted.' })
     const msg = e instanceof Error ? e.message : String(e)
+    if (cancelled || controller.signal.aborted) {
+      // an abort before any start finished; anything else raised while stopping is named, not hidden
+      if (settings.kind === 'evaluation') return await finish('cancelled', { error: (await byRequest()) ? 'Cancelled by request.' : 'Stopped: the evaluation was aborted.' })
+      if (e instanceof FitAborted) return await finish('cancelled', { error: await noResult() })
+      console.error(`[pewter] run ${runId}: error while stopping:`, e)
+      return await finish('cancelled', { error: `${(await byRequest()) ? 'Cancelled by request' : 'Stopped'}; while stopping, the fit raised an error: ${msg}` })
+    }
     const known = e instanceof Error && ['FitInputError', 'RunInputError', 'SheetError', 'SimulationError', 'InputTraceError'].includes(e.name)
     if (!known && process.env.NODE_ENV !== 'test') console.error(`[pewter] run ${runId} failed:`, e)
     return await finish('failed', { error: known ? msg : `The fit stopped on an internal error: ${msg}` })

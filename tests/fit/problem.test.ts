@@ -195,6 +195,33 @@ describe('fit problem', () => {
     expect(budget.reason).toMatch(/time budget/)
   })
 
+  it('a multi-start fit stopped before any start ended with an estimate: no outcome is an abort, a failed one is its status', async () => {
+    // the starts run elsewhere (runStarts, as the job pool does) and the caller stops the fit before any of them
+    // finished: the pool answers with no outcome, or only with failed ones
+    const p = MISRA1A
+    const model = compileModel(nistSheet(p, p.starts[0]))
+    const spec: ProblemSpec = { experiments: [{ name: 'm', time: Float64Array.from(p.x), outputs: { yobs: Float64Array.from(p.y) }, inputs: {} }] }
+    const ctl = new AbortController()
+    const finished: number[] = []
+    const none = runFit(model, spec, { starts: 4, signal: ctl.signal, runStarts: async () => { ctl.abort(); return [] } })
+    await expect(none).rejects.toThrow(/stopped before any start had finished/)
+    const ctl2 = new AbortController()
+    const failedOnly = await runFit(model, spec, {
+      starts: 4, signal: ctl2.signal, onStartFinished: (n) => finished.push(n),
+      runStarts: async (plans) => {
+        ctl2.abort()
+        return [{ index: plans[1].index, start: plans[1].theta, theta: plans[1].theta, cost: NaN, objective: NaN, status: 'failed', convergedBy: null, reason: 'the simulation failed', iterations: 0, simulations: 1, costHistory: [], weights: null }]
+      },
+    })
+    expect(failedOnly.status).toBe('failed')
+    expect(failedOnly.stoppedEarly).toBeUndefined()
+    expect(finished).toEqual([])
+    // in this thread: each start that ends with an estimate is counted
+    const counted: number[] = []
+    await runFit(model, spec, { starts: 2, onStartFinished: (n, planned) => counted.push(n * 10 + planned) })
+    expect(counted).toEqual([13, 23, 33])
+  })
+
   it('profile-likelihood interval and cost landscape', async () => {
     const p = MISRA1A
     const model = compileModel(nistSheet(p, p.starts[1]))

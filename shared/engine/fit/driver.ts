@@ -97,8 +97,12 @@ export async function fitFromStart(
   }
 }
 
+/** A start that ended with an estimate (neither failed nor aborted, finite objective). */
+export const hasEstimate = (o: StartOutcome): boolean => o.status !== 'aborted' && o.status !== 'failed' && Number.isFinite(o.objective)
+
 /** The best outcome: lowest objective among those that did not fail. */
 export function pickBest(outcomes: StartOutcome[]): StartOutcome {
+  if (outcomes.length === 0) throw new Error('no start was run, so there is no outcome to pick')
   let best: StartOutcome | null = null
   for (const o of outcomes) {
     if (o.status === 'failed' || !Number.isFinite(o.objective)) continue
@@ -128,21 +132,29 @@ export async function runFitWith(
   const plans = planStarts(model, spec, opts, simulate, eqErr, probe)
   let outcomes: StartOutcome[]
   if (opts.runStarts && plans.length > 1) {
-    outcomes = await opts.runStarts(plans, opts.onProgress)
+    outcomes = await opts.runStarts(plans, opts.onProgress, opts.onStartFinished)
     outcomes.sort((a, b) => a.index - b.index)
   } else {
     outcomes = []
+    let withEstimate = 0
     for (const plan of plans) {
       if (opts.signal?.aborted) break
       if (deadline !== undefined && Date.now() > deadline && outcomes.length > 0) break
-      outcomes.push(await fitFromStart(model, spec, plan, opts, simulate, deadline))
+      const o = await fitFromStart(model, spec, plan, opts, simulate, deadline)
+      outcomes.push(o)
+      if (hasEstimate(o)) opts.onStartFinished?.(++withEstimate, plans.length)
     }
   }
-  const finished = outcomes.filter((o) => o.status !== 'aborted' && o.status !== 'failed' && Number.isFinite(o.objective))
-  if (opts.signal?.aborted && finished.length > 0) {
-    // stopped by the caller between or during starts: the finished starts' best is still a result; it is
-    // assembled without the raised signal (and without the optional landscape and profiles, to end soon)
+  const finished = outcomes.filter(hasEstimate)
+  if (opts.signal?.aborted) {
+    if (outcomes.length === 0) throw new FitAborted('stopped before any start had finished')
+    // stopped by the caller between or during starts: the result is assembled without the raised signal
+    // (and without the optional landscape and profiles, to end soon); the finished starts' best is still a
+    // result; with none finished, the result says so by its status (aborted or failed)
     const calm: FitOptions = { ...opts, signal: undefined, landscape: undefined, profile: undefined, onProgress: undefined }
+    if (finished.length === 0) {
+      return buildResult({ model, spec, opts: calm, simulate, best: pickBest(outcomes), outcomes, weighting, eqErr, extraWarnings: eqWarnings, startedAt: t0, deadline })
+    }
     const note = `stopped by request after ${finished.length} of ${plans.length} starts: the estimates are the best of the finished starts`
     const result = await buildResult({
       model, spec, opts: calm, simulate, best: pickBest(finished), outcomes, weighting, eqErr, extraWarnings: [...eqWarnings, note],

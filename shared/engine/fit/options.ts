@@ -34,6 +34,8 @@ export interface FitOptions {
   timeBudgetMs?: number
   signal?: AbortSignal
   onProgress?: (info: ProgressInfo) => void
+  /** a multi-start fit's count of finished starts with an estimate (failed and aborted starts are not counted) */
+  onStartFinished?: (withEstimate: number, planned: number) => void
   /** names of estimated quantities wanting a profile-likelihood interval */
   profile?: string[]
   landscape?: LandscapeRequest
@@ -45,9 +47,10 @@ export interface FitOptions {
   segmentEvaluator?: SegmentEvaluatorFactory
   /**
    * run the planned starts elsewhere (workers); must return one outcome per plan, in any order (after a
-   * cancel: the outcomes of the starts that finished); `onProgress` receives every start's iterations
+   * cancel: the outcomes of the starts that finished); `onProgress` receives every start's iterations,
+   * `onStartFinished` the count of finished starts with an estimate
    */
-  runStarts?: (plans: StartPlan[], onProgress?: (info: ProgressInfo) => void) => Promise<StartOutcome[]>
+  runStarts?: (plans: StartPlan[], onProgress?: (info: ProgressInfo) => void, onStartFinished?: (withEstimate: number, planned: number) => void) => Promise<StartOutcome[]>
 }
 
 export interface StartPlan {
