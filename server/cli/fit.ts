@@ -85,8 +85,9 @@ export function parseArgs(argv: string[]): Args {
       }
       case '--starts': {
         const n = number(flag, value())
-        if (!Number.isInteger(n) || n < 0 || n > 10000) throw new ArgError('--starts: a whole number from 0 to 10000')
-        a.opts.starts = n
+        if (!Number.isInteger(n) || n < 1 || n > 10001) throw new ArgError('--starts: a whole number from 1 to 10001 (the starts in all, the sheet\'s values among them)')
+        // N starts in all, as the run form's Starts and `pewter submit --starts`: the sheet's values and N − 1 Latin-hypercube points
+        a.opts.starts = n - 1
         break
       }
       case '--weighting': {

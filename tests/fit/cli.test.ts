@@ -99,6 +99,17 @@ describe('pewter fit', () => {
     expect(r.stdout).toMatch(/note: .*control or for any safety-related decision/)
   })
 
+  it('--starts N counts the starts in all, the sheet\'s values among them, as the run form does; 0 is refused', async () => {
+    const r = await pewterHere(['misra.sheet', 'misra-min.csv', '--starts', '3', '--json'])
+    expect(r.code).toBe(0)
+    const res = fitResult.parse(JSON.parse(r.stdout))
+    expect(res.starts).toHaveLength(3)
+    expect(res.starts[0].start).toEqual(fitResult.parse(JSON.parse((await pewterHere(['misra.sheet', 'misra-min.csv', '--json'])).stdout)).starts[0].start)
+    const zero = await pewterHere(['misra.sheet', 'misra-min.csv', '--starts', '0'])
+    expect(zero.code).toBe(2)
+    expect(zero.stderr).toMatch(/--starts: a whole number from 1/)
+  })
+
   it('--segments fits by multiple shooting and adds its section to the JSON; the table says how it went', async () => {
     const r = await pewterHere(['lv.sheet', 'lv.csv', '--segments', '10', '--json'])
     expect(r.code).toBe(0)
