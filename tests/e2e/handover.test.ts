@@ -28,6 +28,18 @@ describe('browser: hand-over', () => {
     await poll(() => page.locator('[data-testid="poles"] .el-table__row').count()).toBe(2)
     await expect(page.locator('[data-testid="poles"]').textContent()).resolves.toMatch(/300/) // τ = 2 A √h*/Cv = 300 s
     await poll(() => page.locator('[data-testid="handover-panel"] .plotly-chart .main-svg').count()).toBeGreaterThan(1)
+    // the pickers list what the sheet declares, in its order: 4 inputs × 2 outputs for the Bode plot (by
+    // output, then input), the outputs for the step plot; picking the second output redraws the step plot for it
+    const stepTitle = () => page.locator('[aria-label="step responses"] .ytitle').textContent()
+    await poll(stepTitle).toBe('level [m]')
+    const options = page.locator('.el-select-dropdown:visible .el-select-dropdown__item')
+    await page.getByLabel('Input–output pair', { exact: true }).first().click({ force: true })
+    await poll(() => options.allTextContents()).toEqual(['q_in → level', 'T_feed → level', 'P_h → level', 'opening → level', 'q_in → temp', 'T_feed → temp', 'P_h → temp', 'opening → temp'])
+    await page.keyboard.press('Escape')
+    await page.getByLabel('Output shown', { exact: true }).first().click({ force: true })
+    await poll(() => options.allTextContents()).toEqual(['level', 'temp'])
+    await options.filter({ hasText: 'temp' }).click()
+    await poll(stepTitle).toBe('temp [K]')
     const [download] = await Promise.all([page.waitForEvent('download'), page.locator('[data-testid="export-js"]').click()])
     expect(download.suggestedFilename()).toBe('heated_buffer_vessel.mjs')
     // an FMU of a sheet with an input delay is refused with the reason

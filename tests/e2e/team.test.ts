@@ -118,11 +118,17 @@ describe('browser: team administration and mail', () => {
     await page.waitForURL(/\/w\/tinmoor\//)
     await page.goto(`${rig.baseUrl}/w/tinmoor/team`)
     await page.locator('input[name="token-name"]').fill('laptop CLI')
+    // a token's role is at most the maker's: a modeler is offered modeler, reviewer and viewer, never admin
+    await page.getByTestId('token-form').locator('.el-select').click()
+    const roleOptions = page.locator('.el-select-dropdown:visible .el-select-dropdown__item')
+    await expect.poll(() => roleOptions.allTextContents()).toEqual(['modeler', 'reviewer', 'viewer'])
+    await roleOptions.filter({ hasText: 'reviewer' }).click()
     await page.getByRole('button', { name: 'Create token' }).click()
     const token = await page.locator('[data-testid="new-token"]').textContent()
     expect(token).toMatch(/^pwt_/)
     await expect.poll(() => page.locator('[data-testid="tokens"]').getByText('laptop CLI').count()).toBeGreaterThan(0)
     expect(await page.locator('[data-testid="tokens"]').getByText(token!).count()).toBe(0)
+    expect(await page.locator('[data-testid="tokens"] .el-table__row').filter({ hasText: 'laptop CLI' }).locator('.role-tag').textContent()).toBe('reviewer')
     // the modeler sees no admin sections
     expect(await page.getByRole('button', { name: 'Send invitation' }).count()).toBe(0)
     await rig.screenshot(page, 'team-tokens')
