@@ -13,7 +13,7 @@ export function errors(text: string): Diagnostic[] {
 }
 
 /** Seeded pseudo-random numbers (the engine's mulberry32; synthetic test data). */
-export { mulberry32 as rng } from '../../shared/engine/fit/lhs'
+export { mulberry32 as rng } from '../../shared/engine/random'
 
 export interface Point { t: number; x: Float64Array; p: Float64Array; u: Float64Array }
 
