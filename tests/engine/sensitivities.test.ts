@@ -1,7 +1,7 @@
 import { describe, expect, it } from 'vitest'
 import { simulate, type SimulationRequest, type SolverName } from '../../shared/engine'
 import type { CompiledModel } from '../../shared/sheet/compiled'
-import { linspace, makeModel } from './helpers/model'
+import { decayModel, linspace, makeModel } from './helpers/model'
 
 const methods: SolverName[] = ['rk45', 'odex', 'stiff', 'auto']
 
@@ -68,14 +68,7 @@ function delayedLag(title: string, interp: 'linear' | 'hold', T: number, tauS: n
 
 describe('forward sensitivities', () => {
   // x' = −k x: ∂x/∂k = −t·x0·e^{−kt}, ∂x/∂x0 = e^{−kt} (differentiate the closed form; no source)
-  const decay = makeModel({
-    title: 'decay-sens',
-    states: [{ name: 'x', initial: 2 }],
-    params: [{ name: 'k', value: 0.6 }],
-    rhs: (_t, x, p, _u, o) => { o[0] = -p[0] * x[0] },
-    dfdx: (_t, _x, p, _u, o) => { o[0] = -p[0] },
-    dfdp: (_t, x, _p, _u, o) => { o[0] = -x[0] },
-  })
+  const decay = decayModel('decay-sens', 2, 0.6)
   for (const solver of methods) {
     it(`decay: ∂x/∂k and ∂x/∂x0 match the closed form (${solver})`, () => {
       const tOut = linspace(0, 5, 11)
