@@ -11,8 +11,7 @@ import os from 'node:os'
 import path from 'node:path'
 import type { AddressInfo } from 'node:net'
 import { eq } from 'drizzle-orm'
-import pg from 'pg'
-import { freePort, startCluster } from '../scripts/pg'
+import { createDatabase, freePort, startCluster } from '../scripts/pg'
 import { createApp } from '../server/app'
 import { createContext } from '../server/bootstrap'
 import { seedDemoProject } from '../server/services/demo-project'
@@ -87,15 +86,9 @@ async function main() {
     adminUrl = cluster.url
     stopCluster = cluster.stop
   }
-  const dbName = `bench_server_${Date.now()}`
-  const admin = new pg.Client({ connectionString: adminUrl })
-  await admin.connect()
-  await admin.query(`CREATE DATABASE ${dbName}`)
-  await admin.end()
-  const u = new URL(adminUrl)
-  u.pathname = `/${dbName}`
+  const databaseUrl = await createDatabase(adminUrl, `bench_server_${Date.now()}`)
   const threads = Number(process.env.PEWTER_WORKER_THREADS ?? 2)
-  const context = await createContext({ databaseUrl: u.toString(), workerThreads: threads, smtpUrl: 'smtp://127.0.0.1:9', rateLimitAuth: 1e9 })
+  const context = await createContext({ databaseUrl, workerThreads: threads, smtpUrl: 'smtp://127.0.0.1:9', rateLimitAuth: 1e9 })
   try {
     await seedDemoProject(context.db)
     const pool = (context.services.jobs as ThreadRunner).pool

@@ -10,9 +10,8 @@
  */
 import { simulate, type SimulationRequest } from '../shared/engine'
 import { best, problems, pythonRepr, scipyRows, type PyRow } from './sim-stiff'
+import { lpad, pad } from './table'
 
-const pad = (s: string, n: number) => (s.length >= n ? s : s + ' '.repeat(n - s.length))
-const lpad = (s: string, n: number) => (s.length >= n ? s : ' '.repeat(n - s.length) + s)
 const SENS_RTOLS = [1e-6, 1e-8, 1e-10]
 
 export function sensitivityCost(py: Map<string, PyRow> | string): void {

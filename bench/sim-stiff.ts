@@ -7,11 +7,12 @@
  * The references come from the engine's RODAS4 at rtol 1e-13, restarted from t0 for every output
  * time (so no interpolation enters them); the stiff tests check that method against scipy Radau.
  */
-import { spawnSync } from 'node:child_process'
 import { readFileSync } from 'node:fs'
 import { simulate, type SolverName, type SimulationRequest } from '../shared/engine'
 import { compileModel } from '../shared/sheet'
 import type { CompiledModel } from '../shared/sheet/compiled'
+import { runScipy } from './scipy'
+import { lpad, pad } from './table'
 
 export interface StiffProblem {
   name: string
@@ -72,12 +73,7 @@ export interface PyRow { ms: number; nfev: number; njev: number; y: number[][]; 
 /** scipy's solve_ivp on the problems, keyed `problem|method|repr(rtol)`, or why it was skipped */
 export function scipyRows(methods: string[] = PY_METHODS, rtols: number[] = RTOLS, which: StiffProblem[] = problems): Map<string, PyRow> | string {
   const jobs = which.map((p) => ({ name: p.name, code: p.py, t: p.tOut, atolFactor: p.atolFactor }))
-  const script = `
-import json, sys, time
-import numpy as np
-from scipy.integrate import solve_ivp
-jobs = json.loads(sys.stdin.read())
-out = {}
+  return runScipy<PyRow>(jobs, `
 for job in jobs:
     ns = {}
     exec(job['code'], ns)
@@ -85,24 +81,10 @@ for job in jobs:
     for method in ${JSON.stringify(methods)}:
         for rtol in ${JSON.stringify(rtols)}:
             kw = dict(method=method, rtol=rtol, atol=rtol*job['atolFactor'], t_eval=t, jac=ns['jac'])
-            ts = []
-            sol = None
-            t0 = time.perf_counter()
-            while len(ts) < 3 or (time.perf_counter() - t0 < 1.5 and len(ts) < 20):
-                a = time.perf_counter()
-                sol = solve_ivp(ns['f'], (0, t[-1]), ns['y0'], **kw)
-                ts.append((time.perf_counter() - a) * 1000)
-                if ts[-1] > 5000: break
-            out[job['name'] + '|' + method + '|' + repr(rtol)] = dict(ms=min(ts), nfev=int(sol.nfev), njev=int(sol.njev), ok=bool(sol.success), y=sol.y.T.tolist())
-print(json.dumps(out))
-`
-  const r = spawnSync('python3', ['-c', script], { input: JSON.stringify(jobs), encoding: 'utf8', timeout: 1_800_000, maxBuffer: 1 << 26 })
-  if (r.status !== 0) return `scipy comparison skipped: ${r.error ? r.error.message : (r.stderr || '').trim().split('\n').pop()}`
-  return new Map(Object.entries(JSON.parse(r.stdout) as Record<string, PyRow>))
+            ms, sol = timed(ns['f'], (0, t[-1]), ns['y0'], kw)
+            out[job['name'] + '|' + method + '|' + repr(rtol)] = dict(ms=ms, nfev=int(sol.nfev), njev=int(sol.njev), ok=bool(sol.success), y=sol.y.T.tolist())
+`, { budgetSeconds: 1.5, timeoutMs: 1_800_000, maxBuffer: 1 << 26 })
 }
-
-const pad = (s: string, n: number) => (s.length >= n ? s : s + ' '.repeat(n - s.length))
-const lpad = (s: string, n: number) => (s.length >= n ? s : ' '.repeat(n - s.length) + s)
 
 /** Prints the table; returns scipy's rows (or why they are missing) for the sensitivity figures. */
 export function stiffWorkPrecision(): Map<string, PyRow> | string {

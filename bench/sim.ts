@@ -9,12 +9,13 @@
  * Then the stiff path's work–precision table (bench/sim-stiff.ts) and the cost of sensitivities and
  * auto's switch on it (bench/sim-sens.ts; `npm run bench:sim -- sens` runs that part alone).
  */
-import { spawnSync } from 'node:child_process'
 import { cpus, loadavg } from 'node:os'
 import { simulate, type SolverName } from '../shared/engine'
 import type { CompiledModel, VecFn } from '../shared/sheet/compiled'
 import { stiffWorkPrecision } from './sim-stiff'
 import { autoSwitch, sensitivityBench, sensitivityCost } from './sim-sens'
+import { runScipy } from './scipy'
+import { lpad, pad } from './table'
 
 interface Problem {
   name: string
@@ -140,14 +141,10 @@ function timeOurs(p: Problem, solver: SolverName, rtol: number) {
   return { steps: first.stats.steps, rhs: first.stats.rhsEvals, ms: Math.min(...times), method: first.stats.method }
 }
 
-function scipyTimes(): Map<string, { ms: number; nfev: number; steps: number }> | null {
+type ScipyTime = { ms: number; nfev: number; steps: number }
+function scipyTimes(): Map<string, ScipyTime> | null {
   const jobs = problems.filter((p) => p.py !== '').map((p, i) => ({ i, name: p.name, atolFactor: p.atolFactor, code: p.py, skip: p.skip.map((m) => pyPair[m]) }))
-  const script = `
-import json, sys, time
-import numpy as np
-from scipy.integrate import solve_ivp
-jobs = json.loads(sys.stdin.read())
-out = {}
+  const r = runScipy<ScipyTime>(jobs, `
 for job in jobs:
     ns = {}
     exec(job['code'], ns)
@@ -158,32 +155,14 @@ for job in jobs:
         for ri, rtol in enumerate([${rtols.join(', ')}]):
             kw = dict(method=method, rtol=rtol, atol=rtol*job['atolFactor'], t_eval=teval)
             if jac is not None and method in ('Radau', 'LSODA'): kw['jac'] = jac
-            ts = []
-            sol = None
-            t0 = time.perf_counter()
-            while len(ts) < 3 or (time.perf_counter() - t0 < 1.0 and len(ts) < 20):
-                a = time.perf_counter()
-                sol = solve_ivp(f, (0, T), y0, **kw)
-                ts.append((time.perf_counter() - a) * 1000)
-                if ts[-1] > 5000: break
-            ts.sort()
-            out[f"{job['name']}|{method}|{ri}"] = dict(ms=ts[0], nfev=int(sol.nfev), steps=int(getattr(sol, 'nsteps', -1)) if hasattr(sol,'nsteps') else -1, ok=bool(sol.success))
-print(json.dumps(out))
-`
-  const r = spawnSync('python3', ['-c', script], { input: JSON.stringify(jobs), encoding: 'utf8', timeout: 900_000, maxBuffer: 1 << 24 })
-  if (r.status !== 0) {
-    console.log(`(scipy comparison skipped: ${r.error ? r.error.message : (r.stderr || '').trim().split('\n').pop()})`)
+            ms, sol = timed(f, (0, T), y0, kw)
+            out[f"{job['name']}|{method}|{ri}"] = dict(ms=ms, nfev=int(sol.nfev), steps=int(getattr(sol, 'nsteps', -1)) if hasattr(sol,'nsteps') else -1, ok=bool(sol.success))
+`, { budgetSeconds: 1.0, timeoutMs: 900_000, maxBuffer: 1 << 24 })
+  if (typeof r === 'string') {
+    console.log(`(${r})`)
     return null
   }
-  const j = JSON.parse(r.stdout) as Record<string, { ms: number; nfev: number; steps: number }>
-  return new Map(Object.entries(j))
-}
-
-function pad(s: string, n: number): string {
-  return s.length >= n ? s : s + ' '.repeat(n - s.length)
-}
-function lpad(s: string, n: number): string {
-  return s.length >= n ? s : ' '.repeat(n - s.length) + s
+  return r
 }
 
 if (process.argv.includes('sens')) {

@@ -8,6 +8,7 @@ import { execFileSync, spawnSync } from 'node:child_process'
 import { existsSync, mkdirSync, readdirSync, readFileSync, rmSync, chownSync, chmodSync } from 'node:fs'
 import net from 'node:net'
 import path from 'node:path'
+import pg from 'pg'
 
 export interface Cluster {
   url: string
@@ -124,4 +125,18 @@ function uid(name: string): number {
 }
 function gid(name: string): number {
   return Number(execFileSync('id', ['-g', name], { encoding: 'utf8' }).trim())
+}
+
+/** Creates the database `name` (a plain identifier) in the cluster of `adminUrl`; returns its URL. */
+export async function createDatabase(adminUrl: string, name: string): Promise<string> {
+  const admin = new pg.Client({ connectionString: adminUrl })
+  await admin.connect()
+  try {
+    await admin.query(`CREATE DATABASE ${name}`)
+  } finally {
+    await admin.end()
+  }
+  const u = new URL(adminUrl)
+  u.pathname = `/${name}`
+  return u.toString()
 }

@@ -20,17 +20,14 @@ import { createRun } from './runs'
 import { executeRun } from './fit-execution'
 import type { JobRunner } from '../jobs/types'
 import { conflict } from '../errors'
+import { mulberry32 } from '../../shared/engine/random'
 
-/** mulberry32: a small seeded PRNG (common practice, no source); Box–Muller for normal deviates. */
+/**
+ * Seeded uniform (the engine's mulberry32) and normal deviates, the latter by the Box–Muller transform
+ * (G. E. P. Box & M. E. Muller, Ann. Math. Statist. 29 (1958) 610–611).
+ */
 export function rng(seed: number) {
-  let a = seed >>> 0
-  const uniform = () => {
-    a = (a + 0x6d2b79f5) >>> 0
-    let t = a
-    t = Math.imul(t ^ (t >>> 15), t | 1)
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61)
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296
-  }
+  const uniform = mulberry32(seed)
   const normal = () => {
     const u = Math.max(uniform(), 1e-300)
     return Math.sqrt(-2 * Math.log(u)) * Math.cos(2 * Math.PI * uniform())

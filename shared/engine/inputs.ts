@@ -53,19 +53,18 @@ export class InputSet {
     if (traces && traces.length > nu) {
       throw new InputTraceError(`#${nu + 1}`, null, `the model has ${nu} input(s) but ${traces.length} traces were given`)
     }
+    const slot = (input: number, delayed: boolean): Slot => {
+      const info = model.inputs[input]
+      return { name: info.name, hold: info.interp === 'hold', trace: tr[input], value: info.value, shift: 0, delayed, idx: -1, clamped: false }
+    }
     for (let i = 0; i < nu; i++) {
-      const info = model.inputs[i]
       if (tr[i] !== null && !validated.has(tr[i] as InputTrace)) {
-        validateTrace(info.name, tr[i] as InputTrace)
+        validateTrace(model.inputs[i].name, tr[i] as InputTrace)
         validated.add(tr[i] as InputTrace)
       }
-      this.slots.push({ name: info.name, hold: info.interp === 'hold', trace: tr[i], value: info.value, shift: 0, delayed: false, idx: -1, clamped: false })
+      this.slots.push(slot(i, false))
     }
-    for (let k = 0; k < model.nd; k++) {
-      const d = model.delays[k]
-      const info = model.inputs[d.input]
-      this.slots.push({ name: info.name, hold: info.interp === 'hold', trace: tr[d.input], value: info.value, shift: 0, delayed: true, idx: -1, clamped: false })
-    }
+    for (let k = 0; k < model.nd; k++) this.slots.push(slot(model.delays[k].input, true))
     this.nSlots = this.slots.length
     this.hasHold = this.slots.some((s) => s.trace !== null && s.hold)
     this.hasTraces = this.slots.some((s) => s.trace !== null)
@@ -112,14 +111,22 @@ export class InputSet {
     return points
   }
 
+  /** slot s at time t reads before t0 (a delayed slot early on): it is held at its value at t0 */
+  private beforeStart(s: Slot, t: number): boolean {
+    return s.delayed && t - s.shift < this.t0
+  }
+
+  /** the trace time slot s reads at time t: t less its delay, not before t0 */
+  private readTime(s: Slot, t: number): number {
+    return this.beforeStart(s, t) ? this.t0 : t - s.shift
+  }
+
   /** fix every slot's interval for the segment containing tMid (strictly inside it) */
   setSegment(tMid: number): void {
     for (const s of this.slots) {
       if (s.trace === null) continue
-      let q = tMid - s.shift
-      s.clamped = s.delayed && q < this.t0
-      if (s.clamped) q = this.t0
-      s.idx = locate(s.trace.t, q, s.idx)
+      s.clamped = this.beforeStart(s, tMid)
+      s.idx = locate(s.trace.t, this.readTime(s, tMid), s.idx)
     }
   }
 
@@ -128,14 +135,7 @@ export class InputSet {
     const slots = this.slots
     for (let k = 0; k < slots.length; k++) {
       const s = slots[k]
-      const tr = s.trace
-      if (tr === null) {
-        u[k] = s.value
-        continue
-      }
-      let q = t - s.shift
-      if (s.delayed && q < this.t0) q = this.t0
-      u[k] = valueIn(tr, s.idx, q, s.hold)
+      u[k] = s.trace === null ? s.value : valueIn(s.trace, s.idx, this.readTime(s, t), s.hold)
     }
   }
 
@@ -159,12 +159,10 @@ export class InputSet {
         if (du) du[k] = 0
         continue
       }
-      let q = t - s.shift
-      const clamped = s.delayed && q < this.t0
-      if (clamped) q = this.t0
+      const q = this.readTime(s, t)
       const i = locate(tr.t, q, -1)
       u[k] = valueIn(tr, i, q, s.hold)
-      if (du) du[k] = s.hold || clamped ? 0 : slopeIn(tr, i)
+      if (du) du[k] = s.hold || this.beforeStart(s, t) ? 0 : slopeIn(tr, i)
     }
   }
 

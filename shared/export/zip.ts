@@ -30,9 +30,28 @@ export function crc32(data: Uint8Array): number {
 const DOS_TIME = 0
 const DOS_DATE = (0 << 9) | (1 << 5) | 1 // 1980-01-01
 
+interface StoredFile { name: Uint8Array; data: Uint8Array; crc: number }
+
+/**
+ * The fields a local file header and its central directory header share, from "version needed to
+ * extract" to "extra field length" (APPNOTE 4.3.7 at offset 4, 4.3.12 at offset 6), written at o.
+ */
+function sharedFields(dv: DataView, o: number, f: StoredFile): void {
+  dv.setUint16(o, 20, true) // version needed: 2.0
+  dv.setUint16(o + 2, 0x0800, true) // UTF-8 names
+  dv.setUint16(o + 4, 0, true) // stored
+  dv.setUint16(o + 6, DOS_TIME, true)
+  dv.setUint16(o + 8, DOS_DATE, true)
+  dv.setUint32(o + 10, f.crc, true)
+  dv.setUint32(o + 14, f.data.length, true) // compressed size
+  dv.setUint32(o + 18, f.data.length, true) // uncompressed size
+  dv.setUint16(o + 22, f.name.length, true)
+  dv.setUint16(o + 24, 0, true) // extra field length
+}
+
 export function zipStore(entries: ZipEntry[]): Uint8Array {
   const enc = new TextEncoder()
-  const files = entries.map((e) => {
+  const files: StoredFile[] = entries.map((e) => {
     const name = enc.encode(e.name)
     const data = typeof e.data === 'string' ? enc.encode(e.data) : e.data
     return { name, data, crc: crc32(data) }
@@ -46,16 +65,7 @@ export function zipStore(entries: ZipEntry[]): Uint8Array {
   for (const f of files) {
     offsets.push(o)
     dv.setUint32(o, 0x04034b50, true)
-    dv.setUint16(o + 4, 20, true) // version needed: 2.0
-    dv.setUint16(o + 6, 0x0800, true) // UTF-8 names
-    dv.setUint16(o + 8, 0, true) // stored
-    dv.setUint16(o + 10, DOS_TIME, true)
-    dv.setUint16(o + 12, DOS_DATE, true)
-    dv.setUint32(o + 14, f.crc, true)
-    dv.setUint32(o + 18, f.data.length, true)
-    dv.setUint32(o + 22, f.data.length, true)
-    dv.setUint16(o + 26, f.name.length, true)
-    dv.setUint16(o + 28, 0, true)
+    sharedFields(dv, o + 4, f)
     out.set(f.name, o + 30)
     out.set(f.data, o + 30 + f.name.length)
     o += 30 + f.name.length + f.data.length
@@ -64,16 +74,7 @@ export function zipStore(entries: ZipEntry[]): Uint8Array {
   files.forEach((f, i) => {
     dv.setUint32(o, 0x02014b50, true)
     dv.setUint16(o + 4, 20, true) // made by: 2.0, MS-DOS attributes
-    dv.setUint16(o + 6, 20, true)
-    dv.setUint16(o + 8, 0x0800, true)
-    dv.setUint16(o + 10, 0, true)
-    dv.setUint16(o + 12, DOS_TIME, true)
-    dv.setUint16(o + 14, DOS_DATE, true)
-    dv.setUint32(o + 16, f.crc, true)
-    dv.setUint32(o + 20, f.data.length, true)
-    dv.setUint32(o + 24, f.data.length, true)
-    dv.setUint16(o + 28, f.name.length, true)
-    dv.setUint16(o + 30, 0, true) // extra
+    sharedFields(dv, o + 6, f)
     dv.setUint16(o + 32, 0, true) // comment
     dv.setUint16(o + 34, 0, true) // disk
     dv.setUint16(o + 36, 0, true) // internal attributes

@@ -114,7 +114,9 @@ export interface EventFunctions {
   resets: { x: VecFn; dx: VecFn; dp: VecFn; du: VecFn; dt: VecFn }[]
 }
 
-export interface CompiledModel {
+/** What a sheet says of itself as a whole: the same in its parsed form (model.ts) and its compiled one. */
+export interface SheetHeader {
+  /** hash of the sheet text */
   hash: string
   title: string
   kind: 'continuous' | 'discrete'
@@ -122,6 +124,9 @@ export interface CompiledModel {
   secondsPerTimeUnit: number
   /** discrete sheets: the sample time in sheet time units */
   sampleTime: number | null
+}
+
+export interface CompiledModel extends SheetHeader {
   states: StateInfo[]
   params: ParamInfo[]
   inputs: InputInfo[]

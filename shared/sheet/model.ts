@@ -2,7 +2,7 @@
 import type { Expr } from './ast'
 import type { Span } from './diagnostics'
 import type { UnitInfo } from './units'
-import type { DelayInfo, TimeUnit } from './compiled'
+import type { DelayInfo, SheetHeader } from './compiled'
 
 export interface DeclBase {
   name: string
@@ -108,15 +108,7 @@ export interface EventDecl {
   resets: ResetDecl[]
 }
 
-export interface ParsedModel {
-  /** hash of the sheet text */
-  hash: string
-  title: string
-  kind: 'continuous' | 'discrete'
-  timeUnit: TimeUnit
-  secondsPerTimeUnit: number
-  /** discrete sheets: sample time in sheet time units */
-  sampleTime: number | null
+export interface ParsedModel extends SheetHeader {
   states: StateDecl[]
   params: ParamDecl[]
   consts: ConstDecl[]

@@ -7,11 +7,11 @@
  */
 import { afterAll, beforeAll, describe, expect, it } from 'vitest'
 import { CSRF, demo, makeTestApp, signedIn, type Agent, type TestApp } from '../helpers/app'
-import { BUFFER_NOISE, BUFFER_TRUTH, bufferVesselCsv } from '../../server/services/demo-project'
+import { BUFFER_NOISE, BUFFER_TRUTH } from '../../server/services/demo-project'
 import { parameterSets, users } from '../../server/db/schema'
 import { evaluationResult } from '../../shared/api/evaluation'
 import { eq } from 'drizzle-orm'
-import { bufferTemplate, newProject, upload, waitForRun, WS } from './runs-helpers'
+import { bufferProject, bufferTemplate, waitForRun, WS } from './runs-helpers'
 
 let t: TestApp
 let modeler: Agent
@@ -27,15 +27,10 @@ beforeAll(async () => {
   t = await makeTestApp('evaluations')
   modeler = await signedIn(t.app, demo.modeler)
   viewer = await signedIn(t.app, demo.viewer)
-  tv = await bufferTemplate(t)
-  pid = await newProject(modeler, 'Buffer vessel evaluation test')
-  const est = await upload(modeler, pid, bufferVesselCsv(tv.text, { seed: 41, label: 'evaluation test estimation' }), 'est.csv', { purpose: 'estimation' })
-  const fresh = await upload(modeler, pid, bufferVesselCsv(tv.text, { seed: 42, label: 'evaluation test fresh record', T0: 300 }), 'fresh.csv', { purpose: 'validation' })
-  estId = est.body.id
-  freshId = fresh.body.id
-  const b = await modeler.post(`${WS}/projects/${pid}/bindings`).set(CSRF).send({ modelId: tv.modelId, version: tv.number, datasetId: estId })
-  expect(b.status).toBe(201)
-  bindingId = b.body.id
+  ;({ tv, pid, ids: [estId, freshId], bindingId } = await bufferProject(t, modeler, 'Buffer vessel evaluation test', [
+    { file: 'est.csv', purpose: 'estimation', csv: { seed: 41, label: 'evaluation test estimation' } },
+    { file: 'fresh.csv', purpose: 'validation', csv: { seed: 42, label: 'evaluation test fresh record', T0: 300 } },
+  ]))
   // a parameter set holding the generating constants (as a modeler would save from a good fit)
   const [u] = await t.context.db.select({ id: users.id }).from(users).where(eq(users.email, demo.modeler))
   const [ps] = await t.context.db.insert(parameterSets).values({

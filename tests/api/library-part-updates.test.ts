@@ -4,10 +4,9 @@
  * accepted into the caller's draft. The sheets are the Tinmoor Works templates in models/parts
  * (invented demo plant).
  */
-import { readFileSync } from 'node:fs'
-import { join } from 'node:path'
 import { afterAll, beforeAll, describe, expect, it } from 'vitest'
 import { CSRF, demo, makeTestApp, signedIn, type Agent, type TestApp } from '../helpers/app'
+import { cascadeOf as cascade, partTank as tank } from './library-sheets'
 
 let t: TestApp
 let modeler: Agent
@@ -15,9 +14,6 @@ let reviewer: Agent
 let viewer: Agent
 const ws = `/api/workspaces/${demo.ws}`
 const base = `${ws}/models`
-const MODELS = join(__dirname, '..', '..', 'models', 'parts')
-const tank = readFileSync(join(MODELS, 'gravity-tank@1.sheet'), 'utf8')
-const cascade = (slug: string, v: number) => readFileSync(join(MODELS, 'tank-cascade.sheet'), 'utf8').replaceAll('gravity-tank@1', `${slug}@${v}`)
 /** the cascade at version 1 with its part lines (only) moved to version 2: comments keep their text */
 const repinned = (slug: string) => cascade(slug, 1).replace(/^(part\s+\w+\s*=\s*[\w-]+)@1/gm, '$1@2')
 

@@ -3,18 +3,14 @@
  * the library at the pinned version, records the exact part versions it uses (lineage), the part's
  * page lists its users, and neither the part nor a version of it used as a part can be deleted.
  */
-import { readFileSync } from 'node:fs'
-import { join } from 'node:path'
 import { afterAll, beforeAll, describe, expect, it } from 'vitest'
 import { CSRF, demo, makeTestApp, signedIn, type Agent, type TestApp } from '../helpers/app'
+import { cascadeOf as cascade, partTank as tank } from './library-sheets'
 
 let t: TestApp
 let modeler: Agent
 let admin: Agent
 const base = `/api/workspaces/${demo.ws}/models`
-const MODELS = join(__dirname, '..', '..', 'models', 'parts')
-const tank = readFileSync(join(MODELS, 'gravity-tank@1.sheet'), 'utf8')
-const cascade = (slug: string, v: number) => readFileSync(join(MODELS, 'tank-cascade.sheet'), 'utf8').replaceAll('gravity-tank@1', `${slug}@${v}`)
 
 beforeAll(async () => {
   t = await makeTestApp('library_parts')

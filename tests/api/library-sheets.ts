@@ -2,6 +2,9 @@
  * Sheets used by the library tests. Invented examples in the Tinmoor Works scenario (a fictional
  * plant); the numbers are made up for the tests, not measured.
  */
+import { readFileSync } from 'node:fs'
+import { join } from 'node:path'
+import { MODELS_DIR } from '../../fixtures/sheet/templates'
 export const drainSheet = `# Invented example: a buffer vessel draining through an orifice (Tinmoor Works, fictional)
 model "Draining buffer vessel"
 time [s]
@@ -39,3 +42,9 @@ state T = 290 [K] "probe reading"
 dT/dt = (T_in - T) / tau
 output reading = T [K]
 `
+
+const PARTS = join(MODELS_DIR, 'parts')
+/** The library's gravity tank part template, version 1 (models/parts). */
+export const partTank = readFileSync(join(PARTS, 'gravity-tank@1.sheet'), 'utf8')
+/** The tank cascade template with its tank parts pinned to `slug@v` instead of gravity-tank@1. */
+export const cascadeOf = (slug: string, v: number) => readFileSync(join(PARTS, 'tank-cascade.sheet'), 'utf8').replaceAll('gravity-tank@1', `${slug}@${v}`)

@@ -7,11 +7,10 @@
  */
 import { afterAll, beforeAll, describe, expect, it } from 'vitest'
 import { CSRF, demo, makeTestApp, signedIn, type Agent, type TestApp } from '../helpers/app'
-import { bufferVesselCsv } from '../../server/services/demo-project'
 import { RESULT_CAUTION } from '../../shared/api/runs'
 import { compileModel, parseModel } from '../../shared/sheet'
 import { linearAnalysis } from '../../shared/api/handover'
-import { bufferTemplate, newProject, upload, waitForRun, WS } from './runs-helpers'
+import { bufferProject, bufferTemplate, waitForRun, WS } from './runs-helpers'
 
 let t: TestApp
 let modeler: Agent
@@ -29,17 +28,13 @@ beforeAll(async () => {
   t = await makeTestApp('run_exports')
   modeler = await signedIn(t.app, demo.modeler)
   viewer = await signedIn(t.app, demo.viewer)
-  tv = await bufferTemplate(t)
-  pid = await newProject(modeler, 'Run exports (synthetic)')
-  const est = await upload(modeler, pid, bufferVesselCsv(tv.text, { seed: 21, label: 'exports estimation' }), 'est.csv', { purpose: 'estimation' })
-  const val = await upload(modeler, pid, bufferVesselCsv(tv.text, { seed: 22, label: 'exports validation' }), 'val.csv', { purpose: 'validation' })
-  expect(est.status).toBe(201)
-  estId = est.body.id
-  const b = await modeler.post(`${WS}/projects/${pid}/bindings`).set(CSRF).send({ modelId: tv.modelId, version: tv.number, datasetId: estId })
-  expect(b.status).toBe(201)
-  bindingId = b.body.id
+  let valId: number
+  ;({ tv, pid, ids: [estId, valId], bindingId } = await bufferProject(t, modeler, 'Run exports (synthetic)', [
+    { file: 'est.csv', purpose: 'estimation', csv: { seed: 21, label: 'exports estimation' } },
+    { file: 'val.csv', purpose: 'validation', csv: { seed: 22, label: 'exports validation' } },
+  ]))
   const r = await modeler.post(`${WS}/projects/${pid}/runs`).set(CSRF)
-    .send({ modelId: tv.modelId, version: tv.number, bindingId, estimation: [estId], validation: [val.body.id], weighting: 'ml', seed: 3, name: 'exports fit' })
+    .send({ modelId: tv.modelId, version: tv.number, bindingId, estimation: [estId], validation: [valId], weighting: 'ml', seed: 3, name: 'exports fit' })
   expect(r.status).toBe(201)
   run = await waitForRun(modeler, r.body.id)
   expect(run.status).toBe('succeeded')

@@ -1,7 +1,7 @@
 /** Shared steps of the dataset and run API tests: the demo project's template, uploads, waiting for a run. */
 import { expect } from 'vitest'
 import { CSRF, type Agent, type TestApp } from '../helpers/app'
-import { BUFFER_TEMPLATE, templateVersion } from '../../server/services/demo-project'
+import { BUFFER_TEMPLATE, bufferVesselCsv, templateVersion } from '../../server/services/demo-project'
 import { DEMO_WORKSPACE } from '../../server/db/seed'
 import { workspaces } from '../../server/db/schema'
 import { eq } from 'drizzle-orm'
@@ -38,4 +38,29 @@ export async function waitForRun(agent: Agent, rid: number, timeoutMs = 120_000)
     if (Date.now() > until) throw new Error(`run ${rid} still ${r.body.status} after ${timeoutMs} ms`)
     await new Promise((res) => setTimeout(res, 100))
   }
+}
+
+/** One uploaded record of the buffer vessel: the demo generator's seeded synthetic trace (invented data). */
+export interface BufferRecord {
+  file: string
+  purpose: 'estimation' | 'validation'
+  csv: Parameters<typeof bufferVesselCsv>[1]
+}
+
+/**
+ * A project on the heated buffer vessel template with the given records uploaded and the template
+ * bound to the first one; the record ids in the order given.
+ */
+export async function bufferProject(t: TestApp, agent: Agent, name: string, records: BufferRecord[]) {
+  const tv = await bufferTemplate(t)
+  const pid = await newProject(agent, name)
+  const ids: number[] = []
+  for (const r of records) {
+    const res = await upload(agent, pid, bufferVesselCsv(tv.text, r.csv), r.file, { purpose: r.purpose })
+    expect(res.status).toBe(201)
+    ids.push(res.body.id as number)
+  }
+  const b = await agent.post(`${WS}/projects/${pid}/bindings`).set(CSRF).send({ modelId: tv.modelId, version: tv.number, datasetId: ids[0] })
+  expect(b.status).toBe(201)
+  return { tv, pid, ids, bindingId: b.body.id as number }
 }

@@ -6,9 +6,8 @@
  */
 import { afterAll, beforeAll, describe, expect, it } from 'vitest'
 import { CSRF, demo, makeTestApp, signedIn, type Agent, type TestApp } from '../helpers/app'
-import { bufferVesselCsv } from '../../server/services/demo-project'
 import { fitResult } from '../../shared/api/fit'
-import { bufferTemplate, newProject, upload, waitForRun, WS } from './runs-helpers'
+import { bufferProject, bufferTemplate, waitForRun, WS } from './runs-helpers'
 
 let t: TestApp
 let modeler: Agent
@@ -21,14 +20,10 @@ let bindingId: number
 beforeAll(async () => {
   t = await makeTestApp('runs-outcome')
   modeler = await signedIn(t.app, demo.modeler)
-  tv = await bufferTemplate(t)
-  pid = await newProject(modeler, 'Outcome test')
-  const est = await upload(modeler, pid, bufferVesselCsv(tv.text, { seed: 21, label: 'outcome estimation' }), 'est.csv', { purpose: 'estimation' })
-  const val = await upload(modeler, pid, bufferVesselCsv(tv.text, { seed: 22, label: 'outcome validation' }), 'val.csv', { purpose: 'validation' })
-  estId = est.body.id
-  valId = val.body.id
-  const b = await modeler.post(`${WS}/projects/${pid}/bindings`).set(CSRF).send({ modelId: tv.modelId, version: tv.number, datasetId: estId })
-  bindingId = b.body.id
+  ;({ tv, pid, ids: [estId, valId], bindingId } = await bufferProject(t, modeler, 'Outcome test', [
+    { file: 'est.csv', purpose: 'estimation', csv: { seed: 21, label: 'outcome estimation' } },
+    { file: 'val.csv', purpose: 'validation', csv: { seed: 22, label: 'outcome validation' } },
+  ]))
 })
 afterAll(async () => { await t.close() })
 

@@ -6,10 +6,10 @@
  */
 import { afterAll, beforeAll, describe, expect, it } from 'vitest'
 import { CSRF, demo, makeTestApp, signedIn, type Agent, type TestApp } from '../helpers/app'
-import { BUFFER_TRUTH, bufferVesselCsv, seedDemoProject } from '../../server/services/demo-project'
+import { BUFFER_TRUTH, seedDemoProject } from '../../server/services/demo-project'
 import { RESULT_CAUTION } from '../../shared/api/runs'
 import { fitResult } from '../../shared/api/fit'
-import { bufferTemplate, newProject, upload, waitForRun, WS } from './runs-helpers'
+import { bufferProject, bufferTemplate, waitForRun, WS } from './runs-helpers'
 import { eq } from 'drizzle-orm'
 import { models } from '../../server/db/schema'
 
@@ -32,18 +32,11 @@ beforeAll(async () => {
   viewer = await signedIn(t.app, demo.viewer)
   reviewer = await signedIn(t.app, demo.reviewer)
   admin = await signedIn(t.app, demo.admin)
-  tv = await bufferTemplate(t)
-  pid = await newProject(modeler, 'Buffer vessel fit test')
   // seeded synthetic data (invented constants BUFFER_TRUTH), different seeds for estimation and validation
-  const est = await upload(modeler, pid, bufferVesselCsv(tv.text, { seed: 11, label: 'test estimation' }), 'est.csv', { purpose: 'estimation' })
-  const val = await upload(modeler, pid, bufferVesselCsv(tv.text, { seed: 12, label: 'test validation' }), 'val.csv', { purpose: 'validation' })
-  expect(est.status).toBe(201)
-  expect(val.status).toBe(201)
-  estId = est.body.id
-  valId = val.body.id
-  const b = await modeler.post(`${WS}/projects/${pid}/bindings`).set(CSRF).send({ modelId: tv.modelId, version: tv.number, datasetId: estId })
-  expect(b.status).toBe(201)
-  bindingId = b.body.id
+  ;({ tv, pid, ids: [estId, valId], bindingId } = await bufferProject(t, modeler, 'Buffer vessel fit test', [
+    { file: 'est.csv', purpose: 'estimation', csv: { seed: 11, label: 'test estimation' } },
+    { file: 'val.csv', purpose: 'validation', csv: { seed: 12, label: 'test validation' } },
+  ]))
   const r = await modeler.post(`${WS}/projects/${pid}/runs`).set(CSRF).send({ ...baseRun(), name: 'first fit' })
   expect(r.status).toBe(201)
   expect(['queued', 'running']).toContain(r.body.status)

@@ -2,7 +2,7 @@
 import { describe, expect, it } from 'vitest'
 import { compileModel } from '../../shared/sheet'
 import { InputSet } from '../../shared/engine/inputs'
-import { mulberry32 } from '../../shared/engine/fit/lhs'
+import { mulberry32 } from '../../shared/engine/random'
 
 const SHEET = `model "two inputs, one delayed (synthetic)"
 time [s]

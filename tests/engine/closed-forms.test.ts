@@ -1,20 +1,13 @@
 import { describe, expect, it } from 'vitest'
 import { expm, matrix, multiply } from 'mathjs'
 import { simulate, type SolverName } from '../../shared/engine'
-import { linspace, makeModel } from './helpers/model'
+import { decayModel, linspace, makeModel } from './helpers/model'
 
 const methods: SolverName[] = ['rk45', 'odex', 'stiff', 'auto']
 
 describe('closed-form solutions', () => {
   // x' = -k x, x(0) = x0  →  x = x0·exp(-k t): elementary closed form (common practice, no source)
-  const decay = makeModel({
-    title: 'decay',
-    states: [{ name: 'x', initial: 3 }],
-    params: [{ name: 'k', value: 0.8 }],
-    rhs: (_t, x, p, _u, o) => { o[0] = -p[0] * x[0] },
-    dfdx: (_t, _x, p, _u, o) => { o[0] = -p[0] },
-    dfdp: (_t, x, _p, _u, o) => { o[0] = -x[0] },
-  })
+  const decay = decayModel('decay', 3, 0.8)
   for (const solver of methods) {
     it(`exponential decay matches x0·exp(-kt) (${solver})`, () => {
       const tOut = linspace(0, 6, 13)

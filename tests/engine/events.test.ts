@@ -8,22 +8,11 @@ import { simulate, type SolverName } from '../../shared/engine'
 import { ChatteringError, SimulationError } from '../../shared/engine/errors'
 import { runFit, type ProblemSpec } from '../../shared/engine/fit'
 import { gaussian } from '../../fixtures/fit/synthetic'
+import { BALL, THERMOSTAT_ROOM } from '../../fixtures/engine/event-sheets'
 
 const solvers: SolverName[] = ['rk45', 'stiff', 'odex', 'auto']
 // standard acceleration of gravity, 9.80665 m/s² (the SI standard value, CGPM 1901; BIPM SI Brochure)
 const G = 9.80665
-
-const BALL = `model "Test ball on the workshop floor"
-time [s]
-param e_r = 0.8 [1] in [0.1, 0.99] "coefficient of restitution"
-const g   = 9.80665 [m/s^2]
-state y = 1 [m]   "height"
-state v = 0 [m/s] "velocity"
-dy/dt = v
-dv/dt = -g
-event y falls below 0 then v = -e_r * v   "floor contact"
-output height = y [m] sigma 0.002
-`
 
 /**
  * Impact times of a ball dropped from h with restitution e: t1 = sqrt(2h/g), v1 = g·t1, and each
@@ -117,23 +106,7 @@ describe('bouncing ball: sensitivities across impacts', () => {
 })
 
 describe('thermostat with hysteresis on a first-order room', () => {
-  const SHEET = `model "Kiln shed thermostat (test)"
-time [s]
-param UA  = 50 [W/K] in [1, 1000] "heat loss"
-const C   = 2e5 [J/K]
-const P_h = 2000 [W]
-const T_amb = 5 [degC]
-const T_lo  = 18 [degC]
-const T_hi  = 22 [degC]
-state T = 20 [degC]
-mode  heater = off
-dT/dt = (heater * P_h - UA * (T - T_amb)) / C
-event T falls below T_lo then heater = on
-event T rises above T_hi then heater = off
-output temp = T [degC]
-output power = heater * P_h [W]
-`
-  const model = compileModel(SHEET)
+  const model = compileModel(THERMOSTAT_ROOM)
   /**
    * The lumped room C·T' = −UA·(T − T_amb) + P approaches T_∞ exponentially with τ = C/UA, so it
    * takes τ·ln((T_start − T_∞)/(T_end − T_∞)) to go from T_start to T_end (lumped-capacitance

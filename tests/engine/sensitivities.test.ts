@@ -1,7 +1,7 @@
 import { describe, expect, it } from 'vitest'
 import { simulate, type SimulationRequest, type SolverName } from '../../shared/engine'
 import type { CompiledModel } from '../../shared/sheet/compiled'
-import { linspace, makeModel } from './helpers/model'
+import { decayModel, linspace, makeModel } from './helpers/model'
 
 const methods: SolverName[] = ['rk45', 'odex', 'stiff', 'auto']
 
@@ -47,16 +47,28 @@ function checkAgainstFd(model: CompiledModel, req: SimulationRequest): void {
   })
 }
 
+/**
+ * x' = (u(t − d) − x)/T: a first-order lag whose input is read d = tau/60 late (time in minutes, tau
+ * in seconds), written out with its Jacobians; the input trace linear or held.
+ */
+function delayedLag(title: string, interp: 'linear' | 'hold', T: number, tauS: number): CompiledModel {
+  return makeModel({
+    title,
+    secondsPerTimeUnit: 60,
+    states: [{ name: 'x', initial: 0 }],
+    params: [{ name: 'tau', value: tauS }],
+    inputs: [{ name: 'u', value: 0, interp }],
+    delays: [{ input: 0, param: 0 }],
+    rhs: (_t, x, _p, u, o) => { o[0] = (u[1] - x[0]) / T },
+    dfdx: (_t, _x, _p, _u, o) => { o[0] = -1 / T },
+    dfdp: (_t, _x, _p, _u, o) => { o[0] = 0 },
+    dfdu: (_t, _x, _p, _u, o) => { o[0] = 0; o[1] = 1 / T },
+  })
+}
+
 describe('forward sensitivities', () => {
   // x' = −k x: ∂x/∂k = −t·x0·e^{−kt}, ∂x/∂x0 = e^{−kt} (differentiate the closed form; no source)
-  const decay = makeModel({
-    title: 'decay-sens',
-    states: [{ name: 'x', initial: 2 }],
-    params: [{ name: 'k', value: 0.6 }],
-    rhs: (_t, x, p, _u, o) => { o[0] = -p[0] * x[0] },
-    dfdx: (_t, _x, p, _u, o) => { o[0] = -p[0] },
-    dfdp: (_t, x, _p, _u, o) => { o[0] = -x[0] },
-  })
+  const decay = decayModel('decay-sens', 2, 0.6)
   for (const solver of methods) {
     it(`decay: ∂x/∂k and ∂x/∂x0 match the closed form (${solver})`, () => {
       const tOut = linspace(0, 5, 11)
@@ -107,18 +119,7 @@ describe('forward sensitivities', () => {
     // with x1 = 1 − T(1 − e^{−1/T}); ∂x/∂tau = ∂x/∂a / 60.
     const T = 0.8
     const tauS = 18
-    const m = makeModel({
-      title: 'delay-lag',
-      secondsPerTimeUnit: 60,
-      states: [{ name: 'x', initial: 0 }],
-      params: [{ name: 'tau', value: tauS }],
-      inputs: [{ name: 'u', value: 0, interp: 'linear' }],
-      delays: [{ input: 0, param: 0 }],
-      rhs: (_t, x, _p, u, o) => { o[0] = (u[1] - x[0]) / T },
-      dfdx: (_t, _x, _p, _u, o) => { o[0] = -1 / T },
-      dfdp: (_t, _x, _p, _u, o) => { o[0] = 0 },
-      dfdu: (_t, _x, _p, _u, o) => { o[0] = 0; o[1] = 1 / T },
-    })
+    const m = delayedLag('delay-lag', 'linear', T, tauS)
     const a = 1 + tauS / 60
     const x1 = 1 - T * (1 - Math.exp(-1 / T))
     const exact = (t: number): [number, number] => {
@@ -153,18 +154,7 @@ describe('forward sensitivities', () => {
     // x = 1 − e^{−(t−1−d)/T} for t > 1 + d, so ∂x/∂tau = −e^{−(t−1−d)/T}/(60 T) (no source)
     const T = 0.8
     const tauS = 30
-    const m = makeModel({
-      title: 'delay-hold',
-      secondsPerTimeUnit: 60,
-      states: [{ name: 'x', initial: 0 }],
-      params: [{ name: 'tau', value: tauS }],
-      inputs: [{ name: 'u', value: 0, interp: 'hold' }],
-      delays: [{ input: 0, param: 0 }],
-      rhs: (_t, x, _p, u, o) => { o[0] = (u[1] - x[0]) / T },
-      dfdx: (_t, _x, _p, _u, o) => { o[0] = -1 / T },
-      dfdp: (_t, _x, _p, _u, o) => { o[0] = 0 },
-      dfdu: (_t, _x, _p, _u, o) => { o[0] = 0; o[1] = 1 / T },
-    })
+    const m = delayedLag('delay-hold', 'hold', T, tauS)
     const d = tauS / 60
     const tOut = linspace(0, 5, 51)
     const inputs = [{ t: Float64Array.of(0, 1), v: Float64Array.of(0, 1) }]

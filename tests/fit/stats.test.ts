@@ -6,7 +6,8 @@ import { householderQR, applyQt, extractR } from '../../shared/engine/stats/qr'
 import { linearisedCovariance } from '../../shared/engine/stats/covariance'
 import { autocorrelation, crossCorrelation, ljungBox, maxLagFor } from '../../shared/engine/stats/residuals'
 import { aic, bic, fitMetrics } from '../../shared/engine/stats/metrics'
-import { mulberry32, latinHypercube } from '../../shared/engine/fit/lhs'
+import { latinHypercube } from '../../shared/engine/fit/lhs'
+import { mulberry32 } from '../../shared/engine/random'
 
 describe('Student-t quantiles', () => {
   // NIST/SEMATECH e-Handbook of Statistical Methods, Sec. 1.3.6.7.2 "Critical values of the Student's t

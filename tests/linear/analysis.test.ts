@@ -8,18 +8,8 @@ import {
   inputSlots, linearize, linearStep, observabilityRank, resolveValues,
 } from '../../shared/engine/linear/index'
 import { FIRST_ORDER, FOLD_START, LINEAR, LINEAR_A, LINEAR_B, LINEAR_C, LINEAR_D, NO_ROOT, SECOND_ORDER, TANK, THREE_ROOTS } from './sheets'
-
-/** seeded uniform generator (mulberry32), synthetic test data only */
-function rng(seed: number) {
-  let a = seed >>> 0
-  return () => {
-    a = (a + 0x6d2b79f5) >>> 0
-    let t = a
-    t = Math.imul(t ^ (t >>> 15), t | 1)
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61)
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296
-  }
-}
+// seeded uniform generator, synthetic test data only
+import { mulberry32 as rng } from '../../shared/engine/random'
 
 function analyse(text: string, opts: { inputs?: Record<string, number>; at?: 'steady' | number; frequencies?: number } = {}) {
   const m = compileModel(text)

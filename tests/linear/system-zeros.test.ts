@@ -5,20 +5,10 @@ import { det, eigs, matrix, multiply, inv, subtract } from 'mathjs'
 import { compileModel } from '../../shared/sheet/index'
 import { analyzeModel, channelZeros, pencilRank, resolveValues, systemZeros } from '../../shared/engine/linear/index'
 import { LINEAR, LINEAR_A, LINEAR_B, LINEAR_C, LINEAR_D } from './sheets'
+// seeded uniform generator, synthetic test data only
+import { mulberry32 as rng } from '../../shared/engine/random'
 
 const F = (a: number[]) => Float64Array.from(a)
-
-/** seeded uniform generator (mulberry32), synthetic test data only */
-function rng(seed: number) {
-  let a = seed >>> 0
-  return () => {
-    a = (a + 0x6d2b79f5) >>> 0
-    let t = a
-    t = Math.imul(t ^ (t >>> 15), t | 1)
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61)
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296
-  }
-}
 
 /** the system matrix [A − sI, B; C, D] as nested arrays (square systems), for mathjs */
 function pencil(A: number[][], B: number[][], C: number[][], D: number[][], s: number): number[][] {

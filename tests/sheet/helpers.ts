@@ -1,29 +1,17 @@
-import { readdirSync, readFileSync } from 'node:fs'
-import { join } from 'node:path'
 import { checkModel, compileModel, type CompiledModel, type Diagnostic } from '../../shared/sheet/index'
+import { defaultPoint, interpClamped, type Point } from '../../fixtures/sheet/reference'
+import { MODELS_DIR, templates } from '../../fixtures/sheet/templates'
 
-export const MODELS_DIR = join(__dirname, '..', '..', 'models')
-
-export function templates(): { file: string; text: string }[] {
-  return readdirSync(MODELS_DIR).filter((f) => f.endsWith('.sheet')).sort().map((file) => ({ file, text: readFileSync(join(MODELS_DIR, file), 'utf8') }))
-}
+export { MODELS_DIR, templates }
 
 export function errors(text: string): Diagnostic[] {
   return checkModel(text).diagnostics.filter((d) => d.severity === 'error')
 }
 
 /** Seeded pseudo-random numbers (the engine's mulberry32; synthetic test data). */
-export { mulberry32 as rng } from '../../shared/engine/fit/lhs'
+export { mulberry32 as rng } from '../../shared/engine/random'
 
-export interface Point { t: number; x: Float64Array; p: Float64Array; u: Float64Array }
-
-/** the sheet's own values, delayed slots filled with the current input value */
-export function defaultPoint(c: CompiledModel): Point {
-  const u = new Float64Array(c.nu + c.nd)
-  c.inputs.forEach((s, i) => (u[i] = s.value))
-  c.delays.forEach((d, k) => (u[c.nu + k] = u[d.input]))
-  return { t: 0, x: Float64Array.from(c.states.map((s) => s.initial)), p: Float64Array.from(c.params.map((s) => s.value)), u }
-}
+export { defaultPoint, type Point }
 
 type Which = 'x' | 'p' | 'u' | 't'
 /**
@@ -75,15 +63,6 @@ export { compileModel, checkModel }
 import { evaluate as mjEvaluate, parse as mjParse } from 'mathjs'
 import { parseModel, type ParsedModel } from '../../shared/sheet/index'
 
-/** an independent piecewise-linear table, clamped at the ends */
-function interp(xs: Float64Array, ys: Float64Array, v: number): number {
-  if (v <= xs[0]) return ys[0]
-  if (v >= xs[xs.length - 1]) return ys[ys.length - 1]
-  let i = 0
-  while (xs[i + 1] < v) i++
-  return ys[i] + ((ys[i + 1] - ys[i]) * (v - xs[i])) / (xs[i + 1] - xs[i])
-}
-
 /**
  * The right sides and outputs evaluated by mathjs (`parse(text).evaluate(scope)`) from the sheet's
  * own expression texts, with every symbol given its internal SI value: the reference the
@@ -97,7 +76,7 @@ export function mathjsReference(m: ParsedModel, pt: Point): { f: number[]; g: nu
   m.consts.forEach((s) => (scope[s.name] = s.value))
   // modes read their current position: the initial one outside a simulation
   m.modes.forEach((s) => (scope[s.name] = s.initial))
-  m.lookups.forEach((l) => (scope[l.name] = (v: number) => interp(l.xs, l.ys, v)))
+  m.lookups.forEach((l) => (scope[l.name] = (v: number) => interpClamped(l.xs, l.ys, v)))
   scope.t = pt.t * m.secondsPerTimeUnit
   scope.delay = (uv: number, tauv: number) => {
     const k = m.delays.findIndex((d) => pt.u[d.input] === uv && (d.param !== null ? pt.p[d.param] : d.constValue) === tauv)

@@ -10,7 +10,7 @@ import { EVALUATION_CAUTIONS } from '../../api/evaluation'
 import type { OutputRow } from '../../api/fit'
 import { makeProblem, resolveTolerances, type FitOptions } from './driver'
 import type { ExperimentData, FitProblem, Simulate } from './problem'
-import { estimateValidationStates } from './validation-start'
+import { estimatedStartOf } from './validation-start'
 import { outputRows } from './result'
 
 export interface EvaluationSpec {
@@ -48,15 +48,10 @@ export async function evaluateModel(model: CompiledModel, spec: EvaluationSpec, 
     prob.fillExperiment([], e, p, x0)
     let start: Float64Array | undefined
     if (spec.start === 'estimate') {
-      const vs = await estimateValidationStates(prob, ex, p, x0, { ftol: tol.ftol, xtol: tol.xtol, gtol: tol.gtol, signal: opts.signal })
-      if (vs.problem) warnings.push(`${ex.data.name}: initial states not estimated (${vs.problem}); the sheet's initial state is used`)
-      else {
+      const est = await estimatedStartOf(prob, ex, p, x0, { ftol: tol.ftol, xtol: tol.xtol, gtol: tol.gtol, signal: opts.signal }, ex.data.name, warnings, initialStates)
+      if (est) {
         estimated = true
-        start = vs.x0
-        vs.states.forEach((i, c) => {
-          const u = model.states[i]
-          initialStates.push({ experiment: ex.data.name, name: u.name, unit: u.unit, value: toDeclared(u, vs.values[c]) })
-        })
+        start = est
       }
     }
     const res = prob.simulateExperiment(ex, p, start, false)

@@ -3,21 +3,11 @@
  * "A comparison of three methods for selecting values of input variables in the analysis of output from
  * a computer code", Technometrics 21 (1979) 239–245. Each coordinate's range is cut into N equal strata
  * (in ln θ where the log transform applies, i.e. log-uniform), one point per stratum, strata paired by
- * independent random permutations. Random numbers: the mulberry32 generator (T. Ettinger, 2017, public
- * domain), seeded, so a fit is repeatable.
+ * independent random permutations. Random numbers: the seeded mulberry32 generator (../random.ts), so a
+ * fit is repeatable.
  */
 import { BoxTransform } from './transform'
-
-export function mulberry32(seed: number): () => number {
-  let a = seed >>> 0
-  return () => {
-    a = (a + 0x6d2b79f5) >>> 0
-    let t = a
-    t = Math.imul(t ^ (t >>> 15), t | 1)
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61)
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296
-  }
-}
+import { mulberry32 } from '../random'
 
 export function latinHypercube(
   lower: Float64Array, upper: Float64Array, count: number, seed: number, logEnabled: boolean | boolean[] = true,

@@ -27,7 +27,7 @@ import { BoxTransform } from './transform'
 import { sumSquares } from './lsq'
 import { linearisedCovariance } from '../stats/covariance'
 import { analyseIdentifiability } from '../stats/identifiability'
-import { estimateValidationStates } from './validation-start'
+import { estimatedStartOf } from './validation-start'
 import { intervalBoundWarnings } from './interval-checks'
 import { fitMetrics, aic, bic } from '../stats/metrics'
 import { autocorrelation, crossCorrelation, independenceTest, ljungBox, maxLagFor, medianStep, whiteBand } from '../stats/residuals'
@@ -228,18 +228,9 @@ export async function buildResult(a: BuildArgs): Promise<FitResult> {
       const x0 = new Float64Array(model.nx)
       prob.fillExperiment(theta, -1, p, x0)
       for (const [idx, v] of means) p[idx] = v
-      let start: Float64Array = x0
-      if (estimateStarts) {
-        const vs = await estimateValidationStates(prob, ex, p, x0, { ftol: tol.ftol, xtol: tol.xtol, gtol: tol.gtol, signal: opts.signal, deadline: a.deadline })
-        if (vs.problem) warnings.push(`validation ${ex.data.name}: initial states not estimated (${vs.problem}); the sheet's initial state is used`)
-        else {
-          start = vs.x0
-          vs.states.forEach((i, c) => {
-            const u = model.states[i]
-            validationInitialStates.push({ experiment: ex.data.name, name: u.name, unit: u.unit, value: toDeclared(u, vs.values[c]) })
-          })
-        }
-      }
+      const start = estimateStarts
+        ? await estimatedStartOf(prob, ex, p, x0, { ftol: tol.ftol, xtol: tol.xtol, gtol: tol.gtol, signal: opts.signal, deadline: a.deadline }, `validation ${ex.data.name}`, warnings, validationInitialStates) ?? x0
+        : x0
       const res = prob.simulateExperiment(ex, p, start, false)
       if (!res) {
         warnings.push(`validation ${ex.data.name}: the simulation failed: ${prob.lastError}`)

@@ -10,6 +10,8 @@
  * Which states: those the fit estimates per experiment; when it estimates none, every state with
  * bounds in the sheet.
  */
+import { toDeclared } from '../../sheet/compiled'
+import type { FitResult } from '../../api/fit'
 import type { FitProblem, PreparedExperiment } from './problem'
 import type { LsqProblem } from './lsq'
 import { levenbergMarquardt } from './lm'
@@ -83,4 +85,25 @@ export async function estimateValidationStates(
   }
   idx.forEach((k, c) => (x0[k] = res.theta[c]))
   return { states: idx, values: Float64Array.from(res.theta), x0, problem: null }
+}
+
+/**
+ * The start of one record for a result: the estimated initial state vector, its values appended to
+ * `rows` in declared units; or null, with a warning naming `record` in `warnings`, when they could not
+ * be estimated (the caller simulates from the sheet's initial state then).
+ */
+export async function estimatedStartOf(
+  prob: FitProblem, ex: PreparedExperiment, p: Float64Array, baseX0: Float64Array,
+  opts: Parameters<typeof estimateValidationStates>[4], record: string, warnings: string[], rows: FitResult['validationInitialStates'],
+): Promise<Float64Array | null> {
+  const vs = await estimateValidationStates(prob, ex, p, baseX0, opts)
+  if (vs.problem) {
+    warnings.push(`${record}: initial states not estimated (${vs.problem}); the sheet's initial state is used`)
+    return null
+  }
+  vs.states.forEach((i, c) => {
+    const u = prob.model.states[i]
+    rows.push({ experiment: ex.data.name, name: u.name, unit: u.unit, value: toDeclared(u, vs.values[c]) })
+  })
+  return vs.x0
 }

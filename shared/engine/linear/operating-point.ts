@@ -153,35 +153,54 @@ function newton(R: Residual, x: Float64Array, maxIter: number): number {
   return -1
 }
 
+/**
+ * Natural-parameter continuation in λ from 0 to 1 with Newton correctors (Allgower & Georg 2003,
+ * Sec. 1.1): `place(λ)` moves the equations to λ, Newton (at most `newtonIterations`) corrects x in
+ * place; a failed corrector restores x and halves the step, a success lengthens it by `grow` (at most
+ * 0.5). Returns the steps and Newton iterations taken, or null when the step fell below `minStep`.
+ */
+function followPath(
+  R: Residual, x: Float64Array, place: (lambda: number) => void,
+  o: { step: number; minStep: number; grow: number; newtonIterations: number },
+): { steps: number; iterations: number } | null {
+  const xPrev = new Float64Array(x.length)
+  let lambda = 0
+  let step = o.step
+  let steps = 0
+  let iterations = 0
+  while (lambda < 1) {
+    const target = Math.min(1, lambda + step)
+    place(target)
+    xPrev.set(x)
+    const it = newton(R, x, o.newtonIterations)
+    if (it < 0) {
+      x.set(xPrev)
+      step *= 0.5
+      if (step < o.minStep) return null
+      continue
+    }
+    iterations += it
+    steps++
+    lambda = target
+    step = Math.min(0.5, step * o.grow)
+  }
+  return { steps, iterations }
+}
+
 /** Newton homotopy from x (in place) to a root of F. Returns Newton iterations used, or −1. */
 function continuation(R: Residual, x: Float64Array): number {
   const n = R.n
   const f0 = new Float64Array(n)
   R.shift.fill(0)
   R.eval(x, f0)
-  const xPrev = Float64Array.from(x)
-  let lambda = 0
-  let step = 0.1
-  let iters = 0
   try {
-    while (lambda < 1) {
-      const target = Math.min(1, lambda + step)
-      for (let i = 0; i < n; i++) R.shift[i] = (1 - target) * f0[i]
-      xPrev.set(x)
-      const it = newton(R, x, 12)
-      if (it < 0) {
-        x.set(xPrev)
-        step *= 0.5
-        if (step < 1e-6) return -1
-        continue
-      }
-      iters += it
-      lambda = target
-      step = Math.min(0.5, step * 1.5)
-    }
+    const path = followPath(R, x, (lambda) => {
+      for (let i = 0; i < n; i++) R.shift[i] = (1 - lambda) * f0[i]
+    }, { step: 0.1, minStep: 1e-6, grow: 1.5, newtonIterations: 12 })
+    if (!path) return -1
     R.shift.fill(0)
     const it = newton(R, x, MAX_NEWTON)
-    return it < 0 ? -1 : iters + it
+    return it < 0 ? -1 : path.iterations + it
   } finally {
     R.shift.fill(0)
   }
@@ -224,33 +243,16 @@ function* anchors(model: CompiledModel, R: Residual, guess: Float64Array): Gener
  */
 function inputContinuation(R: Residual, x: Float64Array, x0: Float64Array, u0: Float64Array, u1: Float64Array): { steps: number; iterations: number } | null {
   const xc = Float64Array.from(x0)
-  const xPrev = new Float64Array(xc.length)
-  let lambda = 0
-  let step = 0.25
-  let steps = 0
-  let iterations = 0
   try {
-    while (lambda < 1) {
-      const target = Math.min(1, lambda + step)
-      for (let i = 0; i < u1.length; i++) R.u[i] = u0[i] + target * (u1[i] - u0[i])
-      xPrev.set(xc)
-      const it = newton(R, xc, 20)
-      if (it < 0) {
-        xc.set(xPrev)
-        step *= 0.5
-        if (step < 1e-5) return null
-        continue
-      }
-      iterations += it
-      steps++
-      lambda = target
-      step = Math.min(0.5, step * 2)
-    }
+    const path = followPath(R, xc, (lambda) => {
+      for (let i = 0; i < u1.length; i++) R.u[i] = u0[i] + lambda * (u1[i] - u0[i])
+    }, { step: 0.25, minStep: 1e-5, grow: 2, newtonIterations: 20 })
+    if (!path) return null
+    x.set(xc)
+    return path
   } finally {
     R.u.set(u1)
   }
-  x.set(xc)
-  return { steps, iterations }
 }
 
 function startPoints(model: CompiledModel, guess: Float64Array, max: number): Float64Array[] {

@@ -160,3 +160,15 @@ export function linspace(a: number, b: number, n: number): Float64Array {
   for (let i = 0; i < n; i++) out[i] = a + ((b - a) * i) / (n - 1)
   return out
 }
+
+/** x' = −k·x (state x, parameter k) with its Jacobians: the exponential decay x0·e^{−kt} */
+export function decayModel(title: string, x0: number, k: number): CompiledModel {
+  return makeModel({
+    title,
+    states: [{ name: 'x', initial: x0 }],
+    params: [{ name: 'k', value: k }],
+    rhs: (_t, x, p, _u, o) => { o[0] = -p[0] * x[0] },
+    dfdx: (_t, _x, p, _u, o) => { o[0] = -p[0] },
+    dfdp: (_t, x, _p, _u, o) => { o[0] = -x[0] },
+  })
+}

@@ -1,0 +1,15 @@
+/**
+ * Seeded uniform pseudo-random numbers in [0, 1): the mulberry32 generator (T. Ettinger, 2017, public
+ * domain), 32-bit state, so a fit's random starts, a demo's synthetic records and a test's data repeat
+ * exactly for a seed.
+ */
+export function mulberry32(seed: number): () => number {
+  let a = seed >>> 0
+  return () => {
+    a = (a + 0x6d2b79f5) >>> 0
+    let t = a
+    t = Math.imul(t ^ (t >>> 15), t | 1)
+    t ^= t + Math.imul(t ^ (t >>> 7), t | 61)
+    return ((t ^ (t >>> 14)) >>> 0) / 4294967296
+  }
+}
