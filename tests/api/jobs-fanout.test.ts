@@ -3,12 +3,11 @@
  * thread and idle helper threads, and the result equals the sequential fit of the same settings
  * (seeded synthetic demo data of the invented Tinmoor Works plant).
  */
+import { seededDemoProject } from '../helpers/demo-project'
 import { afterAll, beforeAll, describe, expect, it } from 'vitest'
-import { eq } from 'drizzle-orm'
 import { CSRF, demo, makeTestApp, signedIn, type TestApp } from '../helpers/app'
 import { getRun, waitFor } from '../helpers/jobs'
-import { datasets, projects, runs } from '../../server/db/schema'
-import { seedDemoProject } from '../../server/services/demo-project'
+import { runs } from '../../server/db/schema'
 import { executeRun } from '../../server/services/fit-execution'
 import { ThreadRunner } from '../../server/jobs/thread-runner'
 import { createJobRunner } from '../../server/jobs'
@@ -30,11 +29,7 @@ type Result = { parameters: { name: string; value: number }[]; starts: { sse: nu
 
 describe('multi-start fan-out', () => {
   it('spreads the starts over several threads and gives the sequential result', async () => {
-    await seedDemoProject(t.context.db)
-    const [project] = await t.context.db.select().from(projects).where(eq(projects.name, 'Buffer vessel B2 calibration (demo)'))
-    const [seeded] = await t.context.db.select().from(runs).where(eq(runs.projectId, project.id))
-    const sets = await t.context.db.select().from(datasets).where(eq(datasets.projectId, project.id))
-    const est = sets.find((d) => d.purpose === 'estimation')!
+    const { project, run: seeded, estimation: est } = await seededDemoProject(t.context.db)
     const agent = await signedIn(t.app, demo.modeler)
     const body = { modelId: seeded.modelId, version: seeded.modelVersion, estimation: [est.id], starts: 4, weighting: 'ml', seed: 11 }
     const created = await agent.post(`/api/workspaces/tinmoor/projects/${project.id}/runs`).set(CSRF).send(body)

@@ -1,4 +1,5 @@
 /** API tokens: hashed at rest, shown once, bound to one workspace, role capped; the CLI submits a fit with one. */
+import { seededDemoProject } from '../helpers/demo-project'
 import { afterAll, beforeAll, describe, expect, it } from 'vitest'
 import request from 'supertest'
 import { createHash } from 'node:crypto'
@@ -6,9 +7,8 @@ import type { AddressInfo } from 'node:net'
 import type { Server } from 'node:http'
 import { and, eq } from 'drizzle-orm'
 import { CSRF, demo, makeTestApp, signedIn, type TestApp } from '../helpers/app'
-import { apiTokens, datasets, memberships, projects, runs, users, workspaces } from '../../server/db/schema'
+import { apiTokens, memberships, runs, users, workspaces } from '../../server/db/schema'
 import { createWorkspace } from '../../server/services/workspaces'
-import { seedDemoProject } from '../../server/services/demo-project'
 import { run as submitCli } from '../../server/cli/submit'
 import { ThreadRunner } from '../../server/jobs/thread-runner'
 
@@ -132,12 +132,7 @@ describe('pewter submit', () => {
 
   it('submits a fit of the demo project with a token and waits for the result computed in a worker thread', async () => {
     expect(t.context.services.jobs).toBeInstanceOf(ThreadRunner)
-    await seedDemoProject(t.context.db)
-    const [project] = await t.context.db.select().from(projects).where(eq(projects.name, 'Buffer vessel B2 calibration (demo)'))
-    const [seeded] = await t.context.db.select().from(runs).where(eq(runs.projectId, project.id))
-    const sets = await t.context.db.select().from(datasets).where(eq(datasets.projectId, project.id))
-    const est = sets.find((d) => d.purpose === 'estimation')!
-    const val = sets.find((d) => d.purpose === 'validation')!
+    const { project, run: seeded, estimation: est, validation: val } = await seededDemoProject(t.context.db)
     const { token } = await tokenFor(demo.modeler, 'modeler', 'cli')
     const c = io()
     const code = await submitCli([

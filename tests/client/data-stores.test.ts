@@ -4,14 +4,12 @@
  * states, a missing thing is "not found" without an error message, a stale load never overwrites a
  * newer one, every reply passes its shared schema, and stored run results read without casts.
  */
+import { seededDemoProject } from '../helpers/demo-project'
 import { afterAll, beforeAll, beforeEach, describe, expect, it, vi } from 'vitest'
 import { createPinia, setActivePinia } from 'pinia'
-import { eq } from 'drizzle-orm'
 import { makeTestApp, demo, type TestApp } from '../helpers/app'
 import { clientFetch, type ClientFetch } from '../helpers/client-fetch'
 import { DEMO_PASSWORD } from '../../server/db/seed'
-import { datasets, projects, runs } from '../../server/db/schema'
-import { seedDemoProject } from '../../server/services/demo-project'
 import { ApiError } from '../../src/api/client'
 import { useSessionStore } from '../../src/stores/useSessionStore'
 import { useProjectsStore } from '../../src/stores/useProjectsStore'
@@ -35,13 +33,10 @@ let demoDataset: number
 
 beforeAll(async () => {
   t = await makeTestApp('client_stores')
-  await seedDemoProject(t.context.db)
-  const [p] = await t.context.db.select().from(projects).where(eq(projects.name, 'Buffer vessel B2 calibration (demo)'))
-  demoProject = p.id
-  const [r] = await t.context.db.select().from(runs).where(eq(runs.projectId, p.id))
-  demoRun = r.id
-  const [d] = await t.context.db.select().from(datasets).where(eq(datasets.projectId, p.id))
-  demoDataset = d.id
+  const demoSeeded = await seededDemoProject(t.context.db)
+  demoProject = demoSeeded.project.id
+  demoRun = demoSeeded.run.id
+  demoDataset = demoSeeded.datasets[0].id
   client = await clientFetch(t)
 })
 afterAll(async () => { await client.close(); await t.close() })

@@ -8,24 +8,20 @@
  * asks first and keeps the best finished start; the quick simulation runs in a Web Worker. The demo
  * project's traces are seeded synthetic data of the invented Tinmoor Works plant. Needs dist/.
  */
+import { seededDemoProject } from '../helpers/demo-project'
 import { afterAll, beforeAll, describe, expect, it } from 'vitest'
-import { eq } from 'drizzle-orm'
 import type { Page } from 'playwright-core'
 import { startBrowserRig, type BrowserRig } from '../helpers/browser'
 import { demo } from '../helpers/app'
-import { projects, runs } from '../../server/db/schema'
-import { seedDemoProject } from '../../server/services/demo-project'
 
 let rig: BrowserRig
 let pid: number
 let rid: number
 beforeAll(async () => {
   rig = await startBrowserRig('e2e_data_layer')
-  await seedDemoProject(rig.context.db)
-  const [p] = await rig.context.db.select().from(projects).where(eq(projects.name, 'Buffer vessel B2 calibration (demo)'))
-  pid = p.id
-  const [r] = await rig.context.db.select().from(runs).where(eq(runs.projectId, p.id))
-  rid = r.id
+  const seeded = await seededDemoProject(rig.context.db)
+  pid = seeded.project.id
+  rid = seeded.run.id
 }, 180_000)
 afterAll(async () => { await rig?.close() })
 

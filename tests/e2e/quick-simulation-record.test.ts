@@ -7,21 +7,19 @@
  * RMSE fall, and maps an output to a column whose unit does not convert and reads why in words.
  * Screenshots at 1440 and 390 px. Needs dist/.
  */
+import { seededDemoProject } from '../helpers/demo-project'
 import { afterAll, beforeAll, describe, expect, it } from 'vitest'
 import { eq } from 'drizzle-orm'
 import { startBrowserRig, type BrowserRig } from '../helpers/browser'
 import { demo } from '../helpers/app'
-import { projects, runs, users } from '../../server/db/schema'
-import { seedDemoProject } from '../../server/services/demo-project'
+import { users } from '../../server/db/schema'
 import { saveParameterSet } from '../../server/services/runs'
 
 let rig: BrowserRig
 let modelId: number
 beforeAll(async () => {
   rig = await startBrowserRig('e2e_quick_record')
-  await seedDemoProject(rig.context.db)
-  const [p] = await rig.context.db.select().from(projects).where(eq(projects.name, 'Buffer vessel B2 calibration (demo)'))
-  const [r] = await rig.context.db.select().from(runs).where(eq(runs.projectId, p.id))
+  const { project: p, run: r } = await seededDemoProject(rig.context.db)
   const [u] = await rig.context.db.select().from(users).where(eq(users.email, demo.modeler))
   await saveParameterSet(rig.context.db, p.workspaceId, r.id, u.id, 'B2 calibrated (demo)')
   modelId = r.modelId
