@@ -21,7 +21,8 @@ export interface BrowserRig {
   context: AppContext
   newPage: () => Promise<Page>
   signIn: (page: Page, email: string, password?: string) => Promise<void>
-  screenshot: (page: Page, name: string) => Promise<string>
+  /** the whole page by default; `viewport` keeps the window as it is (a full-page shot resizes it, which closes open editor menus) */
+  screenshot: (page: Page, name: string, opts?: { viewport?: boolean }) => Promise<string>
   close: () => Promise<void>
 }
 
@@ -55,9 +56,9 @@ export async function startBrowserRig(tag: string): Promise<BrowserRig> {
       await page.getByLabel('Password').fill(password)
       await page.getByRole('button', { name: 'Sign in' }).click()
     },
-    screenshot: async (page, name) => {
+    screenshot: async (page, name, opts) => {
       const file = path.join(ARTIFACTS, `${name}.png`)
-      await page.screenshot({ path: file, fullPage: true })
+      await page.screenshot({ path: file, fullPage: !opts?.viewport })
       return file
     },
     close: async () => {
