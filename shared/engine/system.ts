@@ -93,29 +93,28 @@ export class ModelSystem implements OdeSystem {
     const spt = model.secondsPerTimeUnit
     const Fp = this.Fp
     const ns = this.ns
-    const end = (ns + 1) * nx
-    // s_j' = ∂f/∂θ_j + J s_j for all j at once: each Jacobian entry read once, zero ones skipped
+    const paramOf = this.paramOf
+    // s_j' = ∂f/∂θ_j + J s_j, block by block, each row's sum kept in a register
     for (let j = 0; j < ns; j++) {
       const off = (j + 1) * nx
-      const pj = this.paramOf[j]
-      for (let i = 0; i < nx; i++) dz[off + i] = pj >= 0 ? Fp[i * np + pj] : 0
-    }
-    for (let i = 0; i < nx; i++) {
-      const r = i * nx
-      for (let k = 0; k < nx; k++) {
-        const Jik = J[r + k]
-        if (Jik !== 0) for (let o = nx; o < end; o += nx) dz[o + i] += Jik * z[o + k]
+      const pj = paramOf[j]
+      for (let i = 0; i < nx; i++) {
+        const r = i * nx
+        let acc = pj >= 0 ? Fp[i * np + pj] : 0
+        for (let k = 0; k < nx; k++) acc += J[r + k] * z[off + k]
+        dz[off + i] = acc
       }
     }
+    // a delay parameter's ∂f/∂tau term (only sheets with delayed inputs have one)
+    if (!this.needFu) return
     for (let j = 0; j < ns; j++) {
+      if (this.delayed[j] !== 1) continue
       const off = (j + 1) * nx
-      if (this.delayed[j] === 1) {
-        const slots = this.sens[j].delaySlots
-        for (let i = 0; i < nx; i++) {
-          let acc = 0
-          for (let q = 0; q < slots.length; q++) acc += this.Fu[i * this.nuu + slots[q]] * this.du[slots[q]]
-          dz[off + i] -= acc / spt
-        }
+      const slots = this.sens[j].delaySlots
+      for (let i = 0; i < nx; i++) {
+        let acc = 0
+        for (let q = 0; q < slots.length; q++) acc += this.Fu[i * this.nuu + slots[q]] * this.du[slots[q]]
+        dz[off + i] -= acc / spt
       }
     }
   }
