@@ -230,8 +230,8 @@ export class Rosenbrock extends OneStepSolver {
           // one pass over the components: the stage argument z + Σ_j a_ij u_j into ytmp and
           // γ_i h f_t + Σ_j (c_ij/h) u_j into csum, the sums kept in registers (the earlier stages are
           // read once each; the unused ones are not read: after a failed attempt they may hold NaN)
-          const a = RODAS4.a[st]
-          const c = RODAS4.c[st]
+          const a: readonly number[] = RODAS4.a[st]
+          const c: readonly number[] = RODAS4.c[st]
           const a0 = a[0], c0 = c[0] / h, u0 = u[0]
           const a1 = st > 1 ? a[1] : 0, c1 = st > 1 ? c[1] / h : 0, u1 = u[1]
           const a2 = st > 2 ? a[2] : 0, c2 = st > 2 ? c[2] / h : 0, u2 = u[2]
