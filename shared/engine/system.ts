@@ -8,7 +8,7 @@
  *   ∂f/∂tau += ∂f/∂u_slot · (−u'(t − tau/s) / s),   s = secondsPerTimeUnit.
  * No allocation per call: all work arrays are owned here and reused.
  */
-import type { CompiledModel } from '../sheet/compiled'
+import type { CompiledModel, CouplingAllFn } from '../sheet/compiled'
 import type { InputSet } from './inputs'
 import type { OdeSystem } from './solvers/types'
 
@@ -47,6 +47,14 @@ export class ModelSystem implements OdeSystem {
   private readonly Xj: Float64Array[]
   private readonly Pj: Float64Array[]
   private readonly Uj: Float64Array[]
+  /**
+   * with the generated d2fs (all sensitivities in one call), its arguments instead: the augmented
+   * state at the point, P = [p, q_1, …], U = [u, ν, r_1, …]
+   */
+  private readonly d2fs: CouplingAllFn | null
+  private readonly zAt: Float64Array
+  private readonly Pall: Float64Array
+  private readonly Uall: Float64Array
   /** t and the input slopes at that point */
   private tAt = 0
   private readonly duAt: Float64Array
@@ -69,9 +77,15 @@ export class ModelSystem implements OdeSystem {
     this.needFu = sens.some((s) => s.delaySlots.length > 0)
     this.paramOf = Int32Array.from(sens, (s) => s.param)
     this.delayed = Uint8Array.from(sens, (s) => (s.delaySlots.length > 0 ? 1 : 0))
-    this.Xj = sens.map(() => new Float64Array(3 * model.nx + 1))
-    this.Pj = sens.map(() => new Float64Array(2 * model.np))
-    this.Uj = sens.map(() => new Float64Array(3 * this.nuu))
+    this.d2fs = model.d2fs ?? null
+    const perSens = this.d2fs === null ? sens : []
+    this.Xj = perSens.map(() => new Float64Array(3 * model.nx + 1))
+    this.Pj = perSens.map(() => new Float64Array(2 * model.np))
+    this.Uj = perSens.map(() => new Float64Array(3 * this.nuu))
+    const all = this.d2fs === null ? 0 : 1
+    this.zAt = new Float64Array(all * this.n)
+    this.Pall = new Float64Array(all * model.np * (1 + sens.length))
+    this.Uall = new Float64Array(all * this.nuu * (2 + sens.length))
     this.duAt = new Float64Array(Math.max(1, this.nuu))
     this.d2 = new Float64Array(model.nx)
   }
@@ -149,7 +163,22 @@ export class ModelSystem implements OdeSystem {
     this.tAt = t
     this.inputs.eval(t, this.u)
     if (nuu > 0) this.inputs.slope(duAt)
-    const spt = model.secondsPerTimeUnit
+    if (this.d2fs !== null) {
+      // plain loops: subarray views would allocate at every step
+      const zAt = this.zAt
+      for (let i = 0; i < this.n; i++) zAt[i] = z[i]
+      const P = this.Pall
+      for (let k = 0; k < np; k++) P[k] = this.p[k]
+      for (let k = np; k < P.length; k++) P[k] = 0
+      const U = this.Uall
+      for (let k = 0; k < nuu; k++) U[k] = this.u[k]
+      for (let k = nuu; k < U.length; k++) U[k] = 0
+      for (let j = 0; j < ns; j++) {
+        if (this.paramOf[j] >= 0) P[(j + 1) * np + this.paramOf[j]] = 1
+        this.delayDirection(j, U, (j + 2) * nuu)
+      }
+      return
+    }
     for (let j = 0; j < ns; j++) {
       const X = this.Xj[j]
       const P = this.Pj[j]
@@ -168,9 +197,15 @@ export class ModelSystem implements OdeSystem {
         U[k] = this.u[k]
         U[nuu + k] = 0
       }
-      const slots = this.sens[j].delaySlots
-      for (let q = 0; q < slots.length; q++) U[nuu + slots[q]] = -duAt[slots[q]] / spt
+      this.delayDirection(j, U, nuu)
     }
+  }
+
+  /** r_j = −u'/s on sensitivity j's delayed slots, into U from `at` */
+  private delayDirection(j: number, U: Float64Array, at: number): void {
+    const slots = this.sens[j].delaySlots
+    const spt = this.model.secondsPerTimeUnit
+    for (let q = 0; q < slots.length; q++) U[at + slots[q]] = -this.duAt[slots[q]] / spt
   }
 
   /**
@@ -184,6 +219,13 @@ export class ModelSystem implements OdeSystem {
     const { model, d2, nuu, duAt } = this
     const nx = this.nBlock
     const t = this.tAt
+    const all = this.d2fs
+    if (all !== null) {
+      const U = this.Uall
+      for (let k = 0; k < nuu; k++) U[nuu + k] = vt * duAt[k]
+      all(t, this.zAt, this.Pall, U, v, vt, ns, out)
+      return
+    }
     for (let j = 0; j < ns; j++) {
       const X = this.Xj[j]
       const U = this.Uj[j]

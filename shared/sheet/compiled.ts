@@ -77,6 +77,11 @@ export interface DelayInfo {
 }
 
 export type VecFn = (t: number, x: Float64Array, p: Float64Array, u: Float64Array, out: Float64Array) => void
+/**
+ * `d2fs(t, x, p, u, v, vt, ns, out)`: the coupling term of all ns sensitivities in one call, added
+ * into out at each sensitivity block; x = [x, s_1…], p = [p, q_1…], u = [u, ν, r_1…] (coupling-codegen.ts)
+ */
+export type CouplingAllFn = (t: number, x: Float64Array, p: Float64Array, u: Float64Array, v: Float64Array, vt: number, ns: number, out: Float64Array) => void
 
 /** A switch position the equations read (see shared/sheet/events.ts). */
 export interface ModeInfo {
@@ -156,6 +161,8 @@ export interface CompiledModel {
    * (coupling-codegen.ts).
    */
   d2f: VecFn
+  /** d2f for all sensitivities in one call; absent in hand-built models and when too large to generate */
+  d2fs?: CouplingAllFn
   /** switch positions (modes) and events; nm = modes.length, ne = events.length */
   modes: ModeInfo[]
   events: EventInfo[]
