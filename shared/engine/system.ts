@@ -8,7 +8,7 @@
  *   ∂f/∂tau += ∂f/∂u_slot · (−u'(t − tau/s) / s),   s = secondsPerTimeUnit.
  * No allocation per call: all work arrays are owned here and reused.
  */
-import type { CompiledModel, CouplingAllFn } from '../sheet/compiled'
+import type { CompiledModel, CouplingAllFn, SensitivityRhsFn } from '../sheet/compiled'
 import type { InputSet } from './inputs'
 import type { OdeSystem } from './solvers/types'
 
@@ -55,6 +55,9 @@ export class ModelSystem implements OdeSystem {
   private readonly zAt: Float64Array
   private readonly Pall: Float64Array
   private readonly Uall: Float64Array
+  /** with the generated dfs (the sensitivities' right-hand sides in one call), its inputs [u, –, r_1, …] */
+  private readonly dfs: SensitivityRhsFn | null
+  private readonly Uf: Float64Array
   /** t and the input slopes at that point */
   private tAt = 0
   private readonly duAt: Float64Array
@@ -78,14 +81,18 @@ export class ModelSystem implements OdeSystem {
     this.paramOf = Int32Array.from(sens, (s) => s.param)
     this.delayed = Uint8Array.from(sens, (s) => (s.delaySlots.length > 0 ? 1 : 0))
     this.d2fs = model.d2fs ?? null
+    this.dfs = model.dfs ?? null
     const perSens = this.d2fs === null ? sens : []
     this.Xj = perSens.map(() => new Float64Array(3 * model.nx + 1))
     this.Pj = perSens.map(() => new Float64Array(2 * model.np))
     this.Uj = perSens.map(() => new Float64Array(3 * this.nuu))
     const all = this.d2fs === null ? 0 : 1
     this.zAt = new Float64Array(all * this.n)
-    this.Pall = new Float64Array(all * model.np * (1 + sens.length))
     this.Uall = new Float64Array(all * this.nuu * (2 + sens.length))
+    this.Uf = new Float64Array(this.dfs === null ? 0 : this.nuu * (2 + sens.length))
+    // P = [p, q_1, …]: the unit directions q_j are fixed; p is copied in at each use
+    this.Pall = new Float64Array(this.d2fs !== null || this.dfs !== null ? model.np * (1 + sens.length) : 0)
+    sens.forEach((sp, j) => { if (this.Pall.length > 0 && sp.param >= 0) this.Pall[(j + 1) * model.np + sp.param] = 1 })
     this.duAt = new Float64Array(Math.max(1, this.nuu))
     this.d2 = new Float64Array(model.nx)
   }
@@ -95,6 +102,19 @@ export class ModelSystem implements OdeSystem {
     this.inputs.eval(t, u)
     model.rhs(t, z, p, u, dz)
     if (this.ns === 0) return
+    const dfs = this.dfs
+    if (dfs !== null) {
+      // the generated right-hand sides of all sensitivities (no ∂f/∂x, ∂f/∂p formed)
+      const { Pall, Uf, nuu } = this
+      for (let k = 0; k < model.np; k++) Pall[k] = p[k]
+      for (let k = 0; k < nuu; k++) Uf[k] = u[k]
+      if (this.needFu) {
+        this.inputs.slope(this.du)
+        for (let j = 0; j < this.ns; j++) this.delayDirection(j, Uf, (j + 2) * nuu, this.du)
+      }
+      dfs(t, z, Pall, Uf, this.ns, dz)
+      return
+    }
     const nx = this.nBlock
     const J = this.J
     model.dfdx(t, z, p, u, J)
@@ -169,14 +189,9 @@ export class ModelSystem implements OdeSystem {
       for (let i = 0; i < this.n; i++) zAt[i] = z[i]
       const P = this.Pall
       for (let k = 0; k < np; k++) P[k] = this.p[k]
-      for (let k = np; k < P.length; k++) P[k] = 0
       const U = this.Uall
       for (let k = 0; k < nuu; k++) U[k] = this.u[k]
-      for (let k = nuu; k < U.length; k++) U[k] = 0
-      for (let j = 0; j < ns; j++) {
-        if (this.paramOf[j] >= 0) P[(j + 1) * np + this.paramOf[j]] = 1
-        this.delayDirection(j, U, (j + 2) * nuu)
-      }
+      if (this.needFu) for (let j = 0; j < ns; j++) this.delayDirection(j, U, (j + 2) * nuu, duAt)
       return
     }
     for (let j = 0; j < ns; j++) {
@@ -197,15 +212,15 @@ export class ModelSystem implements OdeSystem {
         U[k] = this.u[k]
         U[nuu + k] = 0
       }
-      this.delayDirection(j, U, nuu)
+      this.delayDirection(j, U, nuu, duAt)
     }
   }
 
-  /** r_j = −u'/s on sensitivity j's delayed slots, into U from `at` */
-  private delayDirection(j: number, U: Float64Array, at: number): void {
+  /** r_j = −u'/s (slopes du) on sensitivity j's delayed slots, into U from `at` */
+  private delayDirection(j: number, U: Float64Array, at: number, du: Float64Array): void {
     const slots = this.sens[j].delaySlots
     const spt = this.model.secondsPerTimeUnit
-    for (let q = 0; q < slots.length; q++) U[at + slots[q]] = -this.duAt[slots[q]] / spt
+    for (let q = 0; q < slots.length; q++) U[at + slots[q]] = -du[slots[q]] / spt
   }
 
   /**

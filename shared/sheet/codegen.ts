@@ -5,9 +5,9 @@
  * each needed `let` once per call.
  */
 import { type Expr, fold, mul, num, sub, walk, isNum } from './ast'
-import type { CouplingAllFn, EventFunctions } from './compiled'
+import type { CouplingAllFn, EventFunctions, SensitivityRhsFn } from './compiled'
 import { diff, type PointVar } from './derivative'
-import { couplingAllFunction, couplingFunction } from './coupling-codegen'
+import { couplingAllFunction, couplingFunction, sensitivityRhsFunction } from './coupling-codegen'
 import type { ParsedModel } from './model'
 import { SheetError, type Span } from './diagnostics'
 import { type Dialect, Emitter, JS_DIALECT, lit, SizeBudget } from './emitter'
@@ -25,6 +25,8 @@ export interface GeneratedFunctions {
   d2f: Fn
   /** the coupling term of all sensitivities in one call (coupling-codegen.ts); absent when too large */
   d2fs?: CouplingAllFn
+  /** the sensitivities' right-hand sides, all in one call (coupling-codegen.ts); absent when too large */
+  dfs?: SensitivityRhsFn
   /** sheets with events only */
   events?: EventFunctions
 }
@@ -166,14 +168,15 @@ export class FunctionWriter {
    * sensitivities in one call (coupling-codegen.ts). d2fs is a faster form of d2f: it has a budget
    * of its own and is left out when it passes it, so it never stops a sheet from compiling.
    */
-  couplingFns(f: Expr[], fSpans: Span[]): { d2f: string; d2fs?: string } {
+  couplingFns(f: Expr[], fSpans: Span[]): { d2f: string; d2fs?: string; dfs?: string } {
     const { m, em, dialect, budget, letExpr } = this
     const order = this.neededLets(f.map((e) => this.info(e)))
     const lets = this.letLines(order)
     const src = { m, em, dialect, f, fSpans, letExpr, order, letLines: () => lets }
     const d2f = couplingFunction({ ...src, budget })
     try {
-      return { d2f, d2fs: couplingAllFunction({ ...src, budget: new SizeBudget() }) }
+      const own = new SizeBudget()
+      return { d2f, d2fs: couplingAllFunction({ ...src, budget: own }), dfs: sensitivityRhsFunction({ ...src, budget: own }) }
     } catch (e) {
       if (e instanceof SheetError) return { d2f }
       throw e
@@ -197,7 +200,7 @@ export class FunctionWriter {
  * The nine model functions as source text of the dialect; with `coupling` also `d2f`, the
  * sensitivities' coupling term (coupling-codegen.ts; the compiled model only, not the exports).
  */
-export function generateFunctions(m: ParsedModel, dialect: Dialect = JS_DIALECT, writer = new FunctionWriter(m, dialect), coupling = false): Record<GeneratedName, string> & { d2f?: string; d2fs?: string } {
+export function generateFunctions(m: ParsedModel, dialect: Dialect = JS_DIALECT, writer = new FunctionWriter(m, dialect), coupling = false): Record<GeneratedName, string> & { d2f?: string; d2fs?: string; dfs?: string } {
   const w = writer
   // right sides in the compiled units: d(x_SI)/d(t_sheet) for derivatives, x(k+1) for next-equations
   const f: Expr[] = m.equations.map((q) => w.fold(q.timeFactor !== 1 ? mul(num(q.timeFactor), q.expr) : q.expr))
@@ -250,8 +253,9 @@ export function generateSource(m: ParsedModel): string {
     ...GENERATED.map((n) => fns[n]),
     fns.d2f!,
     fns.d2fs ?? 'const d2fs=undefined;',
+    fns.dfs ?? 'const dfs=undefined;',
     ...ev.source,
-    `return {rhs,outputsFn:outputs,dfdx,dfdp,dfdu,dfdt,dgdx,dgdp,dgdu,d2f,d2fs${ev.names}};`,
+    `return {rhs,outputsFn:outputs,dfdx,dfdp,dfdu,dfdt,dgdx,dgdp,dgdu,d2f,d2fs,dfs${ev.names}};`,
   ]
   return parts.join('\n')
 }

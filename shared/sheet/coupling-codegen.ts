@@ -91,7 +91,7 @@ function hoistShared(roots: Expr[], firstTemp: number): { order: Expr[]; names: 
  * (the lets' D_w and D_v D_w, then the outputs, written `target(i) = …`). `seeds` gives the text of
  * direction leaves that are not plain x/p/u slots.
  */
-function couplingBody(c: CouplingSource, w: Direction, v: Direction, seeds: Map<Expr, string>, target: (i: number) => string): { outer: string[]; inner: string[] } {
+function couplingBody(c: CouplingSource, w: Direction, v: Direction | null, seeds: Map<Expr, string>, target: (i: number) => string): { outer: string[]; inner: string[] } {
   const { m, em, dialect, budget, f, fSpans, letExpr, order } = c
   const nl = m.lets.length
   // temporaries: D_w(let i) = tmp i, D_v(let i) = tmp nl + i, D_v D_w(let i) = tmp 2nl + i
@@ -101,7 +101,7 @@ function couplingBody(c: CouplingSource, w: Direction, v: Direction, seeds: Map<
   const tmp = (i: number): Expr => ({ k: 'tmp', i })
   const spt = m.secondsPerTimeUnit
   const ctxW: DiffContext = { secondsPerTimeUnit: spt, letDerivative: (i) => (hasW.has(i) ? tmp(i) : ZERO), memo: new Map() }
-  const ctxV: DiffContext = {
+  const ctxV: DiffContext | null = v === null ? null : {
     secondsPerTimeUnit: spt,
     letDerivative: (i) => (hasV.has(i) ? tmp(nl + i) : ZERO),
     tmpDerivative: (i) => (hasVW.has(i) ? tmp(2 * nl + i) : ZERO),
@@ -114,11 +114,12 @@ function couplingBody(c: CouplingSource, w: Direction, v: Direction, seeds: Map<
   for (const li of order) {
     const span = m.lets[li].span
     const dw = diff(letExpr[li], w, ctxW)
-    const dv = diff(letExpr[li], v, ctxV)
     if (!isNum(dw, 0)) {
       hasW.add(li)
       inner.push({ target: `D${li}`, e: dw, span, out: false })
     }
+    if (v === null || ctxV === null) continue
+    const dv = diff(letExpr[li], v, ctxV)
     if (!isNum(dv, 0)) {
       hasV.add(li)
       outer.push({ target: `D${nl + li}`, e: dv, span, out: false })
@@ -131,7 +132,10 @@ function couplingBody(c: CouplingSource, w: Direction, v: Direction, seeds: Map<
       }
     }
   }
-  f.forEach((fi, i) => inner.push({ target: target(i), e: diff(diff(fi, w, ctxW), v, ctxV), span: fSpans[i], out: true }))
+  f.forEach((fi, i) => {
+    const dw = diff(fi, w, ctxW)
+    inner.push({ target: target(i), e: v === null || ctxV === null ? dw : diff(dw, v, ctxV), span: fSpans[i], out: true })
+  })
 
   const { names } = hoistShared([...outer, ...inner].map((r) => r.e), 3 * nl)
   const emitted = new Set<Expr>()
@@ -187,6 +191,22 @@ export function couplingFunction(c: CouplingSource): string {
  * leaves are read at each j's offsets, so nothing is copied per sensitivity.
  */
 export function couplingAllFunction(c: CouplingSource): string {
+  return allSensitivities(c, true)
+}
+
+/**
+ * The source of `dfs` (JavaScript only): the sensitivities' right-hand sides D_w_j f = ∂f/∂x·s_j +
+ * ∂f/∂p·q_j + ∂f/∂u·r_j of all ns sensitivities in one call, one forward pass each (the first
+ * directional derivative of the same construction), without forming ∂f/∂x or ∂f/∂p:
+ *
+ *   dfs(t, x, p, u, ns, out):  x = [x, s_1, …, s_ns], p = [p, q_1, …], u = [u, ν (unused), r_1, …];
+ *     out[(j+1)nx + i] = (D_w_j f)_i.
+ */
+export function sensitivityRhsFunction(c: CouplingSource): string {
+  return allSensitivities(c, false)
+}
+
+function allSensitivities(c: CouplingSource, second: boolean): string {
   const { m, dialect } = c
   const nx = m.states.length
   const np = m.params.length
@@ -203,10 +223,10 @@ export function couplingAllFunction(c: CouplingSource): string {
   const vt = leaf('x', -1)
   seeds.set(vt, 'vt')
   const w: Direction = { k: 'dir', x: seeded(nx, 'x', (i) => `x[o+${i}]`), p: seeded(np, 'p', (i) => `p[po+${i}]`), u: seeded(nuu, 'u', (i) => `u[uo+${i}]`), t: ZERO }
-  const v: Direction = { k: 'dir', x: seeded(nx, 'x', (i) => `v[${i}]`), p: [], u: seeded(nuu, 'u', (i) => `u[${nuu + i}]`), t: vt }
-  const { outer, inner } = couplingBody(c, w, v, seeds, (i) => `out[o+${i}]+=`)
+  const v: Direction | null = second ? { k: 'dir', x: seeded(nx, 'x', (i) => `v[${i}]`), p: [], u: seeded(nuu, 'u', (i) => `u[${nuu + i}]`), t: vt } : null
+  const { outer, inner } = couplingBody(c, w, v, seeds, (i) => (second ? `out[o+${i}]+=` : `out[o+${i}]=`))
   return [
-    'function d2fs(t,x,p,u,v,vt,ns,out){',
+    second ? 'function d2fs(t,x,p,u,v,vt,ns,out){' : 'function dfs(t,x,p,u,ns,out){',
     dialect.decl('ts', `t*${dialect.spt}`),
     c.letLines(c.order),
     ...outer,

@@ -95,6 +95,47 @@ describe('the generated coupling term d2f', () => {
       }
     })
 
+    it(`${c.name}: dfs (the sensitivities' right-hand sides in one call) equals ∂f/∂x·s + ∂f/∂p·q + ∂f/∂u·r from the generated Jacobians`, () => {
+      const { m } = c
+      const { nx, np } = m
+      const nuu = m.nu + m.nd
+      const ns = 3
+      const rnd = lcg(4242)
+      expect(m.dfs, 'the compiler generates dfs').toBeTypeOf('function')
+      const J = new Float64Array(nx * nx)
+      const Fp = new Float64Array(Math.max(1, nx * np))
+      const Fu = new Float64Array(Math.max(1, nx * nuu))
+      for (let trial = 0; trial < 10; trial++) {
+        // seeded synthetic point and directions: z = [x, s_1, s_2, s_3], q_j, r_j
+        const z = new Float64Array(nx * (1 + ns))
+        c.x.forEach((v, i) => { z[i] = v; for (let j = 1; j <= ns; j++) z[j * nx + i] = rnd() * (Math.abs(v) + 1e-3) })
+        const Pall = new Float64Array(np * (1 + ns))
+        m.params.forEach((q, k) => { Pall[k] = q.value; for (let j = 1; j <= ns; j++) Pall[j * np + k] = rnd() * Math.abs(q.value) })
+        const Uall = new Float64Array(Math.max(1, nuu * (2 + ns)))
+        c.u.forEach((u, k) => { Uall[k] = u; for (let j = 0; j < ns; j++) Uall[(j + 2) * nuu + k] = rnd() * Math.abs(u) * 1e-2 })
+        const out = new Float64Array(nx * (1 + ns)).fill(7)
+        m.dfs!(c.t, z, Pall, Uall, ns, out)
+        for (let i = 0; i < nx; i++) expect(out[i], 'the state block is left alone').toBe(7)
+        const p = Pall.subarray(0, np)
+        const u = Uall.subarray(0, Math.max(1, nuu))
+        m.dfdx(c.t, z, p, u, J)
+        m.dfdp(c.t, z, p, u, Fp)
+        m.dfdu(c.t, z, p, u, Fu)
+        for (let j = 0; j < ns; j++) {
+          for (let i = 0; i < nx; i++) {
+            let ref = 0
+            let size = 0
+            const terms: number[] = []
+            for (let k = 0; k < nx; k++) terms.push(J[i * nx + k] * z[(j + 1) * nx + k])
+            for (let k = 0; k < np; k++) terms.push(Fp[i * np + k] * Pall[(j + 1) * np + k])
+            for (let k = 0; k < nuu; k++) terms.push(Fu[i * nuu + k] * Uall[(j + 2) * nuu + k])
+            for (const v of terms) { ref += v; size += Math.abs(v) }
+            expect(Math.abs(out[(j + 1) * nx + i] - ref), `trial ${trial}, sensitivity ${j}, component ${i}`).toBeLessThanOrEqual(1e-13 * size + 1e-300)
+          }
+        }
+      }
+    })
+
     it(`${c.name}: d2fs (all sensitivities in one call) adds what d2f gives for each, at 10 seeded points`, () => {
       const { m } = c
       const { nx, np } = m
