@@ -6,6 +6,8 @@
  * "forward sensitivity analysis", e.g. Hindmarsh & Serban, CVODES guide, Sec. 2.6).
  * A delay parameter tau also acts through its delayed input slots:
  *   ∂f/∂tau += ∂f/∂u_slot · (−u'(t − tau/s) / s),   s = secondsPerTimeUnit.
+ * The sensitivities' part of f is the sheet's generated dfs when it has one (all sensitivities in
+ * one call, no Jacobians formed), else ∂f/∂x, ∂f/∂p (and ∂f/∂u) and the products above.
  * No allocation per call: all work arrays are owned here and reused.
  */
 import type { CompiledModel, CouplingAllFn, SensitivityRhsFn } from '../sheet/compiled'
@@ -171,8 +173,9 @@ export class ModelSystem implements OdeSystem {
   }
 
   /**
-   * Packs d2f's arguments at (t, z) for every sensitivity j: w = (s_j, e_θj, r_j) with r_j = −u'/s
-   * on a delay parameter's slots (the ∂f/∂tau term of f above). Called once per step.
+   * Packs the arguments of d2fs (or of d2f per sensitivity j, for models without d2fs) at (t, z):
+   * w = (s_j, e_θj, r_j) with r_j = −u'/s on a delay parameter's slots (the ∂f/∂tau term of f
+   * above). Called once per step.
    */
   coupleAt(t: number, z: Float64Array): void {
     const ns = this.ns
@@ -225,8 +228,9 @@ export class ModelSystem implements OdeSystem {
 
   /**
    * M_j·v + (∂/∂t of block j)·vt for each sensitivity j at the point of `coupleAt`, exactly, from
-   * the sheet's generated second directional derivative d2f (coupling-codegen.ts): the second
-   * direction is (v, vt, vt·u') in (x, t, u): the inputs move with t at their interval's slope.
+   * the sheet's generated second directional derivative (d2fs in one call, else d2f per sensitivity;
+   * coupling-codegen.ts): the second direction is (v, vt, vt·u') in (x, t, u): the inputs move with
+   * t at their interval's slope.
    */
   couple(v: Float64Array, vt: number, out: Float64Array): void {
     const ns = this.ns

@@ -31,7 +31,7 @@
  * "Numerical methods and software for sensitivity analysis of differential-algebraic systems",
  * Appl. Numer. Math. 20 (1996) 57–79, their "simultaneous corrector"; cited from memory). M_j u_x
  * and the sensitivity blocks' ∂/∂t are exact: the sheet compiler's second directional derivative
- * d2f (sys.couple; shared/sheet/coupling-codegen.ts).
+ * d2f, generated also as d2fs for all sensitivities in one call (sys.couple; shared/sheet/coupling-codegen.ts).
  *
  * Error control of the sensitivities: with M_j exact, the sensitivity stages are the derivatives of
  * the state stages with respect to θ_j (differentiate (I/(hγ) − J(y)) u = r by θ: the extra term
