@@ -5,11 +5,11 @@
  * each needed `let` once per call.
  */
 import { type Expr, fold, mul, num, sub, walk, isNum } from './ast'
-import type { EventFunctions } from './compiled'
+import type { CouplingAllFn, EventFunctions, SensitivityRhsFn } from './compiled'
 import { diff, type PointVar } from './derivative'
-import { couplingFunction } from './coupling-codegen'
+import { couplingAllFunction, couplingFunction, sensitivityRhsFunction } from './coupling-codegen'
 import type { ParsedModel } from './model'
-import type { Span } from './diagnostics'
+import { SheetError, type Span } from './diagnostics'
 import { type Dialect, Emitter, JS_DIALECT, lit, SizeBudget } from './emitter'
 
 export interface GeneratedFunctions {
@@ -23,6 +23,10 @@ export interface GeneratedFunctions {
   dgdp: Fn
   dgdu: Fn
   d2f: Fn
+  /** the coupling term of all sensitivities in one call (coupling-codegen.ts); absent when too large */
+  d2fs?: CouplingAllFn
+  /** the sensitivities' right-hand sides, all in one call (coupling-codegen.ts); absent when too large */
+  dfs?: SensitivityRhsFn
   /** sheets with events only */
   events?: EventFunctions
 }
@@ -159,11 +163,24 @@ export class FunctionWriter {
     return [...head, ...lines, '}'].join('\n')
   }
 
-  /** `d2f`, the sensitivities' coupling term of the right-hand sides f (coupling-codegen.ts) */
-  couplingFn(f: Expr[], fSpans: Span[]): string {
+  /**
+   * `d2f`, the sensitivities' coupling term of the right-hand sides f, and `d2fs`, the same for all
+   * sensitivities in one call (coupling-codegen.ts). d2fs is a faster form of d2f: it has a budget
+   * of its own and is left out when it passes it, so it never stops a sheet from compiling.
+   */
+  couplingFns(f: Expr[], fSpans: Span[]): { d2f: string; d2fs?: string; dfs?: string } {
     const { m, em, dialect, budget, letExpr } = this
     const order = this.neededLets(f.map((e) => this.info(e)))
-    return couplingFunction({ m, em, dialect, budget, f, fSpans, letExpr, order, letLines: (o) => this.letLines(o) })
+    const lets = this.letLines(order)
+    const src = { m, em, dialect, f, fSpans, letExpr, order, letLines: () => lets }
+    const d2f = couplingFunction({ ...src, budget })
+    try {
+      const own = new SizeBudget()
+      return { d2f, d2fs: couplingAllFunction({ ...src, budget: own }), dfs: sensitivityRhsFunction({ ...src, budget: own }) }
+    } catch (e) {
+      if (e instanceof SheetError) return { d2f }
+      throw e
+    }
   }
 
   /** the function and its four Jacobians (x, p, u, t) under names base, base+'x', … */
@@ -183,7 +200,7 @@ export class FunctionWriter {
  * The nine model functions as source text of the dialect; with `coupling` also `d2f`, the
  * sensitivities' coupling term (coupling-codegen.ts; the compiled model only, not the exports).
  */
-export function generateFunctions(m: ParsedModel, dialect: Dialect = JS_DIALECT, writer = new FunctionWriter(m, dialect), coupling = false): Record<GeneratedName, string> & { d2f?: string } {
+export function generateFunctions(m: ParsedModel, dialect: Dialect = JS_DIALECT, writer = new FunctionWriter(m, dialect), coupling = false): Record<GeneratedName, string> & { d2f?: string; d2fs?: string; dfs?: string } {
   const w = writer
   // right sides in the compiled units: d(x_SI)/d(t_sheet) for derivatives, x(k+1) for next-equations
   const f: Expr[] = m.equations.map((q) => w.fold(q.timeFactor !== 1 ? mul(num(q.timeFactor), q.expr) : q.expr))
@@ -200,7 +217,7 @@ export function generateFunctions(m: ParsedModel, dialect: Dialect = JS_DIALECT,
     dgdx: w.jacFn('dgdx', g, w.xs, gSpans),
     dgdp: w.jacFn('dgdp', g, w.ps, gSpans),
     dgdu: w.jacFn('dgdu', g, w.us, gSpans),
-    ...(coupling ? { d2f: w.couplingFn(f, fSpans) } : {}),
+    ...(coupling ? w.couplingFns(f, fSpans) : {}),
   }
 }
 
@@ -235,8 +252,10 @@ export function generateSource(m: ParsedModel): string {
     ...m.lookups.map((_, i) => `const X${i}=TX[${i}],Y${i}=TY[${i}];`),
     ...GENERATED.map((n) => fns[n]),
     fns.d2f!,
+    fns.d2fs ?? 'const d2fs=undefined;',
+    fns.dfs ?? 'const dfs=undefined;',
     ...ev.source,
-    `return {rhs,outputsFn:outputs,dfdx,dfdp,dfdu,dfdt,dgdx,dgdp,dgdu,d2f${ev.names}};`,
+    `return {rhs,outputsFn:outputs,dfdx,dfdp,dfdu,dfdt,dgdx,dgdp,dgdu,d2f,d2fs,dfs${ev.names}};`,
   ]
   return parts.join('\n')
 }

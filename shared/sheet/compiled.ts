@@ -77,6 +77,16 @@ export interface DelayInfo {
 }
 
 export type VecFn = (t: number, x: Float64Array, p: Float64Array, u: Float64Array, out: Float64Array) => void
+/**
+ * `d2fs(t, x, p, u, v, vt, ns, out)`: the coupling term of all ns sensitivities in one call, added
+ * into out at each sensitivity block; x = [x, s_1…], p = [p, q_1…], u = [u, ν, r_1…] (coupling-codegen.ts)
+ */
+/**
+ * `dfs(t, x, p, u, ns, out)`: the sensitivities' right-hand sides ∂f/∂x·s_j + ∂f/∂p·q_j + ∂f/∂u·r_j
+ * of all ns sensitivities, into out at each sensitivity block; x, p, u as for d2fs (coupling-codegen.ts)
+ */
+export type SensitivityRhsFn = (t: number, x: Float64Array, p: Float64Array, u: Float64Array, ns: number, out: Float64Array) => void
+export type CouplingAllFn = (t: number, x: Float64Array, p: Float64Array, u: Float64Array, v: Float64Array, vt: number, ns: number, out: Float64Array) => void
 
 /** A switch position the equations read (see shared/sheet/events.ts). */
 export interface ModeInfo {
@@ -161,6 +171,10 @@ export interface CompiledModel extends SheetHeader {
    * (coupling-codegen.ts).
    */
   d2f: VecFn
+  /** d2f for all sensitivities in one call; absent in hand-built models and when too large to generate */
+  d2fs?: CouplingAllFn
+  /** the sensitivities' right-hand sides in one call; absent in hand-built models and when too large to generate */
+  dfs?: SensitivityRhsFn
   /** switch positions (modes) and events; nm = modes.length, ne = events.length */
   modes: ModeInfo[]
   events: EventInfo[]

@@ -21,8 +21,8 @@ const vessel = sheet('../../models/heated-buffer-vessel.sheet')
 // lets with pow(…, 1.5): the Arenstorf orbit (Hairer, Nørsett & Wanner I, Sec. II.0)
 const arenstorf = sheet('./fixtures/arenstorf.sheet')
 
-/** the same model with its coupling term left out */
-const uncoupled = (m: CompiledModel): CompiledModel => ({ ...m, d2f: (_t, _x, _p, _u, out) => { for (let i = 0; i < m.nx; i++) out[i] = 0 } })
+/** the same model with its coupling term left out (both forms: per sensitivity and all at once) */
+const uncoupled = (m: CompiledModel): CompiledModel => ({ ...m, d2f: (_t, _x, _p, _u, out) => { for (let i = 0; i < m.nx; i++) out[i] = 0 }, d2fs: undefined })
 
 /** seeded synthetic numbers in [−1, 1) (a linear congruential generator; Numerical Recipes, 3rd ed., Sec. 7.1) */
 function lcg(seed: number): () => number {
@@ -92,6 +92,86 @@ describe('the generated coupling term d2f', () => {
         const scale = Math.max(...ref.map(Math.abs))
         expect(scale, 'the check must see a non-zero coupling').toBeGreaterThan(0)
         for (let i = 0; i < nx; i++) expect(Math.abs(out[i] - ref[i]), `trial ${trial}, component ${i}`).toBeLessThan(1e-5 * scale)
+      }
+    })
+
+    it(`${c.name}: dfs (the sensitivities' right-hand sides in one call) equals ∂f/∂x·s + ∂f/∂p·q + ∂f/∂u·r from the generated Jacobians`, () => {
+      const { m } = c
+      const { nx, np } = m
+      const nuu = m.nu + m.nd
+      const ns = 3
+      const rnd = lcg(4242)
+      expect(m.dfs, 'the compiler generates dfs').toBeTypeOf('function')
+      const J = new Float64Array(nx * nx)
+      const Fp = new Float64Array(Math.max(1, nx * np))
+      const Fu = new Float64Array(Math.max(1, nx * nuu))
+      for (let trial = 0; trial < 10; trial++) {
+        // seeded synthetic point and directions: z = [x, s_1, s_2, s_3], q_j, r_j
+        const z = new Float64Array(nx * (1 + ns))
+        c.x.forEach((v, i) => { z[i] = v; for (let j = 1; j <= ns; j++) z[j * nx + i] = rnd() * (Math.abs(v) + 1e-3) })
+        const Pall = new Float64Array(np * (1 + ns))
+        m.params.forEach((q, k) => { Pall[k] = q.value; for (let j = 1; j <= ns; j++) Pall[j * np + k] = rnd() * Math.abs(q.value) })
+        const Uall = new Float64Array(Math.max(1, nuu * (2 + ns)))
+        c.u.forEach((u, k) => { Uall[k] = u; for (let j = 0; j < ns; j++) Uall[(j + 2) * nuu + k] = rnd() * Math.abs(u) * 1e-2 })
+        const out = new Float64Array(nx * (1 + ns)).fill(7)
+        m.dfs!(c.t, z, Pall, Uall, ns, out)
+        for (let i = 0; i < nx; i++) expect(out[i], 'the state block is left alone').toBe(7)
+        const p = Pall.subarray(0, np)
+        const u = Uall.subarray(0, Math.max(1, nuu))
+        m.dfdx(c.t, z, p, u, J)
+        m.dfdp(c.t, z, p, u, Fp)
+        m.dfdu(c.t, z, p, u, Fu)
+        for (let j = 0; j < ns; j++) {
+          for (let i = 0; i < nx; i++) {
+            let ref = 0
+            let size = 0
+            const terms: number[] = []
+            for (let k = 0; k < nx; k++) terms.push(J[i * nx + k] * z[(j + 1) * nx + k])
+            for (let k = 0; k < np; k++) terms.push(Fp[i * np + k] * Pall[(j + 1) * np + k])
+            for (let k = 0; k < nuu; k++) terms.push(Fu[i * nuu + k] * Uall[(j + 2) * nuu + k])
+            for (const v of terms) { ref += v; size += Math.abs(v) }
+            expect(Math.abs(out[(j + 1) * nx + i] - ref), `trial ${trial}, sensitivity ${j}, component ${i}`).toBeLessThanOrEqual(1e-13 * size + 1e-300)
+          }
+        }
+      }
+    })
+
+    it(`${c.name}: d2fs (all sensitivities in one call) adds what d2f gives for each, at 10 seeded points`, () => {
+      const { m } = c
+      const { nx, np } = m
+      const nuu = m.nu + m.nd
+      const ns = 3
+      const rnd = lcg(777)
+      expect(m.d2fs, 'the compiler generates d2fs').toBeTypeOf('function')
+      for (let trial = 0; trial < 10; trial++) {
+        // seeded synthetic point and directions: z = [x, s_1, s_2, s_3], q_j, r_j, v, τ, ν
+        const z = new Float64Array(nx * (1 + ns))
+        c.x.forEach((v, i) => { z[i] = v; for (let j = 1; j <= ns; j++) z[j * nx + i] = rnd() * (Math.abs(v) + 1e-3) })
+        const v = Float64Array.from(c.x, (x) => rnd() * 1e-2 * (Math.abs(x) + 1e-3))
+        const vt = trial % 2 === 0 ? rnd() : 0
+        const Pall = new Float64Array(np * (1 + ns))
+        m.params.forEach((q, k) => { Pall[k] = q.value; for (let j = 1; j <= ns; j++) Pall[j * np + k] = rnd() * Math.abs(q.value) })
+        const Uall = new Float64Array(Math.max(1, nuu * (2 + ns)))
+        c.u.forEach((u, k) => { Uall[k] = u; Uall[nuu + k] = rnd() * Math.abs(u) * 1e-3; for (let j = 0; j < ns; j++) Uall[(j + 2) * nuu + k] = rnd() * Math.abs(u) * 1e-2 })
+        const base = Float64Array.from({ length: nx * (1 + ns) }, () => rnd())
+        const out = Float64Array.from(base)
+        m.d2fs!(c.t, z, Pall, Uall, v, vt, ns, out)
+        for (let i = 0; i < nx; i++) expect(out[i], 'the state block is left alone').toBe(base[i])
+        for (let j = 0; j < ns; j++) {
+          const X = new Float64Array(3 * nx + 1)
+          for (let i = 0; i < nx; i++) { X[i] = z[i]; X[nx + i] = z[(j + 1) * nx + i]; X[2 * nx + i] = v[i] }
+          X[3 * nx] = vt
+          const P = new Float64Array(2 * np)
+          for (let k = 0; k < np; k++) { P[k] = Pall[k]; P[np + k] = Pall[(j + 1) * np + k] }
+          const U = new Float64Array(Math.max(1, 3 * nuu))
+          for (let k = 0; k < nuu; k++) { U[k] = Uall[k]; U[nuu + k] = Uall[(j + 2) * nuu + k]; U[2 * nuu + k] = Uall[nuu + k] }
+          const one = new Float64Array(nx)
+          m.d2f(c.t, X, P, U, one)
+          for (let i = 0; i < nx; i++) {
+            const got = out[(j + 1) * nx + i] - base[(j + 1) * nx + i]
+            expect(Math.abs(got - one[i]), `trial ${trial}, sensitivity ${j}, component ${i}`).toBeLessThanOrEqual(1e-12 * (Math.abs(one[i]) + Math.abs(base[(j + 1) * nx + i])) + 1e-300)
+          }
+        }
       }
     })
   }

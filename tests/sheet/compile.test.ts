@@ -113,6 +113,8 @@ output globalThis_level = fs_require [m]`)
     const allowed = new Set(['use', 'strict', 'const', 'let', 'function', 'return', 'if', 'else', 'while', 'for', 'Math', 'length',
       't', 'x', 'p', 'u', 'out', 'ts', 'SPT', 'TX', 'TY', 'X', 'Y', 'n', 'v', 'lo', 'hi', 'k', 'lkv', 'lkd',
       'rhs', 'outputs', 'outputsFn', 'dfdx', 'dfdp', 'dfdu', 'dfdt', 'dgdx', 'dgdp', 'dgdu', 'd2f',
+      // d2fs and dfs, the coupling term and the sensitivities' right-hand sides of all sensitivities in one call: their arguments and offsets
+      'd2fs', 'dfs', 'vt', 'ns', 'j', 'o', 'po', 'uo',
       // modes (M) and the event functions: conditions ev…, resets r<k>…
       'M', 'events', 'h', 'dhdx', 'dhdp', 'dhdu', 'dhdt', 'resets', 'dx', 'dp', 'du', 'dt', 'ev', 'evx', 'evp', 'evu', 'evt',
       'sin', 'cos', 'tan', 'asin', 'acos', 'atan', 'atan2', 'sinh', 'cosh', 'tanh', 'exp', 'log', 'log10', 'sqrt', 'abs', 'sign', 'min', 'max', 'floor', 'ceil', 'pow', 'hypot'])

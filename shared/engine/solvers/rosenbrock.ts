@@ -31,7 +31,7 @@
  * "Numerical methods and software for sensitivity analysis of differential-algebraic systems",
  * Appl. Numer. Math. 20 (1996) 57–79, their "simultaneous corrector"; cited from memory). M_j u_x
  * and the sensitivity blocks' ∂/∂t are exact: the sheet compiler's second directional derivative
- * d2f (sys.couple; shared/sheet/coupling-codegen.ts).
+ * d2f, generated also as d2fs for all sensitivities in one call (sys.couple; shared/sheet/coupling-codegen.ts).
  *
  * Error control of the sensitivities: with M_j exact, the sensitivity stages are the derivatives of
  * the state stages with respect to θ_j (differentiate (I/(hγ) − J(y)) u = r by θ: the extra term
@@ -227,23 +227,42 @@ export class Rosenbrock extends OneStepSolver {
           const f0 = this.f0
           for (let i = 0; i < n; i++) ui[i] = f0[i] + gh * ft[i]
         } else {
-          // one pass over the earlier stages: the stage argument z + Σ_j a_ij u_j into ytmp, and
-          // γ_i h f_t + Σ_j (c_ij/h) u_j into csum (contiguous loops, each u_j read once)
-          const a = RODAS4.a[st]
-          const c = RODAS4.c[st]
+          // one pass over the components: the stage argument z + Σ_j a_ij u_j into ytmp and
+          // γ_i h f_t + Σ_j (c_ij/h) u_j into csum, the sums kept in registers (the earlier stages are
+          // read once each; the unused ones are not read: after a failed attempt they may hold NaN)
+          const a: readonly number[] = RODAS4.a[st]
+          const c: readonly number[] = RODAS4.c[st]
+          const a0 = a[0], c0 = c[0] / h, u0 = u[0]
+          const a1 = st > 1 ? a[1] : 0, c1 = st > 1 ? c[1] / h : 0, u1 = u[1]
+          const a2 = st > 2 ? a[2] : 0, c2 = st > 2 ? c[2] / h : 0, u2 = u[2]
+          const a3 = st > 3 ? a[3] : 0, c3 = st > 3 ? c[3] / h : 0, u3 = u[3]
+          const a4 = st > 4 ? a[4] : 0, c4 = st > 4 ? c[4] / h : 0, u4 = u[4]
           for (let i = 0; i < n; i++) {
-            ytmp[i] = z[i]
-            csum[i] = gh * ft[i]
-          }
-          for (let j = 0; j < st; j++) {
-            const aj = a[j]
-            const cj = c[j] / h
-            const uj = u[j]
-            for (let i = 0; i < n; i++) {
-              const v = uj[i]
-              ytmp[i] += aj * v
-              csum[i] += cj * v
+            let v = u0[i]
+            let y = z[i] + a0 * v
+            let cs = gh * ft[i] + c0 * v
+            if (st > 1) {
+              v = u1[i]
+              y += a1 * v
+              cs += c1 * v
+              if (st > 2) {
+                v = u2[i]
+                y += a2 * v
+                cs += c2 * v
+                if (st > 3) {
+                  v = u3[i]
+                  y += a3 * v
+                  cs += c3 * v
+                  if (st > 4) {
+                    v = u4[i]
+                    y += a4 * v
+                    cs += c4 * v
+                  }
+                }
+              }
             }
+            ytmp[i] = y
+            csum[i] = cs
           }
           const ts = t + RODAS4.alpha[st] * h
           sys.f(ts, ytmp, ui)
