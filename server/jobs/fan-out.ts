@@ -38,6 +38,8 @@ export class FanOut {
   private held = new Map<MessagePort, StartPlan | null>()
   private outcomes: StartOutcome[] = []
   private done = false
+  /** outcomes that ended with an estimate */
+  private withEstimate = 0
   readonly threadIds = new Set<number>()
   helpers = 0
 
@@ -60,7 +62,8 @@ export class FanOut {
     this.held.set(port, null)
     this.threadIds.add(threadId)
     this.outcomes.push(o)
-    if (!this.done) this.runPort.postMessage({ type: 'finished', withEstimate: this.outcomes.filter(hasEstimate).length, planned: this.total })
+    if (hasEstimate(o)) this.withEstimate++
+    if (!this.done) this.runPort.postMessage({ type: 'finished', withEstimate: this.withEstimate, planned: this.total })
     const best = this.outcomes.reduce<number | null>((b, x) => (Number.isFinite(x.cost) && (b === null || x.cost < b) ? x.cost : b), null)
     if (this.outcomes.length < this.total) this.onOutcome(this.outcomes.length, this.total, best)
     this.maybeFinish()

@@ -342,13 +342,15 @@ export async function executeRun(db: Db, runId: number, opts: ExecuteOptions = {
     if (!cancelled) cancelled = await db.select({ c: runs.cancelRequested }).from(runs).where(eq(runs.id, runId)).then((r) => r[0]?.c === true, () => false)
     return cancelled
   }
-  const noResult = async () => `${(await byRequest()) ? 'Cancelled by request' : 'Stopped'} before any start had finished with an estimate: there is no result to keep.`
+  const why = async () => ((await byRequest()) ? 'Cancelled by request' : 'Stopped')
+  const noResult = async () => `${await why()} before any start had finished with an estimate: there is no result to keep.`
+  const evaluationStopped = async () => ((await byRequest()) ? 'Cancelled by request.' : 'Stopped: the evaluation was aborted.')
 
   try {
     if (settings.kind === 'evaluation') {
       writeProgress(progress(0, null, 0, 'simulating the records', 0.2))
       const result = await runEvaluation(db, row, controller.signal)
-      if (cancelled || controller.signal.aborted) return await finish('cancelled', { error: (await byRequest()) ? 'Cancelled by request.' : 'Stopped: the evaluation was aborted.' })
+      if (cancelled || controller.signal.aborted) return await finish('cancelled', { error: await evaluationStopped() })
       return await finish('succeeded', {
         result: result as unknown as Record<string, unknown>, error: null,
         progress: progress(0, null, 0, `finished: ${result.outputs.length} output${result.outputs.length === 1 ? '' : 's'} evaluated`, 1),
@@ -397,11 +399,10 @@ export async function executeRun(db: Db, runId: number, opts: ExecuteOptions = {
       // cancelled after some starts finished: their best is kept on the cancelled run, with its traces
       const { finishedStarts, plannedStarts } = result.stoppedEarly
       const traces = tracesOf(result)
-      const why = (await byRequest()) ? 'Cancelled by request' : 'Stopped'
       return await finish('cancelled', {
         outcome: result.status, convergedBy: result.convergedBy,
         result: { ...result, traces } as unknown as Record<string, unknown>,
-        error: `${why} after ${finishedStarts} of ${plannedStarts} starts: the result shown is the best of the finished starts.`,
+        error: `${await why()} after ${finishedStarts} of ${plannedStarts} starts: the result shown is the best of the finished starts.`,
         progress: progress(result.iterations, result.sse, finishedStarts, 'stopped, best finished start kept', 1),
       })
     }
@@ -426,10 +427,10 @@ export async function executeRun(db: Db, runId: number, opts: ExecuteOptions = {
     const msg = e instanceof Error ? e.message : String(e)
     if (cancelled || controller.signal.aborted) {
       // an abort before any start finished; anything else raised while stopping is named, not hidden
-      if (settings.kind === 'evaluation') return await finish('cancelled', { error: (await byRequest()) ? 'Cancelled by request.' : 'Stopped: the evaluation was aborted.' })
+      if (settings.kind === 'evaluation') return await finish('cancelled', { error: await evaluationStopped() })
       if (e instanceof FitAborted) return await finish('cancelled', { error: await noResult() })
       console.error(`[pewter] run ${runId}: error while stopping:`, e)
-      return await finish('cancelled', { error: `${(await byRequest()) ? 'Cancelled by request' : 'Stopped'}; while stopping, the fit raised an error: ${msg}` })
+      return await finish('cancelled', { error: `${await why()}; while stopping, the fit raised an error: ${msg}` })
     }
     const known = e instanceof Error && ['FitInputError', 'RunInputError', 'SheetError', 'SimulationError', 'InputTraceError'].includes(e.name)
     if (!known && process.env.NODE_ENV !== 'test') console.error(`[pewter] run ${runId} failed:`, e)
